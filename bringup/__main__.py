@@ -1,0 +1,5 @@
+import sys
+
+from bringup.cli import main
+
+sys.exit(main())

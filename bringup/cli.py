@@ -1,0 +1,70 @@
+"""Command-line entry point: parses, dispatches, prints. No domain logic here."""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from bringup import __version__
+from bringup.commands import COMMANDS
+from bringup.errors import BringupError
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports bad options in one line with exit status 2 (its default)."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        self.exit(2, f"{self.prog}: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="bringup",
+        description="Terminal lab notebook for gate-drive bring-up. "
+        "With no command, opens the notebook's start screen.",
+    )
+    parser.add_argument("--version", action="version", version=f"bringup {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name in COMMANDS:
+        try:
+            module = importlib.import_module(f"bringup.commands.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name != f"bringup.commands.{name}":
+                raise
+            continue  # command not built yet
+        module.add_parser(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        if "open" in sub_names(parser):
+            args = parser.parse_args(["open", *(argv or [])])
+        else:
+            parser.print_help()
+            return 0
+    try:
+        return int(args.func(args) or 0)
+    except BringupError as exc:
+        print(f"bringup: error: {exc}", file=sys.stderr)
+        return exc.exit_status
+    except KeyboardInterrupt:
+        print("bringup: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 1
+
+
+def sub_names(parser: argparse.ArgumentParser) -> set[str]:
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            return set(action.choices)
+    return set()
+
+
+if __name__ == "__main__":
+    sys.exit(main())

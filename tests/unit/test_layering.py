@@ -1,0 +1,69 @@
+"""The dependency rules of DEVELOPERS.md, checked on the source (one-way layers)."""
+
+import ast
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+
+# package -> top-level modules it must never import
+FORBIDDEN = {
+    "bringup/analysis": {
+        "textual",
+        "pyvisa",
+        "pyvisa_py",
+        "sqlite_utils",
+        "sqlite3",
+        "socket",
+        "bringup.instruments",
+        "bringup.store",
+        "bringup.runner",
+        "bringup.tui",
+        "bringup.record",
+        "bringup.checklist",
+        "sim_instruments",
+    },
+    "bringup/instruments": {
+        "textual",
+        "bringup.tui",
+        "bringup.runner",
+        "bringup.store",
+        "bringup.record",
+    },
+    "bringup/store": {"textual", "pyvisa", "bringup.tui", "bringup.runner", "bringup.instruments"},
+    "bringup/checklist": {"textual", "pyvisa", "bringup.tui", "bringup.runner"},
+    "bringup/runner": {"textual", "bringup.tui", "bringup.record"},
+    "bringup/record": {"textual", "pyvisa", "bringup.tui", "bringup.runner", "bringup.instruments"},
+    "sim_instruments": {
+        "textual",
+        "pyvisa",
+        "bringup.tui",
+        "bringup.runner",
+        "bringup.store",
+        "bringup.instruments",
+        "bringup.record",
+    },
+}
+
+
+def _imports(path: Path) -> set[str]:
+    tree = ast.parse(path.read_text(), filename=str(path))
+    names: set[str] = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Import):
+            names.update(alias.name for alias in node.names)
+        elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            names.add(node.module)
+    return names
+
+
+@pytest.mark.parametrize("package", sorted(FORBIDDEN))
+def test_package_respects_its_layer(package):
+    offenders = []
+    for path in sorted((ROOT / package).rglob("*.py")):
+        for name in _imports(path):
+            for bad in FORBIDDEN[package]:
+                if name == bad or name.startswith(bad + "."):
+                    offenders.append(f"{path.relative_to(ROOT)} imports {name}")
+    assert not offenders, "\n".join(offenders)
