@@ -1,0 +1,146 @@
+"""Board files: the shipped demo loads; every malformed case is one line naming file, key, line."""
+
+from __future__ import annotations
+
+import re
+
+import pytest
+
+from bringup.checklist.board import DESIGN_UNITS, demo_board_path, load_board
+from bringup.errors import ConfigError, InputError
+
+DEMO_TEXT = demo_board_path().read_text(encoding="utf-8")
+
+
+def _line_of(text: str, needle: str) -> int:
+    """1-based line of the first line of ``text`` that starts with ``needle`` (test helper)."""
+    for number, line in enumerate(text.splitlines(), start=1):
+        if line.startswith(needle):
+            return number
+    raise AssertionError(f"{needle!r} not in text")
+
+
+def _write(tmp_path, text: str):
+    path = tmp_path / "board.toml"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def test_demo_board_loads_with_si_values():
+    board = load_board("demo")
+    assert board.name.startswith("DHS-24")
+    assert set(board.design) == set(DESIGN_UNITS)
+    # "38 us" is 38e-6 s, "8 mohm" 8e-3 ohm, "25 kHz" 25e3 Hz: SI prefixes [read: SI brochure]
+    assert board.design["on_time_max"] == pytest.approx(38e-6)
+    assert board.design["mosfet_rds_on"] == pytest.approx(8e-3)
+    assert board.design["switching_frequency"] == pytest.approx(25e3)
+    # The longest on-time is max duty over the switching frequency [computed]: 0.95 / 25 kHz = 38 us
+    assert board.design["duty_max"] / board.design["switching_frequency"] == pytest.approx(
+        board.design["on_time_max"]
+    )
+    vgs = board.targets["vgs_on"]
+    assert (vgs.limit.min, vgs.limit.max, vgs.unit, vgs.rule) == (10.5, 18.0, "V", "guarded")
+    assert board.targets["switch_rise"].limit.max == pytest.approx(200e-9)
+    assert board.source["board"]["revision"] == board.revision
+
+
+def test_serial_pattern_is_checked():
+    board = load_board("demo")
+    board.check_serial("DHS24-0001")
+    with pytest.raises(InputError, match="does not match"):
+        board.check_serial("DHS24-01")
+
+
+def _expect(tmp_path, text: str, key: str, line_needle: str, problem: str):
+    path = _write(tmp_path, text)
+    with pytest.raises(ConfigError) as info:
+        load_board(path)
+    err = info.value
+    message = str(err)
+    assert "\n" not in message
+    assert err.key == key
+    assert err.line == _line_of(text, line_needle), message
+    assert message.startswith(f"{path}:{err.line}: {key}: ")
+    assert re.search(problem, message), message
+    return err
+
+
+def test_unknown_design_key(tmp_path):
+    text = DEMO_TEXT.replace(
+        'gate_resistor = "10 ohm"', 'gate_resistor = "10 ohm"\ngate_resistr = "9 ohm"'
+    )
+    _expect(tmp_path, text, "design.gate_resistr", "gate_resistr =", "unknown key")
+
+
+def test_missing_design_key(tmp_path):
+    text = DEMO_TEXT.replace('mosfet_qgd = "14 nC"\n', "")
+    _expect(tmp_path, text, "design", "[design]", "missing key 'mosfet_qgd'")
+
+
+def test_bad_unit_in_design(tmp_path):
+    text = DEMO_TEXT.replace('bootstrap_capacitance = "1 uF"', 'bootstrap_capacitance = "1 uH"')
+    _expect(tmp_path, text, "design.bootstrap_capacitance", "bootstrap_capacitance", "in F")
+
+
+def test_unknown_unit_in_target(tmp_path):
+    text = DEMO_TEXT.replace('unit = "W"', 'unit = "watts"')
+    err = _expect(tmp_path, text, "targets.switching_loss.unit", 'unit = "watts"', "unknown unit")
+    assert "watts" in str(err)
+
+
+def test_min_above_max(tmp_path):
+    text = DEMO_TEXT.replace('min = "10.5 V"\nmax = "18 V"', 'min = "19 V"\nmax = "18 V"')
+    _expect(tmp_path, text, "targets.vgs_on.min", 'min = "19 V"', "above max")
+
+
+def test_missing_target_key(tmp_path):
+    text = DEMO_TEXT.replace('uncertainty = "10 ns"\n', "", 1)
+    _expect(
+        tmp_path, text, "targets.switch_rise", "[targets.switch_rise]", "missing key 'uncertainty'"
+    )
+
+
+def test_unknown_rule(tmp_path):
+    text = DEMO_TEXT.replace('\nrule = "guarded"', '\nrule = "lenient"', 1)
+    _expect(tmp_path, text, "targets.ramp_current.rule", 'rule = "lenient"', "rule must be one of")
+
+
+def test_unknown_top_level_key(tmp_path):
+    text = DEMO_TEXT.replace("schema = 1\n", "schema = 1\nshema = 2\n")
+    _expect(tmp_path, text, "shema", "shema", "unknown key")
+
+
+def test_newer_schema(tmp_path):
+    text = DEMO_TEXT.replace("schema = 1\n", "schema = 7\n")
+    _expect(tmp_path, text, "schema", "schema = 7", "newer")
+
+
+def test_duty_out_of_range(tmp_path):
+    text = DEMO_TEXT.replace("duty_max = 0.95", "duty_max = 1.5")
+    _expect(tmp_path, text, "design.duty_max", "duty_max", "between 0 and 1")
+
+
+def test_duty_may_be_written_in_percent(tmp_path):
+    board = load_board(_write(tmp_path, DEMO_TEXT.replace("duty_max = 0.95", 'duty_max = "95 %"')))
+    assert board.design["duty_max"] == pytest.approx(0.95)
+
+
+def test_syntax_error_names_the_line(tmp_path):
+    text = DEMO_TEXT.replace('gate_resistor = "10 ohm"', 'gate_resistor = "10 ohm')
+    path = _write(tmp_path, text)
+    with pytest.raises(ConfigError) as info:
+        load_board(path)
+    assert info.value.line == _line_of(text, "gate_resistor")
+    assert "not valid TOML" in str(info.value)
+
+
+def test_missing_file(tmp_path):
+    with pytest.raises(ConfigError, match="file not found"):
+        load_board(tmp_path / "nope.toml")
+
+
+def test_bad_serial_pattern(tmp_path):
+    text = DEMO_TEXT.replace(
+        'serial_pattern = "^DHS24-[0-9]{4}$"', 'serial_pattern = "^DHS24-[0-9"'
+    )
+    _expect(tmp_path, text, "board.serial_pattern", "serial_pattern", "not a regular expression")
