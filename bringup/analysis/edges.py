@@ -1,0 +1,503 @@
+"""Transitions and pulses of a two-level waveform, by the methods of IEEE Std 181-2011.
+
+* State levels: histogram of the record (100 bins between min and max), split halfway between
+  the lowest and the highest occupied bins; each level is the mode of its half, refined to the
+  mean of the samples in the modal bin and its two neighbours (a bin centre alone is off by up to
+  half a bin: 0.5 % of the amplitude). Records too short or too sparse for a histogram (and
+  records whose histogram has no distinct peaks) fall back to min/max; ``level_method`` says
+  which was used. Overshoot is 0 by construction with min/max.
+* Reference levels: y_x = y_low + x/100 * (y_high - y_low), 10/50/90 % by default.
+* Transitions: a transition is a run from inside one state's band to inside the other's
+  (IEEE 181 state boundaries: level +/- 2 % of the amplitude, widened to 4 sigma of the noise on
+  that state when the record is noisy, never past the outer reference levels). Noise that leaves
+  a band and comes back without reaching the other band is not a transition: that is the
+  hysteresis. Found vectorised: only the few thousand band entries are looked at one by one.
+* Crossing instants: the last crossing of each reference level before the transition enters
+  the other band, by linear interpolation between the two samples that straddle the level:
+  t_x = t_i + dt (y_x - y_i)/(y_{i+1} - y_i).
+* Per edge: 10-90 duration (rise time t90 - t10, fall time t10 - t90), 50 % instant, and the
+  post-transition aberration over about three transition durations after the edge reaches its
+  state band: overshoot (rising edges, peak above the high level) and undershoot (falling edges,
+  dip below the low level, e.g. a switch node ringing below ground), in % of the amplitude.
+* Per record: median/min/max rise and fall time, median and worst overshoot/undershoot, pulse
+  width (50 % rising to the next 50 % falling), period (between successive 50 % instants of the
+  same direction), frequency, duty cycle, the mean of the record and over whole periods.
+
+Waveforms are uniformly sampled: ``y`` with sample interval ``dt`` (s) and first instant ``t0``.
+Memory: the record plus a few boolean masks (each 1/4 of a float32 record).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, fields
+
+import numpy as np
+
+from bringup.analysis.errors import AnalysisError
+
+__all__ = [
+    "EdgeMetrics",
+    "StateLevels",
+    "Transitions",
+    "find_transitions",
+    "measure_edges",
+    "negative_excursion",
+    "state_levels",
+]
+
+HISTOGRAM_BINS = 100
+_FINE = 32  # fine bins per histogram bin, for the refined levels (same cost as 100 bins)
+MIN_SAMPLES = 8  # below this nothing is measured
+_MIN_HISTOGRAM_SAMPLES = 2 * HISTOGRAM_BINS
+STATE_BAND_PCT = 2.0  # IEEE 181 default state boundaries: level +/- 2 % of amplitude
+ABERRATION_DURATIONS = 3.0  # post-transition aberration region, in transition durations
+_MIN_ABERRATION_SAMPLES = 4
+
+
+@dataclass(frozen=True)
+class StateLevels:
+    """Low and high state levels (V) and how they were found ("histogram" or "minmax").
+
+    ``low_noise_v``/``high_noise_v`` are the standard deviation of the samples near each level
+    (from the histogram; 0 with min/max).
+    """
+
+    low_v: float
+    high_v: float
+    method: str
+    low_noise_v: float = 0.0
+    high_noise_v: float = 0.0
+
+    @property
+    def amplitude_v(self) -> float:
+        return self.high_v - self.low_v
+
+    def reference(self, pct: float) -> float:
+        """The reference level at ``pct`` % of the amplitude (IEEE 181 §5.3.3)."""
+        return self.low_v + pct / 100.0 * (self.high_v - self.low_v)
+
+
+@dataclass(frozen=True)
+class Transitions:
+    """Every transition of a record, one entry per edge, in time order (numpy arrays).
+
+    ``direction`` is +1 rising, -1 falling. ``t_low_s``/``t_mid_s``/``t_high_s`` are the
+    crossing instants of the low/mid/high reference levels. ``duration_s`` is the
+    low-to-high reference duration (10-90 % by default). ``aberration_pct`` is the overshoot of
+    a rising edge or the undershoot of a falling one (% of amplitude, >= 0).
+    """
+
+    direction: np.ndarray
+    t_low_s: np.ndarray
+    t_mid_s: np.ndarray
+    t_high_s: np.ndarray
+    duration_s: np.ndarray
+    aberration_pct: np.ndarray
+
+    def __len__(self) -> int:
+        return int(self.direction.size)
+
+    def to_dict(self) -> dict:
+        return {f.name: getattr(self, f.name).tolist() for f in fields(self)}
+
+
+@dataclass(frozen=True)
+class EdgeMetrics:
+    """Per-record edge metrics. Times in s, levels in V, ratios as fractions, aberrations in %.
+
+    A value that cannot be computed (no falling edge, fewer than two edges of one direction)
+    is None, and ``reasons`` maps its name to why.
+    """
+
+    low_level_v: float
+    high_level_v: float
+    level_method: str
+    amplitude_v: float
+    reference_levels_pct: tuple[float, float, float]
+    reference_levels_v: tuple[float, float, float]
+    edges: int
+    rising_edges: int
+    falling_edges: int
+    rise_time_s: float | None
+    rise_time_min_s: float | None
+    rise_time_max_s: float | None
+    fall_time_s: float | None
+    fall_time_min_s: float | None
+    fall_time_max_s: float | None
+    overshoot_pct: float | None
+    overshoot_max_pct: float | None
+    undershoot_pct: float | None
+    undershoot_max_pct: float | None
+    slew_rate_rise_v_per_s: float | None
+    slew_rate_fall_v_per_s: float | None
+    pulse_width_s: float | None
+    negative_pulse_width_s: float | None
+    period_s: float | None
+    frequency_hz: float | None
+    duty_cycle: float | None
+    mean_v: float
+    cycle_mean_v: float | None
+    min_v: float
+    max_v: float
+    negative_excursion_v: float
+    samples: int
+    dt_s: float
+    record_length_s: float
+    reasons: dict[str, str] = field(default_factory=dict)
+    transitions: Transitions | None = field(default=None, repr=False, compare=False)
+
+    def to_dict(self, per_edge: bool = False) -> dict:
+        """Plain JSON-ready dict; ``per_edge=True`` adds the per-edge arrays as lists."""
+        out = {}
+        for f in fields(self):
+            if f.name == "transitions":
+                continue
+            value = getattr(self, f.name)
+            out[f.name] = list(value) if isinstance(value, tuple) else value
+        out["reasons"] = dict(self.reasons)
+        if per_edge and self.transitions is not None:
+            out["transitions"] = self.transitions.to_dict()
+        return out
+
+
+def _as_record(y: np.ndarray, dt: float) -> np.ndarray:
+    y = np.asarray(y)
+    if y.ndim != 1:
+        raise AnalysisError(f"expected a 1-D record, got shape {y.shape}")
+    if y.dtype.kind not in "fiu":
+        raise AnalysisError(f"expected numbers, got {y.dtype}")
+    if y.size < MIN_SAMPLES:
+        raise AnalysisError(f"too few samples ({y.size}; need at least {MIN_SAMPLES})")
+    if not (isinstance(dt, int | float | np.floating) and math.isfinite(dt) and dt > 0):
+        raise AnalysisError(f"sample interval must be a positive number of seconds, got {dt!r}")
+    return y
+
+
+def _min_max(y: np.ndarray) -> tuple[float, float]:
+    lo, hi = float(y.min()), float(y.max())  # NaN propagates through both
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        raise AnalysisError("the record contains NaN or infinite samples")
+    return lo, hi
+
+
+def state_levels(y: np.ndarray, method: str = "auto") -> StateLevels:
+    """Low and high state levels of ``y`` by the IEEE 181 histogram method (or min/max).
+
+    ``method``: "auto" (histogram, min/max when the record is too short or its histogram has
+    no clear peaks), "histogram" or "minmax". Raises ``AnalysisError`` for a flat record.
+    """
+    y = _as_record(y, 1.0)
+    return _state_levels(y, method, *_min_max(y))
+
+
+def _state_levels(y: np.ndarray, method: str, ymin: float, ymax: float) -> StateLevels:
+    if method not in ("auto", "histogram", "minmax"):
+        raise ValueError(f"unknown state-level method {method!r}")
+    if not ymax > ymin:
+        raise AnalysisError(f"one level only: every sample is {ymin:.6g}, so there is no edge")
+    if method == "minmax" or (method == "auto" and y.size < _MIN_HISTOGRAM_SAMPLES):
+        return StateLevels(ymin, ymax, "minmax")
+
+    nb = HISTOGRAM_BINS
+    fine, _ = np.histogram(y, bins=nb * _FINE, range=(ymin, ymax))
+    coarse = fine.reshape(nb, _FINE).sum(axis=1)
+    width_fine = (ymax - ymin) / (nb * _FINE)
+    centres = ymin + (np.arange(nb * _FINE) + 0.5) * width_fine
+    # Split halfway between the lowest and highest occupied bins (bins 0 and nb-1 always hold
+    # min and max).
+    half = nb // 2
+    modes = (int(np.argmax(coarse[:half])), half + int(np.argmax(coarse[half:])))
+    peaky = True
+    levels, noise = [], []
+    for mode, (first, last) in zip(modes, ((0, half), (half, nb)), strict=True):
+        # A state is a peak: its modal bin must stand well above the average bin of its half
+        # (a ramp or a triangle has a flat histogram and no state levels to find).
+        mean_count = coarse[first:last].sum() / (last - first)
+        if coarse[mode] < 3.0 * mean_count:
+            peaky = False
+        lo_bin, hi_bin = max(mode - 1, first), min(mode + 2, last)
+        counts = fine[lo_bin * _FINE : hi_bin * _FINE]
+        x = centres[lo_bin * _FINE : hi_bin * _FINE]
+        level = float(np.dot(counts, x) / counts.sum())
+        levels.append(level)
+        # Noise on the state: spread of the samples within +/- 3 bins of the mode.
+        lo_n, hi_n = max(mode - 3, first), min(mode + 4, last)
+        counts = fine[lo_n * _FINE : hi_n * _FINE]
+        x = centres[lo_n * _FINE : hi_n * _FINE]
+        mu = np.dot(counts, x) / counts.sum()
+        noise.append(float(math.sqrt(max(np.dot(counts, (x - mu) ** 2) / counts.sum(), 0.0))))
+    if not peaky and method == "auto":
+        return StateLevels(ymin, ymax, "minmax")
+    low, high = levels
+    if high - low < 8.0 * max(noise) or high <= low:
+        raise AnalysisError(
+            f"one level only: the record is {0.5 * (low + high):.6g} V with noise, "
+            "no two distinct states (no edge)"
+        )
+    return StateLevels(low, high, "histogram", noise[0], noise[1])
+
+
+def _crossings(y: np.ndarray, level: float) -> np.ndarray:
+    """Indices i where the record crosses ``level`` between samples i and i+1."""
+    above = y >= level
+    return np.flatnonzero(above[1:] != above[:-1])
+
+
+def _entries(inside: np.ndarray) -> np.ndarray:
+    """Indices of the first sample of each run of True in ``inside``."""
+    starts = np.flatnonzero(inside[1:] > inside[:-1]) + 1
+    if inside[0]:
+        starts = np.concatenate(([0], starts))
+    return starts
+
+
+def _interpolate(y: np.ndarray, idx: np.ndarray, level: float) -> np.ndarray:
+    """Fractional sample positions where y crosses ``level`` between idx and idx+1."""
+    y0 = y[idx].astype(np.float64)
+    y1 = y[idx + 1].astype(np.float64)
+    return idx + (level - y0) / (y1 - y0)
+
+
+def find_transitions(
+    y: np.ndarray,
+    dt: float,
+    t0: float = 0.0,
+    levels: tuple[float, float, float] = (10.0, 50.0, 90.0),
+    state: StateLevels | None = None,
+    band_pct: float = STATE_BAND_PCT,
+) -> tuple[Transitions, StateLevels]:
+    """Every complete transition of ``y`` (see module doc); returns them and the state levels."""
+    y = _as_record(y, dt)
+    pct = _check_levels(levels)
+    if state is None:
+        state = _state_levels(y, "auto", *_min_max(y))
+    return _find(y, float(dt), float(t0), pct, state, band_pct), state
+
+
+def _check_levels(levels) -> tuple[float, float, float]:
+    try:
+        lo, mid, hi = (float(v) for v in levels)
+    except (TypeError, ValueError):
+        raise AnalysisError(f"reference levels must be three percentages, got {levels!r}") from None
+    if not 0.0 < lo < mid < hi < 100.0:
+        raise AnalysisError(
+            f"reference levels must rise strictly between 0 and 100 %, got {lo:g},{mid:g},{hi:g}"
+        )
+    return lo, mid, hi
+
+
+def _find(y, dt, t0, pct, state: StateLevels, band_pct: float) -> Transitions:
+    amp = state.amplitude_v
+    ref = tuple(state.reference(p) for p in pct)
+    # State bands: IEEE 181 boundaries, widened for noise, kept inside the outer references.
+    cap_low = 0.8 * pct[0] / 100.0 * amp
+    cap_high = 0.8 * (100.0 - pct[2]) / 100.0 * amp
+    band_low = min(max(band_pct / 100.0 * amp, 4.0 * state.low_noise_v), cap_low)
+    band_high = min(max(band_pct / 100.0 * amp, 4.0 * state.high_noise_v), cap_high)
+    enter_low = _entries(y <= state.low_v + band_low)
+    enter_high = _entries(y >= state.high_v - band_high)
+
+    # Hysteresis on band entries only: a transition is where the band entered changes.
+    where = np.concatenate((enter_low, enter_high))
+    label = np.concatenate(
+        (np.full(enter_low.size, -1, np.int8), np.full(enter_high.size, 1, np.int8))
+    )
+    order = np.argsort(where, kind="stable")
+    where, label = where[order], label[order]
+    change = np.flatnonzero(label[1:] != label[:-1]) + 1
+    entry = where[change]  # first sample inside the new state's band
+    direction = label[change]
+    n_edges = entry.size
+    empty = np.empty(0)
+    if n_edges == 0:
+        return Transitions(np.empty(0, np.int8), empty, empty, empty, empty, empty)
+
+    # Last crossing of each reference level before the band entry (see module doc).
+    pos = []
+    for level in ref:
+        cross = _crossings(y, level)
+        k = np.searchsorted(cross, entry, side="left") - 1
+        pos.append(_interpolate(y, cross[k], level))
+    p_low, p_mid, p_high = pos
+    duration = np.abs(p_high - p_low) * dt
+
+    # Post-transition aberration region: from the band entry for ~3 durations, stopping
+    # before the next transition starts (its first reference crossing).
+    rising = direction > 0
+    start_next = np.where(rising, p_low, p_high)[1:]  # where the next edge starts
+    length = np.maximum(np.ceil(ABERRATION_DURATIONS * duration / dt), _MIN_ABERRATION_SAMPLES)
+    end = entry + length.astype(np.int64)
+    end[:-1] = np.minimum(end[:-1], np.floor(start_next).astype(np.int64) + 1)
+    end = np.clip(np.maximum(end, entry + 1), None, y.size)
+    bounds = np.empty(2 * n_edges, np.int64)
+    bounds[0::2], bounds[1::2] = entry, end
+    if bounds[-1] >= y.size:
+        bounds = bounds[:-1]
+    peak = np.maximum.reduceat(y, bounds)[0::2].astype(np.float64)
+    dip = np.minimum.reduceat(y, bounds)[0::2].astype(np.float64)
+    aberration = np.where(rising, peak - state.high_v, state.low_v - dip) / amp * 100.0
+    aberration = np.maximum(aberration, 0.0)
+
+    return Transitions(
+        direction.astype(np.int8),
+        t0 + p_low * dt,
+        t0 + p_mid * dt,
+        t0 + p_high * dt,
+        duration,
+        aberration,
+    )
+
+
+def negative_excursion(y: np.ndarray) -> float:
+    """The most negative value of the record in volts, or 0.0 if it never goes below 0 V.
+
+    For a switch node this is how far it rings below ground at turn-off (the body diode or
+    the low-side switch clamps it; the driver's VS pin has a negative rating to check).
+    """
+    y = np.asarray(y)
+    if y.size == 0:
+        raise AnalysisError("empty record")
+    low = float(y.min())
+    if math.isnan(low):
+        raise AnalysisError("the record contains NaN samples")
+    return min(low, 0.0)
+
+
+def _stats(values: np.ndarray) -> tuple[float | None, float | None, float | None]:
+    if values.size == 0:
+        return None, None, None
+    return float(np.median(values)), float(values.min()), float(values.max())
+
+
+def measure_edges(
+    y: np.ndarray,
+    dt: float,
+    t0: float = 0.0,
+    levels: tuple[float, float, float] = (10, 50, 90),
+    *,
+    level_method: str = "auto",
+    band_pct: float = STATE_BAND_PCT,
+) -> EdgeMetrics:
+    """Measure every transition of the uniformly sampled record ``y`` (V; ``dt`` s apart).
+
+    ``levels`` are the low/mid/high reference levels in % of amplitude (IEEE 181; 10/50/90 by
+    default, 20/80 for very fast edges). Raises ``AnalysisError`` when nothing can be measured:
+    too few samples, NaN, one level only, or no complete transition.
+    """
+    y = _as_record(y, dt)
+    pct = _check_levels(levels)
+    dt, t0 = float(dt), float(t0)
+    ymin, ymax = _min_max(y)
+    state = _state_levels(y, level_method, ymin, ymax)
+    tr = _find(y, dt, t0, pct, state, band_pct)
+    if len(tr) == 0:
+        raise AnalysisError(
+            "no complete transition between the low and high levels "
+            f"({state.low_v:.4g} V and {state.high_v:.4g} V)"
+        )
+    reasons: dict[str, str] = {}
+    rising = tr.direction > 0
+    falling = ~rising
+    span = pct[2] - pct[0]
+    amp = state.amplitude_v
+
+    rise = _stats(tr.duration_s[rising])
+    fall = _stats(tr.duration_s[falling])
+    if rise[0] is None:
+        for k in ("rise_time_s", "rise_time_min_s", "rise_time_max_s", "overshoot_pct"):
+            reasons[k] = "no rising edge in the record"
+        reasons["overshoot_max_pct"] = reasons["slew_rate_rise_v_per_s"] = reasons["rise_time_s"]
+    if fall[0] is None:
+        for k in ("fall_time_s", "fall_time_min_s", "fall_time_max_s", "undershoot_pct"):
+            reasons[k] = "no falling edge in the record"
+        reasons["undershoot_max_pct"] = reasons["slew_rate_fall_v_per_s"] = reasons["fall_time_s"]
+
+    def _median_max(values):
+        if values.size == 0:
+            return None, None
+        return float(np.median(values)), float(values.max())
+
+    overshoot = _median_max(tr.aberration_pct[rising])
+    undershoot = _median_max(tr.aberration_pct[falling])
+    slew_rise = None if rise[0] is None else span / 100.0 * amp / rise[0]
+    slew_fall = None if fall[0] is None else -span / 100.0 * amp / fall[0]
+
+    mids = tr.t_mid_s
+    gaps = np.diff(mids)
+    high_widths = gaps[rising[:-1]]
+    low_widths = gaps[falling[:-1]]
+    pulse_width = float(np.median(high_widths)) if high_widths.size else None
+    negative_width = float(np.median(low_widths)) if low_widths.size else None
+    if pulse_width is None:
+        reasons["pulse_width_s"] = "no rising edge followed by a falling edge"
+    if negative_width is None:
+        reasons["negative_pulse_width_s"] = "no falling edge followed by a rising edge"
+    periods = np.concatenate((np.diff(mids[rising]), np.diff(mids[falling])))
+    if periods.size:
+        period = float(np.median(periods))
+        frequency = 1.0 / period
+    else:
+        period = frequency = None
+        reasons["period_s"] = reasons["frequency_hz"] = (
+            "fewer than two edges of the same direction (no full period)"
+        )
+    if period is not None and pulse_width is not None:
+        duty = pulse_width / period
+    elif period is not None and negative_width is not None:
+        duty = 1.0 - negative_width / period
+    else:
+        duty = None
+        reasons["duty_cycle"] = reasons.get("period_s", "no complete pulse in the record")
+
+    mean_v = float(np.mean(y, dtype=np.float64))
+    cycle_mean = None
+    same = mids[rising] if rising.sum() >= 2 else mids[falling]
+    if same.size >= 2:
+        # Mean over whole periods only, so that a part-period at either end does not bias it.
+        i0 = int(round((same[0] - t0) / dt))
+        i1 = int(round((same[-1] - t0) / dt))
+        if i1 > i0:
+            cycle_mean = float(np.mean(y[i0:i1], dtype=np.float64))
+    if cycle_mean is None:
+        reasons["cycle_mean_v"] = "no full period in the record"
+
+    ref_v = tuple(float(state.reference(p)) for p in pct)
+    return EdgeMetrics(
+        low_level_v=float(state.low_v),
+        high_level_v=float(state.high_v),
+        level_method=state.method,
+        amplitude_v=float(amp),
+        reference_levels_pct=pct,
+        reference_levels_v=ref_v,  # type: ignore[arg-type]
+        edges=len(tr),
+        rising_edges=int(rising.sum()),
+        falling_edges=int(falling.sum()),
+        rise_time_s=rise[0],
+        rise_time_min_s=rise[1],
+        rise_time_max_s=rise[2],
+        fall_time_s=fall[0],
+        fall_time_min_s=fall[1],
+        fall_time_max_s=fall[2],
+        overshoot_pct=overshoot[0],
+        overshoot_max_pct=overshoot[1],
+        undershoot_pct=undershoot[0],
+        undershoot_max_pct=undershoot[1],
+        slew_rate_rise_v_per_s=slew_rise,
+        slew_rate_fall_v_per_s=slew_fall,
+        pulse_width_s=pulse_width,
+        negative_pulse_width_s=negative_width,
+        period_s=period,
+        frequency_hz=frequency,
+        duty_cycle=duty,
+        mean_v=mean_v,
+        cycle_mean_v=cycle_mean,
+        min_v=ymin,
+        max_v=ymax,
+        negative_excursion_v=min(ymin, 0.0),
+        samples=int(y.size),
+        dt_s=dt,
+        record_length_s=dt * y.size,
+        reasons=reasons,
+        transitions=tr,
+    )
