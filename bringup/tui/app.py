@@ -1,0 +1,77 @@
+"""The bench notebook application: start screen, session screen, summary.
+
+The app holds a ``launcher`` (lists and opens sessions, owns any simulated bench it started)
+and, once a session is open, its ``link`` (the one object that talks to the runner). On every
+way out (the quit key, Ctrl+C, a crash) ``shutdown`` puts the bench in its safe state: the
+supply output OFF.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from textual.app import App
+from textual.binding import Binding
+
+from bringup.tui.screens.session import SessionScreen
+from bringup.tui.screens.start import StartScreen
+
+__all__ = ["BringupApp"]
+
+
+class BringupApp(App[int]):
+    """``launcher``: see ``bringup.tui.launch.Launcher``. ``open_new``: the new-session form's
+    values to open at once (``bringup demo``); ``resume``: a session id to reopen at once."""
+
+    CSS_PATH = "bringup.tcss"
+    TITLE = "bringup"
+    ENABLE_COMMAND_PALETTE = False
+    BINDINGS = [
+        Binding("ctrl+c", "quit_safely", "quit", priority=True, show=False),
+        Binding("ctrl+q", "quit_safely", "quit", priority=True, show=False),
+    ]
+
+    def __init__(
+        self, launcher: Any, *, open_new: dict | None = None, resume: int | str | None = None
+    ) -> None:
+        super().__init__()
+        self.launcher = launcher
+        self.link: Any = None
+        self._open_new = open_new
+        self._resume = resume
+        self._shut = False
+
+    def on_mount(self) -> None:
+        start = StartScreen()
+        self.push_screen(start)
+        if self._open_new is not None:
+            start.say("Starting the session on the simulated bench…")
+            start._open(("new", self._open_new))
+        elif self._resume is not None:
+            start._open(("resume", self._resume))
+
+    def show_session(self, link: Any) -> None:
+        """Show ``link``'s session (called on the UI thread once it is open)."""
+        if self.link is not None and self.link is not link:
+            self.link.close()
+        self.link = link
+        self.push_screen(SessionScreen())
+
+    def shutdown(self) -> None:
+        """Safe state then close: supply OFF, instruments released. Safe to call twice."""
+        if self._shut:
+            return
+        self._shut = True
+        link, self.link = self.link, None
+        if link is not None:
+            link.close()
+
+    def action_quit_safely(self) -> None:
+        """Stop whatever runs, switch the supply off, then leave."""
+        screen = self.screen
+        if isinstance(screen, SessionScreen) and screen.running is not None:
+            screen._cancel.set()
+        self.exit(0)
+
+    def on_unmount(self) -> None:
+        self.shutdown()

@@ -1,0 +1,64 @@
+"""Messages a step's worker thread posts back to the interface (thread-safe ``post_message``)."""
+
+from __future__ import annotations
+
+from textual.message import Message
+
+from bringup.tui.views import AttemptView, Progress
+
+__all__ = ["StepProgressed", "StepFinished", "StepFaulted", "StepStopped", "AnswerNeeded"]
+
+
+class StepProgressed(Message):
+    """A live reading or a soak sample arrived."""
+
+    def __init__(self, step_id: str, progress: Progress) -> None:
+        super().__init__()
+        self.step_id = step_id
+        self.progress = progress
+
+
+class StepFinished(Message):
+    """The step's attempt was judged and logged."""
+
+    def __init__(self, step_id: str, attempt: AttemptView) -> None:
+        super().__init__()
+        self.step_id = step_id
+        self.attempt = attempt
+
+
+class StepFaulted(Message):
+    """The step could not run: an instrument fault or bad input (one line)."""
+
+    def __init__(self, step_id: str, message: str) -> None:
+        super().__init__()
+        self.step_id = step_id
+        self.message = message
+
+
+class StepStopped(Message):
+    """The operator cancelled the step; the bench was put in its safe state."""
+
+    def __init__(self, step_id: str, message: str = "") -> None:
+        super().__init__()
+        self.step_id = step_id
+        self.message = message
+
+
+class AnswerNeeded(Message):
+    """The runner asks the operator something mid-step (a typed reading, a confirmation).
+
+    The worker waits on ``done``; the handler fills ``answer`` (None = refused) and sets it.
+    """
+
+    def __init__(self, step_id: str, kind: str, prompt: str, unit: str = "", payload=None) -> None:
+        super().__init__()
+        import threading
+
+        self.step_id = step_id
+        self.kind = kind
+        self.prompt = prompt
+        self.unit = unit
+        self.payload = payload
+        self.answer: object = None
+        self.done = threading.Event()

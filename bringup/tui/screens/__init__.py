@@ -1,0 +1,1 @@
+"""Screens of the bench notebook: start, session, summary, and the modal prompts."""

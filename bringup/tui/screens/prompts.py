@@ -1,0 +1,130 @@
+"""Modal prompts: the energising confirmation, a reason (skip, waive), a typed reading."""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Button, Input, Label, Static
+
+from bringup.analysis.quantities import format_quantity
+from bringup.tui.views import Energise
+
+__all__ = ["EnergisePrompt", "ReasonPrompt"]
+
+HAZARD_NOTICE = (
+    "HAZARD: above 60 V DC. Touching the bus or the switch node can injure or kill. "
+    "Work to your local electrical codes and your lab's licensed practice; keep one hand "
+    "away, use insulated probes, and discharge the bus capacitors after switching off."
+)
+
+
+class EnergisePrompt(ModalScreen[bool]):
+    """Ask before the supply output is switched on; names the voltage and current limit."""
+
+    BINDINGS = [
+        Binding("y", "answer(True)", "yes, energise"),
+        Binding("n,escape", "answer(False)", "no, keep it off"),
+    ]
+
+    def __init__(self, step_title: str, energise: Energise) -> None:
+        super().__init__()
+        self.step_title = step_title
+        self.energise = energise
+
+    def compose(self) -> ComposeResult:
+        volts = format_quantity(self.energise.voltage_v, "V")
+        amps = format_quantity(self.energise.current_limit_a, "A")
+        with Vertical(id="energise-box", classes="prompt-box"):
+            yield Label("⚡ ENERGISE THE BOARD?", classes="prompt-title")
+            yield Static(
+                f"Step: {self.step_title}\n\n"
+                f"The supply output will be switched ON at {volts} "
+                f"with the current limit at {amps}.\n"
+                "Check the probes and the load are in place and hands are clear.",
+                id="energise-text",
+            )
+            if self.energise.hazardous:
+                yield Static(HAZARD_NOTICE, id="hazard-notice", classes="hazard")
+            with Horizontal(classes="prompt-buttons"):
+                yield Button(f"Y  switch on at {volts}", id="yes", variant="warning")
+                yield Button("N  keep it off", id="no", variant="primary")
+
+    def on_mount(self) -> None:
+        self.query_one("#no", Button).focus()
+
+    def on_button_pressed(self, event: Button.Pressed) -> None:
+        event.stop()
+        self.dismiss(event.button.id == "yes")
+
+    def action_answer(self, yes: bool) -> None:
+        self.dismiss(yes)
+
+
+class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
+    """Ask for a reason (and, when ``ask_name``, who takes responsibility)."""
+
+    BINDINGS = [Binding("escape", "cancel", "cancel")]
+
+    def __init__(
+        self,
+        title: str,
+        explain: str,
+        *,
+        ask_name: bool = False,
+        name_default: str = "",
+        placeholder: str = "reason",
+    ) -> None:
+        super().__init__()
+        self.title_text = title
+        self.explain = explain
+        self.ask_name = ask_name
+        self.name_default = name_default
+        self.placeholder = placeholder
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="prompt-box"):
+            yield Label(self.title_text, classes="prompt-title")
+            yield Static(self.explain)
+            yield Input(placeholder=self.placeholder, id="reason")
+            if self.ask_name:
+                yield Input(value=self.name_default, placeholder="your name", id="who")
+            yield Static("", id="prompt-problem", classes="problem")
+            with Horizontal(classes="prompt-buttons"):
+                yield Button("Enter  record it", id="ok", variant="primary")
+                yield Button("Esc  cancel", id="cancel")
+
+    def on_mount(self) -> None:
+        self.query_one("#reason", Input).focus()
+
+    def _submit(self) -> None:
+        reason = self.query_one("#reason", Input).value.strip()
+        who = self.query_one("#who", Input).value.strip() if self.ask_name else ""
+        problem = self.query_one("#prompt-problem", Static)
+        if not reason:
+            problem.update("A reason is needed: type one, or Esc to cancel.")
+            self.query_one("#reason", Input).focus()
+            return
+        if self.ask_name and not who:
+            problem.update("A name is needed for a waiver.")
+            self.query_one("#who", Input).focus()
+            return
+        self.dismiss((reason, who))
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        if self.ask_name and event.input.id == "reason":
+            self.query_one("#who", Input).focus()
+            return
+        self._submit()
+
+    def on_button_pressed(self, event: Button.Pressed) -> None:
+        event.stop()
+        if event.button.id == "ok":
+            self._submit()
+        else:
+            self.dismiss(None)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)

@@ -1,0 +1,497 @@
+"""The session screen: the checklist, the step at hand, its result, trace, attempts and notes.
+
+Instrument I/O runs in one thread worker per step (group "bench"); the worker only calls the
+session link and posts messages; every widget is touched here, on the UI thread.
+"""
+
+from __future__ import annotations
+
+import threading
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.screen import Screen
+from textual.widgets import (
+    DataTable,
+    Footer,
+    Input,
+    ProgressBar,
+    Static,
+    TabbedContent,
+    TabPane,
+    Tree,
+)
+from textual.worker import Worker, WorkerState
+
+from bringup.errors import BringupError
+from bringup.tui.messages import (
+    AnswerNeeded,
+    StepFaulted,
+    StepFinished,
+    StepProgressed,
+    StepStopped,
+)
+from bringup.tui.screens.prompts import EnergisePrompt, ReasonPrompt
+from bringup.tui.states import look_of
+from bringup.tui.views import AttemptView, Progress, StepDetail
+from bringup.tui.widgets.checklist_tree import ChecklistTree
+from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
+
+__all__ = ["SessionScreen"]
+
+
+def _verdict_text(verdict: str) -> Text:
+    return look_of(verdict).text()
+
+
+class SessionScreen(Screen[None]):
+    """One board going through its checklist."""
+
+    BINDINGS = [
+        Binding("r", "take", "run / retake step"),
+        Binding("x", "cancel", "stop acquiring"),
+        Binding("t", "stop_soak", "soak settled: stop", show=False),
+        Binding("s", "skip", "skip…"),
+        Binding("w", "waive", "waive…"),
+        Binding("n", "note", "note"),
+        Binding("b", "back", "back a stage"),
+        Binding("j", "next_step", "next step", show=False),
+        Binding("k", "previous_step", "previous step", show=False),
+        Binding("p", "next_trace", "next trace", show=False),
+        Binding("1", "tab('tab-result')", "result", show=False),
+        Binding("2", "tab('tab-trace')", "trace", show=False),
+        Binding("3", "tab('tab-attempts')", "attempts", show=False),
+        Binding("4", "tab('tab-notes')", "notes", show=False),
+        Binding("m", "summary", "summary"),
+        Binding("q", "app.quit_safely", "quit (supply off)"),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.viewed: str | None = None  # the step shown on the right
+        self.running: str | None = None  # the step whose worker is running
+        self._cancel = threading.Event()
+        self._stop_soak = threading.Event()
+        self._trace_index = 0
+        self._attempt: AttemptView | None = None
+        self._soak_t: list[float] = []
+        self._soak_temp: list[float] = []
+
+    @property
+    def link(self):  # the app's SessionLink
+        return self.app.link  # type: ignore[attr-defined]
+
+    # -- layout ---------------------------------------------------------------------------
+    def compose(self) -> ComposeResult:
+        yield Static("", id="titlebar")
+        with Horizontal(id="session-body"):
+            with Vertical(id="checklist-pane"):
+                yield Static("CHECKLIST", classes="pane-title")
+                yield ChecklistTree(id="checklist")
+            with Vertical(id="step-pane"):
+                yield Static("", id="step-title")
+                with VerticalScroll(id="step-brief"):
+                    yield Static("", id="step-instructions")
+                    yield Static("", id="step-cautions", classes="caution")
+                    yield Static("", id="step-settings")
+                with Vertical(id="live"):
+                    yield ProgressBar(total=1.0, show_eta=False, id="live-bar")
+                    yield Static("", id="live-text")
+                with TabbedContent(initial="tab-result", id="tabs"):
+                    with TabPane("1 result", id="tab-result"):
+                        yield DataTable(id="results", cursor_type="row", zebra_stripes=True)
+                    with TabPane("2 trace", id="tab-trace"):
+                        yield WaveformPlot(id="plot")
+                    with TabPane("3 attempts", id="tab-attempts"):
+                        yield DataTable(id="attempts", cursor_type="row")
+                    with TabPane("4 notes", id="tab-notes"):
+                        yield Static("", id="notes-list")
+                        yield Input(placeholder="type a note, Enter to keep it", id="note-input")
+        yield Static("", id="status")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        results = self.query_one("#results", DataTable)
+        results.add_columns("metric", "measured", "predicted", "limits", "margin", "verdict")
+        attempts = self.query_one("#attempts", DataTable)
+        attempts.add_columns("#", "verdict", "when", "by", "summary")
+        self.query_one("#live").display = False
+        self.refresh_all(select=self.link.current_step_id())
+        self.query_one("#checklist", ChecklistTree).focus()
+
+    # -- showing ---------------------------------------------------------------------------
+    def say(self, message: str, kind: str = "info") -> None:
+        """Put a one-line message in the status line (faults in their own style)."""
+        status = self.query_one("#status", Static)
+        status.set_classes(f"status-{kind}")
+        status.update(message)
+
+    def refresh_all(self, select: str | None = None) -> None:
+        """Redraw the title, the checklist and the viewed step from the link."""
+        self.query_one("#titlebar", Static).update(self.link.header())
+        tree = self.query_one("#checklist", ChecklistTree)
+        current = self.link.current_step_id()
+        tree.show_stages(self.link.stages(), self.running or current)
+        target = select or self.viewed or current
+        if target is not None:
+            if select is not None:
+                tree.select_step(select)
+            self.show_step(target)
+        elif current is None and self.viewed is None:
+            self.say("Every step has a verdict. Press m for the summary.", "good")
+
+    def show_step(self, step_id: str) -> None:
+        """Show ``step_id``'s brief, its latest attempt, history and notes."""
+        self.viewed = step_id
+        try:
+            detail: StepDetail = self.link.detail(step_id)
+        except BringupError as exc:
+            self.say(str(exc), "fault")
+            return
+        number = self.query_one("#checklist", ChecklistTree).number_of(step_id)
+        look = look_of(detail.state)
+        title = Text()
+        title.append(f"{number}  {detail.title}", style="bold")
+        title.append(f"    {look.label()}", style=look.style)
+        self.query_one("#step-title", Static).update(title)
+        self.query_one("#step-instructions", Static).update(detail.instructions or "")
+        cautions = self.query_one("#step-cautions", Static)
+        cautions.update("\n".join(f"⚠ {c}" for c in detail.cautions))
+        cautions.display = bool(detail.cautions)
+        settings = self.query_one("#step-settings", Static)
+        lines = [f"  {inst:<12} {name:<28} {value}" for inst, name, value in detail.settings]
+        if detail.energise is not None:
+            from bringup.analysis.quantities import format_quantity
+
+            lines.append(
+                f"  {'supply':<12} {'output ON at':<28} "
+                f"{format_quantity(detail.energise.voltage_v, 'V')}, limit "
+                f"{format_quantity(detail.energise.current_limit_a, 'A')}"
+            )
+        settings.update("Will be sent:\n" + "\n".join(lines) if lines else "")
+        settings.display = bool(lines)
+        attempts = self.link.attempts(step_id)
+        self._show_attempts(attempts)
+        self._show_attempt(attempts[-1] if attempts else None)
+        self._show_notes(step_id, attempts)
+
+    def _show_attempts(self, attempts: tuple[AttemptView, ...]) -> None:
+        table = self.query_one("#attempts", DataTable)
+        table.clear()
+        for a in reversed(attempts):
+            summary = a.message or ", ".join(f"{m.label} {m.measured}" for m in a.metrics[:2])
+            table.add_row(str(a.number), _verdict_text(a.verdict), a.when, a.operator, summary)
+
+    def _show_attempt(self, attempt: AttemptView | None) -> None:
+        self._attempt = attempt
+        self._trace_index = 0
+        table = self.query_one("#results", DataTable)
+        table.clear()
+        if attempt is None:
+            self.query_one("#plot", WaveformPlot).clear("no attempt yet: press r to run the step")
+            return
+        for m in attempt.metrics:
+            table.add_row(
+                m.label, m.measured, m.predicted, m.limits, m.margin, _verdict_text(m.verdict)
+            )
+        self._show_trace()
+
+    def _show_trace(self) -> None:
+        plot = self.query_one("#plot", WaveformPlot)
+        attempt = self._attempt
+        if attempt is None or not attempt.traces:
+            plot.clear("this attempt has no waveform")
+            return
+        trace = attempt.traces[self._trace_index % len(attempt.traces)]
+        more = f"   (p: next of {len(attempt.traces)})" if len(attempt.traces) > 1 else ""
+        plot.show(
+            trace.t,
+            trace.v,
+            PlotMarks(levels=trace.levels, crossings=trace.crossings, window=trace.window),
+            title=f"{trace.title}  · attempt {attempt.number}{more}",
+            unit=trace.unit,
+        )
+
+    def _show_notes(self, step_id: str, attempts: tuple[AttemptView, ...]) -> None:
+        notes = [f"#{a.number}: {n}" for a in attempts for n in a.notes]
+        notes += [f"step: {n}" for n in self.link.step_notes(step_id)]
+        self.query_one("#notes-list", Static).update(
+            "\n".join(notes) if notes else "No notes on this step yet."
+        )
+
+    # -- navigation ------------------------------------------------------------------------
+    @on(Tree.NodeHighlighted, "#checklist")
+    def _highlighted(self, event: Tree.NodeHighlighted) -> None:
+        if event.node.data is not None and event.node.data != self.viewed:
+            self.show_step(event.node.data)
+
+    @on(Tree.NodeSelected, "#checklist")
+    def _selected(self, event: Tree.NodeSelected) -> None:
+        if event.node.data is not None:
+            self.show_step(event.node.data)
+
+    def action_next_step(self) -> None:
+        self.query_one("#checklist", ChecklistTree).action_cursor_down()
+
+    def action_previous_step(self) -> None:
+        self.query_one("#checklist", ChecklistTree).action_cursor_up()
+
+    def action_tab(self, tab: str) -> None:
+        self.query_one("#tabs", TabbedContent).active = tab
+
+    def action_next_trace(self) -> None:
+        self._trace_index += 1
+        self._show_trace()
+        self.action_tab("tab-trace")
+
+    def action_summary(self) -> None:
+        from bringup.tui.screens.summary import SummaryScreen
+
+        self.app.push_screen(SummaryScreen())
+
+    def action_back(self) -> None:
+        """Go back to the first step of the stage before the viewed one."""
+        if self._busy():
+            return
+        try:
+            step_id = self.link.go_back(self.viewed)
+        except BringupError as exc:
+            self.say(str(exc), "fault")
+            return
+        self.refresh_all(select=step_id)
+        self.say("Back one stage: press r to take the step again.")
+
+    # -- taking a step ---------------------------------------------------------------------
+    def _busy(self) -> bool:
+        if self.running is not None:
+            self.say("A step is running: x stops it first.", "warn")
+            return True
+        return False
+
+    def action_take(self) -> None:
+        """Run (or retake) the viewed step, asking before energising."""
+        if self._busy() or self.viewed is None:
+            return
+        try:
+            detail = self.link.detail(self.viewed)
+        except BringupError as exc:
+            self.say(str(exc), "fault")
+            return
+        if detail.energise is not None:
+
+            def answered(yes: bool | None) -> None:
+                if yes:
+                    self._start(detail)
+                else:
+                    self.say("Not energised: the step did not run.", "warn")
+
+            self.app.push_screen(EnergisePrompt(detail.title, detail.energise), answered)
+        else:
+            self._start(detail)
+
+    def _start(self, detail: StepDetail) -> None:
+        self.running = detail.id
+        self._cancel = threading.Event()
+        self._stop_soak = threading.Event()
+        self._soak_t, self._soak_temp = [], []
+        live = self.query_one("#live")
+        live.display = True
+        bar = self.query_one("#live-bar", ProgressBar)
+        bar.update(total=1.0, progress=0.0)
+        self.query_one("#live-text", Static).update("starting: sending the settings…")
+        if detail.kind == "soak":
+            self.action_tab("tab-trace")
+            self.say("Soaking: t stops once the prediction has settled; x abandons the soak.")
+        else:
+            self.say("Acquiring: x stops and puts the bench in its safe state.")
+        self.query_one("#checklist", ChecklistTree).show_stages(self.link.stages(), detail.id)
+        self._run_worker(detail.id, self._cancel, self._stop_soak)
+
+    @work(thread=True, exclusive=True, exit_on_error=False, group="bench")
+    def _run_worker(
+        self, step_id: str, cancel: threading.Event, stop_soak: threading.Event
+    ) -> None:
+        """Blocking instrument I/O; talks back only through ``post_message``."""
+
+        def progress(p: Progress) -> None:
+            self.post_message(StepProgressed(step_id, p))
+
+        def ask(kind: str, prompt: str, unit: str = "", payload=None) -> object:
+            question = AnswerNeeded(step_id, kind, prompt, unit, payload)
+            self.post_message(question)
+            while not question.done.wait(0.1):
+                if cancel.is_set():
+                    return None
+            return question.answer
+
+        try:
+            attempt = self.link.run(step_id, cancel, stop_soak, progress, ask)
+        except BringupError as exc:
+            self.link.safe_state()
+            if cancel.is_set():
+                self.post_message(StepStopped(step_id, str(exc)))
+            else:
+                self.post_message(StepFaulted(step_id, str(exc)))
+            return
+        except Exception as exc:  # never a traceback: the bench goes safe, the UI says why
+            self.link.safe_state()
+            self.post_message(
+                StepFaulted(step_id, f"unexpected fault: {type(exc).__name__}: {exc}")
+            )
+            return
+        if attempt is None:
+            self.post_message(StepStopped(step_id))
+        else:
+            self.post_message(StepFinished(step_id, attempt))
+
+    def on_step_progressed(self, message: StepProgressed) -> None:
+        p = message.progress
+        bar = self.query_one("#live-bar", ProgressBar)
+        if p.fraction is None:
+            bar.update(total=None)
+        else:
+            bar.update(total=1.0, progress=max(0.0, min(1.0, p.fraction)))
+        readings = "   ".join(f"{name}: {value}" for name, value in p.readings)
+        text = p.text + (f"\n{readings}" if readings else "")
+        if p.predicted_final:
+            settled = "settled: t to stop now" if p.settled else "still converging"
+            text += f"\npredicted final {p.predicted_final}  ({settled})"
+        self.query_one("#live-text", Static).update(text)
+        if p.soak_t:
+            plot = self.query_one("#plot", WaveformPlot)
+            import numpy as np
+
+            plot.show(
+                np.asarray(p.soak_t),
+                np.asarray(p.soak_temp),
+                PlotMarks(),
+                title="temperature log (°C against time)",
+                unit="°C",
+            )
+
+    def _finish(self, select_next: bool) -> None:
+        self.running = None
+        self.query_one("#live").display = False
+        self.refresh_all(select=self.link.current_step_id() if select_next else self.viewed)
+
+    def on_step_finished(self, message: StepFinished) -> None:
+        step = message.step_id
+        self._finish(select_next=False)
+        look = look_of(message.attempt.verdict)
+        kind = "good" if look.key in ("pass", "cond") else "fault"
+        nxt = " r retakes; j goes to the next step." if kind == "good" else " r retakes it."
+        self.say(f"Attempt {message.attempt.number}: {look.label()}.{nxt}", kind)
+        self.show_step(step)
+
+    def on_step_faulted(self, message: StepFaulted) -> None:
+        self._finish(select_next=False)
+        self.say(f"Fault, bench made safe: {message.message}", "fault")
+
+    def on_step_stopped(self, message: StepStopped) -> None:
+        self._finish(select_next=False)
+        extra = f" ({message.message})" if message.message else ""
+        self.say(f"Stopped: the supply is off and nothing was judged{extra}.", "warn")
+
+    def on_answer_needed(self, message: AnswerNeeded) -> None:
+        def answered(result: tuple[str, str] | None) -> None:
+            message.answer = result[0] if result else None
+            message.done.set()
+
+        self.app.push_screen(
+            ReasonPrompt(
+                "A reading is needed", message.prompt, placeholder=message.unit or "value"
+            ),
+            answered,
+        )
+
+    def action_cancel(self) -> None:
+        if self.running is None:
+            self.say("Nothing is running.")
+            return
+        self._cancel.set()
+        self.link.request_safe_state()
+        self.say("Stopping: putting the bench in its safe state…", "warn")
+
+    def action_stop_soak(self) -> None:
+        if self.running is None:
+            self.say("No soak is running.")
+            return
+        self._stop_soak.set()
+        self.say("Stopping the soak: judging the prediction from the samples so far…")
+
+    def on_worker_state_changed(self, event: Worker.StateChanged) -> None:
+        if event.worker.group == "bench" and event.state == WorkerState.ERROR and self.running:
+            self._finish(select_next=False)
+            self.say(f"Fault, bench made safe: {event.worker.error}", "fault")
+
+    # -- skip, waive, note -----------------------------------------------------------------
+    def action_skip(self) -> None:
+        if self._busy() or self.viewed is None:
+            return
+        step = self.viewed
+
+        def answered(result: tuple[str, str] | None) -> None:
+            if result is None:
+                return
+            try:
+                self.link.skip(step, result[0])
+            except BringupError as exc:
+                self.say(str(exc), "fault")
+                return
+            self.refresh_all(select=self.link.current_step_id() or step)
+            self.say(f"Skipped, reason kept: {result[0]}")
+
+        self.app.push_screen(
+            ReasonPrompt(
+                "Skip this step?", "A skipped step needs a reason; it goes in the record."
+            ),
+            answered,
+        )
+
+    def action_waive(self) -> None:
+        if self._busy() or self.viewed is None:
+            return
+        step = self.viewed
+
+        def answered(result: tuple[str, str] | None) -> None:
+            if result is None:
+                return
+            try:
+                self.link.waive(step, result[0], result[1])
+            except BringupError as exc:
+                self.say(str(exc), "fault")
+                return
+            self.refresh_all(select=self.link.current_step_id() or step)
+            self.say(f"Waived by {result[1]}: {result[0]}")
+
+        self.app.push_screen(
+            ReasonPrompt(
+                "Waive this failed step?",
+                "A waiver accepts a failed result: it needs a reason and the name of who accepts it.",
+                ask_name=True,
+                name_default=self.link.operator,
+            ),
+            answered,
+        )
+
+    def action_note(self) -> None:
+        self.action_tab("tab-notes")
+        self.query_one("#note-input", Input).focus()
+
+    @on(Input.Submitted, "#note-input")
+    def _note_submitted(self, event: Input.Submitted) -> None:
+        text = event.value.strip()
+        if not text or self.viewed is None:
+            return
+        try:
+            self.link.add_note(self.viewed, text)
+        except BringupError as exc:
+            self.say(str(exc), "fault")
+            return
+        event.input.value = ""
+        self.show_step(self.viewed)
+        self.say("Note kept.")
+        self.query_one("#checklist", ChecklistTree).focus()

@@ -1,0 +1,70 @@
+"""The checklist column: stages and their steps, each with a state symbol and word."""
+
+from __future__ import annotations
+
+from rich.text import Text
+from textual.widgets import Tree
+
+from bringup.tui.states import look_of
+from bringup.tui.views import StageRow
+
+__all__ = ["ChecklistTree"]
+
+
+def _label(number: str, title: str, state: str, attempts: int = 0, current: bool = False) -> Text:
+    look = look_of(state)
+    text = Text()
+    text.append("➤ " if current else "  ", style="bold")
+    text.append(f"{look.symbol} ", style=f"bold {look.style}")
+    text.append(f"{number} {title}")
+    word = look.word + (f" ×{attempts}" if attempts > 1 else "")
+    text.append(f"  {word}", style=look.style)
+    return text
+
+
+class ChecklistTree(Tree[str]):
+    """Stages as branches, steps as leaves; a leaf's data is the step id."""
+
+    def __init__(self, *, id: str | None = None) -> None:
+        super().__init__("checklist", id=id)
+        self.show_root = False
+        self.guide_depth = 2
+        self._shown: tuple[StageRow, ...] = ()
+        self._current: str | None = None
+
+    def show_stages(self, stages: tuple[StageRow, ...], current: str | None) -> None:
+        """Rebuild the labels (and the nodes when the checklist changed)."""
+        same_shape = [(s.id, [p.id for p in s.steps]) for s in stages] == [
+            (s.id, [p.id for p in s.steps]) for s in self._shown
+        ]
+        if not same_shape:
+            self.clear()
+            for i, stage in enumerate(stages, 1):
+                branch = self.root.add(_label(str(i), stage.title, stage.state), expand=True)
+                for j, step in enumerate(stage.steps, 1):
+                    branch.add_leaf(_label(f"{i}.{j}", step.title, step.state), data=step.id)
+        branches = list(self.root.children)
+        for i, (stage, branch) in enumerate(zip(stages, branches, strict=False), 1):
+            branch.set_label(_label(str(i), stage.title, stage.state))
+            for j, (step, leaf) in enumerate(zip(stage.steps, branch.children, strict=False), 1):
+                leaf.set_label(
+                    _label(f"{i}.{j}", step.title, step.state, step.attempts, step.id == current)
+                )
+        self._shown = stages
+        self._current = current
+
+    def select_step(self, step_id: str | None) -> None:
+        """Move the cursor to ``step_id``'s leaf."""
+        for branch in self.root.children:
+            for leaf in branch.children:
+                if leaf.data == step_id:
+                    self.move_cursor(leaf)
+                    return
+
+    def number_of(self, step_id: str) -> str:
+        """'2.3' for the third step of the second stage ('' when unknown)."""
+        for i, stage in enumerate(self._shown, 1):
+            for j, step in enumerate(stage.steps, 1):
+                if step.id == step_id:
+                    return f"{i}.{j}"
+        return ""
