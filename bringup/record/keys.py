@@ -1,0 +1,165 @@
+"""Ed25519 key pairs for signing a record: make, write, read, fingerprint.
+
+A key pair belongs to one person. The private key file is PKCS#8 PEM (RFC 8410 for Ed25519)
+with a short explanatory header naming its owner (RFC 7468 allows text before the PEM block);
+it is written with mode 0600. The public key file ``PATH.pub`` holds the same name, the
+fingerprint and the SubjectPublicKeyInfo PEM. The fingerprint is the SHA-256 of the 32 raw
+public key bytes (RFC 8032 encoding), written ``SHA256:<64 hex digits>``.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+from cryptography.exceptions import UnsupportedAlgorithm
+from cryptography.hazmat.primitives import serialization
+from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey, Ed25519PublicKey
+
+from bringup.errors import InputError
+
+__all__ = [
+    "KeyPair",
+    "PublicKey",
+    "fingerprint",
+    "generate_key_pair",
+    "load_private_key",
+    "load_public_key",
+    "public_key_from_raw",
+    "raw_public_bytes",
+]
+
+_NAME_RE = re.compile(r"^name: (.+)$", re.MULTILINE)
+
+
+@dataclass(frozen=True)
+class PublicKey:
+    """A person's public key with the name written beside it."""
+
+    name: str
+    key: Ed25519PublicKey
+
+    @property
+    def raw(self) -> bytes:
+        return raw_public_bytes(self.key)
+
+    @property
+    def fingerprint(self) -> str:
+        return fingerprint(self.key)
+
+
+@dataclass(frozen=True)
+class KeyPair:
+    """A private key, its public half and the owner's name."""
+
+    name: str
+    private: Ed25519PrivateKey
+
+    @property
+    def public(self) -> PublicKey:
+        return PublicKey(self.name, self.private.public_key())
+
+
+def raw_public_bytes(key: Ed25519PublicKey) -> bytes:
+    """The 32-byte public key (RFC 8032 §5.1.5 encoding)."""
+    return key.public_bytes(serialization.Encoding.Raw, serialization.PublicFormat.Raw)
+
+
+def public_key_from_raw(raw: bytes) -> Ed25519PublicKey:
+    """Rebuild a public key from its 32 raw bytes; ValueError when they are not a key."""
+    return Ed25519PublicKey.from_public_bytes(raw)
+
+
+def fingerprint(key: Ed25519PublicKey) -> str:
+    """``SHA256:<hex>`` of the raw public key bytes."""
+    return "SHA256:" + hashlib.sha256(raw_public_bytes(key)).hexdigest()
+
+
+def _check_name(name: str) -> str:
+    clean = name.strip()
+    if not clean or "\n" in clean or "\r" in clean:
+        raise InputError(f"--name: a key needs a one-line, non-empty name, got {name!r}")
+    return clean
+
+
+def generate_key_pair(name: str, path: Path) -> KeyPair:
+    """Make a key pair for ``name``: private key at ``path`` (mode 0600), public at ``path.pub``.
+
+    Refuses to overwrite either file.
+    """
+    name = _check_name(name)
+    path = Path(path)
+    pub_path = path.with_name(path.name + ".pub")
+    for target in (path, pub_path):
+        if target.exists():
+            raise InputError(f"{target}: already exists; a key is never overwritten")
+    if not path.parent.is_dir():
+        raise InputError(f"{path.parent}: no such directory for the key")
+    private = Ed25519PrivateKey.generate()
+    pair = KeyPair(name, private)
+    pem = private.private_bytes(
+        serialization.Encoding.PEM, serialization.PrivateFormat.PKCS8, serialization.NoEncryption()
+    )
+    header = f"bringup signing key (keep private)\nname: {name}\n".encode()
+    # O_EXCL: refuse a file that appeared since the check; 0600 from the start, not chmod after.
+    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+    with os.fdopen(fd, "wb") as fh:
+        fh.write(header + pem)
+    pub_pem = private.public_key().public_bytes(
+        serialization.Encoding.PEM, serialization.PublicFormat.SubjectPublicKeyInfo
+    )
+    pub_header = (
+        f"bringup public key\nname: {name}\nfingerprint: {pair.public.fingerprint}\n".encode()
+    )
+    fd = os.open(pub_path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o644)
+    with os.fdopen(fd, "wb") as fh:
+        fh.write(pub_header + pub_pem)
+    return pair
+
+
+def _read(path: Path, what: str) -> bytes:
+    try:
+        return Path(path).read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such {what} file") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read the {what} file ({exc.strerror})") from None
+
+
+def _name_in(data: bytes, path: Path) -> str:
+    head = data.split(b"-----BEGIN", 1)[0].decode("utf-8", errors="replace")
+    match = _NAME_RE.search(head)
+    if not match:
+        raise InputError(f"{path}: no 'name:' line before the key")
+    return match.group(1).strip()
+
+
+def load_private_key(path: Path) -> KeyPair:
+    """Read a private key file written by ``generate_key_pair``."""
+    path = Path(path)
+    data = _read(path, "private key")
+    name = _name_in(data, path)
+    try:
+        key = serialization.load_pem_private_key(data, password=None)
+    except (ValueError, TypeError, UnsupportedAlgorithm):
+        raise InputError(f"{path}: not an unencrypted PEM private key") from None
+    if not isinstance(key, Ed25519PrivateKey):
+        raise InputError(f"{path}: the key is not an Ed25519 key")
+    return KeyPair(name, key)
+
+
+def load_public_key(path: Path) -> PublicKey:
+    """Read a public key file (``*.pub``) written by ``generate_key_pair``."""
+    path = Path(path)
+    data = _read(path, "public key")
+    name = _name_in(data, path)
+    try:
+        key = serialization.load_pem_public_key(data)
+    except (ValueError, UnsupportedAlgorithm):
+        raise InputError(f"{path}: not a PEM public key") from None
+    if not isinstance(key, Ed25519PublicKey):
+        raise InputError(f"{path}: the key is not an Ed25519 key")
+    return PublicKey(name, key)

@@ -1,0 +1,144 @@
+"""Sign-off: what a signature covers, how it is made and how it is checked.
+
+A signature is an Ed25519 signature (RFC 8032) over the canonical JSON (RFC 8785 form, see
+``canonical``) of a small statement::
+
+    {"purpose": "bringup-record/1 sign-off",
+     "content": <the record's content>,
+     "signer": {"name", "role", "signed_at", "key_fingerprint"}}
+
+so a signature binds the person's name, role and time to the whole content (board, bench,
+every attempt, the log's chain head) and to nothing else: the other signatures are not part
+of it, which lets an operator and a reviewer sign the same content in any order.
+"""
+
+from __future__ import annotations
+
+import base64
+import binascii
+from dataclasses import dataclass
+from typing import Any
+
+from cryptography.exceptions import InvalidSignature
+
+from bringup.errors import BringupError
+from bringup.record.canonical import canonical_bytes
+from bringup.record.keys import KeyPair, fingerprint, public_key_from_raw
+
+__all__ = [
+    "ROLES",
+    "SIGN_PURPOSE",
+    "SignOffRefused",
+    "make_signature",
+    "signed_message",
+    "check_signature",
+    "open_items",
+]
+
+ROLES = ("operator", "reviewer")
+SIGN_PURPOSE = "bringup-record/1 sign-off"
+
+
+class SignOffRefused(BringupError):
+    """The session has open items (unfinished steps, failures without a waiver)."""
+
+
+def signed_message(content: dict, signer: dict) -> bytes:
+    """The exact bytes a signature covers (see the module docstring)."""
+    fields = {k: signer[k] for k in ("name", "role", "signed_at", "key_fingerprint")}
+    return canonical_bytes({"purpose": SIGN_PURPOSE, "content": content, "signer": fields})
+
+
+def make_signature(content: dict, pair: KeyPair, role: str, signed_at: str) -> dict:
+    """A signature entry for ``content`` by ``pair`` in ``role`` at ``signed_at`` (UTC text)."""
+    if role not in ROLES:
+        raise BringupError(f"--role: unknown role {role!r} (expected {' or '.join(ROLES)})")
+    public = pair.public
+    signer = {
+        "name": pair.name,
+        "role": role,
+        "signed_at": signed_at,
+        "key_fingerprint": public.fingerprint,
+    }
+    sig = pair.private.sign(signed_message(content, signer))
+    return {
+        **signer,
+        "algorithm": "Ed25519",
+        "public_key": base64.b64encode(public.raw).decode("ascii"),
+        "signature": base64.b64encode(sig).decode("ascii"),
+    }
+
+
+@dataclass(frozen=True)
+class SignatureCheck:
+    """The outcome of checking one signature entry: ``problems`` is empty when it holds."""
+
+    label: str
+    problems: tuple[str, ...]
+    raw_public_key: bytes | None
+
+
+def _b64(text: Any) -> bytes | None:
+    if not isinstance(text, str):
+        return None
+    try:
+        return base64.b64decode(text, validate=True)
+    except (binascii.Error, ValueError):
+        return None
+
+
+def check_signature(content: dict, entry: Any, index: int) -> SignatureCheck:
+    """Check one signature entry against ``content``: key, fingerprint, signature bytes."""
+    if not isinstance(entry, dict):
+        return SignatureCheck(f"signature {index + 1}", ("is not an object",), None)
+    label = f"signature {index + 1} ({entry.get('role', '?')} {entry.get('name', '?')})"
+    missing = [
+        k
+        for k in ("name", "role", "signed_at", "key_fingerprint", "public_key", "signature")
+        if not isinstance(entry.get(k), str)
+    ]
+    if missing:
+        return SignatureCheck(label, (f"lacks {', '.join(missing)}",), None)
+    problems: list[str] = []
+    if entry.get("algorithm") != "Ed25519":
+        problems.append(f"algorithm {entry.get('algorithm')!r} is not Ed25519")
+    if entry["role"] not in ROLES:
+        problems.append(f"role {entry['role']!r} is not one of {', '.join(ROLES)}")
+    raw = _b64(entry["public_key"])
+    sig = _b64(entry["signature"])
+    try:
+        key = public_key_from_raw(raw) if raw is not None else None
+    except ValueError:
+        key = None
+    if key is None:
+        problems.append("public_key is not a base64 Ed25519 public key")
+        return SignatureCheck(label, tuple(problems), None)
+    if fingerprint(key) != entry["key_fingerprint"]:
+        problems.append(
+            f"public_key has fingerprint {fingerprint(key)}, "
+            f"not the {entry['key_fingerprint']} written beside it"
+        )
+    if sig is None:
+        problems.append("signature is not base64")
+    else:
+        try:
+            key.verify(sig, signed_message(content, entry))
+        except InvalidSignature:
+            problems.append(
+                "does not verify: the content or the signer fields changed since signing"
+            )
+    return SignatureCheck(label, tuple(problems), raw)
+
+
+def open_items(content: dict) -> list[str]:
+    """What blocks a sign-off: steps unfinished, or failed without a waiver (one line each)."""
+    items = []
+    for stage in content.get("stages", []):
+        for step in stage.get("steps", []):
+            status = step.get("status")
+            where = f"{stage.get('id')}/{step.get('id')}"
+            if status in ("not-started", "in-progress"):
+                items.append(f"{where}: unfinished ({status})")
+            elif status == "rejected":
+                items.append(f"{where}: failed ({step.get('outcome')}) without a waiver")
+    return items

@@ -1,0 +1,187 @@
+"""What the HTML and PDF records show, derived from the record's content (no layout here).
+
+Both renderers call these helpers so that the two files tell the same story: the summary,
+the words used for each outcome, the design-vs-measured rows and the decoded waveforms.
+"""
+
+from __future__ import annotations
+
+import base64
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from bringup.analysis.quantities import format_quantity
+from bringup.record.svg import Marker
+
+__all__ = [
+    "STATUS_WORDS",
+    "OUTCOME_WORDS",
+    "OVERALL_WORDS",
+    "Trace",
+    "comparison_rows",
+    "decode_trace",
+    "fmt_time",
+    "fmt_value",
+    "short_hash",
+    "GENERAL_CAUTIONS",
+]
+
+# Each word carries a symbol too, so no outcome is told by colour alone.
+STATUS_WORDS = {
+    "accepted": "[OK] accepted",
+    "waived": "[W] failed, waived",
+    "skipped": "[S] skipped",
+    "rejected": "[X] failed, open",
+    "in-progress": "[..] unfinished",
+    "not-started": "[ ] not started",
+}
+OUTCOME_WORDS = {
+    "pass": "pass",
+    "conditional-pass": "pass within guard band",
+    "conditional-fail": "fail within guard band",
+    "fail": "FAIL",
+    None: "no verdict",
+}
+OVERALL_WORDS = {
+    "accepted": "ACCEPTED: every step passed",
+    "accepted-with-exceptions": "ACCEPTED WITH EXCEPTIONS: waived or skipped steps, see below",
+    "rejected": "NOT ACCEPTED: failed steps without a waiver",
+    "incomplete": "INCOMPLETE: steps not finished",
+}
+GENERAL_CAUTIONS = (
+    "The bench carries hazardous voltage and stored energy: bus capacitors stay charged after "
+    "the supply is off. Check they are discharged before touching the board.",
+    "Follow your local electrical codes and your lab's licensed practice. Treat anything above "
+    "60 V DC as hazardous.",
+    "A floating gate-source node must not be probed with a ground-referenced probe: use a "
+    "differential or isolated probe rated for the switch node's common mode.",
+    "These verdicts support, and do not replace, engineering judgement.",
+)
+
+
+def short_hash(digest: str | None) -> str:
+    """The first 16 hex digits of a digest, for page footers."""
+    return (digest or "-")[:16]
+
+
+def fmt_time(stamp: Any) -> str:
+    """'2026-12-01 22:07:56 UTC (local UTC+01:00)' from a record time object, '-' if absent."""
+    if not isinstance(stamp, dict) or not stamp.get("utc"):
+        return "-"
+    utc = str(stamp["utc"]).replace("T", " ").rstrip("Z")
+    utc = utc.split(".")[0]
+    offset = stamp.get("offset")
+    return f"{utc} UTC" + (f" (local UTC{offset})" if offset else "")
+
+
+def fmt_value(entry: Any, unit: str | None = None) -> str:
+    """A metric entry ({value, unit, reason}) or a bare number as text with its unit."""
+    if isinstance(entry, dict):
+        value = entry.get("value")
+        unit = entry.get("unit", unit) or ""
+        if value is None:
+            return "no value" + (f" ({entry['reason']})" if entry.get("reason") else "")
+    else:
+        value = entry
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return "-" if value is None else str(value)
+    return format_quantity(float(value), unit or "")
+
+
+@dataclass(frozen=True)
+class Trace:
+    """A decoded waveform: time (seconds) and values (``unit``), with its markers and model."""
+
+    name: str
+    unit: str
+    t: np.ndarray
+    y: np.ndarray
+    markers: tuple[Marker, ...]
+    model: tuple[np.ndarray, np.ndarray, str] | None
+
+
+def _array(text: str, dtype: str) -> np.ndarray:
+    return np.frombuffer(base64.b64decode(text), dtype=np.dtype(dtype).newbyteorder("<"))
+
+
+def _soak_model(model: dict, t: np.ndarray) -> tuple[np.ndarray, np.ndarray, str] | None:
+    """First-order soak T(t) = T_inf - (T_inf - T_0) exp(-(t - t_0)/tau), per REFERENCES §5."""
+    try:
+        t_inf, t_init = float(model["final_value"]), float(model["initial_value"])
+        tau, t0 = float(model["tau_s"]), float(model.get("start_s", t[0]))
+    except (KeyError, TypeError, ValueError):
+        return None
+    if not (tau > 0 and math.isfinite(t_inf) and math.isfinite(t_init)):
+        return None
+    tt = np.linspace(t0, float(t[-1]), 200)
+    yy = t_inf - (t_inf - t_init) * np.exp(-(tt - t0) / tau)
+    label = (
+        f"fit: final {format_quantity(t_inf, model.get('unit', ''))}, "
+        f"tau {format_quantity(tau, 's')}"
+    )
+    return tt, yy, label
+
+
+def decode_trace(wave: dict) -> Trace | None:
+    """Decode a record waveform into a Trace; None if malformed.
+
+    Values: ``codes * y_increment + y_origin``; times: ``index * x_increment + x_origin``
+    (the scope preamble convention the log keeps, see ``bringup.store.waveforms``).
+    """
+    try:
+        codes = _array(wave["codes_b64"], wave["dtype"]).astype(float)
+        y = codes * float(wave["y_increment"]) + float(wave.get("y_origin", 0.0))
+        t = float(wave.get("x_origin", 0.0)) + float(wave["x_increment"]) * np.arange(y.size)
+    except (KeyError, TypeError, ValueError):
+        return None
+    markers = []
+    for m in wave.get("markers") or []:
+        if isinstance(m, dict) and m.get("kind") in ("level", "time", "window", "point"):
+            markers.append(
+                Marker(m["kind"], str(m.get("label", "")), m.get("t"), m.get("y"), m.get("t_end"))
+            )
+    model = wave.get("model")
+    fit = _soak_model(model, t) if isinstance(model, dict) and t.size > 1 else None
+    name = wave.get("title") or wave.get("name") or "waveform"
+    return Trace(str(name), str(wave.get("y_unit", "")), t, y, tuple(markers), fit)
+
+
+def final_attempt(step: dict) -> dict | None:
+    """The attempt that decided the step (the last one), or None."""
+    attempts = step.get("attempts") or []
+    return attempts[-1] if attempts else None
+
+
+def comparison_rows(content: dict) -> list[dict]:
+    """Design-vs-measured rows: every predicted value with the measured value of the same name.
+
+    Deviation is (measured - predicted) / |predicted| in percent, from each step's last attempt.
+    """
+    rows = []
+    for stage in content.get("stages", []):
+        for step in stage.get("steps", []):
+            attempt = final_attempt(step)
+            if not attempt:
+                continue
+            metrics = attempt.get("metrics") or {}
+            for name, pred in sorted((attempt.get("predicted") or {}).items()):
+                measured = metrics.get(name)
+                pv = pred.get("value") if isinstance(pred, dict) else pred
+                mv = measured.get("value") if isinstance(measured, dict) else None
+                deviation = None
+                if isinstance(pv, int | float) and isinstance(mv, int | float) and pv != 0:
+                    deviation = 100.0 * (mv - pv) / abs(pv)
+                rows.append(
+                    {
+                        "where": f"{stage.get('id')}/{step.get('id')}",
+                        "quantity": name,
+                        "predicted": fmt_value(pred),
+                        "basis": pred.get("basis", "") if isinstance(pred, dict) else "",
+                        "measured": fmt_value(measured) if measured is not None else "-",
+                        "deviation": "-" if deviation is None else f"{deviation:+.1f} %",
+                    }
+                )
+    return rows
