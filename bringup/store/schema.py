@@ -1,0 +1,162 @@
+"""The log's schema and its migrations, from the first release on.
+
+The schema version is SQLite's own ``PRAGMA user_version`` (a header field any SQLite tool
+shows) and the file is marked as a bringup log with ``PRAGMA application_id``. Migration *n*
+takes a database from version *n - 1* to *n*; each runs in the caller's write transaction
+together with the ``user_version`` bump, so a crash leaves either the old or the new schema.
+
+Schema 1, in brief (every ``*_json`` column holds strict JSON; ``*_utc`` columns ISO 8601 UTC):
+
+- ``sessions``: one board serial through one checklist: id, serial, operator, board name and
+  revision, checklist id, the board/checklist/bench snapshots as JSON, ``genesis_hash`` (the
+  chain's first link: SHA-256 of the snapshot), and a cache of the state and verdict.
+- ``attempts``: one try of one step: ``seq`` (position in the session's chain, shared with
+  events), ``attempt_no`` (1, 2, ... per step), who, when, instruments (``*IDN?``), settings,
+  metrics, predictions, verdicts, outcome, notes, ``field_hashes_json``, ``content_hash``,
+  ``chain_hash``. Append-only (triggers refuse UPDATE and DELETE).
+- ``metrics``: (attempt_id, name, value REAL, unit): every numeric metric as a row, so
+  ``SELECT value FROM metrics WHERE name = 'rise_time_s'`` works in any SQLite tool.
+- ``waveforms``: (attempt_id, name): raw codes compressed (see ``waveforms.py``) plus scale.
+- ``events``: skip, waive, note, go-back, abort, resume, finish: chained like attempts.
+- ``signatures``: sign-offs added by the record (not part of the chain: they seal its head).
+"""
+
+from __future__ import annotations
+
+import sqlite3
+from collections.abc import Callable
+
+__all__ = ["APPLICATION_ID", "CURRENT_VERSION", "MIGRATIONS", "migrate"]
+
+#: ``PRAGMA application_id`` of a bringup log: the ASCII bytes "BRGL".
+APPLICATION_ID = 0x4252474C
+
+_APPEND_ONLY = ("attempts", "metrics", "waveforms", "events", "signatures")
+
+
+def _to_version_1(conn: sqlite3.Connection) -> None:
+    """The first release's schema."""
+    statements = [
+        f"PRAGMA application_id = {APPLICATION_ID}",
+        """CREATE TABLE sessions (
+            id TEXT PRIMARY KEY,
+            created_utc TEXT NOT NULL,
+            serial TEXT NOT NULL,
+            operator TEXT NOT NULL,
+            board_name TEXT NOT NULL,
+            board_revision TEXT,
+            checklist_id TEXT NOT NULL,
+            board_json TEXT NOT NULL,
+            checklist_json TEXT NOT NULL,
+            bench_json TEXT,
+            genesis_hash TEXT NOT NULL,
+            state TEXT NOT NULL DEFAULT 'open' CHECK (state IN ('open', 'aborted', 'finished')),
+            verdict TEXT,
+            stage_verdicts_json TEXT,
+            last_activity_utc TEXT NOT NULL,
+            finished_utc TEXT
+        )""",
+        """CREATE TABLE attempts (
+            id INTEGER PRIMARY KEY,
+            session_id TEXT NOT NULL REFERENCES sessions(id),
+            seq INTEGER NOT NULL,
+            stage_id TEXT NOT NULL,
+            step_id TEXT NOT NULL,
+            attempt_no INTEGER NOT NULL,
+            operator TEXT NOT NULL,
+            started_utc TEXT NOT NULL,
+            finished_utc TEXT NOT NULL,
+            recorded_utc TEXT NOT NULL,
+            outcome TEXT NOT NULL,
+            instruments_json TEXT NOT NULL,
+            settings_json TEXT NOT NULL,
+            metrics_json TEXT NOT NULL,
+            predictions_json TEXT NOT NULL,
+            verdicts_json TEXT NOT NULL,
+            notes TEXT NOT NULL DEFAULT '',
+            extra_json TEXT,
+            field_hashes_json TEXT NOT NULL,
+            content_hash TEXT NOT NULL,
+            chain_hash TEXT NOT NULL,
+            UNIQUE (session_id, seq),
+            UNIQUE (session_id, stage_id, step_id, attempt_no)
+        )""",
+        "CREATE INDEX attempts_by_step ON attempts (session_id, stage_id, step_id)",
+        """CREATE TABLE metrics (
+            attempt_id INTEGER NOT NULL REFERENCES attempts(id),
+            name TEXT NOT NULL,
+            value REAL,
+            unit TEXT NOT NULL DEFAULT '',
+            PRIMARY KEY (attempt_id, name)
+        )""",
+        """CREATE TABLE waveforms (
+            attempt_id INTEGER NOT NULL REFERENCES attempts(id),
+            name TEXT NOT NULL,
+            dtype TEXT NOT NULL,
+            points INTEGER NOT NULL,
+            x_increment REAL NOT NULL,
+            x_origin REAL NOT NULL,
+            y_increment REAL NOT NULL,
+            y_origin REAL NOT NULL,
+            y_unit TEXT NOT NULL,
+            x_unit TEXT NOT NULL,
+            codec TEXT NOT NULL,
+            stored_bytes INTEGER NOT NULL,
+            raw_sha256 TEXT NOT NULL,
+            data BLOB NOT NULL,
+            PRIMARY KEY (attempt_id, name)
+        )""",
+        """CREATE TABLE events (
+            id INTEGER PRIMARY KEY,
+            session_id TEXT NOT NULL REFERENCES sessions(id),
+            seq INTEGER NOT NULL,
+            kind TEXT NOT NULL,
+            stage_id TEXT,
+            step_id TEXT,
+            operator TEXT NOT NULL,
+            reason TEXT NOT NULL DEFAULT '',
+            payload_json TEXT,
+            recorded_utc TEXT NOT NULL,
+            field_hashes_json TEXT NOT NULL,
+            content_hash TEXT NOT NULL,
+            chain_hash TEXT NOT NULL,
+            UNIQUE (session_id, seq)
+        )""",
+        """CREATE TABLE signatures (
+            id INTEGER PRIMARY KEY,
+            session_id TEXT NOT NULL REFERENCES sessions(id),
+            name TEXT NOT NULL,
+            role TEXT NOT NULL,
+            signed_utc TEXT NOT NULL,
+            public_key BLOB NOT NULL,
+            fingerprint TEXT NOT NULL,
+            signature BLOB NOT NULL,
+            content_digest TEXT NOT NULL,
+            recorded_utc TEXT NOT NULL
+        )""",
+    ]
+    for table in _APPEND_ONLY:
+        for action in ("UPDATE", "DELETE"):
+            statements.append(
+                f"CREATE TRIGGER {table}_no_{action.lower()} BEFORE {action} ON {table} "
+                f"BEGIN SELECT RAISE(ABORT, '{table} are append-only: nothing logged is changed'); END"
+            )
+    for sql in statements:
+        conn.execute(sql)
+
+
+#: ``MIGRATIONS[n - 1]`` takes a database from version n - 1 to n.
+MIGRATIONS: list[Callable[[sqlite3.Connection], None]] = [_to_version_1]
+CURRENT_VERSION = len(MIGRATIONS)
+
+
+def migrate(conn: sqlite3.Connection, from_version: int) -> int:
+    """Apply every migration after ``from_version``, inside the caller's transaction.
+
+    Returns the new version. The caller holds a write transaction (``BEGIN IMMEDIATE``), so the
+    schema change and the ``user_version`` bump commit together or not at all.
+    """
+    for version in range(from_version + 1, CURRENT_VERSION + 1):
+        MIGRATIONS[version - 1](conn)
+        conn.execute(f"PRAGMA user_version = {version}")
+    return CURRENT_VERSION
