@@ -1,0 +1,50 @@
+"""Runs a checklist's steps: instruments -> analysis -> verdict -> store. No UI code.
+
+Public API (for the TUI and the headless run):
+
+- ``SessionRunner`` (``session.py``): ``create``/``resume``, ``stages``, ``current_step``,
+  ``plan``, ``run_step``, ``skip``, ``waive``, ``note``, ``go_back``, ``abort``, ``close``;
+- ``BenchSource`` (``bench_source.py``): a bench file or a simulated bench;
+- the records of ``results.py``: ``StepPlan``, ``EnergisePlan``, ``ChannelPlan``, ``StepAnswers``,
+  ``Progress``, ``SoakProgress``, ``AttemptResult``, ``MetricResult``, ``WaveformView``,
+  ``Crossing``, ``StepStatus``, ``StageStatus`` and the state names ``STATES``.
+"""
+
+from bringup.runner.bench_source import BenchSource
+from bringup.runner.results import (
+    ACCEPTED,
+    STATES,
+    AttemptResult,
+    ChannelPlan,
+    Crossing,
+    EnergisePlan,
+    MetricResult,
+    Progress,
+    SoakProgress,
+    StageStatus,
+    StepAnswers,
+    StepPlan,
+    StepStatus,
+    WaveformView,
+)
+from bringup.runner.session import RunnerError, SessionRunner
+
+__all__ = [
+    "ACCEPTED",
+    "STATES",
+    "AttemptResult",
+    "BenchSource",
+    "ChannelPlan",
+    "Crossing",
+    "EnergisePlan",
+    "MetricResult",
+    "Progress",
+    "RunnerError",
+    "SessionRunner",
+    "SoakProgress",
+    "StageStatus",
+    "StepAnswers",
+    "StepPlan",
+    "StepStatus",
+    "WaveformView",
+]

@@ -1,0 +1,348 @@
+"""Load and validate a checklist file (TOML) into ``bringup.checklist.model`` types.
+
+Format (``checklists/high-side-bootstrap.toml`` is the shipped standard checklist)::
+
+    schema = 1
+    [checklist]                      name, description
+    [stages.ID]                      title, purpose          (stages run in file order)
+    [stages.ID.steps.KEY]            title, instructions, analysis (required);
+                                     cautions, confirm, reading, pwm, supply, targets, report
+    [stages.ID.steps.KEY.scope]      points, duration, pretrigger, trigger = {net, level, slope}
+    [stages.ID.steps.KEY.scope.nets] NET = {range, offset, coupling, bandwidth_limit, probe}
+    [stages.ID.steps.KEY.soak]       duration, interval, min_duration
+
+Quantities are strings in engineering notation or ``"design.KEY"`` / ``"1.5 * design.KEY"``.
+Each problem is one ``ConfigError`` naming the file, the key and its line.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+from bringup.checklist.board import (
+    DESIGN_UNITS,
+    Board,
+    check_table,
+    checklists_dir,
+    expect_str,
+    read_quantity,
+)
+from bringup.checklist.catalogue import ANALYSES, NETS
+from bringup.checklist.model import (
+    Checklist,
+    NetCapture,
+    PwmSetup,
+    ReadingSpec,
+    ScopeSetup,
+    Setting,
+    SoakSetup,
+    Stage,
+    Step,
+    SupplySetup,
+    Trigger,
+)
+from bringup.checklist.tomlfile import TomlDocument, read_toml
+from bringup.errors import ConfigError
+
+__all__ = ["CHECKLIST_SCHEMA", "load_checklist", "standard_checklist_path", "check_against_board"]
+
+CHECKLIST_SCHEMA = 1
+_ID_RE = re.compile(r"^[a-z0-9][a-z0-9-]*$")
+_DESIGN_REF_RE = re.compile(r"^\s*(?:([0-9]*\.?[0-9]+)\s*\*\s*)?design\.([A-Za-z0-9_]+)\s*$")
+
+_TOP = {"schema": True, "checklist": True, "stages": True}
+_HEAD = {"name": True, "description": False}
+_STAGE = {"title": True, "purpose": False, "steps": True}
+_STEP = {
+    "title": True,
+    "instructions": True,
+    "analysis": True,
+    "cautions": False,
+    "confirm": False,
+    "reading": False,
+    "pwm": False,
+    "supply": False,
+    "scope": False,
+    "soak": False,
+    "targets": False,
+    "report": False,
+}
+_SCOPE = {"points": True, "duration": True, "pretrigger": False, "trigger": False, "nets": True}
+_TRIGGER = {"net": True, "level": True, "slope": False}
+_NET = {"range": True, "offset": False, "coupling": False, "bandwidth_limit": False, "probe": False}
+_SUPPLY = {"voltage": True, "current_limit": True, "ramp": False, "dwell": False, "ovp": False}
+_PWM = {"enabled": True, "duty": False}
+_SOAK = {"duration": True, "interval": True, "min_duration": False}
+_READING = {"prompt": True, "unit": True, "metric": True, "net": True}
+_PROBES = ("single-ended", "differential", "math")
+#: Record lengths the simulated and real scopes accept (points).
+MIN_POINTS, MAX_POINTS = 1000, 20_000_000
+
+
+def standard_checklist_path() -> Path:
+    """The shipped standard checklist for a high-side N-channel switch with bootstrap drive."""
+    return checklists_dir() / "high-side-bootstrap.toml"
+
+
+def _setting(doc: TomlDocument, keys: tuple[str, ...], value: object, unit: str) -> Setting:
+    if isinstance(value, str):
+        ref = _DESIGN_REF_RE.match(value)
+        if ref:
+            factor, key = ref.groups()
+            if key not in DESIGN_UNITS:
+                raise doc.error(keys, f"unknown design value {key!r}")
+            if DESIGN_UNITS[key] != unit:
+                raise doc.error(
+                    keys, f"design.{key} is in {DESIGN_UNITS[key] or 'ratio'}, not {unit}"
+                )
+            return Setting(design_key=key, factor=float(factor) if factor else 1.0)
+    return Setting(value=read_quantity(doc, keys, value, unit))
+
+
+def _bool(doc: TomlDocument, keys: tuple[str, ...], value: object) -> bool:
+    if not isinstance(value, bool):
+        raise doc.error(keys, "must be true or false")
+    return value
+
+
+def _choice(doc: TomlDocument, keys: tuple[str, ...], value: object, choices) -> str:
+    if value not in choices:
+        raise doc.error(keys, f"must be one of {', '.join(choices)}, got {value!r}")
+    return str(value)
+
+
+def _str_list(doc: TomlDocument, keys: tuple[str, ...], value: object) -> tuple[str, ...]:
+    if not isinstance(value, list) or not all(isinstance(v, str) and v for v in value):
+        raise doc.error(keys, "must be a list of non-empty strings")
+    return tuple(value)
+
+
+def _scope(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> ScopeSetup:
+    table = check_table(doc, keys, raw, _SCOPE)
+    points = table["points"]
+    if not isinstance(points, int) or isinstance(points, bool):
+        raise doc.error((*keys, "points"), "must be an integer number of points")
+    if not MIN_POINTS <= points <= MAX_POINTS:
+        raise doc.error((*keys, "points"), f"must lie between {MIN_POINTS} and {MAX_POINTS}")
+    duration = read_quantity(doc, (*keys, "duration"), table["duration"], "s")
+    if duration <= 0:
+        raise doc.error((*keys, "duration"), "must be positive")
+    pre = read_quantity(doc, (*keys, "pretrigger"), table.get("pretrigger", 0), "s")
+    if not 0 <= pre < duration:
+        raise doc.error((*keys, "pretrigger"), "must lie between 0 and the duration")
+    trigger = None
+    if "trigger" in table:
+        tkeys = (*keys, "trigger")
+        t = check_table(doc, tkeys, table["trigger"], _TRIGGER)
+        trigger = Trigger(
+            _choice(doc, (*tkeys, "net"), t["net"], NETS),
+            _setting(doc, (*tkeys, "level"), t["level"], "V"),
+            _choice(doc, (*tkeys, "slope"), t.get("slope", "positive"), ("positive", "negative")),
+        )
+    nkeys = (*keys, "nets")
+    nets = table["nets"]
+    if not isinstance(nets, dict) or not nets:
+        raise doc.error(nkeys, "must name at least one net")
+    captures = []
+    for net, spec in nets.items():
+        k = (*nkeys, net)
+        if net not in NETS:
+            raise doc.error(k, f"unknown net (expected one of: {', '.join(NETS)})")
+        n = check_table(doc, k, spec, _NET)
+        span = _setting(doc, (*k, "range"), n["range"], "V")
+        if span.design_key is None and span.value <= 0:  # type: ignore[operator]
+            raise doc.error((*k, "range"), "must be positive")
+        probe = _choice(doc, (*k, "probe"), n.get("probe", "single-ended"), _PROBES)
+        if probe == "math" and net != "vgs":
+            raise doc.error(
+                (*k, "probe"), "a math difference is only defined for vgs (gate - switch)"
+            )
+        captures.append(
+            NetCapture(
+                net,
+                span,
+                _setting(doc, (*k, "offset"), n.get("offset", 0), "V"),
+                _choice(doc, (*k, "coupling"), n.get("coupling", "DC"), ("DC", "AC")),
+                _bool(doc, (*k, "bandwidth_limit"), n.get("bandwidth_limit", False)),
+                probe,
+            )
+        )
+    if len(captures) > 4:
+        raise doc.error(nkeys, "a 4-channel scope acquires at most 4 nets at once")
+    return ScopeSetup(points, duration, pre, trigger, tuple(captures))
+
+
+def _supply(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> SupplySetup:
+    table = check_table(doc, keys, raw, _SUPPLY)
+    ramp: tuple[Setting, ...] = ()
+    if "ramp" in table:
+        if not isinstance(table["ramp"], list) or not table["ramp"]:
+            raise doc.error((*keys, "ramp"), "must be a list of voltages")
+        ramp = tuple(_setting(doc, (*keys, "ramp"), v, "V") for v in table["ramp"])
+    dwell = read_quantity(doc, (*keys, "dwell"), table.get("dwell", "50 ms"), "s")
+    ovp = _setting(doc, (*keys, "ovp"), table["ovp"], "V") if "ovp" in table else None
+    return SupplySetup(
+        _setting(doc, (*keys, "voltage"), table["voltage"], "V"),
+        _setting(doc, (*keys, "current_limit"), table["current_limit"], "A"),
+        ramp,
+        dwell,
+        ovp,
+    )
+
+
+def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
+    keys = ("stages", stage_id, "steps", key)
+    if not _ID_RE.match(key):
+        raise doc.error(keys, "a step key is lower-case letters, digits and '-'")
+    t = check_table(doc, keys, raw, _STEP)
+    analysis = t["analysis"]
+    if analysis not in ANALYSES:
+        known = ", ".join(ANALYSES)
+        raise doc.error((*keys, "analysis"), f"unknown analysis {analysis!r} (known: {known})")
+    spec = ANALYSES[analysis]
+    reading = None
+    if "reading" in t:
+        rk = (*keys, "reading")
+        r = check_table(doc, rk, t["reading"], _READING)
+        metric = expect_str(doc, (*rk, "metric"), r["metric"])
+        if metric not in spec.metrics:
+            raise doc.error((*rk, "metric"), f"analysis {analysis!r} yields no metric {metric!r}")
+        unit = _choice(doc, (*rk, "unit"), r["unit"], (spec.metrics[metric],))
+        reading = ReadingSpec(
+            expect_str(doc, (*rk, "prompt"), r["prompt"]),
+            unit,
+            metric,
+            _choice(doc, (*rk, "net"), r["net"], NETS),
+        )
+    pwm = None
+    if "pwm" in t:
+        p = check_table(doc, (*keys, "pwm"), t["pwm"], _PWM)
+        duty = _setting(doc, (*keys, "pwm", "duty"), p["duty"], "") if "duty" in p else None
+        pwm = PwmSetup(_bool(doc, (*keys, "pwm", "enabled"), p["enabled"]), duty)
+    supply = _supply(doc, (*keys, "supply"), t["supply"]) if "supply" in t else None
+    scope = _scope(doc, (*keys, "scope"), t["scope"]) if "scope" in t else None
+    soak = None
+    if "soak" in t:
+        sk = (*keys, "soak")
+        s = check_table(doc, sk, t["soak"], _SOAK)
+        duration = read_quantity(doc, (*sk, "duration"), s["duration"], "s")
+        interval = read_quantity(doc, (*sk, "interval"), s["interval"], "s")
+        if not 0 < interval < duration:
+            raise doc.error((*sk, "interval"), "must be positive and shorter than the duration")
+        least = read_quantity(doc, (*sk, "min_duration"), s.get("min_duration", duration), "s")
+        soak = SoakSetup(duration, interval, min(least, duration))
+
+    for name, present, needed in (
+        ("scope", scope is not None, bool(spec.needs_nets)),
+        ("supply.ramp", supply is not None and bool(supply.ramp_v), spec.needs_supply_ramp),
+        ("soak", soak is not None, spec.needs_soak),
+        ("reading", reading is not None, spec.needs_reading),
+    ):
+        if needed and not present:
+            raise doc.error(keys, f"analysis {analysis!r} needs a {name!r} table")
+    if scope is not None:
+        have = {c.net for c in scope.captures}
+        missing = [n for n in spec.needs_nets if n not in have]
+        if missing:
+            raise doc.error(
+                (*keys, "scope", "nets"), f"analysis {analysis!r} needs net {missing[0]!r}"
+            )
+    if analysis == "rail-levels" and (scope is None or not scope.captures):
+        raise doc.error(keys, "analysis 'rail-levels' needs a 'scope' table")
+
+    targets = _str_list(doc, (*keys, "targets"), t.get("targets", []))
+    report = _str_list(doc, (*keys, "report"), t.get("report", []))
+    for field_name, ids in (("targets", targets), ("report", report)):
+        for metric in ids:
+            if metric not in spec.metrics:
+                raise doc.error(
+                    (*keys, field_name), f"analysis {analysis!r} yields no metric {metric!r}"
+                )
+    return Step(
+        id=f"{stage_id}.{key}",
+        key=key,
+        stage_id=stage_id,
+        title=expect_str(doc, (*keys, "title"), t["title"]),
+        instructions=expect_str(doc, (*keys, "instructions"), t["instructions"]).strip(),
+        analysis=analysis,
+        cautions=_str_list(doc, (*keys, "cautions"), t.get("cautions", [])),
+        confirm=expect_str(doc, (*keys, "confirm"), t["confirm"]) if "confirm" in t else None,
+        reading=reading,
+        pwm=pwm,
+        supply=supply,
+        scope=scope,
+        soak=soak,
+        targets=targets,
+        report=report,
+    )
+
+
+def checklist_from_document(doc: TomlDocument) -> Checklist:
+    """Validate a parsed checklist (see the module docstring for the format)."""
+    data = check_table(doc, (), doc.data, _TOP)
+    schema = data["schema"]
+    if not isinstance(schema, int) or isinstance(schema, bool) or schema < 1:
+        raise doc.error(("schema",), f"must be a positive integer, got {schema!r}")
+    if schema > CHECKLIST_SCHEMA:
+        raise doc.error(
+            ("schema",), f"format {schema} is newer than this bringup reads ({CHECKLIST_SCHEMA})"
+        )
+    head = check_table(doc, ("checklist",), data["checklist"], _HEAD)
+    stages_raw = data["stages"]
+    if not isinstance(stages_raw, dict) or not stages_raw:
+        raise doc.error(("stages",), "must hold at least one [stages.ID] table")
+    stages = []
+    for sid, raw in stages_raw.items():
+        keys = ("stages", sid)
+        if not _ID_RE.match(sid):
+            raise doc.error(keys, "a stage id is lower-case letters, digits and '-'")
+        s = check_table(doc, keys, raw, _STAGE)
+        steps_raw = s["steps"]
+        if not isinstance(steps_raw, dict) or not steps_raw:
+            raise doc.error((*keys, "steps"), "a stage needs at least one step")
+        steps = tuple(_step(doc, sid, key, sraw) for key, sraw in steps_raw.items())
+        purpose = s.get("purpose", "")
+        if not isinstance(purpose, str):
+            raise doc.error((*keys, "purpose"), "must be a string")
+        stages.append(Stage(sid, expect_str(doc, (*keys, "title"), s["title"]), purpose, steps))
+    description = head.get("description", "")
+    if not isinstance(description, str):
+        raise doc.error(("checklist", "description"), "must be a string")
+    return Checklist(
+        name=expect_str(doc, ("checklist", "name"), head["name"]),
+        description=description.strip(),
+        stages=tuple(stages),
+        path=doc.path,
+        text=doc.text,
+        source=doc.data,
+    )
+
+
+def load_checklist(path: str | Path | None = None) -> Checklist:
+    """Load and validate a checklist; ``None`` or ``"standard"`` is the shipped standard one."""
+    if path is None or str(path) == "standard":
+        path = standard_checklist_path()
+    return checklist_from_document(read_toml(path))
+
+
+def check_against_board(checklist: Checklist, board: Board) -> None:
+    """Every target a step names must be defined by the board file.
+
+    Raises a ``ConfigError`` naming the checklist file, the step's ``targets`` key and its line.
+    """
+    doc = None
+    for step in checklist.steps():
+        for tid in step.targets:
+            if tid not in board.targets:
+                if doc is None:
+                    from bringup.checklist.tomlfile import parse_toml
+
+                    doc = parse_toml(checklist.text, checklist.path)
+                keys = ("stages", step.stage_id, "steps", step.key, "targets")
+                raise ConfigError(
+                    checklist.path,
+                    ".".join(keys),
+                    f"target {tid!r} is not defined in board file {board.path}",
+                    doc.line_of(*keys),
+                )

@@ -1,0 +1,170 @@
+"""A step's plan resolved for one board: the operator's hands, the channels, the energising prompt.
+
+Pure: no instrument is touched. The plan is shown before the step runs and logged with it.
+"""
+
+from __future__ import annotations
+
+from bringup.analysis.quantities import format_quantity
+from bringup.checklist.board import Board
+from bringup.checklist.model import Step
+from bringup.runner.bench_source import BenchSource
+from bringup.runner.results import HAZARD_VOLTAGE_V, ChannelPlan, EnergisePlan, StepPlan
+
+__all__ = ["plan_step", "MATH_COMMON_MODE_WARN_V"]
+
+#: Above this common mode (volts), Vgs from a math difference of two ground-referenced probes is
+#: flagged: a 1 % gain mismatch at the bus voltage is a sizeable error on a ~10 V difference
+#: (probing tutorials, see REFERENCES.md §9; common practice).
+MATH_COMMON_MODE_WARN_V = 5.0
+
+
+def _v(value: float) -> str:
+    return format_quantity(value, "V")
+
+
+def _channels(step: Step, design: dict[str, float]) -> tuple[ChannelPlan, ...]:
+    channels: list[ChannelPlan] = []
+    if step.scope is None:
+        return ()
+    number = 1
+    for cap in step.scope.captures:
+        span = cap.range_v.resolve(design)
+        offset = cap.offset_v.resolve(design)
+        if cap.probe == "math":
+            # vgs = gate - switch from two ground-referenced probes, each over the full swing
+            bus = design["bus_voltage"]
+            swing = bus + design["gate_drive_voltage"]
+            for net in ("gate", "switch"):
+                channels.append(
+                    ChannelPlan(
+                        number,
+                        net,
+                        "single-ended",
+                        1.6 * swing,
+                        0.5 * swing,
+                        cap.coupling,
+                        cap.bandwidth_limit,
+                    )  # fmt: skip
+                )
+                number += 1
+            continue
+        channels.append(
+            ChannelPlan(number, cap.net, cap.probe, span, offset, cap.coupling, cap.bandwidth_limit)
+        )
+        number += 1
+    return tuple(channels)
+
+
+def _hands(step: Step, design: dict[str, float], channels: tuple[ChannelPlan, ...]) -> list[str]:
+    hands: list[str] = []
+    if step.pwm is not None:
+        if step.pwm.enabled:
+            duty = step.pwm.duty.resolve(design) if step.pwm.duty is not None else None
+            shown = f" at {100 * duty:g} % duty" if duty is not None else ""
+            hands.append(f"Set the board's PWM{shown} and enable it.")
+        else:
+            hands.append("Set the board's PWM enable to off.")
+    for ch in channels:
+        kind = {"differential": "a differential probe", "single-ended": "a single-ended probe"}[
+            ch.probe
+        ]
+        hands.append(f"Put {kind} on CH{ch.channel} to net {ch.net}.")
+    if step.reading is not None:
+        hands.append(f"Put the meter's leads on net {step.reading.net}.")
+    if step.soak is not None:
+        hands.append("Fix the thermocouple to the switch's heatsink.")
+    return hands
+
+
+def _energise(step: Step, design: dict[str, float]) -> EnergisePlan | None:
+    if step.supply is None:
+        return None
+    volts = step.supply.voltage_v.resolve(design)
+    amps = step.supply.current_limit_a.resolve(design)
+    ramp = tuple(s.resolve(design) for s in step.supply.ramp_v)
+    top = max((volts, *ramp))
+    prompt = f"Power the board: supply {_v(volts)}, current limit {format_quantity(amps, 'A')}"
+    if ramp:
+        prompt += ", raised in steps of " + ", ".join(_v(v) for v in ramp)
+    prompt += "; the output goes off when the step ends."
+    hazard = None
+    if top > HAZARD_VOLTAGE_V:
+        hazard = (
+            f"Hazardous voltage: {_v(top)} DC is above 60 V. Follow your local electrical codes "
+            "and the lab's licensed practice; discharge the bus capacitors before touching."
+        )
+    return EnergisePlan(volts, amps, ramp, prompt, hazard)
+
+
+def plan_step(step: Step, board: Board, bench: BenchSource) -> StepPlan:
+    """Resolve ``step`` for ``board``: what will be set, acquired and asked."""
+    design = board.design
+    channels = _channels(step, design)
+    energise = _energise(step, design)
+    warnings: list[str] = []
+    if step.scope is not None and any(c.probe == "math" for c in step.scope.captures):
+        common = design["bus_voltage"]
+        if common > MATH_COMMON_MODE_WARN_V:
+            warnings.append(
+                f"Vgs from a math difference (gate - switch) at up to {_v(common)} common mode: "
+                f"a 1 % gain mismatch of the two probes is {_v(0.01 * common)} of error on Vgs; "
+                "use a differential probe for a verdict you can trust."
+            )
+    settings: dict = {}
+    if step.pwm is not None:
+        settings["pwm"] = {
+            "enabled": step.pwm.enabled,
+            "duty": step.pwm.duty.resolve(design) if step.pwm.duty is not None else None,
+        }
+    if energise is not None:
+        assert step.supply is not None
+        top = max((energise.voltage_v, *energise.ramp_v))
+        settings["supply"] = {
+            "voltage_v": energise.voltage_v,
+            "current_limit_a": energise.current_limit_a,
+            "ramp_v": list(energise.ramp_v),
+            "dwell_s": step.supply.dwell_s,
+            "ovp_v": step.supply.ovp_v.resolve(design) if step.supply.ovp_v else 1.1 * top + 1.0,
+        }
+    if step.scope is not None:
+        trig = step.scope.trigger
+        settings["scope"] = {
+            "points": step.scope.points,
+            "duration_s": step.scope.duration_s,
+            "pretrigger_s": step.scope.pretrigger_s,
+            "trigger": None
+            if trig is None
+            else {"net": trig.net, "level_v": trig.level_v.resolve(design), "slope": trig.slope},
+            "channels": [c.__dict__ for c in channels],
+            "math": [c.net for c in step.scope.captures if c.probe == "math"],
+        }
+    if step.soak is not None:
+        settings["soak"] = {
+            "duration_s": step.soak.duration_s,
+            "interval_s": step.soak.interval_s,
+            "min_duration_s": step.soak.min_duration_s,
+        }
+    if step.reading is not None:
+        settings["reading"] = {"net": step.reading.net, "unit": step.reading.unit}
+    hands = _hands(step, design, channels)
+    needs_confirm = step.confirm is not None or bool(hands)
+    confirm = None
+    if needs_confirm:
+        confirm = " ".join([*hands, *([step.confirm] if step.confirm else [])])
+    return StepPlan(
+        step_id=step.id,
+        stage_id=step.stage_id,
+        title=step.title,
+        instructions=step.instructions,
+        cautions=step.cautions,
+        hands=tuple(hands),
+        channels=channels,
+        energise=energise,
+        confirm=confirm,
+        reading_prompt=step.reading.prompt if step.reading else None,
+        reading_unit=step.reading.unit if step.reading else None,
+        targets=step.targets,
+        settings=settings,
+        warnings=tuple(warnings),
+    )
