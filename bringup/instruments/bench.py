@@ -1,0 +1,346 @@
+"""The bench file: which resource is which instrument, which profile drives it, and which
+scope channel sees which net. ``load_bench`` validates it; ``open_bench`` connects.
+
+```toml
+[scope]
+resource = "TCPIP::192.168.1.20::5025::SOCKET"
+profile = "sim-scope"
+calibration_due = 2027-03-31        # optional, a TOML date
+
+[scope.channels.1]
+net = "gate"                        # gate, switch, vgs, vbs, bus, vdrv, logic
+probe_ratio = 10
+
+[supply]
+resource = "TCPIP::192.168.1.21::5025::SOCKET"
+profile = "sim-supply"
+
+[thermometer]
+resource = "TCPIP::192.168.1.22::5025::SOCKET"
+profile = "sim-thermometer"
+
+[simulation]                        # only for the simulated bench
+enabled = true
+```
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from bringup.errors import ConfigError, InputError
+from bringup.instruments.toml_lines import TomlSource
+
+if TYPE_CHECKING:
+    from bringup.instruments.profiles import Profile
+    from bringup.instruments.scope import Scope
+    from bringup.instruments.simulation import SimulationControl
+    from bringup.instruments.supply import Supply
+    from bringup.instruments.thermometer import Thermometer
+    from bringup.instruments.visa import InstrumentSession
+
+ROLES = ("scope", "supply", "thermometer")
+NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
+_RESOURCE = re.compile(
+    r"^(TCPIP\d*::[^:\s]+::\d{1,5}::SOCKET|TCPIP\d*::[^:\s]+(::[^:\s]+)?::INSTR"
+    r"|USB\d*::[^\s]+::INSTR|GPIB\d*::\d+(::\d+)?::INSTR|ASRL[^\s]+::INSTR)$",
+    re.IGNORECASE,
+)
+_LOOPBACK = re.compile(r"^TCPIP\d*::127\.0\.0\.1::\d{1,5}::SOCKET$", re.IGNORECASE)
+
+
+@dataclass(frozen=True)
+class InstrumentEntry:
+    """One instrument of the bench file."""
+
+    role: str
+    resource: str
+    profile: str
+    calibration_due: dt.date | None = None
+
+    def calibration_overdue(self, today: dt.date) -> bool:
+        """Whether the calibration due date has passed on ``today``."""
+        return self.calibration_due is not None and today > self.calibration_due
+
+
+@dataclass(frozen=True)
+class ChannelWiring:
+    """Which net a scope channel's probe sits on, and the probe's attenuation ratio."""
+
+    channel: int
+    net: str
+    probe_ratio: float
+
+
+@dataclass(frozen=True)
+class BenchConfig:
+    """A validated bench file."""
+
+    path: Path
+    instruments: Mapping[str, InstrumentEntry]
+    channels: Mapping[int, ChannelWiring]
+    simulated: bool = False
+
+    def channel_for(self, net: str) -> int:
+        """The scope channel wired to ``net``; ``InputError`` if no channel is."""
+        for wiring in self.channels.values():
+            if wiring.net == net:
+                return wiring.channel
+        raise InputError(
+            f"{self.path}: no scope channel sees net {net!r} (see [scope.channels.<n>])"
+        )
+
+
+def _entry(src: TomlSource, role: str, simulated: bool) -> InstrumentEntry:
+    table = src.data.get(role)
+    if table is None:
+        raise src.error((), role, f"missing table [{role}]")
+    if not isinstance(table, dict):
+        raise src.error((), role, f"must be a table [{role}]")
+    allowed = {"resource", "profile", "calibration_due"} | (
+        {"channels"} if role == "scope" else set()
+    )
+    for key in table:
+        if key not in allowed:
+            raise src.error((role,), key, f"unknown key (expected {', '.join(sorted(allowed))})")
+    for key in ("resource", "profile"):
+        if key not in table:
+            raise src.error((role,), key, "missing")
+        if not isinstance(table[key], str) or not table[key].strip():
+            raise src.error((role,), key, f"must be a non-empty string, not {table[key]!r}")
+    resource = table["resource"].strip()
+    if not _RESOURCE.match(resource):
+        raise src.error(
+            (role,),
+            "resource",
+            f"{resource!r} is not an explicit VISA resource string (e.g. TCPIP::host::5025::SOCKET)",
+        )
+    if simulated and not _LOOPBACK.match(resource):
+        raise src.error(
+            (role,),
+            "resource",
+            f"{resource!r}: a simulated bench is served on TCPIP::127.0.0.1::<port>::SOCKET",
+        )
+    due = table.get("calibration_due")
+    if due is not None:
+        if isinstance(due, str):
+            try:
+                due = dt.date.fromisoformat(due)
+            except ValueError:
+                raise src.error(
+                    (role,), "calibration_due", f"{due!r} is not a date YYYY-MM-DD"
+                ) from None
+        elif isinstance(due, dt.datetime) or not isinstance(due, dt.date):
+            raise src.error((role,), "calibration_due", f"must be a date YYYY-MM-DD, not {due!r}")
+    return InstrumentEntry(role, resource, table["profile"].strip(), due)
+
+
+def _channels(src: TomlSource) -> dict[int, ChannelWiring]:
+    raw = src.data.get("scope", {}).get("channels", {})
+    if not isinstance(raw, dict):
+        raise src.error(("scope",), "channels", "must be tables [scope.channels.<n>]")
+    out: dict[int, ChannelWiring] = {}
+    seen: dict[str, int] = {}
+    for key, table in raw.items():
+        where = ("scope", "channels", key)
+        if key not in ("1", "2", "3", "4"):
+            raise ConfigError(
+                src.path,
+                f"scope.channels.{key}",
+                "channel must be 1, 2, 3 or 4",
+                src.line_of(where),
+            )
+        if not isinstance(table, dict):
+            raise ConfigError(
+                src.path, f"scope.channels.{key}", "must be a table", src.line_of(where)
+            )
+        for item in table:
+            if item not in ("net", "probe_ratio"):
+                raise src.error(where, item, "unknown key (expected net, probe_ratio)")
+        net = table.get("net")
+        if net is None:
+            raise src.error(where, "net", "missing")
+        if net not in NETS:
+            raise src.error(where, "net", f"{net!r} is not one of {', '.join(NETS)}")
+        if net in seen:
+            raise src.error(where, "net", f"{net!r} is already on channel {seen[net]}")
+        ratio = table.get("probe_ratio")
+        if ratio is None:
+            raise src.error(
+                where, "probe_ratio", "missing (1 for a direct cable, 10 for a 10:1 probe)"
+            )
+        if isinstance(ratio, bool) or not isinstance(ratio, int | float) or not 0 < ratio <= 10000:
+            raise src.error(
+                where, "probe_ratio", f"must be a number above 0 (up to 10000), not {ratio!r}"
+            )
+        seen[net] = int(key)
+        out[int(key)] = ChannelWiring(int(key), net, float(ratio))
+    return dict(sorted(out.items()))
+
+
+def load_bench(path: Path | str) -> BenchConfig:
+    """Read and validate a bench file; ``ConfigError`` names the file, key and line."""
+    src = TomlSource.read(Path(path))
+    for key in src.data:
+        if key not in (*ROLES, "simulation"):
+            raise src.error(
+                (), key, "unknown table (expected scope, supply, thermometer, simulation)"
+            )
+    sim = src.data.get("simulation", {})
+    if not isinstance(sim, dict):
+        raise src.error((), "simulation", "must be a table [simulation]")
+    for key in sim:
+        if key != "enabled":
+            raise src.error(("simulation",), key, "unknown key (expected enabled)")
+    enabled = sim.get("enabled", False)
+    if not isinstance(enabled, bool):
+        raise src.error(("simulation",), "enabled", f"must be true or false, not {enabled!r}")
+    instruments = {role: _entry(src, role, enabled) for role in ROLES}
+    return BenchConfig(src.path, instruments, _channels(src), enabled)
+
+
+@dataclass
+class Bench:
+    """An open bench (use as a context manager, or call ``close``).
+
+    ``identities`` holds each instrument's ``*IDN?`` answer by role; ``profiles`` the profile
+    driving it; ``simulation`` the sim's control subsystem, only on a simulated bench.
+    """
+
+    config: BenchConfig
+    scope: Scope
+    supply: Supply
+    thermometer: Thermometer
+    identities: dict[str, str]
+    profiles: dict[str, Profile]
+    sessions: dict[str, InstrumentSession]
+    wiring: dict[int, ChannelWiring] = field(default_factory=dict)
+    simulation: SimulationControl | None = None
+
+    def channel_for(self, net: str) -> int:
+        """The scope channel whose probe sits on ``net`` now (``InputError`` if none)."""
+        for wiring in self.wiring.values():
+            if wiring.net == net:
+                return wiring.channel
+        raise InputError(f"no scope channel sees net {net!r} on this bench")
+
+    def note_probe_moved(self, channel: int, net: str) -> None:
+        """Record that the probe of ``channel`` now sits on ``net`` (the operator moved it)."""
+        if net not in NETS:
+            raise InputError(f"unknown net {net!r}: one of {', '.join(NETS)}")
+        old = self.wiring.get(channel)
+        for ch, w in list(self.wiring.items()):
+            if w.net == net and ch != channel:
+                del self.wiring[ch]  # a net is on one channel at a time
+        self.wiring[channel] = ChannelWiring(channel, net, old.probe_ratio if old else 1.0)
+
+    def close(self) -> None:
+        """Make the supply safe (output OFF, confirmed) and close every connection."""
+        from bringup.instruments.safety import make_safe
+
+        try:
+            make_safe(self.supply)
+        finally:
+            for session in self.sessions.values():
+                session.close()
+
+    def __enter__(self) -> Bench:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+
+def _profile_for(config: BenchConfig, role: str, profiles_dir: Path | None) -> Profile:
+    from bringup.instruments.profiles import find_profile
+
+    entry = config.instruments[role]
+    try:
+        profile = find_profile(entry.profile, profiles_dir)
+    except ConfigError as exc:
+        if exc.path == entry.profile:  # not found: say where it was asked for
+            src = TomlSource.read(config.path)
+            raise src.error(
+                (role,),
+                "profile",
+                exc.problem.replace("no profile of that name", f"no profile {entry.profile!r}"),
+            ) from None
+        raise
+    if profile.kind != role:
+        src = TomlSource.read(config.path)
+        raise src.error(
+            (role,), "profile", f"{entry.profile!r} is a {profile.kind} profile, not a {role} one"
+        )
+    return profile
+
+
+def open_bench(
+    config: BenchConfig,
+    *,
+    profiles_dir: Path | None = None,
+    make_safe_on_open: bool = True,
+    fast_reads: bool = True,
+) -> Bench:
+    """Connect every instrument of ``config``, check each ``*IDN?`` against its profile, clear
+    the error queues, set the probe ratios of the wired channels and (by default) make the
+    supply safe: output OFF, confirmed. On a simulated bench the sim's probes are placed as
+    the bench file wires them. Any failure closes what was opened."""
+    from bringup.instruments.scope import Scope
+    from bringup.instruments.supply import Supply
+    from bringup.instruments.thermometer import Thermometer
+    from bringup.instruments.visa import InstrumentSession
+
+    profiles = {role: _profile_for(config, role, profiles_dir) for role in ROLES}
+    sessions: dict[str, InstrumentSession] = {}
+    try:
+        identities = {}
+        for role in ROLES:
+            session = InstrumentSession(
+                role, config.instruments[role].resource, profiles[role], fast_reads=fast_reads
+            )
+            session.open()
+            sessions[role] = session
+            identities[role] = session.identify()
+            session.write(session.command_text("clear_status"))
+            session.check_errors(session.command_text("clear_status"))
+        bench = Bench(
+            config=config,
+            scope=Scope(sessions["scope"]),
+            supply=Supply(sessions["supply"]),
+            thermometer=Thermometer(sessions["thermometer"]),
+            identities=identities,
+            profiles=profiles,
+            sessions=sessions,
+            wiring=dict(config.channels),
+        )
+        if make_safe_on_open:
+            from bringup.instruments.safety import make_safe
+
+            make_safe(bench.supply)
+        for wiring in config.channels.values():
+            bench.scope.set_probe_ratio(wiring.channel, wiring.probe_ratio)
+        if config.simulated:
+            from bringup.instruments.simulation import SimulationControl
+
+            bench.simulation = SimulationControl(bench)
+            for wiring in config.channels.values():
+                bench.simulation.move_probe(wiring.channel, wiring.net)
+        return bench
+    except BaseException:
+        if "supply" in sessions and make_safe_on_open:
+            from bringup.instruments.safety import make_safe_quietly
+
+            make_safe_quietly(Supply(sessions["supply"]))
+        for session in sessions.values():
+            session.close()
+        raise
+
+
+def open_bench_file(path: Path | str, **options: Any) -> Bench:
+    """``open_bench(load_bench(path), **options)``."""
+    return open_bench(load_bench(path), **options)

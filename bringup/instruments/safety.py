@@ -1,0 +1,334 @@
+"""The one owner of the supply output: nothing else in ``bringup`` switches it ON or OFF.
+
+``energised(...)`` is a context manager. On entry it puts the supply in a known state (output
+OFF, confirmed), sets the current limit and the over-voltage protection and reads both back,
+sets the voltage, and only then turns the output ON. It turns the output OFF and confirms it
+on every way out: the end of the block, an exception (including ``KeyboardInterrupt``), SIGINT
+and SIGTERM (handlers switch off first, then raise ``KeyboardInterrupt`` / ``SystemExit``), a
+timeout or lost connection of any watched instrument, and interpreter exit. A SIGKILL or a
+power cut cannot be caught by software: rely on the supply's own protection for those.
+
+Above 60 V DC a hazard notice must be acknowledged before the output goes ON, above 120 V DC
+a stronger one (IEC 62368-1 energy classes ES1 <= 60 V DC, ES2 <= 120 V DC [memory]; defer to
+local electrical codes and the lab's licensed practice).
+"""
+
+from __future__ import annotations
+
+import atexit
+import enum
+import signal
+import threading
+from collections.abc import Iterable
+from dataclasses import dataclass
+from types import FrameType
+from typing import TYPE_CHECKING, Any
+
+from bringup.errors import BringupError, InputError
+from bringup.instruments import faults
+from bringup.instruments.supply import Regulation, Supply
+
+if TYPE_CHECKING:
+    from bringup.instruments.bench import Bench
+    from bringup.instruments.visa import InstrumentSession
+
+TOUCH_SAFE_LIMIT_V = 60.0
+STRONG_WARNING_V = 120.0
+
+
+class HazardLevel(enum.IntEnum):
+    """How hazardous a DC voltage is to touch (see the module doc for the limits)."""
+
+    NONE = 0
+    CAUTION = 1  # above 60 V DC
+    DANGER = 2  # above 120 V DC
+
+
+@dataclass(frozen=True)
+class HazardNotice:
+    """A notice the UI shows before a hazardous voltage is applied; ``text`` is one line."""
+
+    volts: float
+    level: HazardLevel
+    text: str
+
+
+def hazard_for(volts: float) -> HazardNotice | None:
+    """The notice for applying ``volts`` DC, or ``None`` at or below 60 V."""
+    v = abs(volts)
+    if v > STRONG_WARNING_V:
+        return HazardNotice(
+            volts,
+            HazardLevel.DANGER,
+            f"DANGER: {v:g} V DC is above 120 V DC: lethal shock hazard. Work only as your "
+            "local codes and your lab's licensed practice allow; no hands near the board while on.",
+        )
+    if v > TOUCH_SAFE_LIMIT_V:
+        return HazardNotice(
+            volts,
+            HazardLevel.CAUTION,
+            f"CAUTION: {v:g} V DC is above the usual 60 V DC touch-safe limit: shock hazard. "
+            "Defer to your local codes; do not touch the board while it is on.",
+        )
+    return None
+
+
+STORED_ENERGY_NOTE = (
+    "Output off; bus capacitors may stay charged: check they are discharged before touching."
+)
+
+
+class HazardNotAcknowledged(BringupError):
+    """The set voltage needs the operator's acknowledgement first; ``notice`` says what to show."""
+
+    def __init__(self, notice: HazardNotice):
+        self.notice = notice
+        super().__init__(f"{notice.text} (acknowledge {notice.level.name} to go on)")
+
+
+def make_safe(supply: Supply) -> None:
+    """Turn the output OFF and confirm it by reading the state back.
+
+    If the connection misbehaves, reconnect once and try again (switching off is always safe
+    to repeat). Errors in the instrument's queue do not stop the confirmation. Raises
+    ``ProtectionFault`` if the output cannot be confirmed OFF."""
+    session = supply.session
+    off = supply.profile.command("output", state=supply.profile.word("off"))
+    problems: list[str] = []
+    with session.lock:
+        for attempt in range(2):
+            try:
+                if attempt:
+                    session.reconnect()
+                try:
+                    supply._switch_output(False)
+                except faults.InstrumentError as exc:
+                    problems.append(exc.detail)  # an error queued earlier; check the state anyway
+                if not supply.output_is_on():
+                    return
+                problems.append("output still reports ON")
+            except faults.InstrumentFault as exc:
+                problems.append(exc.detail)
+    raise faults.ProtectionFault(
+        session.role, off, "output OFF not confirmed: " + "; ".join(problems)
+    )
+
+
+def make_safe_quietly(supply: Supply) -> str | None:
+    """``make_safe`` for last-resort paths: returns the fault message instead of raising."""
+    try:
+        make_safe(supply)
+    except BringupError as exc:
+        return str(exc)
+    return None
+
+
+class PoweredSupply:
+    """The supply while its output is ON, as handed out by ``energised``."""
+
+    def __init__(self, owner: Energised):
+        self._owner = owner
+        self.supply = owner.supply
+        self.notice = owner.notice
+
+    @property
+    def switched_off_because(self) -> faults.InstrumentFault | None:
+        """The fault of a watched instrument that made the output go OFF early, if any."""
+        return self._owner.tripped_by
+
+    @property
+    def volts(self) -> float:
+        """The voltage setpoint in force, volts."""
+        return self._owner.volts
+
+    def set_voltage(self, volts: float) -> None:
+        """Change the setpoint while ON (volts); it must stay within OVP and the acknowledged
+        hazard level."""
+        self._owner.check_voltage(volts)
+        self.supply.set_voltage(volts)
+        self._owner.volts = volts
+
+    def measure_voltage(self) -> float:
+        """Measured output voltage, volts."""
+        return self.supply.measure_voltage()
+
+    def measure_current(self) -> float:
+        """Measured output current, amperes."""
+        return self.supply.measure_current()
+
+    def regulation(self) -> Regulation:
+        """CV, CC, OVP tripped or off."""
+        return self.supply.regulation()
+
+    def output_is_on(self) -> bool:
+        """Whether the output is on (read back)."""
+        return self.supply.output_is_on()
+
+
+def _close_enough(read: float, wanted: float, rel: float) -> bool:
+    return abs(read - wanted) <= max(rel * abs(wanted), 1e-3)
+
+
+class Energised:
+    """Context manager that owns the output: see ``energised``."""
+
+    def __init__(
+        self,
+        supply: Supply,
+        *,
+        volts: float,
+        current_limit_a: float,
+        ovp_v: float,
+        acknowledged: HazardLevel = HazardLevel.NONE,
+        watch: Iterable[InstrumentSession] = (),
+        readback_tolerance: float = 0.005,
+    ):
+        self.supply = supply
+        self.volts = float(volts)
+        self.current_limit_a = float(current_limit_a)
+        self.ovp_v = float(ovp_v)
+        self.acknowledged = HazardLevel(acknowledged)
+        self.watch = [s for s in watch if s is not supply.session]
+        self.tolerance = readback_tolerance
+        self.notice = hazard_for(self.volts)
+        self.tripped_by: faults.InstrumentFault | None = None
+        self.cleared_trip = False  # True if a latched OVP trip was reset on entry
+        self._saved_handlers: dict[int, Any] = {}
+        self._off_lock = threading.Lock()
+
+    def check_voltage(self, volts: float) -> None:
+        """Refuse a setpoint above the OVP level or above the acknowledged hazard level."""
+        if volts < 0:
+            raise InputError(f"supply voltage must be >= 0 V, not {volts!r}")
+        if volts >= self.ovp_v:
+            raise InputError(
+                f"supply voltage {volts:g} V must be below the OVP level {self.ovp_v:g} V"
+            )
+        notice = hazard_for(volts)
+        if notice is not None and self.acknowledged < notice.level:
+            raise HazardNotAcknowledged(notice)
+
+    # -- entry ---------------------------------------------------------------------------
+    def __enter__(self) -> PoweredSupply:
+        self.check_voltage(self.volts)
+        if self.current_limit_a <= 0:
+            raise InputError(f"current limit must be above 0 A, not {self.current_limit_a!r}")
+        s = self.supply
+        make_safe(s)
+        try:
+            if s.ovp_tripped():
+                s.clear_ovp_trip()
+                self.cleared_trip = True
+            s.set_current_limit(self.current_limit_a)
+            s.set_ovp(self.ovp_v)
+            limit, ovp = s.current_limit(), s.ovp_level()
+            role, cmd = s.session.role, s.profile.command("current_limit")
+            if not _close_enough(limit, self.current_limit_a, self.tolerance):
+                raise faults.ProtectionFault(
+                    role, cmd, f"current limit reads {limit:g} A, set {self.current_limit_a:g} A"
+                )
+            if not _close_enough(ovp, self.ovp_v, self.tolerance):
+                raise faults.ProtectionFault(
+                    role,
+                    s.profile.command("ovp_level"),
+                    f"OVP reads {ovp:g} V, set {self.ovp_v:g} V",
+                )
+            s.set_voltage(self.volts)
+            setpoint = s.voltage_setpoint()
+            if not _close_enough(setpoint, self.volts, self.tolerance):
+                raise faults.ProtectionFault(
+                    role,
+                    s.profile.command("voltage_setpoint"),
+                    f"setpoint reads {setpoint:g} V, set {self.volts:g} V",
+                )
+            self._arm_guards()
+            s._switch_output(True)  # never retried: a failure here goes straight to OFF
+            if not s.output_is_on():
+                raise faults.ProtectionFault(
+                    role, s.profile.command("output_state"), "output did not turn ON"
+                )
+        except BaseException:
+            self._disarm_guards()
+            make_safe_quietly(s)
+            raise
+        return PoweredSupply(self)
+
+    # -- exit ----------------------------------------------------------------------------
+    def __exit__(self, exc_type: object, exc: BaseException | None, tb: object) -> None:
+        self._disarm_guards()
+        make_safe(self.supply)  # raises ProtectionFault if OFF cannot be confirmed
+
+    def switch_off_now(self) -> str | None:
+        """Turn the output OFF from any thread (guards call this); returns a problem or None."""
+        if not self._off_lock.acquire(blocking=False):
+            return None  # already switching off (a fault seen while switching off)
+        try:
+            return make_safe_quietly(self.supply)
+        finally:
+            self._off_lock.release()
+
+    # -- guards: signals, other instruments, interpreter exit -----------------------------
+    def _on_fault(self, fault: faults.InstrumentFault) -> None:
+        if isinstance(fault, faults.ConnectionLost | faults.InstrumentTimeout):
+            if self.tripped_by is None:
+                self.tripped_by = fault
+            self.switch_off_now()
+
+    def _on_signal(self, signum: int, frame: FrameType | None) -> None:
+        self.switch_off_now()
+        previous = self._saved_handlers.get(signum)
+        if callable(previous) and previous is not signal.default_int_handler:
+            previous(signum, frame)
+            return
+        if signum == signal.SIGINT:
+            raise KeyboardInterrupt
+        raise SystemExit(128 + signum)
+
+    def _arm_guards(self) -> None:
+        for session in self.watch:
+            session.add_fault_listener(self._on_fault)
+        self.supply.session.add_fault_listener(self._on_fault)
+        atexit.register(self.switch_off_now)
+        if threading.current_thread() is threading.main_thread():
+            for signum in (signal.SIGINT, signal.SIGTERM):
+                self._saved_handlers[signum] = signal.signal(signum, self._on_signal)
+
+    def _disarm_guards(self) -> None:
+        for signum, previous in self._saved_handlers.items():
+            signal.signal(signum, previous if previous is not None else signal.SIG_DFL)
+        self._saved_handlers.clear()
+        atexit.unregister(self.switch_off_now)
+        for session in (*self.watch, self.supply.session):
+            session.remove_fault_listener(self._on_fault)
+
+
+def energised(
+    target: Bench | Supply,
+    *,
+    volts: float,
+    current_limit_a: float,
+    ovp_v: float,
+    acknowledged: HazardLevel = HazardLevel.NONE,
+    readback_tolerance: float = 0.005,
+) -> Energised:
+    """``with energised(bench, volts=24, current_limit_a=2, ovp_v=27) as powered: ...``
+
+    ``target`` is a ``Bench`` (every other instrument of it is watched: its timeout or lost
+    connection switches the output off at once) or a bare ``Supply``. ``volts`` is the
+    setpoint (V), ``current_limit_a`` the current limit (A), ``ovp_v`` the over-voltage trip
+    (V, above ``volts``). Above 60 V DC raises ``HazardNotAcknowledged`` (with the notice to
+    show) unless ``acknowledged`` is at least the notice's level. Read-backs must agree within
+    ``readback_tolerance`` (relative, at least 1 mV / 1 mA)."""
+    if isinstance(target, Supply):
+        supply, watch = target, []
+    else:
+        supply, watch = target.supply, list(target.sessions.values())
+    return Energised(
+        supply,
+        volts=volts,
+        current_limit_a=current_limit_a,
+        ovp_v=ovp_v,
+        acknowledged=acknowledged,
+        watch=watch,
+        readback_tolerance=readback_tolerance,
+    )

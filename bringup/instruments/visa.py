@@ -1,0 +1,354 @@
+"""The session layer: one PyVISA connection per instrument, its lock, and its faults.
+
+- One ``pyvisa.ResourceManager("@py")`` per process (``resource_manager()``), closed last.
+- Resources are opened by their explicit resource string with the profile's read and write
+  termination and timeouts in milliseconds. Resource listing (which broadcasts on the LAN)
+  lives only in ``discover_resources`` and runs only when a user asks for it.
+- A lock per instrument: PyVISA is not safe for concurrent queries on one resource.
+- Replies are read through a wire (``bringup.instruments.wire``); binary blocks are read
+  header first, then exactly the announced bytes in large pieces, then the terminator, so the
+  next reply is never shifted by a stray newline.
+- After each configuration step the error queue (``SYSTem:ERRor?``) is read until empty.
+- Queries that are safe to repeat are retried once after a reconnect when the reply timed out
+  or the connection dropped; commands that change state are never sent twice.
+"""
+
+from __future__ import annotations
+
+import threading
+import time
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from bringup.instruments import faults
+from bringup.instruments.profiles import Profile
+from bringup.instruments.wire import (
+    BlockSyntax,
+    ResourceWire,
+    SocketWire,
+    WireClosed,
+    WireTimeout,
+    read_block,
+)
+
+_RM: Any = None
+_RM_LOCK = threading.Lock()
+# SCPI-99: +INF is 9.9E37, NaN 9.91E37; instruments answer them when they cannot measure.
+SCPI_NO_VALUE = 9.9e37
+MAX_ERRORS_DRAINED = 64
+
+
+def resource_manager() -> Any:
+    """The process's one ``pyvisa.ResourceManager("@py")`` (pyvisa-py backend)."""
+    global _RM
+    with _RM_LOCK:
+        if _RM is None:
+            import pyvisa
+
+            _RM = pyvisa.ResourceManager("@py")
+        return _RM
+
+
+def close_resource_manager() -> None:
+    """Close the process's resource manager (after every session is closed)."""
+    global _RM
+    with _RM_LOCK:
+        if _RM is not None:
+            _RM.close()
+            _RM = None
+
+
+def discover_resources() -> tuple[str, ...]:
+    """VISA resource listing. It sends broadcast traffic beyond this machine: call it only
+    when a user explicitly asks (``bringup instruments --discover``), never in tests or CI."""
+    return tuple(resource_manager().list_resources())
+
+
+def _decode(role: str, command: str, raw: bytes) -> str:
+    try:
+        return raw.decode("ascii").strip()
+    except UnicodeDecodeError:
+        raise faults.GarbageReply(role, command, f"not text: {raw[:40]!r}") from None
+
+
+class InstrumentSession:
+    """One instrument's connection. ``role`` names it in faults (``scope``, ``supply``...).
+
+    ``fast_reads`` picks the direct socket wire when the backend session allows it (pyvisa-py
+    SOCKET resources); otherwise, or with ``fast_reads=False``, the public resource API.
+    """
+
+    def __init__(self, role: str, resource: str, profile: Profile, *, fast_reads: bool = True):
+        self.role = role
+        self.resource_name = resource
+        self.profile = profile
+        self.fast_reads = fast_reads
+        self.reconnects = 0  # how many times the connection was re-opened after a fault
+        self.retries = 0  # how many safe queries were sent a second time
+        self._lock = threading.RLock()
+        self._resource: Any = None
+        self._wire: SocketWire | ResourceWire | None = None
+        self._broken = False
+        self._term = profile.read_termination.encode("ascii")
+        self._fault_listeners: list[Callable[[faults.InstrumentFault], None]] = []
+        self.closed = True
+
+    @property
+    def lock(self) -> threading.RLock:
+        """The instrument's lock: hold it to run several exchanges without interleaving."""
+        return self._lock
+
+    # -- connection ----------------------------------------------------------------------
+    def open(self) -> None:
+        """Open the resource (no traffic yet); a refused connection is ``ConnectionLost``."""
+        with self._lock:
+            self._open()
+            self.closed = False
+
+    def _open(self) -> None:
+        rm = resource_manager()
+        p = self.profile
+        try:
+            res = rm.open_resource(
+                self.resource_name,
+                read_termination=p.read_termination,
+                write_termination=p.write_termination,
+                timeout=p.default_timeout_ms,
+                open_timeout=p.default_timeout_ms,
+            )
+        except Exception as exc:  # the backends raise plain Exception for refused connects
+            raise faults.ConnectionLost(
+                self.role, None, f"cannot open {self.resource_name}: {exc}"
+            ) from None
+        chunk = p.block.chunk_bytes if p.block else 1 << 20
+        backend = getattr(rm.visalib, "sessions", {}).get(res.session)
+        if self.fast_reads and SocketWire.fits(backend):
+            wire: SocketWire | ResourceWire = SocketWire(backend, chunk)
+            if wire.connect_error():
+                res.close()
+                raise faults.ConnectionLost(
+                    self.role, None, f"cannot open {self.resource_name}: connection refused"
+                )
+        else:
+            wire = ResourceWire(res, chunk)
+        self._resource, self._wire, self._broken = res, wire, False
+
+    def _drop(self) -> None:
+        if self._resource is not None:
+            try:
+                self._resource.close()
+            except Exception:  # closing a dead connection may fail; it is gone either way
+                pass
+        self._resource = None
+        self._wire = None
+
+    def reconnect(self) -> None:
+        """Close and re-open the connection (discards any late or partial reply)."""
+        with self._lock:
+            self._drop()
+            self._open()
+            self.reconnects += 1
+
+    def close(self) -> None:
+        """Close the connection; safe to call twice."""
+        with self._lock:
+            self._drop()
+            self.closed = True
+
+    def add_fault_listener(self, listener: Callable[[faults.InstrumentFault], None]) -> None:
+        """Call ``listener(fault)`` whenever this instrument times out or its connection is
+        lost for good (after any retry). The safe-state owner uses it to switch off."""
+        self._fault_listeners.append(listener)
+
+    def remove_fault_listener(self, listener: Callable[[faults.InstrumentFault], None]) -> None:
+        if listener in self._fault_listeners:
+            self._fault_listeners.remove(listener)
+
+    def _ready(self) -> SocketWire | ResourceWire:
+        if self.closed:
+            raise faults.ConnectionLost(self.role, None, "session is closed")
+        if self._broken or self._wire is None:
+            self.reconnect()
+        assert self._wire is not None
+        return self._wire
+
+    # -- exchanges -----------------------------------------------------------------------
+    def _write(self, command: str) -> None:
+        try:
+            self._resource.write(command)
+        except Exception as exc:  # OSError from the socket, VisaIOError from the backend
+            self._broken = True
+            raise faults.ConnectionLost(self.role, command, f"cannot send: {exc}") from None
+
+    def _exchange(
+        self, command: str, timeout_ms: int, read: Callable[[Any, float], Any], repeatable: bool
+    ) -> Any:
+        with self._lock:
+            attempts = 2 if repeatable else 1
+            for attempt in range(attempts):
+                try:
+                    wire = self._ready()
+                    self._write(command)
+                    return read(wire, time.monotonic() + timeout_ms / 1000)
+                except (WireTimeout, WireClosed, faults.ConnectionLost) as exc:
+                    self._broken = True
+                    fault = self._transport_fault(command, exc, timeout_ms)
+                    if isinstance(fault, faults.TruncatedBlock) or attempt + 1 == attempts:
+                        if not isinstance(fault, faults.TruncatedBlock):
+                            self._tell(fault)
+                        raise fault from None
+                    self.retries += 1
+                except BlockSyntax as exc:
+                    self._broken = True
+                    raise faults.GarbageReply(
+                        self.role, command, f"expected a #-block, got {exc.head[:40]!r}"
+                    ) from None
+        raise AssertionError("unreachable")
+
+    def _transport_fault(
+        self, command: str, exc: Exception, timeout_ms: int
+    ) -> faults.InstrumentFault:
+        if isinstance(exc, faults.InstrumentFault):
+            return exc
+        expected = getattr(exc, "expected", None)
+        received = getattr(exc, "received", 0)
+        if expected is not None and isinstance(exc, WireTimeout):
+            return faults.TruncatedBlock(
+                self.role,
+                command,
+                f"{received} of {expected} announced bytes arrived, then nothing",
+            )
+        if isinstance(exc, WireClosed):
+            part = f" after {received} of {expected} block bytes" if expected is not None else ""
+            return faults.ConnectionLost(
+                self.role, command, f"the instrument closed the connection{part}"
+            )
+        return faults.InstrumentTimeout(self.role, command, f"nothing within {timeout_ms} ms")
+
+    def _tell(self, fault: faults.InstrumentFault) -> None:
+        for listener in list(self._fault_listeners):
+            try:
+                listener(fault)
+            except Exception:  # a listener must not hide the fault it was told about
+                pass
+
+    def write(self, command: str) -> None:
+        """Send a command that changes state. Never retried: it may have taken effect."""
+        with self._lock:
+            self._ready()
+            self._write(command)
+
+    def query(self, command: str, *, timeout_ms: int | None = None, repeatable: bool = True) -> str:
+        """Send ``command`` and return its one-line reply as text (terminator removed)."""
+        ms = timeout_ms or self.profile.default_timeout_ms
+        raw = self._exchange(command, ms, lambda w, d: w.read_line(self._term, d), repeatable)
+        return _decode(self.role, command, raw)
+
+    def query_number(
+        self, command: str, *, timeout_ms: int | None = None, repeatable: bool = True
+    ) -> float:
+        """A numeric reply as float; 9.9E37-class answers raise ``Overrange``."""
+        text = self.query(command, timeout_ms=timeout_ms, repeatable=repeatable)
+        try:
+            value = float(text)
+        except ValueError:
+            raise faults.GarbageReply(self.role, command, f"not a number: {text[:40]!r}") from None
+        if abs(value) >= SCPI_NO_VALUE * 0.999 or value != value:
+            raise faults.Overrange(self.role, command, f"answered {text!r}")
+        return value
+
+    def query_block(self, command: str, dtype: str, *, timeout_ms: int | None = None) -> np.ndarray:
+        """A binary block reply as a native-byte-order numpy array of ``dtype`` (``>i2``...).
+
+        Safe to repeat (the instrument keeps its last record), so retried once after a
+        reconnect if nothing arrived in time or the connection dropped.
+        """
+        ms = timeout_ms or self.profile.default_timeout_ms
+        kind = np.dtype(dtype)
+        # a block that stops flowing for the default timeout is cut short, whatever its total
+        stall_s = self.profile.default_timeout_ms / 1000
+
+        def read(wire: Any, deadline: float) -> np.ndarray:
+            return read_block(wire, self._term, kind.itemsize, deadline, stall_s)
+
+        raw = self._exchange(command, ms, read, True)
+        if raw.size % kind.itemsize:
+            raise faults.GarbageReply(
+                self.role,
+                command,
+                f"block of {raw.size} bytes is not whole {kind.itemsize}-byte codes",
+            )
+        codes = raw.view(kind)
+        if not kind.isnative:
+            # the buffer is ours alone: swap in place, then call it native
+            codes = codes.byteswap(inplace=True).view(kind.newbyteorder("="))
+        return codes
+
+    # -- profile operations --------------------------------------------------------------
+    def command_text(self, operation: str, **fields: Any) -> str:
+        return self.profile.command(operation, **fields)
+
+    def ask(self, operation: str, *, repeatable: bool = True, **fields: Any) -> str:
+        """Run a query operation of the profile and return its reply text."""
+        return self.query(
+            self.command_text(operation, **fields),
+            timeout_ms=self.profile.timeout_ms(operation),
+            repeatable=repeatable,
+        )
+
+    def ask_number(self, operation: str, *, repeatable: bool = True, **fields: Any) -> float:
+        """Run a numeric query operation of the profile (``Overrange`` on 9.9E37)."""
+        return self.query_number(
+            self.command_text(operation, **fields),
+            timeout_ms=self.profile.timeout_ms(operation),
+            repeatable=repeatable,
+        )
+
+    def configure(self, operation: str, **fields: Any) -> str:
+        """Send a configuration command, then drain the error queue; returns the text sent."""
+        command = self.command_text(operation, **fields)
+        with self._lock:
+            self.write(command)
+            self.check_errors(command)
+        return command
+
+    def check_errors(self, after: str | None) -> None:
+        """Read ``SYSTem:ERRor?`` until it answers code 0; any entry raises ``InstrumentError``
+        naming the command ``after`` which it followed (the first entry; the rest counted)."""
+        query = self.command_text("error_query")
+        found: list[tuple[int, str]] = []
+        with self._lock:
+            for _ in range(MAX_ERRORS_DRAINED):
+                # Not repeatable: each read removes the entry it reports.
+                reply = self.query(
+                    query, timeout_ms=self.profile.timeout_ms("error_query"), repeatable=False
+                )
+                code_text, _, message = reply.partition(",")
+                try:
+                    code = int(code_text.strip().lstrip("+"))
+                except ValueError:
+                    raise faults.GarbageReply(
+                        self.role, query, f"not an error-queue entry: {reply[:40]!r}"
+                    ) from None
+                if code == 0:
+                    break
+                found.append((code, message.strip().strip('"')))
+        if found:
+            code, text = found[0]
+            more = f" (and {len(found) - 1} more)" if len(found) > 1 else ""
+            raise faults.InstrumentError(self.role, after, code, text + more)
+
+    def identify(self) -> str:
+        """``*IDN?`` of the instrument, checked against the profile's identity pattern."""
+        command = self.command_text("identify")
+        identity = self.ask("identify")
+        if not self.profile.matches(identity):
+            raise faults.UnexpectedIdentity(
+                self.role,
+                command,
+                f"{identity[:72]!r} does not match profile {self.profile.name!r} "
+                f"(pattern {self.profile.identity.pattern!r})",
+            )
+        return identity
