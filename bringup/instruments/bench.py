@@ -256,7 +256,7 @@ class Bench:
         self.close()
 
 
-def _profile_for(config: BenchConfig, role: str, profiles_dir: Path | None) -> Profile:
+def profile_for_role(config: BenchConfig, role: str, profiles_dir: Path | None) -> Profile:
     from bringup.instruments.profiles import find_profile
 
     entry = config.instruments[role]
@@ -295,7 +295,7 @@ def open_bench(
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
 
-    profiles = {role: _profile_for(config, role, profiles_dir) for role in ROLES}
+    profiles = {role: profile_for_role(config, role, profiles_dir) for role in ROLES}
     sessions: dict[str, InstrumentSession] = {}
     try:
         identities = {}

@@ -131,6 +131,7 @@ class InstrumentSession:
                 raise faults.ConnectionLost(
                     self.role, None, f"cannot open {self.resource_name}: connection refused"
                 )
+            wire.no_delay()
         else:
             wire = ResourceWire(res, chunk)
         self._resource, self._wire, self._broken = res, wire, False

@@ -83,6 +83,11 @@ class SocketWire:
     def _pending(self) -> bytearray:
         return self._session._pending_buffer
 
+    def no_delay(self) -> None:
+        """Send small commands at once (TCP_NODELAY): otherwise a command followed by its
+        error query waits for the delayed ACK of the first, tens of ms per step."""
+        self._sock.setsockopt(socket.IPPROTO_TCP, socket.TCP_NODELAY, 1)
+
     def connect_error(self) -> int:
         """The socket's pending error (``SO_ERROR``): non-zero when the connect was refused."""
         return self._sock.getsockopt(socket.SOL_SOCKET, socket.SO_ERROR)
