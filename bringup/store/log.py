@@ -40,33 +40,22 @@ from typing import Any
 import sqlite_utils
 
 from bringup.store import chain
-from bringup.store.canonical import dumps, loads, now_utc, to_plain
-from bringup.store.chain import ChainReport
+from bringup.store.canonical import dumps, now_utc, to_plain
 from bringup.store.content import (
-    WAVEFORM_SCALE_COLUMNS,
     attempt_content,
-    attempt_content_from_rows,
-    attempt_record,
-    event_content_from_row,
-    event_record,
     metric_rows,
     required,
-    signature_record,
     time_text,
 )
 from bringup.store.entries import (
     ATTEMPT_OUTCOMES,
     EVENT_KINDS,
     FAILED_OUTCOMES,
-    AttemptRecord,
-    EventRecord,
-    SessionData,
-    SessionSummary,
-    SignatureRecord,
 )
 from bringup.store.errors import StoreError
 from bringup.store.opening import connect, default_db_path, translate
-from bringup.store.waveforms import StoredWaveform, codes_digest, decode_codes, encode_waveform
+from bringup.store.reading import LogReading
+from bringup.store.waveforms import StoredWaveform, encode_waveform
 
 __all__ = ["SessionLog"]
 
@@ -74,7 +63,7 @@ __all__ = ["SessionLog"]
 _ID_ALPHABET = "23456789abcdefghjkmnpqrstuvwxyz"
 
 
-class SessionLog:
+class SessionLog(LogReading):
     """The bench log in one SQLite file. Create with :meth:`open`; close with :meth:`close`."""
 
     def __init__(self, conn: sqlite3.Connection, path: Path) -> None:
@@ -133,22 +122,6 @@ class SessionLog:
                 if isinstance(error, sqlite3.Error):
                     raise translate(error, self._path) from None
                 raise
-
-    @contextlib.contextmanager
-    def _read(self) -> Iterator[None]:
-        """A consistent snapshot for reads (one deferred transaction)."""
-        with self._lock:
-            try:
-                self._conn.execute("BEGIN")
-                try:
-                    yield
-                finally:
-                    self._conn.execute("COMMIT")
-            except sqlite3.Error as error:
-                raise translate(error, self._path) from None
-
-    def _rows(self, sql: str, params: tuple | list = ()) -> list[dict[str, Any]]:
-        return list(self._db.query(sql, params))
 
     # ---------------------------------------------------------------- sessions
     def create_session(
@@ -227,29 +200,6 @@ class SessionLog:
                 return candidate
         raise StoreError(f"{self._path}: could not find a free session id for {day}")
 
-    def resolve_session(self, text: str) -> str:
-        """The full id of the session named by ``text`` (a whole id or a unique prefix)."""
-        text = (text or "").strip()
-        with self._read():
-            exact = self._rows("SELECT id FROM sessions WHERE id = ?", [text])
-            if exact:
-                return exact[0]["id"]
-            like = text.replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_") + "%"
-            found = self._rows("SELECT id FROM sessions WHERE id LIKE ? ESCAPE '\\'", [like])
-        if len(found) == 1 and text:
-            return found[0]["id"]
-        if not found:
-            raise StoreError(f"{self._path}: no session {text!r} in this log")
-        raise StoreError(
-            f"{self._path}: {text!r} matches {len(found)} sessions; type more of the id"
-        )
-
-    def _session_row(self, session_id: str) -> dict[str, Any]:
-        rows = self._rows("SELECT * FROM sessions WHERE id = ?", [session_id])
-        if not rows:
-            raise StoreError(f"{self._path}: no session {session_id!r} in this log")
-        return rows[0]
-
     def set_session_state(
         self,
         session_id: str,
@@ -272,15 +222,6 @@ class SessionLog:
             self._db["sessions"].update(session_id, changes)
 
     # ----------------------------------------------------------------- entries
-    def _chain_tail(self, session_id: str, genesis: str) -> tuple[int, str]:
-        last = self._rows(
-            "SELECT seq, chain_hash FROM attempts WHERE session_id = ? "
-            "UNION ALL SELECT seq, chain_hash FROM events WHERE session_id = ? "
-            "ORDER BY seq DESC LIMIT 1",
-            [session_id, session_id],
-        )
-        return (last[0]["seq"], last[0]["chain_hash"]) if last else (0, genesis)
-
     def record_attempt(
         self,
         session_id: str,
@@ -518,199 +459,6 @@ class SessionLog:
             self._db["sessions"].update(session_id, changes)
         return int(event_id)
 
-    # ---------------------------------------------------------------- reading
-    def _latest_outcomes_locked(self, session_id: str) -> dict[tuple[str, str], str]:
-        rows = self._rows(
-            "SELECT seq, stage_id, step_id, outcome FROM attempts WHERE session_id = ? "
-            "UNION ALL SELECT seq, stage_id, step_id, "
-            "CASE kind WHEN 'skip' THEN 'skipped' ELSE 'waived' END FROM events "
-            "WHERE session_id = ? AND kind IN ('skip', 'waive') ORDER BY seq",
-            [session_id, session_id],
-        )
-        return {(row["stage_id"], row["step_id"]): row["outcome"] for row in rows}
-
-    def latest_outcomes(self, session_id: str) -> dict[tuple[str, str], str]:
-        """``{(stage_id, step_id): outcome}`` of each step's latest entry, in first-seen order.
-
-        The outcome is the latest attempt's (``ATTEMPT_OUTCOMES``) or ``"skipped"``/``"waived"``
-        when a skip or waive came after it. Steps never attempted are absent.
-        """
-        with self._read():
-            self._session_row(session_id)
-            return self._latest_outcomes_locked(session_id)
-
-    def _summary(self, row: dict[str, Any]) -> SessionSummary:
-        latest = self._latest_outcomes_locked(row["id"])
-        progress: dict[str, int] = {}
-        for outcome in latest.values():
-            progress[outcome] = progress.get(outcome, 0) + 1
-        attempts = self._rows(
-            "SELECT count(*) AS n FROM attempts WHERE session_id = ?", [row["id"]]
-        )
-        return SessionSummary(
-            id=row["id"],
-            created_utc=row["created_utc"],
-            board_name=row["board_name"],
-            board_revision=row["board_revision"],
-            serial=row["serial"],
-            operator=row["operator"],
-            checklist_id=row["checklist_id"],
-            state=row["state"],
-            verdict=row["verdict"],
-            stage_verdicts=loads(row["stage_verdicts_json"]),
-            progress=progress,
-            steps_total=_count_steps(loads(row["checklist_json"])),
-            attempts=attempts[0]["n"],
-            last_activity_utc=row["last_activity_utc"],
-        )
-
-    def sessions(self) -> list[SessionSummary]:
-        """Every session, most recent activity first."""
-        with self._read():
-            rows = self._rows("SELECT * FROM sessions ORDER BY last_activity_utc DESC, id")
-            return [self._summary(row) for row in rows]
-
-    def _waveform_descriptions(self, attempt_id: int) -> dict[str, dict[str, Any]]:
-        columns = ", ".join((*WAVEFORM_SCALE_COLUMNS, "raw_sha256", "codec", "stored_bytes"))
-        rows = self._rows(
-            f"SELECT name, {columns} FROM waveforms WHERE attempt_id = ? ORDER BY name",
-            [attempt_id],
-        )
-        return {row.pop("name"): row for row in rows}
-
-    def attempts(
-        self, session_id: str, stage_id: str | None = None, step_id: str | None = None
-    ) -> list[AttemptRecord]:
-        """The session's attempts in logged order, optionally of one stage or one step."""
-        where, params = "session_id = ?", [session_id]
-        if stage_id is not None:
-            where, params = where + " AND stage_id = ?", [*params, stage_id]
-        if step_id is not None:
-            where, params = where + " AND step_id = ?", [*params, step_id]
-        with self._read():
-            self._session_row(session_id)
-            rows = self._rows(f"SELECT * FROM attempts WHERE {where} ORDER BY seq", params)
-            return [attempt_record(row, self._waveform_descriptions(row["id"])) for row in rows]
-
-    def events(self, session_id: str) -> list[EventRecord]:
-        """The session's events in logged order."""
-        with self._read():
-            self._session_row(session_id)
-            rows = self._rows(
-                "SELECT * FROM events WHERE session_id = ? ORDER BY seq", [session_id]
-            )
-            return [event_record(row) for row in rows]
-
-    def session(self, session_id: str) -> SessionData:
-        """The session's snapshots, summary, attempts, events and signatures."""
-        with self._read():
-            row = self._session_row(session_id)
-            return SessionData(
-                summary=self._summary(row),
-                board=loads(row["board_json"]),
-                checklist=loads(row["checklist_json"]),
-                bench=loads(row["bench_json"]),
-                genesis_hash=row["genesis_hash"],
-                attempts=self.attempts(session_id),
-                events=self.events(session_id),
-                signatures=self.signatures(session_id),
-            )
-
-    def load_waveform(self, attempt_id: int, name: str) -> StoredWaveform:
-        """The waveform ``name`` of attempt ``attempt_id``: codes exactly as stored, and scale."""
-        with self._read():
-            rows = self._rows(
-                "SELECT * FROM waveforms WHERE attempt_id = ? AND name = ?", [attempt_id, name]
-            )
-        if not rows:
-            raise StoreError(f"{self._path}: attempt {attempt_id} has no waveform {name!r}")
-        row = rows[0]
-        try:
-            codes = decode_codes(bytes(row["data"]), row["codec"], row["dtype"], row["points"])
-        except ValueError as error:
-            raise StoreError(
-                f"{self._path}: waveform {name!r} of attempt {attempt_id}: {error}"
-            ) from None
-        return StoredWaveform(
-            codes=codes,
-            x_increment=row["x_increment"],
-            x_origin=row["x_origin"],
-            y_increment=row["y_increment"],
-            y_origin=row["y_origin"],
-            y_unit=row["y_unit"],
-            x_unit=row["x_unit"],
-        )
-
-    # ------------------------------------------------------------- the chain
-    def chain_head(self, session_id: str) -> str:
-        """The last stored chain hash of the session (its genesis hash before any entry)."""
-        with self._read():
-            session = self._session_row(session_id)
-            return self._chain_tail(session_id, session["genesis_hash"])[1]
-
-    def verify_chain(self, session_id: str) -> ChainReport:
-        """Re-hash every entry of the session (waveforms decoded and re-digested) and check links.
-
-        Returns a ``ChainReport``; it never raises for a mismatch (only for an unknown session
-        or an unreadable file).
-        """
-        with self._read():
-            session = self._session_row(session_id)
-            genesis_content = {
-                "kind": "session",
-                "id": session["id"],
-                "created_utc": session["created_utc"],
-                "serial": session["serial"],
-                "operator": session["operator"],
-                "board_name": session["board_name"],
-                "board_revision": session["board_revision"],
-                "checklist_id": session["checklist_id"],
-                "board": loads(session["board_json"]),
-                "checklist": loads(session["checklist_json"]),
-                "bench": loads(session["bench_json"]),
-            }
-            entries: list[chain.ChainEntry] = []
-            for row in self._rows("SELECT * FROM attempts WHERE session_id = ?", [session_id]):
-                metrics = self._rows("SELECT * FROM metrics WHERE attempt_id = ?", [row["id"]])
-                waveforms = {}
-                for wave in self._rows("SELECT * FROM waveforms WHERE attempt_id = ?", [row["id"]]):
-                    description = {key: wave[key] for key in WAVEFORM_SCALE_COLUMNS}
-                    try:
-                        codes = decode_codes(
-                            bytes(wave["data"]), wave["codec"], wave["dtype"], wave["points"]
-                        )
-                        description["raw_sha256"] = codes_digest(codes)
-                    except ValueError as error:
-                        description["raw_sha256"] = f"unreadable: {error}"
-                    waveforms[wave["name"]] = description
-                entries.append(
-                    chain.ChainEntry(
-                        "attempts",
-                        row["id"],
-                        row["seq"],
-                        attempt_content_from_rows(row, metrics, waveforms),
-                        loads(row["field_hashes_json"]),
-                        row["content_hash"],
-                        row["chain_hash"],
-                    )  # fmt: skip
-                )
-            for row in self._rows("SELECT * FROM events WHERE session_id = ?", [session_id]):
-                entries.append(
-                    chain.ChainEntry(
-                        "events",
-                        row["id"],
-                        row["seq"],
-                        event_content_from_row(row),
-                        loads(row["field_hashes_json"]),
-                        row["content_hash"],
-                        row["chain_hash"],
-                    )  # fmt: skip
-                )
-        return chain.check_chain(
-            session_id, session["genesis_hash"], chain.genesis_hash(genesis_content), entries
-        )
-
-    # ------------------------------------------------------------ signatures
     def add_signature(
         self,
         session_id: str,
@@ -754,19 +502,3 @@ class SessionLog:
                 .last_pk
             )
         return int(row_id)
-
-    def signatures(self, session_id: str) -> list[SignatureRecord]:
-        """The session's sign-offs in the order they were added."""
-        with self._read():
-            rows = self._rows(
-                "SELECT * FROM signatures WHERE session_id = ? ORDER BY id", [session_id]
-            )
-            return [signature_record(row) for row in rows]
-
-
-def _count_steps(checklist: Any) -> int | None:
-    """Number of steps in a checklist snapshot shaped ``{"stages": [{"steps": [...]}, ...]}``."""
-    stages = checklist.get("stages") if isinstance(checklist, dict) else None
-    if not isinstance(stages, list):
-        return None
-    return sum(len(stage.get("steps") or []) for stage in stages if isinstance(stage, dict))

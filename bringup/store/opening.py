@@ -19,7 +19,7 @@ import sqlite3
 from pathlib import Path
 
 from bringup.store.errors import StoreError
-from bringup.store.schema import APPLICATION_ID, CURRENT_VERSION, migrate
+from bringup.store.schema import APPLICATION_ID, current_version, migrate
 
 __all__ = ["default_db_path", "connect", "translate"]
 
@@ -108,12 +108,13 @@ def _prepare(conn: sqlite3.Connection, path: Path) -> None:
     tables = conn.execute("SELECT count(*) FROM sqlite_master").fetchone()[0]
     version = conn.execute("PRAGMA user_version").fetchone()[0]
     app_id = conn.execute("PRAGMA application_id").fetchone()[0]
+    newest = current_version()
     if tables and app_id != APPLICATION_ID:
         raise StoreError(f"{path}: a SQLite database but not a bringup log; it was left untouched")
-    if version > CURRENT_VERSION:
+    if version > newest:
         raise StoreError(
             f"{path}: written by a newer bringup (log schema {version}; this one reads up to "
-            f"{CURRENT_VERSION}); it was left untouched: upgrade bringup to open it"
+            f"{newest}); it was left untouched: upgrade bringup to open it"
         )
     if tables == 0:
         conn.execute(f"PRAGMA page_size = {_PAGE_SIZE}")
@@ -128,10 +129,16 @@ def _prepare(conn: sqlite3.Connection, path: Path) -> None:
         current = conn.execute("PRAGMA user_version").fetchone()[
             0
         ]  # another process may have migrated
-        if current > CURRENT_VERSION:
+        if current > newest:
             raise StoreError(f"{path}: written by a newer bringup (log schema {current})")
-        if current < CURRENT_VERSION:
-            migrate(conn, current)
+        if current < newest:
+            try:
+                migrate(conn, current)
+            except sqlite3.Error as error:
+                raise StoreError(
+                    f"{path}: upgrading the log from schema {current} to {newest} failed "
+                    f"({str(error).strip()}); it was left at schema {current}"
+                ) from None
         conn.execute("COMMIT")
     except BaseException:
         conn.execute("ROLLBACK")

@@ -26,7 +26,7 @@ from __future__ import annotations
 import sqlite3
 from collections.abc import Callable
 
-__all__ = ["APPLICATION_ID", "CURRENT_VERSION", "MIGRATIONS", "migrate"]
+__all__ = ["APPLICATION_ID", "CURRENT_VERSION", "MIGRATIONS", "current_version", "migrate"]
 
 #: ``PRAGMA application_id`` of a bringup log: the ASCII bytes "BRGL".
 APPLICATION_ID = 0x4252474C
@@ -141,6 +141,17 @@ def _to_version_1(conn: sqlite3.Connection) -> None:
                 f"CREATE TRIGGER {table}_no_{action.lower()} BEFORE {action} ON {table} "
                 f"BEGIN SELECT RAISE(ABORT, '{table} are append-only: nothing logged is changed'); END"
             )
+    # A session's snapshot is the chain's genesis: it never changes either; only the cached
+    # state, verdicts and last-activity columns may be updated.
+    statements.append(
+        "CREATE TRIGGER sessions_snapshot_fixed BEFORE UPDATE OF id, created_utc, serial, operator, "
+        "board_name, board_revision, checklist_id, board_json, checklist_json, bench_json, "
+        "genesis_hash ON sessions BEGIN SELECT RAISE(ABORT, 'a session snapshot is never changed'); END"
+    )
+    statements.append(
+        "CREATE TRIGGER sessions_no_delete BEFORE DELETE ON sessions "
+        "BEGIN SELECT RAISE(ABORT, 'sessions are append-only: nothing logged is changed'); END"
+    )
     for sql in statements:
         conn.execute(sql)
 
@@ -150,13 +161,19 @@ MIGRATIONS: list[Callable[[sqlite3.Connection], None]] = [_to_version_1]
 CURRENT_VERSION = len(MIGRATIONS)
 
 
+def current_version() -> int:
+    """The schema version this bringup writes: the number of migrations it knows."""
+    return len(MIGRATIONS)
+
+
 def migrate(conn: sqlite3.Connection, from_version: int) -> int:
     """Apply every migration after ``from_version``, inside the caller's transaction.
 
     Returns the new version. The caller holds a write transaction (``BEGIN IMMEDIATE``), so the
     schema change and the ``user_version`` bump commit together or not at all.
     """
-    for version in range(from_version + 1, CURRENT_VERSION + 1):
+    target = current_version()
+    for version in range(from_version + 1, target + 1):
         MIGRATIONS[version - 1](conn)
         conn.execute(f"PRAGMA user_version = {version}")
-    return CURRENT_VERSION
+    return target
