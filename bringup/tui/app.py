@@ -40,15 +40,17 @@ class BringupApp(App[int]):
         self._open_new = open_new
         self._resume = resume
         self._shut = False
+        #: one line saying why the app stopped on an unexpected error (None if it did not)
+        self.crash_message: str | None = None
+        self.crash_detail: str = ""
 
     def on_mount(self) -> None:
-        start = StartScreen()
-        self.push_screen(start)
         if self._open_new is not None:
-            start.say("Starting the session on the simulated bench…")
-            start._open(("new", self._open_new))
+            self.push_screen(StartScreen(autostart=("new", self._open_new)))
         elif self._resume is not None:
-            start._open(("resume", self._resume))
+            self.push_screen(StartScreen(autostart=("resume", self._resume)))
+        else:
+            self.push_screen(StartScreen())
 
     def show_session(self, link: Any) -> None:
         """Show ``link``'s session (called on the UI thread once it is open)."""
@@ -75,3 +77,20 @@ class BringupApp(App[int]):
 
     def on_unmount(self) -> None:
         self.shutdown()
+
+    # Textual prints a full traceback after an unhandled exception; the bench gets one line
+    # (``crash_message``) and the supply switched off instead. ``_fatal_error`` is Textual's
+    # hook for it (8.2.8); the traceback text is kept in ``crash_detail`` for a bug report.
+    def _fatal_error(self) -> None:
+        import traceback
+
+        error = self._exception
+        self.crash_message = (
+            f"unexpected fault: {type(error).__name__}: {error}" if error else "unexpected fault"
+        )
+        self.crash_detail = traceback.format_exc()
+        try:
+            self.shutdown()
+        finally:
+            self.bell()
+            self._close_messages_no_wait()

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 from rich.text import Text
 
-__all__ = ["StateLook", "look_of", "STATE_LOOKS", "COLOURS"]
+__all__ = ["StateLook", "look_of", "STATE_LOOKS", "COLOURS", "LEGEND"]
 
 
 @dataclass(frozen=True)
@@ -20,6 +20,12 @@ class StateLook:
     symbol: str
     word: str
     key: str
+    short: str = ""
+
+    @property
+    def brief(self) -> str:
+        """At most 7 characters, for the checklist column."""
+        return self.short or self.word
 
     def label(self) -> str:
         """'✔ passed'."""
@@ -53,8 +59,8 @@ STATE_LOOKS: dict[str, StateLook] = {
     "in-progress": StateLook("▶", "running", "running"),
     "pass": StateLook("✔", "passed", "pass"),
     "fail": StateLook("✘", "FAILED", "fail"),
-    "conditional-pass": StateLook("≈", "pass, in guard band", "cond"),
-    "conditional-fail": StateLook("≉", "fail, in guard band", "condfail"),
+    "conditional-pass": StateLook("≈", "pass, inside guard band", "cond", "c.pass"),
+    "conditional-fail": StateLook("≉", "FAIL, inside guard band", "condfail", "c.FAIL"),
     "skipped": StateLook("»", "skipped", "skipped"),
     "waived": StateLook("◇", "waived", "waived"),
     "not-run": StateLook("–", "not run", "todo"),
@@ -90,3 +96,9 @@ def look_of(state: str | None) -> StateLook:
     key = (state or "not-started").strip().lower()
     key = _ALIASES.get(key, key)
     return STATE_LOOKS.get(key, StateLook("?", key, "todo"))
+
+
+#: the key to the symbols, shown under the checklist
+LEGEND = (
+    "○ to do  ▶ running  ✔ passed  ✘ FAILED  ≈ pass/≉ fail inside guard band  » skipped  ◇ waived"
+)

@@ -50,11 +50,14 @@ class Energise:
 
     voltage_v: float
     current_limit_a: float
+    ramp_v: tuple[float, ...] = ()
+    prompt: str = ""
+    hazard: str | None = None
 
     @property
     def hazardous(self) -> bool:
         """Above 60 V DC (the usual extra-low-voltage limit) the notice must be shown."""
-        return self.voltage_v > 60.0
+        return self.voltage_v > 60.0 or bool(self.hazard)
 
 
 @dataclass(frozen=True)
@@ -72,6 +75,7 @@ class StepDetail:
     kind: str  # "waveform", "soak", "reading", "confirm", "supply"
     reading_prompt: str = ""
     reading_unit: str = ""
+    confirm: str = ""
 
 
 @dataclass(frozen=True)

@@ -11,7 +11,7 @@ from textual.widgets import Button, Input, Label, Static
 from bringup.analysis.quantities import format_quantity
 from bringup.tui.views import Energise
 
-__all__ = ["EnergisePrompt", "ReasonPrompt"]
+__all__ = ["EnergisePrompt", "ReasonPrompt", "ConfirmPrompt"]
 
 HAZARD_NOTICE = (
     "HAZARD: above 60 V DC. Touching the bus or the switch node can injure or kill. "
@@ -38,15 +38,21 @@ class EnergisePrompt(ModalScreen[bool]):
         amps = format_quantity(self.energise.current_limit_a, "A")
         with Vertical(id="energise-box", classes="prompt-box"):
             yield Label("⚡ ENERGISE THE BOARD?", classes="prompt-title")
+            ramp = ""
+            if self.energise.ramp_v:
+                steps = ", ".join(format_quantity(v, "V") for v in self.energise.ramp_v)
+                ramp = f"\nIt ramps in steps ({steps}) and stops at once if the current says short."
+            extra = f"\n{self.energise.prompt}" if self.energise.prompt else ""
             yield Static(
                 f"Step: {self.step_title}\n\n"
                 f"The supply output will be switched ON at {volts} "
-                f"with the current limit at {amps}.\n"
+                f"with the current limit at {amps}.{ramp}{extra}\n"
                 "Check the probes and the load are in place and hands are clear.",
                 id="energise-text",
             )
             if self.energise.hazardous:
-                yield Static(HAZARD_NOTICE, id="hazard-notice", classes="hazard")
+                notice = self.energise.hazard or HAZARD_NOTICE
+                yield Static(f"⚠ {notice}", id="hazard-notice", classes="hazard")
             with Horizontal(classes="prompt-buttons"):
                 yield Button(f"Y  switch on at {volts}", id="yes", variant="warning")
                 yield Button("N  keep it off", id="no", variant="primary")
@@ -75,6 +81,7 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         ask_name: bool = False,
         name_default: str = "",
         placeholder: str = "reason",
+        empty_problem: str = "A reason is needed: type one, or Esc to cancel.",
     ) -> None:
         super().__init__()
         self.title_text = title
@@ -82,6 +89,7 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         self.ask_name = ask_name
         self.name_default = name_default
         self.placeholder = placeholder
+        self.empty_problem = empty_problem
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="prompt-box"):
@@ -103,7 +111,7 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         who = self.query_one("#who", Input).value.strip() if self.ask_name else ""
         problem = self.query_one("#prompt-problem", Static)
         if not reason:
-            problem.update("A reason is needed: type one, or Esc to cancel.")
+            problem.update(self.empty_problem)
             self.query_one("#reason", Input).focus()
             return
         if self.ask_name and not who:
@@ -128,3 +136,32 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
 
     def action_cancel(self) -> None:
         self.dismiss(None)
+
+
+class ConfirmPrompt(ModalScreen[bool]):
+    """A yes/no question the step asks by hand ("Is the load connected?")."""
+
+    BINDINGS = [
+        Binding("y", "answer(True)", "yes"),
+        Binding("n,escape", "answer(False)", "no"),
+    ]
+
+    def __init__(self, title: str, question: str) -> None:
+        super().__init__()
+        self.title_text = title
+        self.question = question
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="prompt-box"):
+            yield Label(self.title_text, classes="prompt-title")
+            yield Static(self.question)
+            with Horizontal(classes="prompt-buttons"):
+                yield Button("Y  yes, done", id="yes", variant="primary")
+                yield Button("N  no, stop here", id="no")
+
+    def on_button_pressed(self, event: Button.Pressed) -> None:
+        event.stop()
+        self.dismiss(event.button.id == "yes")
+
+    def action_answer(self, yes: bool) -> None:
+        self.dismiss(yes)

@@ -34,8 +34,8 @@ from bringup.tui.messages import (
     StepProgressed,
     StepStopped,
 )
-from bringup.tui.screens.prompts import EnergisePrompt, ReasonPrompt
-from bringup.tui.states import look_of
+from bringup.tui.screens.prompts import ConfirmPrompt, EnergisePrompt, ReasonPrompt
+from bringup.tui.states import LEGEND, look_of
 from bringup.tui.views import AttemptView, Progress, StepDetail
 from bringup.tui.widgets.checklist_tree import ChecklistTree
 from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
@@ -91,6 +91,7 @@ class SessionScreen(Screen[None]):
             with Vertical(id="checklist-pane"):
                 yield Static("CHECKLIST", classes="pane-title")
                 yield ChecklistTree(id="checklist")
+                yield Static(LEGEND, id="legend")
             with Vertical(id="step-pane"):
                 yield Static("", id="step-title")
                 with VerticalScroll(id="step-brief"):
@@ -102,6 +103,7 @@ class SessionScreen(Screen[None]):
                     yield Static("", id="live-text")
                 with TabbedContent(initial="tab-result", id="tabs"):
                     with TabPane("1 result", id="tab-result"):
+                        yield Static("", id="verdict-banner")
                         yield DataTable(id="results", cursor_type="row", zebra_stripes=True)
                     with TabPane("2 trace", id="tab-trace"):
                         yield WaveformPlot(id="plot")
@@ -138,7 +140,8 @@ class SessionScreen(Screen[None]):
         target = select or self.viewed or current
         if target is not None:
             if select is not None:
-                tree.select_step(select)
+                # after the tree has laid out its new labels, or the cursor lands on line 0
+                self.call_after_refresh(tree.select_step, select)
             self.show_step(target)
         elif current is None and self.viewed is None:
             self.say("Every step has a verdict. Press m for the summary.", "good")
@@ -190,6 +193,18 @@ class SessionScreen(Screen[None]):
         self._trace_index = 0
         table = self.query_one("#results", DataTable)
         table.clear()
+        banner = self.query_one("#verdict-banner", Static)
+        if attempt is None:
+            banner.update("No attempt yet: r runs the step.")
+            banner.set_classes("banner-todo")
+        else:
+            look = look_of(attempt.verdict)
+            banner.update(
+                f" {look.symbol} {look.word.upper()}  ·  attempt {attempt.number}  ·  "
+                f"{attempt.when}  ·  {attempt.operator}"
+                + (f"\n {attempt.message}" if attempt.message else "")
+            )
+            banner.set_classes(f"banner-{look.key}")
         if attempt is None:
             self.query_one("#plot", WaveformPlot).clear("no attempt yet: press r to run the step")
             return
@@ -272,7 +287,7 @@ class SessionScreen(Screen[None]):
         return False
 
     def action_take(self) -> None:
-        """Run (or retake) the viewed step, asking before energising."""
+        """Run (or retake) the viewed step: ask what it needs, then start the worker."""
         if self._busy() or self.viewed is None:
             return
         try:
@@ -280,19 +295,41 @@ class SessionScreen(Screen[None]):
         except BringupError as exc:
             self.say(str(exc), "fault")
             return
+        self._ask_then_start(detail)
+
+    @work(exclusive=True, group="prompts")
+    async def _ask_then_start(self, detail: StepDetail) -> None:
+        """The by-hand confirmation, the typed reading and the energising prompt, in order."""
+        answers: dict[str, object] = {}
+        if detail.confirm:
+            yes = await self.app.push_screen_wait(ConfirmPrompt("Check by hand", detail.confirm))
+            if not yes:
+                self.say("Not confirmed: the step did not run.", "warn")
+                return
+            answers["confirmed"] = True
+        if detail.reading_prompt:
+            unit = f" (in {detail.reading_unit})" if detail.reading_unit else ""
+            typed = await self.app.push_screen_wait(
+                ReasonPrompt(
+                    "Type the reading",
+                    f"{detail.reading_prompt}{unit}",
+                    placeholder=f"e.g. 3.31 {detail.reading_unit}".strip(),
+                    empty_problem="Type the value read on the meter, or Esc to cancel.",
+                )
+            )
+            if typed is None:
+                self.say("No reading typed: the step did not run.", "warn")
+                return
+            answers["reading"] = typed[0]
         if detail.energise is not None:
+            yes = await self.app.push_screen_wait(EnergisePrompt(detail.title, detail.energise))
+            if not yes:
+                self.say("Not energised: the step did not run.", "warn")
+                return
+            answers["energise"] = True
+        self._start(detail, answers)
 
-            def answered(yes: bool | None) -> None:
-                if yes:
-                    self._start(detail)
-                else:
-                    self.say("Not energised: the step did not run.", "warn")
-
-            self.app.push_screen(EnergisePrompt(detail.title, detail.energise), answered)
-        else:
-            self._start(detail)
-
-    def _start(self, detail: StepDetail) -> None:
+    def _start(self, detail: StepDetail, answers: dict[str, object]) -> None:
         self.running = detail.id
         self._cancel = threading.Event()
         self._stop_soak = threading.Event()
@@ -308,11 +345,15 @@ class SessionScreen(Screen[None]):
         else:
             self.say("Acquiring: x stops and puts the bench in its safe state.")
         self.query_one("#checklist", ChecklistTree).show_stages(self.link.stages(), detail.id)
-        self._run_worker(detail.id, self._cancel, self._stop_soak)
+        self._run_worker(detail.id, answers, self._cancel, self._stop_soak)
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="bench")
     def _run_worker(
-        self, step_id: str, cancel: threading.Event, stop_soak: threading.Event
+        self,
+        step_id: str,
+        answers: dict[str, object],
+        cancel: threading.Event,
+        stop_soak: threading.Event,
     ) -> None:
         """Blocking instrument I/O; talks back only through ``post_message``."""
 
@@ -328,22 +369,18 @@ class SessionScreen(Screen[None]):
             return question.answer
 
         try:
-            attempt = self.link.run(step_id, cancel, stop_soak, progress, ask)
+            attempt = self.link.run(step_id, answers, cancel, stop_soak, progress, ask)
         except BringupError as exc:
-            self.link.safe_state()
-            if cancel.is_set():
-                self.post_message(StepStopped(step_id, str(exc)))
-            else:
-                self.post_message(StepFaulted(step_id, str(exc)))
+            # the runner leaves the supply off on every way out of a step
+            self.post_message(StepFaulted(step_id, str(exc)))
             return
-        except Exception as exc:  # never a traceback: the bench goes safe, the UI says why
-            self.link.safe_state()
+        except Exception as exc:  # never a traceback: one line in the status bar
             self.post_message(
                 StepFaulted(step_id, f"unexpected fault: {type(exc).__name__}: {exc}")
             )
             return
-        if attempt is None:
-            self.post_message(StepStopped(step_id))
+        if cancel.is_set():
+            self.post_message(StepStopped(step_id, attempt.message))
         else:
             self.post_message(StepFinished(step_id, attempt))
 
@@ -412,7 +449,6 @@ class SessionScreen(Screen[None]):
             self.say("Nothing is running.")
             return
         self._cancel.set()
-        self.link.request_safe_state()
         self.say("Stopping: putting the bench in its safe state…", "warn")
 
     def action_stop_soak(self) -> None:

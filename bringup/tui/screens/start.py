@@ -91,9 +91,11 @@ class StartScreen(Screen[None]):
         Binding("ctrl+q", "app.quit_safely", "quit"),
     ]
 
-    def __init__(self) -> None:
+    def __init__(self, autostart: tuple | None = None) -> None:
+        """``autostart``: ("new", form values) or ("resume", session id) to open at once."""
         super().__init__()
         self._rows: list[SessionRow] = []
+        self._autostart = autostart
 
     @property
     def launcher(self):
@@ -116,6 +118,9 @@ class StartScreen(Screen[None]):
         table = self.query_one("#sessions", DataTable)
         table.add_columns("session", "board", "serial", "operator", "done", "last activity")
         self.action_reload()
+        if self._autostart is not None:
+            self.say("Opening the session: connecting to the bench…")
+            self._open(self._autostart)
 
     def say(self, message: str, kind: str = "info") -> None:
         status = self.query_one("#status", Static)

@@ -12,13 +12,13 @@ __all__ = ["ChecklistTree"]
 
 
 def _label(number: str, title: str, state: str, attempts: int = 0, current: bool = False) -> Text:
+    """'➤ ✔ passed  1.2 Bus voltage, loaded': the state first so a narrow column never hides it."""
     look = look_of(state)
     text = Text()
-    text.append("➤ " if current else "  ", style="bold")
-    text.append(f"{look.symbol} ", style=f"bold {look.style}")
-    text.append(f"{number} {title}")
-    word = look.word + (f" ×{attempts}" if attempts > 1 else "")
-    text.append(f"  {word}", style=look.style)
+    text.append("➤" if current else " ", style="bold #f2c14e")
+    word = look.brief + (f"×{attempts}" if attempts > 1 else "")
+    text.append(f"{look.symbol} {word:<8}", style=look.style)
+    text.append(f"{number} {title}", style="bold" if current else "")
     return text
 
 

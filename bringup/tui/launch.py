@@ -1,0 +1,156 @@
+"""Lists and opens sessions for the start screen: the notebook's door to the runner and log.
+
+``Launcher(db_path)`` reads the unfinished sessions from the log (``bringup.store``) and makes
+``SessionLink`` objects by creating or resuming a ``bringup.runner.SessionRunner``. A simulated
+bench is started by the runner itself (``BenchSource.simulated``) on free loopback ports and
+stopped when the session is closed.
+"""
+
+from __future__ import annotations
+
+import getpass
+import os
+from pathlib import Path
+
+from bringup.errors import InputError
+from bringup.tui.present import when_text
+from bringup.tui.views import SessionRow
+
+__all__ = ["Launcher", "SCENARIOS"]
+
+#: The simulated bench's scenarios (sim_instruments), healthy first.
+SCENARIOS = (
+    "healthy",
+    "weak-bootstrap",
+    "no-overdrive",
+    "slow-gate",
+    "hot-switch",
+    "sagging-rail",
+)
+
+
+class Launcher:
+    """Opens sessions in the log at ``db_path`` (None = the default log).
+
+    ``sim_time_scale``: simulated seconds per real second of a simulated bench's thermal model
+    (None = the runner's default); the demo slows it so a soak can be watched converging.
+    """
+
+    def __init__(
+        self, db_path: str | Path | None = None, *, sim_time_scale: float | None = None
+    ) -> None:
+        self.db_path = Path(db_path).expanduser() if db_path is not None else None
+        self.sim_time_scale = sim_time_scale
+
+    def db_label(self) -> str:
+        """The log file's path, for the title bar."""
+        if self.db_path is not None:
+            return str(self.db_path)
+        from bringup.store import default_db_path
+
+        return str(default_db_path())
+
+    def scenarios(self) -> tuple[str, ...]:
+        """Scenario names of the simulated bench."""
+        return SCENARIOS
+
+    def default_operator(self) -> str:
+        """$BRINGUP_OPERATOR, else the login name, else ''."""
+        name = os.environ.get("BRINGUP_OPERATOR", "").strip()
+        if name:
+            return name
+        try:
+            return getpass.getuser()
+        except (KeyError, OSError):
+            return ""
+
+    def unfinished_sessions(self) -> tuple[SessionRow, ...]:
+        """Open sessions, most recent activity first, with their progress."""
+        from bringup.store import SessionLog
+
+        if self.db_path is not None and not self.db_path.exists():
+            return ()
+        with SessionLog.open(self.db_path) as log:
+            summaries = [s for s in log.sessions() if s.state == "open"]
+        rows = []
+        for s in summaries:
+            total = s.steps_total if s.steps_total is not None else "?"
+            board = s.board_name + (f" rev {s.board_revision}" if s.board_revision else "")
+            rows.append(
+                SessionRow(
+                    s.id,
+                    board,
+                    s.serial,
+                    s.operator,
+                    f"{s.steps_done}/{total}",
+                    when_text(s.last_activity_utc),
+                    s.verdict or "not-started",
+                )
+            )
+        return tuple(rows)
+
+    def _bench(self, bench_file: str | None, scenario: str | None):
+        from bringup.runner import BenchSource
+
+        if bench_file:
+            path = Path(bench_file).expanduser()
+            if not path.is_file():
+                raise InputError(f"bench file {bench_file}: no such file")
+            return BenchSource.from_file(path), f"bench {path.name}"
+        name = scenario or "healthy"
+        if name not in SCENARIOS:
+            raise InputError(f"--scenario {name}: unknown (one of {', '.join(SCENARIOS)})")
+        if self.sim_time_scale is None:
+            return BenchSource.simulated(name), f"simulated bench ({name})"
+        return BenchSource.simulated(
+            name, time_scale=self.sim_time_scale
+        ), f"simulated bench ({name})"
+
+    def new_session(
+        self,
+        *,
+        board: str,
+        checklist: str | None,
+        bench_file: str | None,
+        scenario: str | None,
+        serial: str,
+        operator: str,
+    ):
+        """Create a session (validating every file) and return its ``SessionLink``."""
+        from bringup.checklist.board import load_board
+        from bringup.checklist.load import load_checklist
+        from bringup.runner import SessionRunner
+        from bringup.tui.link import SessionLink
+
+        if not board:
+            raise InputError("board file: type a path, or 'demo' for the demo board")
+        if board != "demo" and not Path(board).expanduser().is_file():
+            raise InputError(f"board file {board}: no such file")
+        if checklist and not Path(checklist).expanduser().is_file():
+            raise InputError(f"checklist file {checklist}: no such file")
+        source, text = self._bench(bench_file, scenario)
+        runner = SessionRunner.create(
+            board=load_board(board),
+            checklist=load_checklist(checklist or None),
+            serial=serial,
+            operator=operator,
+            bench=source,
+            db_path=self.db_path,
+        )
+        return SessionLink(runner, text)
+
+    def resume(self, session_id: str):
+        """Reopen an unfinished session on the bench it was started with."""
+        from bringup.runner import SessionRunner
+        from bringup.tui.link import SessionLink
+
+        runner = SessionRunner.resume(str(session_id), db_path=self.db_path)
+        source = runner.bench_source
+        if source.is_simulated:
+            text = f"simulated bench ({source.scenario})"
+        else:
+            text = f"bench {Path(source.path).name}"
+        return SessionLink(runner, text)
+
+    def close(self) -> None:
+        """Nothing to release: each session's runner owns its bench and log."""

@@ -1,0 +1,197 @@
+"""Turn the runner's records (``bringup.runner.results``) into what the screens show.
+
+Pure formatting: no measurement, no storage. Every number is printed with its unit through
+``format_quantity``; a value that could not be measured shows as "not measured".
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from bringup.analysis.quantities import format_quantity
+from bringup.tui.views import AttemptView, Energise, MetricRow, Progress, StepDetail, TraceView
+
+__all__ = [
+    "metric_row",
+    "attempt_view",
+    "trace_view",
+    "progress_view",
+    "detail_view",
+    "reading_label",
+    "when_text",
+    "reflow",
+]
+
+# suffix of a reading key -> unit ("supply_voltage_v" -> "V")
+_SUFFIX_UNITS = {"_v": "V", "_a": "A", "_c": "degC", "_s": "s", "_w": "W", "_ohm": "ohm"}
+
+
+def _q(value: float | None, unit: str) -> str:
+    if value is None:
+        return "not measured"
+    return format_quantity(value, unit)
+
+
+def metric_row(m: Any) -> MetricRow:
+    """A ``MetricResult`` as a table row (margin signed: + inside the limits)."""
+    if m.margin is None:
+        margin = "—"
+    else:
+        sign = "+" if m.margin >= 0 else "−"
+        margin = sign + format_quantity(abs(m.margin), m.unit)
+    reason = " ".join(x for x in (m.reason, m.disagreement) if x)
+    return MetricRow(
+        label=m.label,
+        measured=_q(m.measured, m.unit),
+        predicted="—" if m.predicted is None else format_quantity(m.predicted, m.unit),
+        limits=m.limit.describe() if m.limit is not None else "reported only",
+        margin=margin,
+        verdict=m.outcome or "reported",
+        reason=reason,
+    )
+
+
+def trace_view(w: Any) -> TraceView:
+    """A ``WaveformView`` with its levels, crossings and on-time window."""
+    crossings = tuple(
+        (f"{c.name}{'↑' if c.direction.startswith('r') else '↓'}", float(c.time_s))
+        for c in w.crossings
+    )
+    return TraceView(
+        title=f"{w.name} ({w.net})" if w.net and w.net not in w.name else w.name,
+        t=w.times(),
+        v=w.volts,
+        unit="V",
+        levels=tuple((name, float(v)) for name, v in w.levels.items()),
+        crossings=crossings,
+        window=tuple(w.window_s) if w.window_s is not None else None,
+    )
+
+
+def when_text(utc: str) -> str:
+    """'2026-12-01 22:10:04' from an ISO 8601 UTC time ('' stays '')."""
+    return utc.replace("T", " ").split(".")[0].removesuffix("Z").removesuffix("+00:00")
+
+
+def attempt_view(a: Any) -> AttemptView:
+    """An ``AttemptResult`` for the result table, the plot and the history."""
+    findings = [m.disagreement for m in a.metrics if getattr(m, "disagreement", None)]
+    message = " · ".join(x for x in (a.message, *a.warnings, *findings) if x)
+    traces = tuple(trace_view(w) for w in a.waveforms)
+    if a.soak is not None and a.soak.times_s:
+        traces = (soak_trace(a.soak), *traces)
+    return AttemptView(
+        number=a.attempt_no,
+        verdict=a.state,
+        when=when_text(a.finished_utc or a.started_utc),
+        operator=a.operator,
+        metrics=tuple(metric_row(m) for m in a.metrics),
+        traces=traces,
+        notes=tuple(n for n in a.notes.splitlines() if n.strip()) if a.notes else (),
+        message=message,
+    )
+
+
+def soak_trace(soak: Any) -> TraceView:
+    """The temperature log as a trace (°C against seconds), with the limit and prediction."""
+    import numpy as np
+
+    levels: list[tuple[str, float]] = []
+    if soak.limit_c is not None:
+        levels.append(("limit", float(soak.limit_c)))
+    if soak.predicted_final_c is not None:
+        levels.append(("final?", float(soak.predicted_final_c)))
+    return TraceView(
+        title="heatsink temperature",
+        t=np.asarray(soak.times_s, dtype=float),
+        v=np.asarray(soak.temperatures_c, dtype=float),
+        unit="degC",
+        levels=tuple(levels),
+    )
+
+
+def reading_label(key: str) -> tuple[str, str]:
+    """('supply voltage', 'V') from 'supply_voltage_v'."""
+    for suffix, unit in _SUFFIX_UNITS.items():
+        if key.endswith(suffix):
+            return key[: -len(suffix)].replace("_", " "), unit
+    return key.replace("_", " "), ""
+
+
+def progress_view(p: Any) -> Progress:
+    """A runner ``Progress`` event as the live panel shows it."""
+    readings = []
+    for key, value in p.readings.items():
+        label, unit = reading_label(key)
+        readings.append((label, format_quantity(value, unit) if unit else f"{value:.4g}"))
+    soak = p.soak
+    predicted, settled, soak_t, soak_temp = "", False, (), ()
+    if soak is not None:
+        soak_t, soak_temp = tuple(soak.times_s), tuple(soak.temperatures_c)
+        settled = bool(soak.settled)
+        if soak.predicted_final_c is not None:
+            predicted = format_quantity(soak.predicted_final_c, "degC")
+            if soak.predicted_sigma_c is not None:
+                predicted += f" ± {format_quantity(soak.predicted_sigma_c, 'K')}"
+            if soak.limit_c is not None:
+                predicted += f" (limit {format_quantity(soak.limit_c, 'degC')})"
+    return Progress(
+        fraction=p.fraction,
+        text=f"{p.phase}: {p.message}" if p.message else p.phase,
+        readings=tuple(readings),
+        soak_t=soak_t,
+        soak_temp=soak_temp,
+        predicted_final=predicted,
+        settled=settled,
+    )
+
+
+def _channel_settings(plan: Any) -> list[tuple[str, str, str]]:
+    rows: list[tuple[str, str, str]] = []
+    for ch in plan.channels:
+        bw = ", 20 MHz limit" if ch.bandwidth_limit else ""
+        rows.append(
+            (
+                "scope",
+                f"CH{ch.channel} on {ch.net} ({ch.probe})",
+                f"{format_quantity(ch.range_v, 'V')} full scale, offset "
+                f"{format_quantity(ch.offset_v, 'V')}, {ch.coupling}{bw}",
+            )
+        )
+    return rows
+
+
+def reflow(text: str) -> str:
+    """Join the hard-wrapped lines of a TOML multi-line string; blank lines stay paragraphs."""
+    paragraphs = [" ".join(p.split()) for p in text.strip().split("\n\n")]
+    return "\n\n".join(p for p in paragraphs if p)
+
+
+def detail_view(plan: Any, state: str, soak: bool) -> StepDetail:
+    """A ``StepPlan`` (plus the step's state) as the step brief."""
+    instructions = reflow(plan.instructions)
+    if plan.hands:
+        instructions += "\n\nBy hand:\n" + "\n".join(
+            f"  {i}. {h}" for i, h in enumerate(plan.hands, 1)
+        )
+    if plan.warnings:
+        instructions += "\n\n" + "\n".join(f"Note: {w}" for w in plan.warnings)
+    energise = None
+    if plan.energise is not None:
+        e = plan.energise
+        energise = Energise(e.voltage_v, e.current_limit_a, tuple(e.ramp_v), e.prompt, e.hazard)
+    kind = "soak" if soak else ("reading" if plan.reading_prompt else "waveform")
+    return StepDetail(
+        id=plan.step_id,
+        stage_id=plan.stage_id,
+        title=plan.title,
+        state=state,
+        instructions=instructions,
+        cautions=tuple(reflow(c) for c in plan.cautions),
+        settings=tuple(_channel_settings(plan)),
+        energise=energise,
+        kind=kind,
+        reading_prompt=plan.reading_prompt or "",
+        reading_unit=plan.reading_unit or "",
+        confirm=plan.confirm or "",
+    )

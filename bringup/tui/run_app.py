@@ -1,0 +1,60 @@
+"""Run the notebook app with every way out covered: quit key, Ctrl+C, SIGTERM/SIGHUP, crash.
+
+Whatever happens, ``app.shutdown()`` (safe state: supply OFF) and ``launcher.close()`` (stop a
+simulated bench the launcher started) run before the process leaves.
+"""
+
+from __future__ import annotations
+
+import signal
+import sys
+from pathlib import Path
+from typing import Any
+
+__all__ = ["run_app"]
+
+
+def run_app(launcher: Any, *, open_new: dict | None = None, resume: Any = None) -> int:
+    """Run the app on the terminal; returns the exit status (0 normal, 2 after a fault)."""
+    from bringup.tui.app import BringupApp
+
+    app = BringupApp(launcher, open_new=open_new, resume=resume)
+    previous: dict[int, Any] = {}
+
+    def leave(signum: int, frame: object) -> None:
+        # a closed terminal or a kill: leave through the app so the safe state runs
+        app.call_later(app.exit, 128 + signum)
+
+    for sig in (signal.SIGTERM, getattr(signal, "SIGHUP", None)):
+        if sig is not None:
+            previous[sig] = signal.signal(sig, leave)
+    try:
+        status = app.run()
+    except KeyboardInterrupt:
+        status = 130
+    finally:
+        try:
+            app.shutdown()
+        finally:
+            launcher.close()
+            for sig, handler in previous.items():
+                signal.signal(sig, handler)
+    if app.crash_message:
+        where = _keep_detail(launcher, app.crash_detail)
+        print(
+            f"bringup: error: {app.crash_message} (the supply was switched off){where}",
+            file=sys.stderr,
+        )
+        return 2
+    return int(status or 0)
+
+
+def _keep_detail(launcher: Any, detail: str) -> str:
+    """Write the traceback beside the log for a bug report; '' if it could not be written."""
+    try:
+        folder = Path(launcher.db_path).parent
+        path = folder / "bringup-fault.txt"
+        path.write_text(detail)
+    except (OSError, TypeError, AttributeError):
+        return ""
+    return f"; details in {path}"
