@@ -104,7 +104,9 @@ class SimulationControl:
             raise InputError(f"unknown sim fault {kind!r}")
         with session.lock:
             session.write(command)
-            if kind != "error":  # an injected error would be read back at once
+            if kind in ("delay", "overrange"):
+                # one-shot faults act on the next reply and an injected error would be read
+                # back at once, so only the persistent ones are followed by an error check
                 session.check_errors(command)
 
     def clear_faults(self, role: str) -> None:

@@ -310,12 +310,14 @@ class InstrumentSession:
     def configure(self, operation: str, **fields: Any) -> str:
         """Send a configuration command, then drain the error queue; returns the text sent."""
         command = self.command_text(operation, **fields)
+        # a step with its own timeout (an acquisition, say) may hold up the error query's reply
+        wait_ms = max(self.profile.timeout_ms(operation), self.profile.timeout_ms("error_query"))
         with self._lock:
             self.write(command)
-            self.check_errors(command)
+            self.check_errors(command, timeout_ms=wait_ms)
         return command
 
-    def check_errors(self, after: str | None) -> None:
+    def check_errors(self, after: str | None, *, timeout_ms: int | None = None) -> None:
         """Read ``SYSTem:ERRor?`` until it answers code 0; any entry raises ``InstrumentError``
         naming the command ``after`` which it followed (the first entry; the rest counted)."""
         query = self.command_text("error_query")
@@ -323,9 +325,16 @@ class InstrumentSession:
         with self._lock:
             for _ in range(MAX_ERRORS_DRAINED):
                 # Not repeatable: each read removes the entry it reports.
-                reply = self.query(
-                    query, timeout_ms=self.profile.timeout_ms("error_query"), repeatable=False
-                )
+                try:
+                    reply = self.query(
+                        query,
+                        timeout_ms=timeout_ms or self.profile.timeout_ms("error_query"),
+                        repeatable=False,
+                    )
+                except faults.InstrumentFault as exc:
+                    # name the configuration step too, not only the error query
+                    sent = f"{after}; {query}" if after else query
+                    raise type(exc)(exc.instrument, sent, exc.detail) from None
                 code_text, _, message = reply.partition(",")
                 try:
                     code = int(code_text.strip().lstrip("+"))

@@ -160,7 +160,7 @@ def test_state_changing_command_is_never_resent(scripted_server, fast_profiles):
     session = _session(server.resource, True, fast_profiles)
     try:
         with pytest.raises(
-            faults.ConnectionLost, match=r"scope after 'SYST:ERR\?': connection lost"
+            faults.ConnectionLost, match=r"scope after 'INIT; SYST:ERR\?': connection lost"
         ):
             session.configure("arm")
         assert server.received.count("INIT") == 1
