@@ -197,7 +197,7 @@ def _state_levels(y: np.ndarray, method: str, ymin: float, ymax: float) -> State
     if not ymax > ymin:
         raise AnalysisError(f"one level only: every sample is {ymin:.6g}, so there is no edge")
     if method == "minmax" or (method == "auto" and y.size < _MIN_HISTOGRAM_SAMPLES):
-        return StateLevels(ymin, ymax, "minmax")
+        return _checked_minmax(y, ymin, ymax)
 
     nb = HISTOGRAM_BINS
     fine, _ = np.histogram(y, bins=nb * _FINE, range=(ymin, ymax))
@@ -228,14 +228,31 @@ def _state_levels(y: np.ndarray, method: str, ymin: float, ymax: float) -> State
         mu = np.dot(counts, x) / counts.sum()
         noise.append(float(math.sqrt(max(np.dot(counts, (x - mu) ** 2) / counts.sum(), 0.0))))
     if not peaky and method == "auto":
-        return StateLevels(ymin, ymax, "minmax")
+        return _checked_minmax(y, ymin, ymax)
     low, high = levels
-    if high - low < 8.0 * max(noise) or high <= low:
-        raise AnalysisError(
-            f"one level only: the record is {0.5 * (low + high):.6g} V with noise, "
-            "no two distinct states (no edge)"
-        )
+    amp = high - low
+    mid = (centres > low + 0.25 * amp) & (centres < low + 0.75 * amp)
+    if amp < 8.0 * max(noise) or fine[mid].sum() > 0.5 * y.size:
+        raise _one_level(low, high)
     return StateLevels(low, high, "histogram", noise[0], noise[1])
+
+
+def _one_level(low: float, high: float) -> AnalysisError:
+    return AnalysisError(
+        f"one level only: the record is {0.5 * (low + high):.6g} with noise "
+        f"({low:.4g} to {high:.4g}), no two distinct states (no edge)"
+    )
+
+
+def _checked_minmax(y: np.ndarray, ymin: float, ymax: float) -> StateLevels:
+    """Min/max levels, refused for noise about one level: a two-level record keeps most of
+    its samples out of the middle half of its range; noise about one level does not."""
+    amp = ymax - ymin
+    lo, hi = ymin + 0.25 * amp, ymin + 0.75 * amp
+    middle = int(np.count_nonzero((y > lo) & (y < hi)))
+    if middle > 0.5 * y.size:
+        raise _one_level(ymin, ymax)
+    return StateLevels(ymin, ymax, "minmax")
 
 
 def _crossings(y: np.ndarray, level: float) -> np.ndarray:

@@ -1,0 +1,370 @@
+"""``bringup calc bootstrap|gate|losses``: the design equations from the command line.
+
+Every option takes engineering notation with or without its unit ("40n", "40 nC", "4k7",
+"25 kHz"). A unit that does not fit the option ("--qg 40 nF") is an error. Output: a table,
+or with ``--json`` one JSON object; a value that cannot be computed is ``null`` and
+``reasons`` says why. Only the standard library is imported at the top (start-up speed).
+"""
+
+from __future__ import annotations
+
+import argparse
+
+from bringup.errors import InputError
+
+__all__ = ["add_parser", "run"]
+
+BOOTSTRAP_METHOD = (
+    "Method: charge balance over the longest on-time (International Rectifier AN-978 / DT98-2; "
+    "TI SLUA887): Q_total = Qg + Qls + (Iq + Ileak) * t_on,max, C_min = K * Q_total / dV, "
+    "droop with --c = Q_total / C. For continuous switching TI SLUA887 takes one period "
+    "(t = 1/f_sw, printed as the per-period charge when --fsw is given); AN-978 adds a 2x "
+    "safety factor (--margin 2) and counts the charge per period. Size C above C_min: "
+    "ceramic capacitors lose capacitance with DC bias."
+)
+
+
+def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    """Register ``calc`` and its sub-commands."""
+    parser = subparsers.add_parser(
+        "calc",
+        help="design equations: bootstrap capacitor, gate timing, losses and temperature",
+        description="The design equations of a bootstrap high-side drive, each from its "
+        "published source. Values in engineering notation (4.7u, 40 nC, 25 kHz, 4k7).",
+    )
+    sub = parser.add_subparsers(dest="calculation", metavar="CALCULATION", required=True)
+
+    boot = sub.add_parser(
+        "bootstrap",
+        help="bootstrap capacitor: minimum C for an allowed droop, droop of a chosen C",
+        description="Bootstrap capacitor sizing. " + BOOTSTRAP_METHOD,
+    )
+    boot.add_argument("--qg", required=True, metavar="Q", help="MOSFET total gate charge (C)")
+    boot.add_argument(
+        "--iq", required=True, metavar="I", help="floating-side quiescent current I_QBS (A)"
+    )
+    boot.add_argument(
+        "--ileak",
+        required=True,
+        metavar="I",
+        help="bootstrap diode reverse leakage plus capacitor leakage (A)",
+    )
+    boot.add_argument("--fsw", metavar="F", help="switching frequency (Hz)")
+    boot.add_argument("--ton-max", metavar="T", help="longest on-time (s)")
+    boot.add_argument(
+        "--duty-max",
+        metavar="D",
+        help="largest duty cycle (0.95 or 95%%): t_on,max = D / f_sw when --ton-max is not given",
+    )
+    boot.add_argument("--dv", required=True, metavar="V", help="allowed droop of V_BS (V)")
+    boot.add_argument("--qls", default="0", metavar="Q", help="level-shift charge per cycle (C)")
+    boot.add_argument("--c", metavar="C", help="a chosen capacitor: print its droop (F)")
+    boot.add_argument("--margin", default="1", metavar="K", help="safety factor K (default 1)")
+    _json(boot)
+    boot.set_defaults(func=run)
+
+    gate = sub.add_parser(
+        "gate",
+        help="switching times from gate charge and drive current; RC pull-up rise time",
+        description="Gate-charge switching times (TI SLUA618, Balogh, 'Fundamentals of MOSFET "
+        "and IGBT Gate Driver Circuits'): plateau currents I_on = (V_drv - V_pl)/(R_source + "
+        "R_g + R_g,int), I_off = V_pl/(R_sink + R_g + R_g,int); V_DS transition Q_gd/I, current "
+        "transition Q_gs2/I. RC pull-up: 10-90 %% = R C ln 9. Give either group or both.",
+    )
+    gate.add_argument("--vdrv", metavar="V", help="driver supply / gate drive voltage (V)")
+    gate.add_argument("--vpl", metavar="V", help="Miller plateau voltage (V)")
+    gate.add_argument("--qgd", metavar="Q", help="gate-drain (Miller) charge (C)")
+    gate.add_argument("--qgs2", metavar="Q", help="gate charge from threshold to plateau (C)")
+    gate.add_argument("--r-source", metavar="R", help="driver pull-up (source) resistance")
+    gate.add_argument("--r-sink", metavar="R", help="driver pull-down (sink) resistance")
+    gate.add_argument("--rg", default="0", metavar="R", help="external gate resistor (ohm)")
+    gate.add_argument("--rg-int", default="0", metavar="R", help="MOSFET internal gate resistance")
+    gate.add_argument("--r-pullup", metavar="R", help="RC pull-up: the resistor (ohm)")
+    gate.add_argument("--c-gate", metavar="C", help="RC pull-up: the capacitance it charges (F)")
+    _json(gate)
+    gate.set_defaults(func=run)
+
+    losses = sub.add_parser(
+        "losses",
+        help="switching, conduction and gate-drive losses; junction temperature",
+        description="Losses of the switch: P_sw = 1/2 V I (t_r + t_f) f_sw (ST A5972D eq. 23), "
+        "P_cond = I^2 R_DS(on) D, P_gate = Q_g V_drv f_sw (TI TPS40200-Q1; dissipated in the "
+        "driver and gate resistors), T_J = T_A + (P_sw + P_cond) R_th. Each value is computed "
+        "when its options are given.",
+    )
+    losses.add_argument("--vbus", metavar="V", help="switched voltage (V)")
+    losses.add_argument("--iload", metavar="I", help="load current (A)")
+    losses.add_argument("--fsw", metavar="F", help="switching frequency (Hz)")
+    losses.add_argument("--tr", metavar="T", help="switching rise time (s)")
+    losses.add_argument("--tf", metavar="T", help="switching fall time (s)")
+    losses.add_argument("--rdson", metavar="R", help="R_DS(on) at the operating temperature")
+    losses.add_argument("--duty", metavar="D", help="duty cycle (0.5 or 50%%)")
+    losses.add_argument("--qg", metavar="Q", help="total gate charge (C)")
+    losses.add_argument("--vdrv", metavar="V", help="gate drive voltage (V)")
+    losses.add_argument("--rth", metavar="K/W", help="thermal resistance junction to reference")
+    losses.add_argument("--tamb", metavar="degC", help="reference (ambient) temperature")
+    _json(losses)
+    losses.set_defaults(func=run)
+    return parser
+
+
+def _json(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def _q(args, attr: str, unit: str | None, *, positive: bool = False):
+    """The option ``attr`` as an SI float (None if not given), errors naming the option.
+
+    Every quantity here is >= 0 (a negative charge or resistance makes no sense); with
+    ``positive`` it must be > 0.
+    """
+    from bringup.analysis.quantities import parse_quantity
+
+    text = getattr(args, attr)
+    if text is None:
+        return None
+    option = "--" + attr.replace("_", "-")
+    value = parse_quantity(text, unit, where=option)
+    if value < 0 or (positive and value == 0):
+        raise InputError(f"{option}: must be {'> 0' if positive else '>= 0'}, got {text!r}")
+    return value
+
+
+def _fraction(args, attr: str):
+    """A duty cycle: 0.95, or 95 %."""
+    from bringup.analysis.quantities import parse_quantity_unit
+
+    text = getattr(args, attr)
+    if text is None:
+        return None
+    option = "--" + attr.replace("_", "-")
+    value, unit = parse_quantity_unit(text, None, where=option)
+    if unit == "%":
+        value /= 100.0
+    elif unit is not None:
+        raise InputError(f"{option}: a duty cycle is a fraction or a percentage, got {text!r}")
+    if not 0 <= value <= 1:
+        raise InputError(f"{option}: must be between 0 and 1 (or 0-100 %), got {text!r}")
+    return value
+
+
+def run(args: argparse.Namespace) -> int:
+    """Parse the options, compute, print."""
+    {"bootstrap": _bootstrap, "gate": _gate, "losses": _losses}[args.calculation](args)
+    return 0
+
+
+def _bootstrap(args) -> None:
+    from bringup.analysis import design
+    from bringup.analysis.quantities import format_quantity as fq
+    from bringup.commands.analyze import emit
+
+    qg = _q(args, "qg", "C")
+    iq = _q(args, "iq", "A")
+    ileak = _q(args, "ileak", "A")
+    qls = _q(args, "qls", "C")
+    dv = _q(args, "dv", "V", positive=True)
+    margin = _q(args, "margin", None, positive=True)
+    fsw = _q(args, "fsw", "Hz", positive=True)
+    c = _q(args, "c", "F", positive=True)
+    duty = _fraction(args, "duty_max")
+    t_on = _q(args, "ton_max", "s", positive=True)
+    source = "--ton-max"
+    if t_on is None:
+        if duty is None or fsw is None:
+            raise InputError("give --ton-max, or --duty-max with --fsw, for the longest on-time")
+        t_on = design.on_time_at_duty(duty, fsw)
+        source = "--duty-max / --fsw"
+    s = design.size_bootstrap(qg, iq, ileak, t_on, dv, qls_c=qls, c_f=c, margin=margin)
+    reasons = {}
+    if s.droop_v is None:
+        reasons["droop_v"] = "give --c to predict the droop of a chosen capacitor"
+    per_period = None
+    if fsw is not None:
+        per_period = design.bootstrap_charge(qg, 1.0 / fsw, iq, ileak, qls)
+    else:
+        reasons["charge_per_period_c"] = "give --fsw"
+    result = {
+        "charge_c": s.charge_c,
+        "c_min_f": s.c_min_f,
+        "droop_v": s.droop_v,
+        "t_on_max_s": t_on,
+        "charge_per_period_c": per_period,
+        "terms_c": s.terms_c,
+        "inputs": {
+            "qg_c": qg,
+            "qls_c": qls,
+            "iq_a": iq,
+            "ileak_a": ileak,
+            "fsw_hz": fsw,
+            "duty_max": duty,
+            "dv_v": dv,
+            "margin": margin,
+            "c_f": c,
+        },
+        "method": BOOTSTRAP_METHOD,
+        "reasons": reasons,
+    }
+    t = s.terms_c
+    rows = [
+        ("longest on-time", f"{fq(t_on, 's')}  (from {source})"),
+        (
+            "charge over it",
+            f"{fq(s.charge_c, 'C')}  (gate {fq(t['gate'], 'C')}, level shift "
+            f"{fq(t['level_shift'], 'C')}, quiescent {fq(t['quiescent'], 'C')}, leakage "
+            f"{fq(t['leakage'], 'C')})",
+        ),
+        ("C_min", f"{fq(s.c_min_f, 'F')}  (K = {margin:g}, dV = {fq(dv, 'V')})"),
+        ("droop with C", fq(s.droop_v, "V") if c is not None else f"n/a ({reasons['droop_v']})"),
+    ]
+    if per_period is not None:
+        rows.append(("charge per period", f"{fq(per_period, 'C')}  (TI SLUA887 form, 1/f_sw)"))
+    emit(result, rows, args.json, "bootstrap capacitor (charge balance over the longest on-time)")
+
+
+def _gate(args) -> None:
+    from bringup.analysis import design
+    from bringup.analysis.quantities import format_quantity as fq
+    from bringup.commands.analyze import emit
+
+    timing_opts = {"vdrv": "V", "vpl": "V", "qgd": "C", "r_source": "ohm", "r_sink": "ohm"}
+    given = {k: getattr(args, k) is not None for k in timing_opts}
+    rc_given = {"r_pullup": args.r_pullup is not None, "c_gate": args.c_gate is not None}
+    if not any(given.values()) and not any(rc_given.values()):
+        raise InputError(
+            "give the gate-charge options (--vdrv --vpl --qgd --r-source --r-sink) "
+            "or an RC pull-up (--r-pullup --c-gate), or both"
+        )
+    reasons: dict[str, str] = {}
+    result: dict = {}
+    rows: list[tuple[str, str]] = []
+    if any(given.values()):
+        missing = ["--" + k.replace("_", "-") for k, v in given.items() if not v]
+        if missing:
+            raise InputError(f"gate-charge timing also needs {' '.join(missing)}")
+        g = design.gate_timing(
+            _q(args, "vdrv", "V", positive=True),
+            _q(args, "vpl", "V", positive=True),
+            _q(args, "r_source", "ohm"),
+            _q(args, "r_sink", "ohm"),
+            _q(args, "rg", "ohm"),
+            _q(args, "rg_int", "ohm"),
+            _q(args, "qgd", "C"),
+            _q(args, "qgs2", "C"),
+        )
+        result.update(g.to_dict())
+        if g.t_current_on_s is None:
+            reasons["t_current_on_s"] = reasons["t_current_off_s"] = "give --qgs2"
+        rows += [
+            ("turn-on plateau current", f"{fq(g.i_on_a, 'A')}  (through {fq(g.r_on_ohm, 'ohm')})"),
+            (
+                "turn-off plateau current",
+                f"{fq(g.i_off_a, 'A')}  (through {fq(g.r_off_ohm, 'ohm')})",
+            ),
+            ("V_DS fall at turn-on", fq(g.t_vds_on_s, "s")),
+            ("V_DS rise at turn-off", fq(g.t_vds_off_s, "s")),
+            (
+                "current rise (Q_gs2)",
+                fq(g.t_current_on_s, "s") if g.t_current_on_s else "n/a (give --qgs2)",
+            ),
+            (
+                "current fall (Q_gs2)",
+                fq(g.t_current_off_s, "s") if g.t_current_off_s else "n/a (give --qgs2)",
+            ),
+        ]
+    else:
+        for key in ("i_on_a", "i_off_a", "t_vds_on_s", "t_vds_off_s"):
+            result[key] = None
+            reasons[key] = "give --vdrv --vpl --qgd --r-source --r-sink"
+    if any(rc_given.values()):
+        if not all(rc_given.values()):
+            missing = ["--" + k.replace("_", "-") for k, v in rc_given.items() if not v]
+            raise InputError(f"the RC pull-up rise time also needs {' '.join(missing)}")
+        r = _q(args, "r_pullup", "ohm", positive=True)
+        c = _q(args, "c_gate", "F", positive=True)
+        result["rc_rise_time_s"] = design.rc_rise_time(r, c)
+        rows.append(
+            (
+                "RC pull-up 10-90 %",
+                f"{fq(result['rc_rise_time_s'], 's')}  (R C ln 9, {fq(r, 'ohm')} x {fq(c, 'F')})",
+            )
+        )
+    else:
+        result["rc_rise_time_s"] = None
+        reasons["rc_rise_time_s"] = "give --r-pullup and --c-gate"
+    result["reasons"] = reasons
+    emit(result, rows, args.json, "gate timing")
+
+
+def _losses(args) -> None:
+    from bringup.analysis import design
+    from bringup.analysis.quantities import format_quantity as fq
+    from bringup.commands.analyze import emit
+
+    v = {
+        "vbus": _q(args, "vbus", "V"),
+        "iload": _q(args, "iload", "A"),
+        "fsw": _q(args, "fsw", "Hz"),
+        "tr": _q(args, "tr", "s"),
+        "tf": _q(args, "tf", "s"),
+        "rdson": _q(args, "rdson", "ohm"),
+        "duty": _fraction(args, "duty"),
+        "qg": _q(args, "qg", "C"),
+        "vdrv": _q(args, "vdrv", "V"),
+        "rth": _q(args, "rth", "K/W"),
+        "tamb": None,
+    }
+    if args.tamb is not None:
+        from bringup.analysis.quantities import parse_quantity
+
+        v["tamb"] = parse_quantity(args.tamb, "degC", where="--tamb")
+    reasons: dict[str, str] = {}
+
+    def need(key: str, *names: str) -> bool:
+        missing = [f"--{n}" for n in names if v[n] is None]
+        if missing:
+            reasons[key] = "give " + " ".join(missing)
+        return not missing
+
+    out: dict = dict.fromkeys(
+        ("p_switching_w", "p_conduction_w", "p_gate_w", "p_mosfet_w", "t_junction_c")
+    )
+    if need("p_switching_w", "vbus", "iload", "tr", "tf", "fsw"):
+        out["p_switching_w"] = design.switching_loss(
+            v["vbus"], v["iload"], v["tr"], v["tf"], v["fsw"]
+        )
+    if need("p_conduction_w", "iload", "rdson", "duty"):
+        out["p_conduction_w"] = design.conduction_loss(v["iload"], v["rdson"], v["duty"])
+    if need("p_gate_w", "qg", "vdrv", "fsw"):
+        out["p_gate_w"] = design.gate_drive_loss(v["qg"], v["vdrv"], v["fsw"])
+    if out["p_switching_w"] is not None and out["p_conduction_w"] is not None:
+        out["p_mosfet_w"] = out["p_switching_w"] + out["p_conduction_w"]
+        if need("t_junction_c", "rth", "tamb"):
+            out["t_junction_c"] = design.junction_temperature(
+                out["p_mosfet_w"], v["rth"], v["tamb"]
+            )
+    else:
+        reasons["p_mosfet_w"] = "needs the switching and the conduction loss"
+        reasons["t_junction_c"] = "needs the MOSFET loss (switching + conduction)"
+    if all(out[k] is None for k in ("p_switching_w", "p_conduction_w", "p_gate_w")):
+        raise InputError(
+            "nothing to compute: give --vbus --iload --tr --tf --fsw (switching), "
+            "--iload --rdson --duty (conduction) or --qg --vdrv --fsw (gate drive)"
+        )
+    result = {**out, "inputs": {f"{k}": val for k, val in v.items()}, "reasons": reasons}
+
+    def cell(key: str, unit: str) -> str:
+        return fq(out[key], unit) if out[key] is not None else f"n/a ({reasons[key]})"
+
+    t_j = out["t_junction_c"]
+    rows = [
+        ("switching loss", cell("p_switching_w", "W")),
+        ("conduction loss", cell("p_conduction_w", "W")),
+        ("MOSFET total", cell("p_mosfet_w", "W")),
+        ("gate drive (in the driver)", cell("p_gate_w", "W")),
+        (
+            "junction temperature",
+            f"{t_j:.1f} °C" if t_j is not None else f"n/a ({reasons['t_junction_c']})",
+        ),
+    ]
+    emit(result, rows, args.json, "losses and temperature")
