@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import hashlib
 import math
+import threading
 from dataclasses import dataclass, field
 
 import blosc
@@ -43,6 +44,7 @@ CODEC = "blosc-lz4-bitshuffle"
 #: Sample types a waveform may carry (stored little-endian).
 DTYPES = ("int8", "uint8", "int16", "uint16", "int32", "float32", "float64")
 _CHUNK_BYTES = 64 * 1024 * 1024
+_PARALLEL_DIGEST_BYTES = 1024 * 1024
 
 blosc.set_releasegil(True)  # compression runs in worker threads: let the UI thread run
 blosc.set_nthreads(max(1, min(4, blosc.detect_number_of_cores())))
@@ -130,20 +132,32 @@ def codes_digest(codes: np.ndarray) -> str:
 
 
 def encode_waveform(waveform: StoredWaveform) -> EncodedWaveform:
-    """Compress ``waveform.codes`` (Blosc, bit-shuffle, LZ4; chunks of at most 64 MiB)."""
+    """Compress ``waveform.codes`` (Blosc, bit-shuffle, LZ4; chunks of at most 64 MiB).
+
+    The SHA-256 of a large record is computed in a helper thread while Blosc compresses
+    (both release the GIL), which hides most of the digest's time.
+    """
     raw = memoryview(waveform.codes).cast("B")
-    size = waveform.codes.dtype.itemsize
+    digest: list[str] = []
+    helper = None
+    if raw.nbytes >= _PARALLEL_DIGEST_BYTES:
+        helper = threading.Thread(target=lambda: digest.append(codes_digest(waveform.codes)))
+        helper.start()
     chunks = [
         blosc.compress(
-            raw[start : start + _CHUNK_BYTES].tobytes(),
-            typesize=size,
+            raw[start : start + _CHUNK_BYTES],
+            typesize=waveform.codes.dtype.itemsize,
             clevel=5,
             shuffle=blosc.BITSHUFFLE,
             cname="lz4",
         )
-        for start in range(0, max(len(raw), 1), _CHUNK_BYTES)
+        for start in range(0, max(raw.nbytes, 1), _CHUNK_BYTES)
     ]
-    return EncodedWaveform(b"".join(chunks), CODEC, codes_digest(waveform.codes))
+    if helper is not None:
+        helper.join()
+    else:
+        digest.append(codes_digest(waveform.codes))
+    return EncodedWaveform(b"".join(chunks) if len(chunks) > 1 else chunks[0], CODEC, digest[0])
 
 
 def decode_codes(data: bytes, codec: str, dtype: str, points: int) -> np.ndarray:
