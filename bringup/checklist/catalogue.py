@@ -10,9 +10,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["AnalysisSpec", "ANALYSES", "NETS", "RAIL_NETS", "metrics_of"]
+__all__ = ["AnalysisSpec", "ANALYSES", "NETS", "FLOATING_NETS", "RAIL_NETS", "metrics_of"]
 
 NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
+#: Nets that float (not referred to ground): only a differential probe may measure them.
+FLOATING_NETS = ("vgs", "vbs")
 #: Nets that are supply rails (a level and a ripple each).
 RAIL_NETS = ("bus", "vdrv", "logic")
 

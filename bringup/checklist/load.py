@@ -28,7 +28,7 @@ from bringup.checklist.board import (
     expect_str,
     read_quantity,
 )
-from bringup.checklist.catalogue import ANALYSES, NETS
+from bringup.checklist.catalogue import ANALYSES, FLOATING_NETS, NETS
 from bringup.checklist.model import (
     Checklist,
     NetCapture,
@@ -154,6 +154,12 @@ def _scope(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> ScopeSetup:
         if span.design_key is None and span.value <= 0:  # type: ignore[operator]
             raise doc.error((*k, "range"), "must be positive")
         probe = _choice(doc, (*k, "probe"), n.get("probe", "single-ended"), _PROBES)
+        if probe == "single-ended" and net in FLOATING_NETS:
+            raise doc.error(
+                (*k, "probe"),
+                f"{net} floats: a single-ended probe's ground lead would short it "
+                '(use probe = "differential" or, for vgs, "math")',
+            )
         if probe == "math" and net != "vgs":
             raise doc.error(
                 (*k, "probe"), "a math difference is only defined for vgs (gate - switch)"

@@ -8,6 +8,7 @@ from __future__ import annotations
 from bringup.analysis.quantities import format_quantity
 from bringup.checklist.board import Board
 from bringup.checklist.model import Step
+from bringup.errors import InputError
 from bringup.runner.bench_source import BenchSource
 from bringup.runner.results import HAZARD_VOLTAGE_V, ChannelPlan, EnergisePlan, StepPlan
 
@@ -23,37 +24,47 @@ def _v(value: float) -> str:
     return format_quantity(value, "V")
 
 
-def _channels(step: Step, design: dict[str, float]) -> tuple[ChannelPlan, ...]:
-    channels: list[ChannelPlan] = []
+#: Probe kind per scope channel when the bench is not open yet: the simulated bench's layout
+#: (single-ended probes on CH1-CH2, differential ones on CH3-CH4).
+DEFAULT_PROBE_KINDS = {1: "single-ended", 2: "single-ended", 3: "differential", 4: "differential"}
+
+
+def _channels(
+    step: Step, design: dict[str, float], kinds: dict[int, str]
+) -> tuple[ChannelPlan, ...]:
+    """Give each capture a channel whose probe suits it: a floating net needs a differential
+    probe; a ground-referenced net takes a single-ended one, or a spare differential one."""
     if step.scope is None:
         return ()
-    number = 1
+    free_single = [n for n in sorted(kinds) if kinds[n] == "single-ended"]
+    free_diff = [n for n in sorted(kinds) if kinds[n] == "differential"]
+    wanted: list[tuple[str, str, float, float, str, bool]] = []  # net, probe, range, offset, ...
     for cap in step.scope.captures:
-        span = cap.range_v.resolve(design)
-        offset = cap.offset_v.resolve(design)
         if cap.probe == "math":
             # vgs = gate - switch from two ground-referenced probes, each over the full swing
-            bus = design["bus_voltage"]
-            swing = bus + design["gate_drive_voltage"]
+            swing = design["bus_voltage"] + design["gate_drive_voltage"]
             for net in ("gate", "switch"):
-                channels.append(
-                    ChannelPlan(
-                        number,
-                        net,
-                        "single-ended",
-                        1.6 * swing,
-                        0.5 * swing,
-                        cap.coupling,
-                        cap.bandwidth_limit,
-                    )  # fmt: skip
-                )
-                number += 1
+                wanted.append((net, "single-ended", 1.6 * swing, 0.5 * swing, cap.coupling,
+                               cap.bandwidth_limit))  # fmt: skip
             continue
-        channels.append(
-            ChannelPlan(number, cap.net, cap.probe, span, offset, cap.coupling, cap.bandwidth_limit)
-        )
-        number += 1
-    return tuple(channels)
+        wanted.append((cap.net, cap.probe, cap.range_v.resolve(design), cap.offset_v.resolve(design),
+                       cap.coupling, cap.bandwidth_limit))  # fmt: skip
+    plans: dict[str, ChannelPlan] = {}
+    for net, probe, span, offset, coupling, bw in sorted(
+        wanted, key=lambda w: w[1] != "differential"
+    ):
+        if probe == "differential":
+            pool = free_diff
+        else:
+            pool = free_single if free_single else free_diff
+        if not pool:
+            raise InputError(
+                f"step {step.id}: the bench has no free {probe} probe for net {net!r} "
+                f"(probes: {', '.join(f'CH{n} {k}' for n, k in sorted(kinds.items()))})"
+            )
+        channel = pool.pop(0)
+        plans[net] = ChannelPlan(channel, net, kinds[channel], span, offset, coupling, bw)
+    return tuple(plans[w[0]] for w in wanted)
 
 
 def _hands(step: Step, design: dict[str, float], channels: tuple[ChannelPlan, ...]) -> list[str]:
@@ -66,10 +77,7 @@ def _hands(step: Step, design: dict[str, float], channels: tuple[ChannelPlan, ..
         else:
             hands.append("Set the board's PWM enable to off.")
     for ch in channels:
-        kind = {"differential": "a differential probe", "single-ended": "a single-ended probe"}[
-            ch.probe
-        ]
-        hands.append(f"Put {kind} on CH{ch.channel} to net {ch.net}.")
+        hands.append(f"Put CH{ch.channel}'s {ch.probe} probe on net {ch.net}.")
     if step.reading is not None:
         hands.append(f"Put the meter's leads on net {step.reading.net}.")
     if step.soak is not None:
@@ -97,10 +105,13 @@ def _energise(step: Step, design: dict[str, float]) -> EnergisePlan | None:
     return EnergisePlan(volts, amps, ramp, prompt, hazard)
 
 
-def plan_step(step: Step, board: Board, bench: BenchSource) -> StepPlan:
-    """Resolve ``step`` for ``board``: what will be set, acquired and asked."""
+def plan_step(
+    step: Step, board: Board, bench: BenchSource, probe_kinds: dict[int, str] | None = None
+) -> StepPlan:
+    """Resolve ``step`` for ``board``: what will be set, acquired and asked. ``probe_kinds``:
+    the kind of probe on each scope channel (default ``DEFAULT_PROBE_KINDS``)."""
     design = board.design
-    channels = _channels(step, design)
+    channels = _channels(step, design, dict(probe_kinds or DEFAULT_PROBE_KINDS))
     energise = _energise(step, design)
     warnings: list[str] = []
     if step.scope is not None and any(c.probe == "math" for c in step.scope.captures):

@@ -174,10 +174,12 @@ class StepPlan:
 @dataclass(frozen=True)
 class StepAnswers:
     """The operator's answers for one step: ``confirmed`` the confirmation (True = done),
-    ``reading`` a typed reading ("3.31", "3.31 V"). None = not answered."""
+    ``reading`` a typed reading ("3.31", "3.31 V"), ``hazard_acknowledged`` the hazard notice
+    of a supply above 60 V DC. None = not answered."""
 
     confirmed: bool | None = None
     reading: str | None = None
+    hazard_acknowledged: bool = False
 
 
 @dataclass(frozen=True)

@@ -194,7 +194,9 @@ class SessionRunner:
         hazard notice above 60 V DC), the confirmation and reading prompts."""
         from bringup.runner.planning import plan_step
 
-        return plan_step(self._step(step_id), self.board, self.bench_source)
+        bench = self._bench
+        kinds = bench.probe_kinds() if bench is not None else None
+        return plan_step(self._step(step_id), self.board, self.bench_source, kinds)
 
     def attempts(self, step_id: str | None = None) -> tuple[AttemptResult, ...]:
         """Every attempt logged in this session (of ``step_id`` only, if given), oldest first.
@@ -211,7 +213,7 @@ class SessionRunner:
         from bringup.runner.resuming import load_views
 
         with self._lock:
-            return load_views(self._log, attempt)
+            return load_views(self._log, self.session_id, attempt)
 
     # ------------------------------------------------------------------ running
     def run_step(
@@ -250,11 +252,40 @@ class SessionRunner:
             result = execute(self, step, answers, cancel, finish, on_progress)
             with self._lock:
                 self._state.add(result)
+                self._update_listing()
             return result
         finally:
             with self._lock:
                 self._running = None
             self._run_lock.release()
+
+    def mark_not_run(self, step_id: str, message: str) -> AttemptResult:
+        """Log ``step_id`` as not run (nothing powered, nothing acquired) with ``message``:
+        what a headless run does to the steps after a failed one."""
+        from bringup.runner.analyses import AnalysisOutput
+        from bringup.runner.executing import now_utc
+        from bringup.runner.recording import store_attempt
+
+        step = self._step(step_id)
+        with self._lock:
+            moment = now_utc()
+            result = AttemptResult(step.id, step.stage_id, self._state.attempt_count(step_id) + 1,
+                                   "not-run", (), (), {}, self.plan(step_id).settings,
+                                   self.operator, moment, moment, message=message)  # fmt: skip
+            result = store_attempt(self, step, result, {}, AnalysisOutput())
+            self._state.add(result)
+            self._update_listing()
+            return result
+
+    def check_reading(self, step_id: str, text: str) -> float:
+        """Read a typed reading for ``step_id`` in the step's unit (SI float); raises
+        ``InputError`` naming the step for text that is not a quantity in that unit."""
+        from bringup.analysis.quantities import parse_quantity
+
+        step = self._step(step_id)
+        if step.reading is None:
+            raise RunnerError(f"step {step_id} asks for no reading")
+        return parse_quantity(text, step.reading.unit, where=f"{step_id} reading")
 
     def _check_order(self, step: Step) -> None:
         for earlier in self.checklist.steps():

@@ -1,0 +1,353 @@
+"""The checklist's analyses: acquired data in, metrics (ids of the catalogue) and plot views out.
+
+Each function turns what a step acquired into measured values with the measurement core
+(``bringup.analysis``) and builds the ``WaveformView``s the TUI and the record plot (reference
+levels, crossings, on-time windows). A metric that cannot be measured is ``None`` with a reason;
+it then fails its target (a value that is not there never passes).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from bringup.analysis.design import switching_loss
+from bringup.analysis.edges import EdgeMetrics, measure_edges, state_levels
+from bringup.analysis.errors import AnalysisError
+from bringup.checklist.board import Board
+from bringup.checklist.catalogue import RAIL_NETS
+from bringup.runner.results import Crossing, SoakProgress, WaveformView
+
+__all__ = ["Trace", "RampStep", "AnalysisInput", "AnalysisOutput", "ANALYSE", "analyse"]
+
+
+@dataclass(frozen=True, eq=False)
+class Trace:
+    """One acquired trace in volts: sample ``i`` at ``t0_s + i * dt_s`` seconds."""
+
+    net: str
+    volts: np.ndarray
+    dt_s: float
+    t0_s: float
+
+
+@dataclass(frozen=True)
+class RampStep:
+    """One step of a first-power ramp: setpoint and read-back (V, A), in current limit or not."""
+
+    setpoint_v: float
+    voltage_v: float
+    current_a: float
+    current_limited: bool
+
+
+@dataclass
+class AnalysisInput:
+    """Everything a step acquired."""
+
+    traces: dict[str, Trace] = field(default_factory=dict)
+    ramp: list[RampStep] = field(default_factory=list)
+    ramp_stopped: str = ""
+    soak_times_s: list[float] = field(default_factory=list)
+    soak_temps_c: list[float] = field(default_factory=list)
+    reading: float | None = None
+    reading_metric: str | None = None
+
+
+@dataclass
+class AnalysisOutput:
+    """Measured values by metric id (None = not measured), reasons, views, warnings."""
+
+    metrics: dict[str, float | None] = field(default_factory=dict)
+    reasons: dict[str, str] = field(default_factory=dict)
+    views: list[WaveformView] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    details: dict = field(default_factory=dict)
+    soak: SoakProgress | None = None
+
+    def set(self, metric: str, value: float | None, reason: str = "") -> None:
+        if value is not None and not math.isfinite(value):
+            reason = reason or f"value {value!r} is not finite"
+            value = None
+        self.metrics[metric] = None if value is None else float(value)
+        if value is None:
+            self.reasons[metric] = reason or "not measured"
+
+
+# Plots get at most this many points per trace (min/max decimation keeps the peaks).
+_VIEW_POINTS = 4000
+
+
+def _decimate(trace: Trace) -> tuple[np.ndarray, float]:
+    """Min/max pairs over blocks so that peaks and edges survive on a small plot."""
+    y = trace.volts
+    if y.size <= _VIEW_POINTS:
+        return y.astype(np.float64), trace.dt_s
+    block = int(math.ceil(y.size / (_VIEW_POINTS / 2)))
+    n = (y.size // block) * block
+    shaped = y[:n].reshape(-1, block)
+    out = np.empty(2 * shaped.shape[0])
+    out[0::2] = shaped.min(axis=1)
+    out[1::2] = shaped.max(axis=1)
+    return out, trace.dt_s * block / 2
+
+
+def _view(
+    name: str, trace: Trace, levels: dict[str, float], crossings=(), window=None
+) -> WaveformView:
+    volts, dt = _decimate(trace)
+    return WaveformView(name, trace.net, trace.t0_s, dt, volts,
+                        {k: float(v) for k, v in levels.items() if v is not None and math.isfinite(v)},
+                        tuple(crossings), window)  # fmt: skip
+
+
+def _edge_crossings(m: EdgeMetrics, limit: int = 6) -> list[Crossing]:
+    out: list[Crossing] = []
+    tr = m.transitions
+    if tr is None:
+        return out
+    lo, mid, hi = m.reference_levels_v
+    for k in range(min(len(tr.direction), limit)):
+        rising = bool(tr.direction[k] > 0)
+        way = "rising" if rising else "falling"
+        for t, v, label in ((tr.t_low_s[k], lo, "10 %"), (tr.t_mid_s[k], mid, "50 %"),
+                            (tr.t_high_s[k], hi, "90 %")):  # fmt: skip
+            out.append(Crossing(float(t), float(v), label, way))
+    return out
+
+
+def _edge_levels(m: EdgeMetrics) -> dict[str, float]:
+    lo, mid, hi = m.reference_levels_v
+    return {"low": m.low_level_v, "high": m.high_level_v, "10 %": lo, "50 %": mid, "90 %": hi}
+
+
+def _trace(data: AnalysisInput, net: str) -> Trace:
+    try:
+        return data.traces[net]
+    except KeyError:
+        raise AnalysisError(f"no trace of net {net!r} was acquired") from None
+
+
+# --------------------------------------------------------------------------- analyses
+def first_power(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
+    """Highest input current over the ramp's steps (A) and the last read-back voltage (V).
+
+    A step in current limit is a short (or a part fitted backwards): its current is at the
+    limit, so ``ramp_current`` fails its target however the limit was set."""
+    if not data.ramp:
+        out.set("ramp_current", None, data.ramp_stopped or "the ramp did not run")
+        out.set("ramp_voltage", None, data.ramp_stopped or "the ramp did not run")
+        return
+    out.set("ramp_current", max(s.current_a for s in data.ramp))
+    out.set("ramp_voltage", data.ramp[-1].voltage_v)
+    out.details["ramp"] = [s.__dict__ for s in data.ramp]
+    if data.ramp_stopped:
+        out.warnings.append(data.ramp_stopped)
+
+
+def rail_levels(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
+    """Mean (V) and peak-to-peak ripple (V) of each rail trace (``<net>_level``/``_ripple``)."""
+    from bringup.analysis.rails import measure_rail
+
+    for net in RAIL_NETS:
+        if net not in data.traces:
+            continue
+        trace = data.traces[net]
+        try:
+            rail = measure_rail(trace.volts)
+        except AnalysisError as exc:
+            out.set(f"{net}_level", None, str(exc))
+            out.set(f"{net}_ripple", None, str(exc))
+            continue
+        out.set(f"{net}_level", rail.mean_v)
+        out.set(f"{net}_ripple", rail.ripple_pp_v)
+        out.views.append(
+            _view(net, trace, {"mean": rail.mean_v, "min": rail.min_v, "max": rail.max_v})
+        )
+
+
+def meter_reading(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
+    """The value read on the meter, as the step's reading metric."""
+    metric = data.reading_metric or ""
+    out.set(metric, data.reading, "no reading was given")
+
+
+def gate_overdrive(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
+    """Vgs high state level while on (V), switch node high level (V), bus mean (V) and the
+    switch node's shortfall from the bus, ``switch_drop`` = bus - switch high (V).
+
+    State levels by the IEEE 181 histogram method (``bringup.analysis.edges.state_levels``):
+    a source follower shows a Vgs near its plateau and a switch node a few volts below the bus.
+    """
+    vgs, sw, bus = _trace(data, "vgs"), _trace(data, "switch"), _trace(data, "bus")
+    try:
+        v = state_levels(vgs.volts)
+        out.set("vgs_on", v.high_v)
+        out.views.append(_view("vgs", vgs, {"low": v.low_v, "high": v.high_v}))
+    except AnalysisError as exc:
+        out.set("vgs_on", None, f"vgs: {exc}")
+    bus_mean = float(np.mean(bus.volts, dtype=np.float64))
+    out.set("bus_level", bus_mean)
+    try:
+        s = state_levels(sw.volts)
+        out.set("switch_high", s.high_v)
+        out.set("switch_drop", bus_mean - s.high_v)
+        out.views.append(_view("switch", sw, {"low": s.low_v, "high": s.high_v, "bus": bus_mean}))
+    except AnalysisError as exc:
+        out.set("switch_high", None, f"switch: {exc}")
+        out.set("switch_drop", None, f"switch: {exc}")
+
+
+def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
+    """IEEE 181 10-90 % times (s) of the switch node and Vgs, judged on the slowest edge of
+    the record; the switch node's worst overshoot (% of amplitude) and its lowest voltage (V);
+    the Miller plateau of Vgs (V); and the switching loss the switch-node edges imply,
+    P_sw = 1/2 * V * I * (t_r + t_f) * f_sw (ST A5972D datasheet eq. 23), with V the switch
+    node's high level and I = V / R_load from the design's load resistance."""
+    from bringup.analysis.plateau import find_miller_plateau
+
+    sw, vgs = _trace(data, "switch"), _trace(data, "vgs")
+    try:
+        m = measure_edges(sw.volts, sw.dt_s, sw.t0_s)
+        rise, fall = m.rise_time_max_s, m.fall_time_max_s
+        out.set("switch_rise", rise, m.reasons.get("rise_time_s", ""))
+        out.set("switch_fall", fall, m.reasons.get("fall_time_s", ""))
+        out.set("switch_overshoot", m.overshoot_max_pct, m.reasons.get("overshoot_pct", ""))
+        out.set("switch_negative_excursion", m.min_v)
+        if rise is not None and fall is not None:
+            volts = m.high_level_v
+            amps = volts / board.design["load_resistance"]
+            out.set("switching_loss", switching_loss(volts, amps, rise, fall,
+                                                     board.design["switching_frequency"]))  # fmt: skip
+        else:
+            out.set("switching_loss", None, "needs both a rising and a falling switch-node edge")
+        out.views.append(
+            _view("switch", sw, {**_edge_levels(m), "min": m.min_v}, _edge_crossings(m))
+        )
+    except AnalysisError as exc:
+        for metric in ("switch_rise", "switch_fall", "switch_overshoot", "switching_loss"):
+            out.set(metric, None, f"switch: {exc}")
+        out.set("switch_negative_excursion", float(np.min(sw.volts)))
+    try:
+        g = measure_edges(vgs.volts, vgs.dt_s, vgs.t0_s)
+        out.set("vgs_rise", g.rise_time_max_s, g.reasons.get("rise_time_s", ""))
+        out.set("vgs_fall", g.fall_time_max_s, g.reasons.get("fall_time_s", ""))
+        levels = _edge_levels(g)
+        try:
+            plateau = find_miller_plateau(vgs.volts, vgs.dt_s, vgs.t0_s)
+        except AnalysisError as exc:
+            plateau = None
+            out.reasons["miller_plateau"] = str(exc)
+        if plateau is not None:
+            out.set("miller_plateau", plateau.voltage_v)
+            levels["plateau"] = plateau.voltage_v
+        else:
+            out.set("miller_plateau", None, out.reasons.get("miller_plateau", "no plateau found"))
+        out.views.append(_view("vgs", vgs, levels, _edge_crossings(g)))
+    except AnalysisError as exc:
+        for metric in ("vgs_rise", "vgs_fall", "miller_plateau"):
+            out.set(metric, None, f"vgs: {exc}")
+
+
+def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
+    """Droop of Vgs and of the bootstrap voltage over the on-time (V), by a least-squares line
+    over the settled top (``bringup.analysis.droop``); Vgs at the start and end of the on-time;
+    the longest on-time at which the line reaches the Vgs floor (the ``vgs_end`` target's min,
+    else the R_DS(on) rating voltage); the bootstrap voltage at the end of the on-time minus
+    the driver's falling UVLO (V)."""
+    from bringup.analysis.droop import measure_droop
+
+    vgs, vbs = _trace(data, "vgs"), _trace(data, "vbs")
+    target = board.targets.get("vgs_end")
+    floor = target.limit.min if target is not None and target.limit.min is not None else None
+    if floor is None:
+        floor = board.design["mosfet_rds_on_vgs"]
+    try:
+        d = measure_droop(vgs.volts, vgs.dt_s, floor, vgs.t0_s)
+        out.set("vgs_droop", d.droop_v)
+        out.set("vgs_start", d.start_v)
+        out.set("vgs_end", d.end_v)
+        out.set("on_time", d.on_time_s)
+        if d.t_on_max_s is not None:
+            out.set("on_time_supported", d.t_on_max_s)
+        elif d.droop_rate_v_per_s <= 0 and d.end_v > floor:
+            # The top does not sag at all: its line never reaches the floor. Reported as a
+            # large finite value so that the target can judge it.
+            out.set("on_time_supported", 1.0)
+            out.warnings.append("Vgs does not droop measurably: supported on-time shown as 1 s")
+        else:
+            out.set("on_time_supported", None, d.reasons.get("t_on_max_s", "no estimate"))
+        if d.extrapolation is not None and d.extrapolation > 10:
+            out.warnings.append(
+                f"the supported on-time extrapolates the droop line {d.extrapolation:.0f}x beyond "
+                "the measured on-time"
+            )
+        out.views.append(_view("vgs", vgs, {"start": d.start_v, "end": d.end_v, "floor": floor},
+                               window=(d.top_start_s, d.top_end_s)))  # fmt: skip
+        out.details["vgs_droop"] = d.to_dict()
+    except AnalysisError as exc:
+        for metric in ("vgs_droop", "vgs_start", "vgs_end", "on_time", "on_time_supported"):
+            out.set(metric, None, f"vgs: {exc}")
+    uvlo = board.design["driver_uvlo_falling"]
+    try:
+        b = measure_droop(vbs.volts, vbs.dt_s, uvlo, vbs.t0_s)
+        out.set("vbs_end", b.end_v)
+        out.set("uvlo_margin", b.end_v - uvlo)
+        out.views.append(_view("vbs", vbs, {"start": b.start_v, "end": b.end_v, "uvlo": uvlo},
+                               window=(b.top_start_s, b.top_end_s)))  # fmt: skip
+    except AnalysisError as exc:
+        out.set("vbs_end", None, f"vbs: {exc}")
+        out.set("uvlo_margin", None, f"vbs: {exc}")
+
+
+def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
+    """Final heatsink temperature (degC) predicted by a first-order least-squares fit of the
+    soak (``bringup.analysis.soak.fit_soak``), its time constant (s) and the last reading."""
+    from bringup.analysis.soak import fit_soak
+
+    t, temp = np.asarray(data.soak_times_s), np.asarray(data.soak_temps_c)
+    if temp.size:
+        out.set("heatsink_last", float(temp[-1]))
+    else:
+        out.set("heatsink_last", None, "no temperature was read")
+    try:
+        fit = fit_soak(t, temp)
+    except AnalysisError as exc:
+        out.set("heatsink_final", None, str(exc))
+        out.set("soak_time_constant", None, str(exc))
+        return
+    out.set("heatsink_final", fit.final_c)
+    out.set("soak_time_constant", fit.tau_s)
+    out.warnings.extend(fit.warnings)
+    out.details["soak_fit"] = fit.to_dict()
+    target = board.targets.get("heatsink_final")
+    if target is not None and fit.final_c_uncertainty > target.uncertainty:
+        out.warnings.append(
+            f"the fit's uncertainty ({fit.final_c_uncertainty:.2g} K, k = 2) is wider than the "
+            f"target's guard band ({target.uncertainty:.2g} K): soak longer for a firmer verdict"
+        )
+
+
+ANALYSE: dict[str, Callable[[AnalysisInput, Board, AnalysisOutput], None]] = {
+    "first-power": first_power,
+    "rail-levels": rail_levels,
+    "meter-reading": meter_reading,
+    "gate-overdrive": gate_overdrive,
+    "edges": edges,
+    "droop": droop,
+    "soak": soak,
+}
+
+
+def analyse(name: str, data: AnalysisInput, board: Board) -> AnalysisOutput:
+    """Run analysis ``name`` of the catalogue on ``data``; never raises ``AnalysisError``
+    (what cannot be measured is a metric of None with its reason)."""
+    out = AnalysisOutput()
+    try:
+        ANALYSE[name](data, board, out)
+    except AnalysisError as exc:
+        out.warnings.append(str(exc))
+    return out

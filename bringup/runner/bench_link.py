@@ -1,0 +1,201 @@
+"""The runner's hold on the bench: opens it, plays the operator's hands on a simulated one,
+powers the board only through the instrument layer's safe-state owner, acquires.
+
+Every instrument call goes through ``bringup.instruments``; nothing here talks SCPI itself.
+"""
+
+from __future__ import annotations
+
+import tempfile
+import threading
+from pathlib import Path
+
+from bringup.checklist.board import Board
+from bringup.checklist.model import Step
+from bringup.runner.analyses import Trace
+from bringup.runner.bench_source import BenchSource
+from bringup.runner.results import StepPlan
+
+__all__ = ["BenchLink"]
+
+_SLOPES = {"positive": "rising", "negative": "falling"}
+
+
+class BenchLink:
+    """An open bench (real or simulated) for one session."""
+
+    def __init__(self, bench, running=None, tmpdir: tempfile.TemporaryDirectory | None = None):
+        """Use :meth:`open`."""
+        self.bench = bench
+        self._running = running  # the in-process simulated bench, if any
+        self._tmpdir = tmpdir
+        self._energised = None
+        self._off_lock = threading.Lock()
+
+    @classmethod
+    def open(cls, source: BenchSource, board: Board) -> BenchLink:
+        """Open the bench file's instruments, or start a simulated bench for ``board`` on
+        127.0.0.1 and open it through its generated bench file."""
+        from bringup.instruments.bench import open_bench_file
+
+        if not source.is_simulated:
+            return cls(open_bench_file(source.path))
+        from sim_instruments.bench import start_bench
+
+        try:
+            running = start_bench(board.design, source.scenario or "healthy", source.seed,
+                                  time_scale=source.time_scale)  # fmt: skip
+        except ValueError as exc:
+            from bringup.errors import InputError
+
+            raise InputError(f"--scenario: {exc}") from None
+        tmpdir = tempfile.TemporaryDirectory(prefix="bringup-bench-")
+        try:
+            path = Path(tmpdir.name) / "sim-bench.toml"
+            path.write_text(running.bench_file_text(), encoding="utf-8")
+            bench = open_bench_file(path)
+        except BaseException:
+            running.stop()
+            tmpdir.cleanup()
+            raise
+        return cls(bench, running, tmpdir)
+
+    # ---------------------------------------------------------------- identity
+    @property
+    def simulated(self) -> bool:
+        """True when the bench has the simulation subsystem (the runner may play the hands)."""
+        return self.bench.simulation is not None
+
+    def identities(self) -> dict[str, str]:
+        """``*IDN?`` of each instrument by role."""
+        return dict(self.bench.identities)
+
+    def probe_kinds(self) -> dict[int, str]:
+        """The kind of probe on each wired scope channel, as the bench file wires it: a channel
+        wired to a floating net (vgs, vbs) carries a differential probe."""
+        from bringup.checklist.catalogue import FLOATING_NETS
+
+        return {
+            n: "differential" if w.net in FLOATING_NETS else "single-ended"
+            for n, w in self.bench.config.channels.items()
+        }
+
+    def time_scale(self) -> float:
+        """Bench seconds per wall second: 1 on a real bench, the sim's speed-up otherwise."""
+        if self.bench.simulation is None:
+            return 1.0
+        return float(self.bench.simulation.time_scale())
+
+    # ---------------------------------------------------------------- hands (sim)
+    def play_hands(self, step: Step, plan: StepPlan) -> None:
+        """On a simulated bench, do what the operator would: the PWM switch and duty, the
+        probes onto their nets, the meter's leads. Done with the board unpowered."""
+        sim = self.bench.simulation
+        if sim is None:
+            return
+        pwm = plan.settings.get("pwm")
+        if pwm is not None:
+            if pwm["enabled"] and pwm.get("duty") is not None:
+                sim.set_duty(float(pwm["duty"]))
+            sim.set_pwm(bool(pwm["enabled"]))
+        for ch in plan.channels:
+            sim.move_probe(ch.channel, ch.net)
+        if step.reading is not None:
+            sim.move_meter_leads(step.reading.net)
+
+    def note_probes(self, plan: StepPlan) -> None:
+        """On a real bench the operator confirmed the probes: note where they now sit."""
+        for ch in plan.channels:
+            self.bench.note_probe_moved(ch.channel, ch.net)
+
+    # ---------------------------------------------------------------- power
+    def energised(
+        self, volts: float, current_limit_a: float, ovp_v: float, top_v: float, acknowledged: bool
+    ):
+        """The instrument layer's safe-state context manager around the supply output: on at
+        ``volts`` (V) with ``current_limit_a`` (A) and OVP at ``ovp_v``; ``top_v`` is the
+        highest voltage the step will set (its hazard notice is acknowledged or not)."""
+        from bringup.instruments.safety import HazardLevel, energised, hazard_for
+
+        notice = hazard_for(top_v)
+        level = notice.level if (acknowledged and notice is not None) else HazardLevel.NONE
+        owner = energised(self.bench, volts=volts, current_limit_a=current_limit_a, ovp_v=ovp_v,
+                          acknowledged=level)  # fmt: skip
+        self._energised = owner
+        return owner
+
+    def make_safe(self) -> str | None:
+        """Supply output OFF now, from any thread; returns a problem text or None."""
+        from bringup.instruments.safety import make_safe_quietly
+
+        owner = self._energised
+        if owner is not None:
+            problem = owner.switch_off_now()
+            if problem is None:
+                return None
+        with self._off_lock:
+            return make_safe_quietly(self.bench.supply)
+
+    # ---------------------------------------------------------------- scope
+    def acquire(self, plan: StepPlan) -> tuple[dict[str, Trace], dict]:
+        """Set up the scope as planned, take one record, fetch every planned trace.
+
+        Returns traces by net (volts) and the raw records by net (``Waveform``: codes + scale)
+        for the log. A math capture (vgs = gate - switch) is fetched from the MATH source."""
+        scope = self.bench.scope
+        setup = plan.settings["scope"]
+        used = {ch.channel for ch in plan.channels}
+        for ch in plan.channels:
+            scope.configure_channel(ch.channel, range_v=ch.range_v, offset_v=ch.offset_v,
+                                    coupling=ch.coupling.lower(),
+                                    bandwidth_limit=ch.bandwidth_limit)  # fmt: skip
+        for n in (1, 2, 3, 4):
+            if n not in used:
+                scope.disable_channel(n)
+        by_net = {ch.net: ch.channel for ch in plan.channels}
+        math_nets = list(setup.get("math") or [])
+        if math_nets:
+            scope.configure_math_difference(by_net["gate"], by_net["switch"])
+        else:
+            scope.disable_math()
+        scope.configure_timebase(duration_s=setup["duration_s"], points=setup["points"],
+                                 start_s=-setup["pretrigger_s"])  # fmt: skip
+        trig = setup.get("trigger")
+        if trig is not None:
+            net = trig["net"]
+            source = by_net.get(net) or by_net.get("gate")
+            scope.configure_trigger(source=source, level_v=trig["level_v"],
+                                    slope=_SLOPES[trig["slope"]])  # fmt: skip
+        scope.acquire()
+        traces: dict[str, Trace] = {}
+        raw: dict = {}
+        wanted = [(ch.net, ch.channel) for ch in plan.channels] + [(n, "math") for n in math_nets]
+        for net, source in wanted:
+            wf = scope.fetch_waveform(source)
+            raw[net] = wf
+            traces[net] = Trace(net, wf.volts(), wf.x_increment, wf.x_origin)
+        return traces, raw
+
+    # ---------------------------------------------------------------- meters
+    def read_meter_volts(self) -> float:
+        """DC volts on the meter's leads (V)."""
+        return float(self.bench.thermometer.measure_dc_volts())
+
+    def configure_thermometer(self) -> None:
+        """Thermocouple input, degrees Celsius."""
+        self.bench.thermometer.configure()
+
+    def read_temperature_c(self) -> float:
+        """Heatsink temperature (degC)."""
+        return float(self.bench.thermometer.read_temperature_c())
+
+    # ---------------------------------------------------------------- closing
+    def close(self) -> None:
+        """Supply OFF (confirmed), every connection closed, the simulated bench stopped."""
+        try:
+            self.bench.close()
+        finally:
+            if self._running is not None:
+                self._running.stop()
+            if self._tmpdir is not None:
+                self._tmpdir.cleanup()

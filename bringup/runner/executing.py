@@ -1,0 +1,339 @@
+"""One attempt of one step: answers, hands, power, acquisition, analysis, verdicts, the log.
+
+The order is the order of safety: the operator's hands (probes, PWM switch) are done with the
+board unpowered; the supply is switched on only inside the instrument layer's safe-state owner
+and off again before anything is computed; the attempt is committed to the log in one
+transaction before ``run_step`` returns, whatever happened (a refused or stopped attempt is
+logged as ``not-run`` with the reason).
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+import time
+from collections.abc import Callable
+from typing import TYPE_CHECKING
+
+from bringup.analysis.quantities import format_quantity, parse_quantity
+from bringup.analysis.verdict import judge
+from bringup.checklist.catalogue import metrics_of
+from bringup.checklist.model import Step
+from bringup.errors import BringupError
+from bringup.runner.analyses import AnalysisInput, AnalysisOutput, RampStep, analyse
+from bringup.runner.predictions import disagreement, predict
+from bringup.runner.recording import store_attempt
+from bringup.runner.results import (
+    AttemptResult,
+    MetricResult,
+    Progress,
+    SoakProgress,
+    StepAnswers,
+    StepPlan,
+    worst_state,
+)
+
+if TYPE_CHECKING:
+    from bringup.runner.session import SessionRunner
+
+__all__ = ["execute", "StepStopped", "now_utc"]
+
+# How often (readings) the soak's prediction is refitted while it runs, and when it counts as
+# settled: the last fits agree within this (K) and the fit's uncertainty is within the guard band.
+_REFIT_EVERY = 4
+_SETTLED_SPREAD_K = 0.3
+
+
+class StepStopped(Exception):
+    """The operator cancelled the step or the session was aborted."""
+
+
+def now_utc() -> str:
+    """The time now, ISO 8601 UTC with milliseconds."""
+    import datetime as dt
+
+    return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds").replace("+00:00", "Z")
+
+
+class _Context:
+    """What one attempt carries along while it runs."""
+
+    def __init__(self, runner, step, plan, cancel, finish, on_progress):
+        self.runner = runner
+        self.step: Step = step
+        self.plan: StepPlan = plan
+        self.cancel = cancel or threading.Event()
+        self.finish = finish or threading.Event()
+        self.aborted: threading.Event = runner.aborted
+        self.on_progress: Callable[[Progress], None] | None = on_progress
+        self.data = AnalysisInput()
+        self.raw: dict = {}
+        self.warnings: list[str] = list(plan.warnings)
+        self.soak: SoakProgress | None = None
+
+    def check(self) -> None:
+        if self.aborted.is_set():
+            raise StepStopped("the session was aborted")
+        if self.cancel.is_set():
+            raise StepStopped("cancelled by the operator")
+
+    def wait(self, seconds: float) -> None:
+        """Wait ``seconds`` of wall time, waking at once on cancel or abort."""
+        deadline = time.monotonic() + max(0.0, seconds)
+        while True:
+            self.check()
+            left = deadline - time.monotonic()
+            if left <= 0:
+                return
+            self.cancel.wait(min(left, 0.05))
+
+    def emit(self, phase: str, message: str, **kw) -> None:
+        if self.on_progress is not None:
+            try:
+                self.on_progress(Progress(self.step.id, phase, message, **kw))
+            except Exception:  # a broken listener must not leave the supply on
+                pass
+
+
+# ------------------------------------------------------------------------- answers
+def _answers(ctx: _Context, answers: StepAnswers | None, simulated: bool) -> str | None:
+    """Why the step must be refused (None = it may run). Fills in the typed reading."""
+    plan, step = ctx.plan, ctx.step
+    if plan.confirm is not None:
+        confirmed = answers.confirmed if answers is not None else None
+        if confirmed is False:
+            return "the operator did not confirm: " + plan.confirm
+        if confirmed is None and not simulated:
+            return (
+                "needs the operator's confirmation (from the notebook, or --answers FILE): "
+                + plan.confirm
+            )
+    if step.reading is not None:
+        text = answers.reading if answers is not None else None
+        if text is not None:
+            ctx.data.reading = parse_quantity(text, step.reading.unit, where=f"{step.id} reading")
+        elif not simulated:
+            return f"needs a reading typed in: {step.reading.prompt} ({step.reading.unit})"
+        ctx.data.reading_metric = step.reading.metric
+    return None
+
+
+# ------------------------------------------------------------------------- bench work
+def _ramp(ctx: _Context, powered, supply: dict) -> None:
+    """The first-power ramp: each step's current read back; a short stops it at once."""
+    from bringup.instruments.supply import Regulation
+
+    target = ctx.runner.board.targets.get("ramp_current")
+    ceiling = target.limit.max if target is not None and target.limit.max is not None else None
+    steps = supply["ramp_v"]
+    for k, volts in enumerate(steps):
+        ctx.check()
+        powered.set_voltage(volts)
+        ctx.wait(supply["dwell_s"])
+        amps, read_v = powered.measure_current(), powered.measure_voltage()
+        limited = powered.regulation() == Regulation.CONSTANT_CURRENT
+        ctx.data.ramp.append(RampStep(volts, read_v, amps, limited))
+        ctx.emit("ramp", f"ramp {format_quantity(volts, 'V')}: {format_quantity(amps, 'A')}",
+                 fraction=(k + 1) / len(steps),
+                 readings={"supply_voltage_v": read_v, "supply_current_a": amps})  # fmt: skip
+        if limited or (ceiling is not None and amps > ceiling):
+            why = "in current limit" if limited else f"above {format_quantity(ceiling, 'A')}"
+            ctx.data.ramp_stopped = (
+                f"ramp stopped at {format_quantity(volts, 'V')}: input current "
+                f"{format_quantity(amps, 'A')} {why} (a short or a part fitted wrongly?); "
+                "supply switched off"
+            )
+            return
+
+
+def _soak(ctx: _Context, bench, powered) -> None:
+    """Log the heatsink temperature, refit as it comes in, stop once the prediction settles
+    (never before the minimum duration) or when the operator says so after that."""
+    from bringup.analysis.errors import AnalysisError
+    from bringup.analysis.soak import fit_soak
+
+    soak = ctx.plan.settings["soak"]
+    target = ctx.runner.board.targets.get("heatsink_final")
+    band = target.uncertainty if target is not None else 1.0
+    limit = target.limit.max if target is not None else None
+    scale = bench.time_scale()
+    bench.configure_thermometer()
+    start = time.monotonic()
+    times, temps, finals = ctx.data.soak_times_s, ctx.data.soak_temps_c, []
+    fit = None
+    while True:
+        ctx.check()
+        elapsed = (time.monotonic() - start) * scale
+        temps.append(bench.read_temperature_c())
+        times.append(elapsed)
+        if len(temps) >= 8 and len(temps) % _REFIT_EVERY == 0:
+            try:
+                fit = fit_soak(times, temps)
+                finals.append(fit.final_c)
+            except AnalysisError:
+                fit = None
+        settled = (
+            fit is not None
+            and elapsed >= soak["min_duration_s"]
+            and fit.final_c_uncertainty <= band
+            and len(finals) >= 3
+            and max(finals[-3:]) - min(finals[-3:]) <= _SETTLED_SPREAD_K
+        )
+        ctx.soak = SoakProgress(tuple(times), tuple(temps),
+                                fit.final_c if fit else None,
+                                fit.final_c_uncertainty / 2 if fit else None,
+                                fit.tau_s if fit else None, settled, limit)  # fmt: skip
+        readings = {"temperature_c": temps[-1], "bench_time_s": elapsed}
+        ctx.emit("soaking", f"soak {elapsed:.0f} s: {temps[-1]:.1f} degC",
+                 fraction=min(1.0, elapsed / soak["duration_s"]), readings=readings,
+                 soak=ctx.soak)  # fmt: skip
+        if settled or elapsed >= soak["duration_s"]:
+            return
+        if ctx.finish.is_set() and elapsed >= soak["min_duration_s"]:
+            return
+        ctx.wait(soak["interval_s"] / scale)
+
+
+def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
+    """Hands, power, acquisition; returns the instruments' identities. Supply OFF after."""
+    runner, step = ctx.runner, ctx.step
+    ctx.emit("preparing", "opening the bench")
+    bench = runner.bench()
+    # Channels follow the probes the open bench really has.
+    ctx.plan = plan = runner.plan(step.id)
+    identities = bench.identities()
+    ctx.check()
+    if bench.simulated:
+        ctx.emit("hands", "the simulated bench sets the PWM and moves the probes")
+        bench.play_hands(step, plan)
+    else:
+        bench.note_probes(plan)
+    supply = plan.settings.get("supply")
+    if supply is None:
+        if step.reading is not None and ctx.data.reading is None:
+            ctx.data.reading = bench.read_meter_volts()
+        return identities
+    ramp = supply["ramp_v"]
+    first = ramp[0] if ramp else supply["voltage_v"]
+    top = max([supply["voltage_v"], *ramp])
+    acknowledged = bool(answers.hazard_acknowledged) if answers is not None else False
+    ctx.check()
+    ctx.emit("energising", plan.energise.prompt if plan.energise else "supply on")
+    with bench.energised(first, supply["current_limit_a"], supply["ovp_v"], top,
+                         acknowledged) as powered:  # fmt: skip
+        if ramp:
+            _ramp(ctx, powered, supply)
+        else:
+            ctx.wait(supply["dwell_s"])
+            ctx.emit("energising", "supply on",
+                     readings={"supply_voltage_v": powered.measure_voltage(),
+                               "supply_current_a": powered.measure_current()})  # fmt: skip
+        if plan.settings.get("scope") is not None:
+            ctx.check()
+            ctx.emit("acquiring", "acquiring")
+            traces, raw = bench.acquire(plan)
+            ctx.data.traces.update(traces)
+            ctx.raw.update(raw)
+        if step.reading is not None and ctx.data.reading is None:
+            ctx.data.reading = bench.read_meter_volts()
+        if plan.settings.get("soak") is not None:
+            _soak(ctx, bench, powered)
+        tripped = powered.switched_off_because
+        if tripped is not None:
+            raise tripped
+    ctx.emit("safe", "supply output off")
+    return identities
+
+
+# ------------------------------------------------------------------------- judging
+def _judge(ctx: _Context, out: AnalysisOutput) -> tuple[str, tuple[MetricResult, ...]]:
+    board, step = ctx.runner.board, ctx.step
+    predicted = predict(step.analysis, board)
+    units = metrics_of(step.analysis)
+    results: list[MetricResult] = []
+    outcomes: list[str] = []
+    for metric in (*step.targets, *[m for m in step.report if m not in step.targets]):
+        value = out.metrics.get(metric)
+        p = predicted.get(metric)
+        if metric in step.targets:
+            t = board.targets[metric]
+            v = judge(value, t.limit, t.uncertainty, t.rule)
+            reason = v.reason
+            if value is None and metric in out.reasons:
+                reason = f"{out.reasons[metric]}: {v.reason}"
+            outcomes.append(v.outcome)
+            results.append(MetricResult(metric, t.label, t.unit, value, p, t.limit, t.uncertainty,
+                                        t.rule, v.outcome, v.margin, reason,
+                                        disagreement(value, p, t.unit, t.uncertainty)))  # fmt: skip
+        else:
+            unit = units[metric]
+            results.append(MetricResult(metric, metric.replace("_", " "), unit, value, p,
+                                        reason=out.reasons.get(metric),
+                                        disagreement=disagreement(value, p, unit, 0.0)))  # fmt: skip
+    state = worst_state(outcomes) if outcomes else "pass"
+    return state, tuple(results)
+
+
+def execute(
+    runner: SessionRunner,
+    step: Step,
+    answers: StepAnswers | None,
+    cancel: threading.Event | None,
+    finish: threading.Event | None,
+    on_progress: Callable[[Progress], None] | None,
+) -> AttemptResult:
+    """Run one attempt of ``step`` for ``runner`` and log it (see the module docstring)."""
+    plan = runner.plan(step.id)
+    ctx = _Context(runner, step, plan, cancel, finish, on_progress)
+    started = now_utc()
+    identities: dict[str, str] = {}
+    message = ""
+    state = "not-run"
+    metrics: tuple[MetricResult, ...] = ()
+    out = AnalysisOutput()
+    try:
+        refusal = _answers(ctx, answers, runner.bench_source.is_simulated)
+        if refusal is not None:
+            message = f"not run: {refusal}"
+        else:
+            identities = _on_bench(ctx, answers)
+            ctx.emit("analysing", "analysing")
+            out = analyse(step.analysis, ctx.data, runner.board)
+            ctx.warnings.extend(out.warnings)
+            state, metrics = _judge(ctx, out)
+    except StepStopped as exc:
+        message = f"not run: {exc}; supply switched off"
+    except BringupError as exc:
+        message = f"not run: {exc}"
+    finally:
+        bench = runner._bench
+        if bench is not None:
+            problem = bench.make_safe()
+            if problem:
+                ctx.warnings.append(f"could not confirm the supply off: {problem}")
+    finished = now_utc()
+    ctx.emit("storing", "logging the attempt")
+    result = AttemptResult(
+        step_id=step.id,
+        stage_id=step.stage_id,
+        attempt_no=runner.step_status(step.id).attempts + 1,
+        state=state,
+        metrics=metrics,
+        waveforms=tuple(out.views),
+        instruments=identities,
+        settings=ctx.plan.settings,
+        operator=runner.operator,
+        started_utc=started,
+        finished_utc=finished,
+        message=message,
+        warnings=tuple(dict.fromkeys(ctx.warnings)),
+        soak=ctx.soak,
+    )
+    stored = store_attempt(runner, step, result, ctx.raw, out)
+    ctx.emit("done", f"{step.id}: {state}")
+    return stored
+
+
+def is_number(value: object) -> bool:
+    """True for a finite float or int (not bool)."""
+    return isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value)

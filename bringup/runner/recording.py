@@ -1,0 +1,175 @@
+"""Attempts to and from the session log (``bringup.store``): one transaction per attempt.
+
+Stored per attempt: instrument identities, the settings sent, raw waveforms (the instrument's
+codes plus scale), metrics with units, predictions, verdicts with limits and margins, the state,
+the operator and times; in ``extra`` the message, warnings, the plot annotations (levels,
+crossings, windows) and analysis details, so a resumed session shows the same attempt.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from bringup.analysis.verdict import Limit
+from bringup.checklist.model import Step
+from bringup.runner.analyses import AnalysisOutput
+from bringup.runner.results import AttemptResult, Crossing, MetricResult, SoakProgress, WaveformView
+
+if TYPE_CHECKING:
+    from bringup.runner.session import SessionRunner
+
+__all__ = ["store_attempt", "attempt_from_record", "views_from_record"]
+
+
+def _limit_dict(limit: Limit | None) -> dict | None:
+    return None if limit is None else {"min": limit.min, "max": limit.max, "unit": limit.unit}
+
+
+def _view_note(view: WaveformView) -> dict:
+    return {
+        "name": view.name,
+        "net": view.net,
+        "levels": dict(view.levels),
+        "crossings": [dataclasses.asdict(c) for c in view.crossings],
+        "window_s": list(view.window_s) if view.window_s else None,
+    }
+
+
+def store_attempt(
+    runner: SessionRunner, step: Step, result: AttemptResult, raw: dict, out: AnalysisOutput
+) -> AttemptResult:
+    """Log ``result`` (with the raw records ``raw`` by net) and return it with its row id."""
+    from bringup.store.waveforms import StoredWaveform
+
+    metrics = {
+        m.id: {"value": m.measured, "unit": m.unit, "label": m.label} for m in result.metrics
+    }
+    predictions = {m.id: m.predicted for m in result.metrics if m.predicted is not None}
+    verdicts = {
+        m.id: {
+            "outcome": m.outcome,
+            "margin": m.margin,
+            "reason": m.reason,
+            "limit": _limit_dict(m.limit),
+            "uncertainty": m.uncertainty,
+            "rule": m.rule,
+            "disagreement": m.disagreement,
+        }
+        for m in result.metrics
+        if m.judged
+    }
+    waveforms = {}
+    for net, wf in raw.items():
+        waveforms[net] = StoredWaveform(
+            codes=np.asarray(wf.codes),
+            x_increment=wf.x_increment,
+            x_origin=wf.x_origin,
+            y_increment=wf.y_increment,
+            y_origin=wf.y_origin,
+            meta={"net": net, "source": wf.source},
+        )
+    extra = {
+        "state": result.state,
+        "message": result.message,
+        "warnings": list(result.warnings),
+        "step": step.id,
+        "views": [_view_note(v) for v in result.waveforms],
+        "reported": {
+            m.id: {"label": m.label, "reason": m.reason, "disagreement": m.disagreement}
+            for m in result.metrics
+            if not m.judged
+        },
+        "details": out.details,
+    }
+    if result.soak is not None:
+        extra["soak"] = dataclasses.asdict(result.soak)
+    outcome = result.state if result.state != "not-run" else "not-run"
+    with runner._lock:
+        attempt_id = runner.log.record_attempt(
+            runner.session_id,
+            stage_id=step.stage_id,
+            step_id=step.key,
+            operator=result.operator,
+            started_utc=result.started_utc,
+            finished_utc=result.finished_utc,
+            instruments=result.instruments,
+            settings=result.settings,
+            metrics=metrics,
+            predictions=predictions,
+            verdicts=verdicts,
+            outcome=outcome,
+            notes=result.notes,
+            waveforms=waveforms,
+            extra=extra,
+        )
+    return dataclasses.replace(result, attempt_id=attempt_id)
+
+
+def attempt_from_record(record, step: Step) -> AttemptResult:
+    """Rebuild an ``AttemptResult`` (without waveform samples) from a stored attempt."""
+    extra = record.extra or {}
+    reported = extra.get("reported") or {}
+    metrics: list[MetricResult] = []
+    for metric_id, m in (record.metrics or {}).items():
+        value = m.get("value") if isinstance(m, dict) else m
+        unit = m.get("unit", "") if isinstance(m, dict) else ""
+        label = m.get("label", metric_id) if isinstance(m, dict) else metric_id
+        v = (record.verdicts or {}).get(metric_id)
+        p = (record.predictions or {}).get(metric_id)
+        if v:
+            lim = v.get("limit") or {}
+            limit = Limit(lim.get("min"), lim.get("max"), lim.get("unit", unit)) if lim else None
+            metrics.append(MetricResult(metric_id, label, unit, value, p, limit, v.get("uncertainty"),
+                                        v.get("rule"), v.get("outcome"), v.get("margin"),
+                                        v.get("reason"), v.get("disagreement")))  # fmt: skip
+        else:
+            r = reported.get(metric_id, {})
+            metrics.append(MetricResult(metric_id, label, unit, value, p, reason=r.get("reason"),
+                                        disagreement=r.get("disagreement")))  # fmt: skip
+    soak = None
+    if extra.get("soak"):
+        s = extra["soak"]
+        soak = SoakProgress(tuple(s["times_s"]), tuple(s["temperatures_c"]),
+                            s.get("predicted_final_c"), s.get("predicted_sigma_c"),
+                            s.get("time_constant_s"), bool(s.get("settled")), s.get("limit_c"))  # fmt: skip
+    state = extra.get("state") or record.outcome
+    return AttemptResult(
+        step_id=step.id,
+        stage_id=step.stage_id,
+        attempt_no=record.attempt_no,
+        state=state,
+        metrics=tuple(metrics),
+        waveforms=(),
+        instruments={k: str(v) for k, v in (record.instruments or {}).items()},
+        settings=record.settings or {},
+        operator=record.operator,
+        started_utc=record.started_utc,
+        finished_utc=record.finished_utc,
+        notes=record.notes or "",
+        message=extra.get("message", ""),
+        warnings=tuple(extra.get("warnings") or ()),
+        attempt_id=record.id,
+        soak=soak,
+    )
+
+
+def views_from_record(log, record) -> tuple[WaveformView, ...]:
+    """The attempt's plot views: stored annotations over the stored raw samples."""
+    from bringup.runner.analyses import Trace, _view
+
+    extra = record.extra or {}
+    views = []
+    for note in extra.get("views") or []:
+        name = note["net"] if note["net"] in record.waveforms else None
+        if name is None:
+            continue
+        stored = log.load_waveform(record.id, name)
+        volts = stored.codes.astype(np.float64) * stored.y_increment + stored.y_origin
+        trace = Trace(note["net"], volts, stored.x_increment, stored.x_origin)
+        crossings = [Crossing(**c) for c in note.get("crossings") or []]
+        window = tuple(note["window_s"]) if note.get("window_s") else None
+        views.append(_view(note["name"], trace, note.get("levels") or {}, crossings, window))
+    return tuple(views)
