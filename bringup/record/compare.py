@@ -1,7 +1,7 @@
 """Naming what changed in a record: part digests (the seal) and a structural diff.
 
-Lists of objects that carry an ``id`` (stages, steps, instruments) or a ``number`` (attempts)
-are keyed by it, so a finding names "stage gate / step vgs_overdrive / attempt 2 / metrics.vgs"
+Lists of objects that carry an ``id`` (stages, steps, instruments), a ``number`` (attempts)
+or a ``seq`` (events) are keyed by it, so a finding names "stage gate / step vgs_overdrive / attempt 2 / metrics.vgs"
 rather than a list index, and a reordering is told apart from an edit.
 
 The seal written into an exported record holds a SHA-256 of the canonical content, a short
@@ -34,16 +34,17 @@ def _key_of(item: Any) -> str | None:
     if isinstance(item, dict):
         if isinstance(item.get("id"), str):
             return item["id"]
-        number = item.get("number")
-        if isinstance(number, int) and not isinstance(number, bool):
-            return str(number)
+        for key in ("number", "seq"):  # attempts by number; events by their place in the chain
+            value = item.get(key)
+            if isinstance(value, int) and not isinstance(value, bool):
+                return str(value)
     return None
 
 
 def _keys(items: list) -> list[str] | None:
     """The keys of a keyed list, or None when the list is not keyed (or keys repeat)."""
     if not items:
-        return None
+        return []
     keys = [_key_of(item) for item in items]
     if any(k is None for k in keys) or len(set(keys)) != len(keys):
         return None

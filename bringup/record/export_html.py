@@ -18,6 +18,7 @@ from bringup.record.view import (
     STATUS_WORDS,
     comparison_rows,
     decode_trace,
+    design_rows,
     fmt_time,
     fmt_value,
 )
@@ -41,6 +42,8 @@ th{background:#efece4}
 .caution{border-left:5px solid #8a5a00;background:#fbf3e2;padding:.3rem .6rem;margin:.3rem 0}
 figure{margin:.5rem 0;break-inside:avoid}
 figcaption{font-size:.8rem;color:#444}
+.earlier{border-left:3px dotted #777;padding-left:.6rem;margin:.6rem 0}
+h4{font-size:.95rem;margin:.6rem 0 .3rem}
 footer{margin-top:2rem;font-size:.8rem;color:#333;border-top:1px solid #999}
 @media print{body{max-width:none;margin:0}section.stage{break-before:page}
 a{color:inherit;text-decoration:none}}
@@ -58,6 +61,12 @@ def _table(head: list[str], rows: list[list[str]], raw: bool = False) -> str:
         out.append("<tr>" + "".join(f"<td>{c if raw else _e(c)}</td>" for c in row) + "</tr>")
     out.append("</tbody></table>")
     return "".join(out)
+
+
+def _pairs(rows: list[list[str]]) -> str:
+    """A two-column table of names and values, without a header row."""
+    body = "".join(f'<tr><th scope="row">{_e(a)}</th><td>{_e(b)}</td></tr>' for a, b in rows)
+    return f"<table>{body}</table>"
 
 
 def _tag(status: str) -> str:
@@ -85,7 +94,7 @@ def _summary(content: dict, signatures: list[dict], digest: str) -> str:
     out = [
         '<section id="summary"><h2>Summary</h2>',
         f'<p class="overall">Outcome: {_e(OVERALL_WORDS.get(overall, overall))}</p>',
-        _table(["", ""], [[a, str(b)] for a, b in rows]),
+        _pairs([[a, str(b)] for a, b in rows]),
         "<h3>Open items</h3>",
     ]
     items = summary.get("open_items") or []
@@ -286,6 +295,12 @@ def _stage(stage: dict) -> str:
         else:
             out.append("<p>No attempt recorded.</p>")
         out.append(_history(step))
+        for earlier in attempts[:-1]:  # superseded tries stay in the record as evidence
+            out.append(
+                f'<div class="earlier"><h4>Earlier attempt {_e(earlier.get("number"))}: '
+                f"{_e(OUTCOME_WORDS.get(earlier.get('outcome'), earlier.get('outcome')))}</h4>"
+                f"{_results(earlier)}{_plots(earlier)}</div>"
+            )
     out.append("</section>")
     return "".join(out)
 
@@ -308,22 +323,16 @@ def render_html(record: dict) -> str:
         _comparison(content),
         *(_stage(s) for s in content.get("stages", [])),
         '<section id="identity"><h2>Identity of this record</h2>',
-        _table(
-            ["", ""],
+        _pairs(
             [
                 ["Schema", record.get("schema", "")],
                 ["Content digest (SHA-256 of the canonical JSON)", digest],
                 ["Log chain head", (content.get("log") or {}).get("chain_head") or "-"],
-                [
-                    "Design values",
-                    ", ".join(
-                        f"{k} = {fmt_value(v)}"
-                        for k, v in sorted((board.get("design") or {}).items())
-                    )
-                    or "-",
-                ],
-            ],
+                ["Log entries", str((content.get("log") or {}).get("entries", "-"))],
+            ]
         ),
+        "<h3>Design values of the board</h3>",
+        _table(["Design value", "Value"], design_rows(board)),
         "</section>",
         f"<footer>Record {_e(session.get('serial'))} / session {_e(session.get('id'))} / "
         f"digest {_e(digest)}. Check it with: bringup verify RECORD.json --key PUBLIC_KEY</footer>",

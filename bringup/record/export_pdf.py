@@ -22,6 +22,7 @@ from bringup.record.view import (
     STATUS_WORDS,
     comparison_rows,
     decode_trace,
+    design_rows,
     fmt_time,
     fmt_value,
 )
@@ -146,7 +147,7 @@ def _plot(pdf: Any, wave: dict) -> None:
         pdf.add_page()
     y = pdf.get_y()
     logging.getLogger("fpdf.svg").setLevel(logging.ERROR)
-    pdf.image(io.BytesIO(svg.encode("latin-1")), x=pdf.l_margin, y=y, w=190)
+    pdf.image(io.BytesIO(svg.encode("utf-8")), x=pdf.l_margin, y=y, w=190)
     pdf.set_y(y + height + 1)
     _para(pdf, f"{wave.get('name')}: {trace.t.size} samples, min/max per column.")
 
@@ -244,6 +245,8 @@ def render_pdf(record: dict) -> bytes:
     )
     if not comp:
         _para(pdf, "No predicted values were recorded.")
+    _heading(pdf, "Design values of the board", 11)
+    _table(pdf, ["Design value", "Value"], design_rows(board), (95, 95))
 
     for stage in content.get("stages", []):
         pdf.add_page()
@@ -312,4 +315,10 @@ def render_pdf(record: dict) -> bytes:
                 hist,
                 (22, 50, 25, 33, 60),
             )
+            for earlier in attempts[:-1]:  # superseded tries stay in the record as evidence
+                if earlier.get("waveforms"):
+                    word = OUTCOME_WORDS.get(earlier.get("outcome"), earlier.get("outcome"))
+                    _para(pdf, f"Earlier attempt {earlier.get('number')} ({word}):", "B")
+                    for wave in earlier["waveforms"]:
+                        _plot(pdf, wave)
     return bytes(pdf.output())

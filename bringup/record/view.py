@@ -27,6 +27,7 @@ __all__ = [
     "fmt_value",
     "short_hash",
     "GENERAL_CAUTIONS",
+    "design_rows",
 ]
 
 # Each word carries a symbol too, so no outcome is told by colour alone.
@@ -147,6 +148,20 @@ def decode_trace(wave: dict) -> Trace | None:
     fit = _soak_model(model, t) if isinstance(model, dict) and t.size > 1 else None
     name = wave.get("title") or wave.get("name") or "waveform"
     return Trace(str(name), str(wave.get("y_unit", "")), t, y, tuple(markers), fit)
+
+
+def design_rows(board: dict) -> list[list[str]]:
+    """[name, value with unit] for each design value of the board (units from the board schema)."""
+    from bringup.checklist.board import DESIGN_UNITS
+
+    rows = []
+    for key, value in sorted((board.get("design") or {}).items()):
+        unit = DESIGN_UNITS.get(key, "")
+        if unit == "" and isinstance(value, float) and key.startswith("duty"):
+            rows.append([key, f"{value * 100:g} %"])
+        else:
+            rows.append([key, fmt_value(value, unit)])
+    return rows
 
 
 def final_attempt(step: dict) -> dict | None:

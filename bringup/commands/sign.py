@@ -1,0 +1,35 @@
+"""``bringup sign SESSION --key PATH --role operator|reviewer [--db PATH]``: sign off a record."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+
+def add_parser(subparsers: argparse._SubParsersAction) -> None:
+    """Register ``sign``."""
+    parser = subparsers.add_parser(
+        "sign",
+        help="sign off a session's record as operator or reviewer",
+        description="Sign the canonical content of SESSION's record with your Ed25519 key "
+        "and store the signature in the log. Refused while a step is unfinished or failed "
+        "without a waiver; the refusal lists what is open.",
+    )
+    parser.add_argument("session", metavar="SESSION", help="session id (or a unique prefix)")
+    parser.add_argument("--key", required=True, type=Path, metavar="PATH", help="private key")
+    parser.add_argument("--role", required=True, choices=("operator", "reviewer"))
+    parser.add_argument("--db", type=Path, metavar="PATH", help="the session log (SQLite)")
+    parser.set_defaults(func=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    """Sign and report who signed what."""
+    from bringup.record.from_log import open_log, sign_session
+
+    with open_log(args.db) as log:
+        entry = sign_session(log, args.session, args.key, args.role)
+    print(
+        f"signed as {entry['role']} by {entry['name']} at {entry['signed_at']} "
+        f"with key {entry['key_fingerprint']}"
+    )
+    return 0

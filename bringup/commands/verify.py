@@ -1,0 +1,59 @@
+"""``bringup verify RECORD.json [--db PATH] [--key PUB ...]``: check a signed record."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+
+def add_parser(subparsers: argparse._SubParsersAction) -> None:
+    """Register ``verify``."""
+    parser = subparsers.add_parser(
+        "verify",
+        help="check a record's signatures, content and (with --db) the log behind it",
+        description="Check a JSON record: its canonical form, its content against its seal, "
+        "every signature, and with --db that the log's hash chain is intact, ends at the "
+        "record's chain head and holds the same content. Exit 0 only when all of it holds; "
+        "otherwise one line per finding and exit 1.",
+    )
+    parser.add_argument("record", type=Path, metavar="RECORD.json")
+    parser.add_argument("--db", type=Path, metavar="PATH", help="the session log to compare with")
+    parser.add_argument(
+        "--key",
+        type=Path,
+        action="append",
+        default=[],
+        metavar="PUB",
+        help="a trusted public key file (repeatable); each signature must come from one of them",
+    )
+    parser.set_defaults(func=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    """Print the findings (or what holds) and return 0 only when nothing was found."""
+    from bringup.record.keys import load_public_key
+    from bringup.record.verify import read_record, verify_record
+
+    trusted = [load_public_key(p) for p in args.key]
+    record, data = read_record(args.record)
+    if args.db is not None:
+        from bringup.record.from_log import open_log
+
+        with open_log(args.db) as log:
+            findings = verify_record(record, data, log=log, trusted=trusted)
+    else:
+        findings = verify_record(record, data, trusted=trusted)
+    if findings:
+        for line in findings:
+            print(f"CHANGED: {line}")
+        print(f"{args.record}: does NOT hold ({len(findings)} finding(s))")
+        return 1
+    sigs = record.get("signatures") or []
+    who = ", ".join(f"{s['role']} {s['name']} ({s['key_fingerprint'][:19]}...)" for s in sigs)
+    digest = record.get("seal", {}).get("content_sha256", "")
+    print(f"{args.record}: holds; content SHA-256 {digest}; signed by {who}")
+    if args.db is not None:
+        print(f"log {args.db}: chain intact, head matches, content matches")
+    if not trusted:
+        print("note: no --key given, so the signers' keys were not checked against trusted keys")
+    return 0

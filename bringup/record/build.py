@@ -1,0 +1,409 @@
+"""The record's content, built from one session of the log (schema ``bringup-record/1``).
+
+Only what the log's hash chain covers goes into the content: the session's snapshot (board,
+checklist, bench, serial, operator: the chain's genesis) and its attempts and events. The
+listing caches of the ``sessions`` row (verdict, last activity) are left out, so that nothing
+but a new logged entry can change a signed content. See ``SCHEMA.md`` beside this file.
+"""
+
+from __future__ import annotations
+
+import base64
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from bringup.record.compare import content_digest, seal_of
+from bringup.store.entries import AttemptRecord, EventRecord, SessionData
+
+__all__ = ["RECORD_SCHEMA", "build_content", "assemble_record", "step_statuses", "stamp"]
+
+RECORD_SCHEMA = "bringup-record/1"
+
+#: Outcomes that accept a measurement (ILAC-G8 §4.2: inside the limits).
+_ACCEPTED = ("pass", "conditional-pass")
+_FAILED = ("fail", "conditional-fail")
+
+#: (attempt, waveform name) -> (codes, description) for one stored waveform.
+WaveformLoader = Callable[[AttemptRecord, str], np.ndarray]
+
+
+def stamp(utc: str | None, offset: str | None) -> dict | None:
+    """A record time: ``{"utc": "...Z", "offset": "+01:00"}`` (offset null when not logged)."""
+    if not utc:
+        return None
+    return {"utc": utc, "offset": offset}
+
+
+def _offset_of(data: SessionData) -> str | None:
+    """The bench's UTC offset when the snapshot names it (bench or board ``utc_offset``)."""
+    for snap in (data.bench or {}, data.board or {}):
+        for key in ("utc_offset", "local_utc_offset"):
+            value = snap.get(key) if isinstance(snap, dict) else None
+            if isinstance(value, str):
+                return value
+    return None
+
+
+def _metric(value: Any, unit: str = "") -> dict:
+    """A metric or prediction as ``{"value", "unit"}``; a missing value carries a reason."""
+    if isinstance(value, dict):
+        entry = dict(value)
+        entry.setdefault("unit", unit)
+        if entry.get("value") is None:
+            entry.setdefault("reason", "no value: not measured, or not a finite number")
+        return entry
+    if value is None:
+        return {
+            "value": None,
+            "unit": unit,
+            "reason": "no value: not measured, or not a finite number",
+        }
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return {"value": value, "unit": unit}
+    return {"value": value, "unit": unit}
+
+
+def _targets(board: dict) -> dict:
+    targets = board.get("targets") if isinstance(board, dict) else None
+    return targets if isinstance(targets, dict) else {}
+
+
+def _verdicts(attempt: AttemptRecord, targets: dict) -> list[dict]:
+    out = []
+    for key in sorted(attempt.verdicts):
+        raw = attempt.verdicts[key]
+        entry = dict(raw) if isinstance(raw, dict) else {"outcome": raw}
+        entry.setdefault("target", key)
+        target = targets.get(entry.get("target")) or targets.get(key)
+        if isinstance(target, dict) and "limit" not in entry:
+            limit = {k: target.get(k) for k in ("min", "max") if target.get(k) is not None}
+            if limit:
+                entry["limit"] = limit
+            entry.setdefault("label", target.get("label"))
+        out.append(entry)
+    return out
+
+
+def _waveforms(attempt: AttemptRecord, load: WaveformLoader) -> list[dict]:
+    extra = attempt.extra or {}
+    markers = extra.get("markers") if isinstance(extra.get("markers"), dict) else {}
+    models = extra.get("models") if isinstance(extra.get("models"), dict) else {}
+    titles = extra.get("titles") if isinstance(extra.get("titles"), dict) else {}
+    out = []
+    for name in sorted(attempt.waveforms):
+        desc = dict(attempt.waveforms[name])
+        codes = np.ascontiguousarray(load(attempt, name))
+        codes = codes.astype(codes.dtype.newbyteorder("<"), copy=False)
+        wave = {
+            "name": name,
+            **{
+                k: desc.get(k)
+                for k in (
+                    "dtype",
+                    "points",
+                    "x_increment",
+                    "x_origin",
+                    "y_increment",
+                    "y_origin",
+                    "y_unit",
+                    "x_unit",
+                    "raw_sha256",
+                )
+            },  # fmt: skip
+            "byte_order": "little",
+            "codes_b64": base64.b64encode(codes.tobytes()).decode("ascii"),
+        }
+        if name in markers:
+            wave["markers"] = markers[name]
+        if name in models:
+            wave["model"] = models[name]
+        if name in titles:
+            wave["title"] = titles[name]
+        out.append(wave)
+    return out
+
+
+def _attempt(a: AttemptRecord, offset: str | None, targets: dict, load: WaveformLoader) -> dict:
+    extra = {k: v for k, v in (a.extra or {}).items() if k not in ("markers", "models", "titles")}
+    entry = {
+        "number": a.attempt_no,
+        "seq": a.seq,
+        "operator": a.operator,
+        "started": stamp(a.started_utc, offset),
+        "ended": stamp(a.finished_utc, offset),
+        "recorded": stamp(a.recorded_utc, offset),
+        "outcome": a.outcome,
+        "instruments": a.instruments,
+        "settings": a.settings,
+        "metrics": {k: _metric(v) for k, v in sorted(a.metrics.items())},
+        "predicted": {k: _metric(v) for k, v in sorted(a.predictions.items())},
+        "verdicts": _verdicts(a, targets),
+        "notes": [a.notes] if a.notes else [],
+        "waveforms": _waveforms(a, load),
+        "log": {"content_hash": a.content_hash, "chain_hash": a.chain_hash},
+    }
+    if extra:
+        entry["extra"] = extra
+    return entry
+
+
+def _event(e: EventRecord, offset: str | None) -> dict:
+    entry = {
+        "seq": e.seq,
+        "kind": e.kind,
+        "at": stamp(e.recorded_utc, offset),
+        "by": e.operator,
+        "text": e.reason,
+        "log": {"content_hash": e.content_hash, "chain_hash": e.chain_hash},
+    }
+    if e.payload is not None:
+        entry["payload"] = e.payload
+    if e.stage_id:
+        entry["stage"] = e.stage_id
+    if e.step_id:
+        entry["step"] = e.step_id
+    return entry
+
+
+def step_statuses(data: SessionData) -> dict[tuple[str, str], tuple[str, str | None]]:
+    """(stage, step) -> (status, latest outcome) from the chain's entries in order.
+
+    Status: "accepted" (pass / conditional pass), "rejected" (fail / conditional fail, no
+    waiver), "waived" (a waiver after the failure), "skipped", "in-progress" (the last try
+    could not judge: not-run, error). Steps with no entry are not in the map.
+    """
+    state: dict[tuple[str, str], tuple[str, str | None]] = {}
+    for entry in data.timeline:
+        key = (entry.stage_id, entry.step_id)
+        if isinstance(entry, AttemptRecord):
+            outcome = entry.outcome
+            if outcome in _ACCEPTED:
+                state[key] = ("accepted", outcome)
+            elif outcome in _FAILED:
+                state[key] = ("rejected", outcome)
+            else:
+                state[key] = ("in-progress", outcome)
+        elif entry.kind == "waive" and entry.step_id:
+            state[key] = ("waived", state.get(key, ("", None))[1])
+        elif entry.kind == "skip" and entry.step_id:
+            state[key] = ("skipped", state.get(key, ("", None))[1])
+    return state
+
+
+def _definitions(checklist: dict) -> list[dict]:
+    stages = checklist.get("stages") if isinstance(checklist, dict) else None
+    return [s for s in stages if isinstance(s, dict)] if isinstance(stages, list) else []
+
+
+def _bench(bench: dict | None, data: SessionData) -> dict:
+    """Each instrument with its *IDN? (as the attempts logged it), profile, probes, due date."""
+    bench = bench or {}
+    idn: dict[str, str] = {}
+    for a in data.attempts:
+        for role, value in (a.instruments or {}).items():
+            text = value.get("idn") if isinstance(value, dict) else value
+            if isinstance(text, str):
+                idn.setdefault(role, text)
+    instruments = []
+    roles = [r for r in ("scope", "supply", "thermometer") if isinstance(bench.get(r), dict)]
+    roles += sorted(r for r in idn if r not in roles)
+    for role in roles:
+        conf = bench.get(role) if isinstance(bench.get(role), dict) else {}
+        inst: dict[str, Any] = {"id": role, "idn": idn.get(role)}
+        for key in ("resource", "profile", "calibration_due"):
+            inst[key] = conf.get(key)
+        channels = conf.get("channels")
+        if isinstance(channels, dict):
+            inst["channels"] = [
+                {"id": str(n), **{k: v for k, v in sorted(c.items())}}
+                for n, c in sorted(channels.items(), key=lambda kv: str(kv[0]))
+                if isinstance(c, dict)
+            ]
+        instruments.append(inst)
+    simulation = bench.get("simulation")
+    return {
+        "simulated": bool(isinstance(simulation, dict) and simulation.get("enabled")),
+        "instruments": instruments,
+        "other": {k: v for k, v in bench.items() if k not in roles},
+    }
+
+
+def build_content(data: SessionData, load: WaveformLoader) -> dict:
+    """The record's content for ``data`` (see SCHEMA.md); ``load`` reads a waveform's codes."""
+    offset = _offset_of(data)
+    summary = data.summary
+    board_snap = data.board if isinstance(data.board, dict) else {}
+    board_info = board_snap.get("board") if isinstance(board_snap.get("board"), dict) else {}
+    targets = _targets(board_snap)
+    checklist = data.checklist if isinstance(data.checklist, dict) else {}
+    statuses = step_statuses(data)
+
+    by_step: dict[tuple[str, str], list[AttemptRecord]] = {}
+    for a in data.attempts:
+        by_step.setdefault((a.stage_id, a.step_id), []).append(a)
+    step_events: dict[tuple[str, str], list[EventRecord]] = {}
+    session_events: list[EventRecord] = []
+    for e in data.events:
+        if e.step_id and e.stage_id:
+            step_events.setdefault((e.stage_id, e.step_id), []).append(e)
+        else:
+            session_events.append(e)
+
+    stages, known = [], set()
+    for sdef in _definitions(checklist):
+        sid = str(sdef.get("id"))
+        steps = []
+        for tdef in sdef.get("steps") or []:
+            if not isinstance(tdef, dict):
+                continue
+            tid = str(tdef.get("id"))
+            known.add((sid, tid))
+            steps.append(
+                _step(sid, tid, tdef, by_step, step_events, statuses, offset, targets, load)
+            )
+        stage = {"id": sid, "title": sdef.get("title") or sdef.get("name") or sid, "steps": steps}
+        cautions = sdef.get("cautions") or sdef.get("caution")
+        if cautions:
+            stage["cautions"] = [cautions] if isinstance(cautions, str) else list(cautions)
+        stages.append(stage)
+    # Entries for steps the checklist snapshot does not list are kept, never dropped.
+    strays = sorted({*by_step, *step_events} - known)
+    if strays:
+        extra_steps = [
+            _step(s, t, {}, by_step, step_events, statuses, offset, targets, load)
+            for s, t in strays
+        ]
+        stages.append({"id": "not-in-checklist", "title": "Entries for steps not in the checklist",
+                       "steps": extra_steps})  # fmt: skip
+
+    operators: list[str] = []
+    # Who measured: the session's operator and whoever logged attempts, skips and notes; a
+    # waiver's name is a decision-maker's, shown with the waiver.
+    doers = (e.operator for e in data.timeline if getattr(e, "kind", "") != "waive")
+    for name in [summary.operator, *doers]:
+        if name and name not in operators:
+            operators.append(name)
+    state, ended = "open", None
+    for e in data.events:
+        if e.kind == "abort":
+            state = "aborted"
+        elif e.kind == "resume":
+            state = "open"
+        elif e.kind == "finish":
+            state, ended = "finished", e.recorded_utc
+    timeline = data.timeline
+    last = timeline[-1].recorded_utc if timeline else summary.created_utc
+
+    counts: dict[str, int] = {}
+    open_items, exceptions = [], []
+    for stage in stages:
+        for step in stage["steps"]:
+            counts[step["status"]] = counts.get(step["status"], 0) + 1
+            where = f"{stage['id']}/{step['id']}"
+            if step["status"] in ("not-started", "in-progress"):
+                open_items.append(f"{where}: unfinished ({step['status']})")
+            elif step["status"] == "rejected":
+                open_items.append(f"{where}: failed ({step['outcome']}) without a waiver")
+            elif step["status"] in ("waived", "skipped"):
+                kind = {"waived": "waive", "skipped": "skip"}[step["status"]]
+                ev = [e for e in step["events"] if e["kind"] == kind]
+                why = ev[-1] if ev else {}
+                exceptions.append(
+                    f"{where}: {step['status']} by {why.get('by', '?')}: {why.get('text', '')}"
+                )
+    if any(k in counts for k in ("not-started", "in-progress")):
+        overall = "incomplete"
+    elif "rejected" in counts:
+        overall = "rejected"
+    elif "waived" in counts or "skipped" in counts:
+        overall = "accepted-with-exceptions"
+    else:
+        overall = "accepted"
+
+    return {
+        "session": {
+            "id": summary.id,
+            "serial": summary.serial,
+            "operator": summary.operator,
+            "operators": operators,
+            "state": state,
+            "started": stamp(summary.created_utc, offset),
+            "ended": stamp(ended or last, offset),
+            "finished": ended is not None,
+        },
+        "board": {
+            "name": summary.board_name,
+            "revision": summary.board_revision,
+            "description": board_info.get("description"),
+            "serial_pattern": board_info.get("serial_pattern"),
+            "design": board_snap.get("design")
+            if isinstance(board_snap.get("design"), dict)
+            else {},
+            "targets": targets,
+            "other": {
+                k: v for k, v in board_snap.items() if k not in ("board", "design", "targets")
+            },
+        },
+        "checklist": {
+            "id": summary.checklist_id,
+            "name": checklist.get("name") or checklist.get("title") or summary.checklist_id,
+            "version": checklist.get("version"),
+            "snapshot": {k: v for k, v in checklist.items() if k != "stages"},
+        },
+        "bench": _bench(data.bench, data),
+        "stages": stages,
+        "events": [_event(e, offset) for e in session_events],
+        "summary": {
+            "overall": overall,
+            "counts": counts,
+            "open_items": open_items,
+            "exceptions": exceptions,
+        },
+        "log": {
+            "chain_head": data.chain_head,
+            "genesis_hash": data.genesis_hash,
+            "entries": len(timeline),
+            "utc_offset_logged": offset is not None,
+        },
+    }
+
+
+def _step(
+    sid: str,
+    tid: str,
+    tdef: dict,
+    by_step: dict,
+    step_events: dict,
+    statuses: dict,
+    offset: str | None,
+    targets: dict,
+    load: WaveformLoader,
+) -> dict:
+    status, outcome = statuses.get((sid, tid), ("not-started", None))
+    step = {
+        "id": tid,
+        "title": tdef.get("title") or tdef.get("name") or tid,
+        "status": status,
+        "outcome": outcome,
+        "attempts": [_attempt(a, offset, targets, load) for a in by_step.get((sid, tid), [])],
+        "events": [_event(e, offset) for e in step_events.get((sid, tid), [])],
+    }
+    definition = {k: v for k, v in tdef.items() if k not in ("id", "title", "name")}
+    if definition:
+        step["definition"] = definition
+    return step
+
+
+def assemble_record(content: dict, signatures: list[dict]) -> dict:
+    """The exported record: schema, content, seal (diagnostic digests) and signatures."""
+    return {
+        "schema": RECORD_SCHEMA,
+        "content": content,
+        "seal": seal_of(content),
+        "signatures": sorted(signatures, key=lambda s: (s.get("signed_at", ""), s.get("role", ""))),
+    }
+
+
+__all__ += ["content_digest"]

@@ -1,0 +1,128 @@
+"""Checking an exported record: its form, its seal, every signature and (optionally) the log.
+
+Each problem found is one line naming where it is (which signature, which step and field).
+A record holds when the list of findings is empty: the file is the canonical JSON of itself,
+the content matches its seal, it carries at least one signature, every signature verifies
+with the key it names (and that key is among the trusted keys, when any are given), and,
+with the log at hand, the log's chain is intact, ends at the record's chain head and holds
+exactly the content the record shows.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+from bringup.errors import InputError
+from bringup.record.build import RECORD_SCHEMA
+from bringup.record.canonical import NotCanonicalError, canonical_bytes
+from bringup.record.compare import diagnose_seal, diff_content
+from bringup.record.keys import PublicKey
+from bringup.record.signing import check_signature
+
+__all__ = ["read_record", "verify_record", "record_bytes"]
+
+
+def record_bytes(record: dict) -> bytes:
+    """The bytes of an exported record file: canonical JSON and one newline."""
+    return canonical_bytes(record) + b"\n"
+
+
+def read_record(path: str | Path) -> tuple[dict, bytes]:
+    """Read a record file; one-line ``InputError`` when it is missing or not a record."""
+    path = Path(path)
+    try:
+        data = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such record file") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read the record ({exc.strerror})") from None
+    try:
+        record = json.loads(data.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: not UTF-8 text, not a record") from None
+    except json.JSONDecodeError as exc:
+        raise InputError(f"{path}:{exc.lineno}: not valid JSON ({exc.msg})") from None
+    if not isinstance(record, dict) or not isinstance(record.get("content"), dict):
+        raise InputError(f"{path}: not a bringup record (no 'content' object)")
+    if record.get("schema") != RECORD_SCHEMA:
+        raise InputError(
+            f"{path}: schema {record.get('schema')!r} is not {RECORD_SCHEMA!r}; "
+            "this bringup reads only that one"
+        )
+    return record, data
+
+
+def _check_form(record: dict, data: bytes) -> list[str]:
+    try:
+        expected = record_bytes(record)
+    except NotCanonicalError as exc:
+        return [f"form: {exc}"]
+    if data != expected:
+        return ["form: the file is not in canonical form (re-serialised or edited by hand)"]
+    return []
+
+
+def _check_signatures(content: dict, signatures: Any, trusted: list[PublicKey]) -> list[str]:
+    if not isinstance(signatures, list) or not signatures:
+        return ["signatures: the record carries no signature (sign it with `bringup sign`)"]
+    findings = []
+    trusted_raw = {k.raw: k for k in trusted}
+    for i, entry in enumerate(signatures):
+        result = check_signature(content, entry, i)
+        findings += [f"{result.label}: {p}" for p in result.problems]
+        if trusted and result.raw_public_key is not None:
+            known = trusted_raw.get(result.raw_public_key)
+            if known is None:
+                findings.append(
+                    f"{result.label}: signed with a key that is not among the given --key files"
+                )
+            elif isinstance(entry, dict) and known.name != entry.get("name"):
+                findings.append(
+                    f"{result.label}: the key belongs to {known.name!r}, "
+                    f"not to {entry.get('name')!r} as written"
+                )
+    return findings
+
+
+def verify_record(
+    record: dict, data: bytes, *, log: Any = None, trusted: list[PublicKey] | None = None
+) -> list[str]:
+    """Every finding about ``record`` (parsed) read from ``data`` (its bytes); empty = holds.
+
+    ``log`` is an open ``SessionLog`` to compare with; ``trusted`` the public keys the
+    signatures must come from (none given: any key that verifies is accepted and named).
+    """
+    content = record["content"]
+    findings = _check_form(record, data)
+    findings += [f"content: {f}" for f in diagnose_seal(content, record.get("seal"))]
+    findings += _check_signatures(content, record.get("signatures"), trusted or [])
+    if log is not None:
+        findings += _check_log(content, log)
+    return findings
+
+
+def _check_log(content: dict, log: Any) -> list[str]:
+    from bringup.record.from_log import content_from_log
+    from bringup.store.errors import StoreError
+
+    session_id = (content.get("session") or {}).get("id")
+    if not isinstance(session_id, str):
+        return ["log: the record names no session id"]
+    try:
+        report = log.verify_chain(session_id)
+        fresh, _ = content_from_log(log, session_id)
+    except StoreError as exc:
+        return [f"log: {exc}"]
+    findings = []
+    if not report.ok:
+        findings.append(f"log chain: {report.problem}")
+    head = (content.get("log") or {}).get("chain_head")
+    if report.head != head:
+        findings.append(
+            f"log chain: the log ends at {report.head[:16]}... ({report.entries} entries), "
+            f"the record's chain head is {str(head)[:16]}..."
+        )
+    findings += [f"log: {d}" for d in diff_content(content, fresh, ("record", "log"))]
+    return findings
