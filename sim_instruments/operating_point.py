@@ -145,6 +145,35 @@ def _switch_plan(p: StageParameters, g: GatePlan, v_bus: float, current_a: float
     )
 
 
+def _steady_bootstrap(
+    p: StageParameters, v_charge: float, t_on: float, current: float, tau_rc: float
+) -> float | None:
+    """The capacitor's voltage before turn-on in the periodic steady state (V), or None when
+    it would sit below the driver's UVLO.
+
+    One period maps V_b0 to V_charge - (V_charge - V_end(V_b0)) exp(-t_off / tau); that map
+    rises with slope below 1, so its fixed point is unique and bisection finds it."""
+    uvlo = p.driver_uvlo_falling
+
+    def gap(v_b0: float) -> float:
+        plan = plan_gate(p, v_b0, t_on, current, uvlo)
+        left = max(p.period - plan.t4, 0.0)
+        return v_charge - (v_charge - plan.v_end) * math.exp(-left / tau_rc) - v_b0
+
+    lo, hi = uvlo + 1e-6, v_charge
+    if gap(lo) < 0.0:
+        return None
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        if gap(mid) >= 0.0:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo < 1e-10:
+            break
+    return lo
+
+
 def _switching(p: StageParameters, v_bus: float, duty: float, t_on: float) -> OperatingPoint | None:
     """The bootstrapped stage's steady state; None if the driver is held off by UVLO."""
     period = p.period
@@ -153,8 +182,6 @@ def _switching(p: StageParameters, v_bus: float, duty: float, t_on: float) -> Op
     tau_rc = (p.bootstrap_path_resistance + p.load_resistance) * c
     # The gate-drive rail's load depends on the recharge charge: two passes settle it.
     recharge_q = 0.0
-    vdrv = gate_drive_rail(p, v_bus, p.vdrv_idle_current)
-    v_b0 = vdrv - p.bootstrap_diode_drop
     plan: GatePlan | None = None
     for _ in range(3):
         load = p.vdrv_idle_current + (p.driver_charge_per_cycle + recharge_q) / period
@@ -162,17 +189,9 @@ def _switching(p: StageParameters, v_bus: float, duty: float, t_on: float) -> Op
         v_charge = vdrv - p.bootstrap_diode_drop
         if v_charge <= p.driver_uvlo_falling:
             return None
-        v_b0 = min(v_b0, v_charge)
-        for _ in range(200):
-            plan = plan_gate(p, v_b0, t_on, current, p.driver_uvlo_falling)
-            left = max(period - plan.t4, 0.0)
-            new = v_charge - (v_charge - plan.v_end) * math.exp(-left / tau_rc)
-            if abs(new - v_b0) < 1e-9:
-                v_b0 = new
-                break
-            v_b0 = new
-            if v_b0 <= p.driver_uvlo_falling:
-                return None
+        v_b0 = _steady_bootstrap(p, v_charge, t_on, current, tau_rc)
+        if v_b0 is None:
+            return None
         plan = plan_gate(p, v_b0, t_on, current, p.driver_uvlo_falling)
         recharge_q = c * (v_b0 - plan.v_end)
     assert plan is not None

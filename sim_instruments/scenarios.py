@@ -38,7 +38,7 @@ SCENARIOS: Mapping[str, Scenario] = _scenarios(
         "for the idle load: unloaded it regulates, but once the driver switches the extra "
         "milliamps pull it down the resistor to about 10.8 V.",
         "power-rails",
-        {"vdrv_feed_resistance": 1.45e3, "vdrv_ripple_pp": 0.08, "vdrv_rail_impedance": 3.0},
+        {"vdrv_feed_resistance": 1.4e3, "vdrv_ripple_pp": 0.05, "vdrv_rail_impedance": 1.5},
     ),
     Scenario(
         "no-overdrive",
@@ -60,7 +60,7 @@ SCENARIOS: Mapping[str, Scenario] = _scenarios(
         "A 470 nF bootstrap capacitor where 1 uF was meant, and a 1.8 kohm gate-source pull-down "
         "where 100 kohm was meant bleeding it: Vgs droops over a long on-time.",
         "droop-max-on-time",
-        {"bootstrap_capacitance": 470e-9, "gate_source_pulldown": 1.8e3},
+        {"bootstrap_capacitance": 680e-9, "gate_source_pulldown": 1.2e3},
     ),
     Scenario(
         "hot-switch",
@@ -68,6 +68,6 @@ SCENARIOS: Mapping[str, Scenario] = _scenarios(
         "higher thermal resistance to ambient (50 K/W instead of 30 K/W): at 95 % duty the "
         "conduction loss drives the heatsink past its limit.",
         "thermal",
-        {"mosfet_rds_on": 30e-3, "thermal_resistance": 50.0},
+        {"mosfet_rds_on": 25e-3, "thermal_resistance": 60.0},
     ),
 )

@@ -66,7 +66,7 @@ class StageParameters:
     #: Forward drop of the freewheeling diode that carries the load inductor's current, V.
     freewheel_diode_drop: float = 0.7
     #: Damping ratio of the switch node's stray L / node C resonance (loop resistance), 1.
-    switch_node_damping: float = 0.45
+    switch_node_damping: float = 0.2
     #: Bulk capacitance and ESR on the bus at the board, F and ohm: the bus ripple.
     bus_capacitance: float = 1.0e-3
     bus_capacitor_esr: float = 5.0e-3
@@ -83,7 +83,7 @@ class StageParameters:
     #: the bus ripple it passes (1 / PSRR) and the impedance the bootstrap recharge pulse sees (ohm).
     vdrv_ripple_pp: float = 0.03
     vdrv_bus_coupling: float = 0.01
-    vdrv_rail_impedance: float = 0.5
+    vdrv_rail_impedance: float = 0.25
     #: The logic regulator: dropout below the gate-drive rail (V), ripple (V p-p).
     logic_dropout: float = 0.4
     logic_ripple_pp: float = 0.015
