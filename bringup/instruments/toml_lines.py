@@ -34,7 +34,8 @@ class TomlSource:
         try:
             self.data: dict[str, Any] = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
-            line = getattr(exc, "lineno", None)
+            found = re.search(r"\(at line (\d+)", str(exc))
+            line = int(found.group(1)) if found else None
             problem = str(exc).split(" (at line")[0]
             raise ConfigError(path, None, f"not valid TOML: {problem}", line) from None
         self._lines = text.splitlines()
@@ -51,7 +52,14 @@ class TomlSource:
         return cls(path, text)
 
     def line_of(self, table: tuple[str, ...], key: str | None = None) -> int | None:
-        """1-based line of ``[table]`` (``key`` None) or of ``key = ...`` inside it."""
+        """1-based line of ``[table]`` (``key`` None) or of ``key = ...`` inside it; a key
+        that is itself a table is found by its header ``[table.key]``."""
+        found = self._scan(table, key)
+        if key is not None and (found is None or found == self._scan(table, None)):
+            return self._scan((*table, key), None) or found
+        return found
+
+    def _scan(self, table: tuple[str, ...], key: str | None) -> int | None:
         current: tuple[str, ...] = ()
         table_line: int | None = None
         for number, raw in enumerate(self._lines, start=1):
