@@ -58,7 +58,7 @@ ANALYSES: dict[str, AnalysisSpec] = {
             "gate-overdrive",
             "Vgs high level while on; switch node high level against the bus",
             {"vgs_on": "V", "switch_drop": "V", "switch_high": "V", "bus_level": "V"},
-            needs_nets=("vgs", "switch", "bus"),
+            needs_nets=("vgs", "switch"),
         ),
         AnalysisSpec(
             "edges",

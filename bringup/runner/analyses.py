@@ -55,6 +55,7 @@ class AnalysisInput:
     soak_temps_c: list[float] = field(default_factory=list)
     reading: float | None = None
     reading_metric: str | None = None
+    supply_v: float | None = None  # supply output read back during the acquisition (V)
 
 
 @dataclass
@@ -176,26 +177,34 @@ def meter_reading(data: AnalysisInput, board: Board, out: AnalysisOutput) -> Non
 
 
 def gate_overdrive(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
-    """Vgs high state level while on (V), switch node high level (V), bus mean (V) and the
+    """Vgs high state level while on (V), switch node high level (V), the bus (V) and the
     switch node's shortfall from the bus, ``switch_drop`` = bus - switch high (V).
 
     State levels by the IEEE 181 histogram method (``bringup.analysis.edges.state_levels``):
     a source follower shows a Vgs near its plateau and a switch node a few volts below the bus.
+    The bus is the supply's own read-back taken during the acquisition (a supply's voltmeter is
+    good to a few tens of millivolts, a scope probe's gain only to about 0.5 %); without it, the
+    mean of a bus trace. Supply-lead drop makes the shortfall read larger, never smaller.
     """
-    vgs, sw, bus = _trace(data, "vgs"), _trace(data, "switch"), _trace(data, "bus")
+    vgs, sw = _trace(data, "vgs"), _trace(data, "switch")
     try:
         v = state_levels(vgs.volts)
         out.set("vgs_on", v.high_v)
         out.views.append(_view("vgs", vgs, {"low": v.low_v, "high": v.high_v}))
     except AnalysisError as exc:
         out.set("vgs_on", None, f"vgs: {exc}")
-    bus_mean = float(np.mean(bus.volts, dtype=np.float64))
-    out.set("bus_level", bus_mean)
+    if data.supply_v is not None:
+        bus_v = data.supply_v
+    elif "bus" in data.traces:
+        bus_v = float(np.mean(data.traces["bus"].volts, dtype=np.float64))
+    else:
+        raise AnalysisError("no bus voltage: neither a supply read-back nor a bus trace")
+    out.set("bus_level", bus_v)
     try:
         s = state_levels(sw.volts)
         out.set("switch_high", s.high_v)
-        out.set("switch_drop", bus_mean - s.high_v)
-        out.views.append(_view("switch", sw, {"low": s.low_v, "high": s.high_v, "bus": bus_mean}))
+        out.set("switch_drop", bus_v - s.high_v)
+        out.views.append(_view("switch", sw, {"low": s.low_v, "high": s.high_v, "bus": bus_v}))
     except AnalysisError as exc:
         out.set("switch_high", None, f"switch: {exc}")
         out.set("switch_drop", None, f"switch: {exc}")
@@ -281,6 +290,7 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         else:
             out.set("on_time_supported", None, d.reasons.get("t_on_max_s", "no estimate"))
         if d.extrapolation is not None and d.extrapolation > 10:
+            out.details["extrapolated"] = ["on_time_supported"]
             out.warnings.append(
                 f"the supported on-time extrapolates the droop line {d.extrapolation:.0f}x beyond "
                 "the measured on-time"

@@ -1,0 +1,171 @@
+"""``bringup run``: a new session of one board serial number through one checklist.
+
+``--auto`` runs every step without a UI (confirmations and typed readings from ``--answers
+FILE``, or played by the simulated bench under ``--sim``; otherwise a step is refused and
+logged as not run), prints each step's verdict and exits 0 when everything passed, 1 when
+something did not, 2 on an error. Without ``--auto`` the notebook's session screen opens.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+
+from bringup.errors import InputError
+
+__all__ = ["add_parser", "run", "add_bench_options", "add_headless_options", "run_headless_cli"]
+
+SCENARIOS = ("healthy", "weak-bootstrap", "no-overdrive", "slow-gate", "hot-switch", "sagging-rail")
+
+
+def add_bench_options(parser: argparse.ArgumentParser) -> None:
+    """``--bench FILE | --sim [--scenario NAME] [--seed N]``."""
+    group = parser.add_mutually_exclusive_group()
+    group.add_argument("--bench", metavar="FILE", help="bench file naming the instruments")
+    group.add_argument("--sim", action="store_true", help="a simulated bench on 127.0.0.1")
+    parser.add_argument("--scenario", metavar="NAME", default=None,
+                        help=f"simulated board behaviour with --sim: {', '.join(SCENARIOS)} "
+                        "(default healthy)")  # fmt: skip
+    parser.add_argument(
+        "--seed", type=int, default=0, help="simulated bench's noise seed (default 0)"
+    )
+
+
+def add_headless_options(parser: argparse.ArgumentParser) -> None:
+    """``--db``, ``--auto``, ``--answers``, ``--json``."""
+    parser.add_argument("--db", metavar="PATH", help="session log (default: your data directory)")
+    parser.add_argument("--auto", action="store_true", help="run every step without a UI")
+    parser.add_argument("--answers", metavar="FILE",
+                        help="with --auto: confirmations and typed readings (TOML)")  # fmt: skip
+    parser.add_argument("--json", action="store_true",
+                        help="with --auto: print one JSON object with the verdicts at the end")  # fmt: skip
+
+
+def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    """Register ``run``."""
+    parser = subparsers.add_parser(
+        "run",
+        help="run a session: a board serial number through a checklist (headless with --auto)",
+        description="Start a session for one board serial number through one checklist, on a "
+        "bench file's instruments or a simulated bench. Exit status with --auto: 0 everything "
+        "passed, 1 something failed or was not run, 2 an error.",
+    )
+    parser.add_argument("--board", metavar="FILE",
+                        help="board file ('demo' = the shipped demo board; default with --sim)")  # fmt: skip
+    parser.add_argument("--checklist", metavar="FILE",
+                        help="checklist file (default: the standard high-side bootstrap one)")  # fmt: skip
+    add_bench_options(parser)
+    parser.add_argument("--serial", metavar="SN", help="the board's serial number")
+    parser.add_argument("--operator", metavar="NAME",
+                        help="who runs the session (default: $BRINGUP_OPERATOR)")  # fmt: skip
+    add_headless_options(parser)
+    parser.set_defaults(func=run)
+    return parser
+
+
+def check_headless_options(args: argparse.Namespace) -> None:
+    """``--json`` and ``--answers`` only make sense with ``--auto``."""
+    if args.json and not args.auto:
+        raise InputError("--json: only with --auto (the notebook screen shows the verdicts)")
+    if args.answers and not args.auto:
+        raise InputError("--answers: only with --auto (the notebook asks the operator)")
+    if args.scenario is not None and not args.sim:
+        raise InputError("--scenario: only with --sim")
+    if args.scenario is not None and args.scenario not in SCENARIOS:
+        raise InputError(f"--scenario {args.scenario}: unknown (one of {', '.join(SCENARIOS)})")
+
+
+def bench_source(args: argparse.Namespace):
+    """The ``BenchSource`` named by ``--bench``/``--sim`` (None when neither was given)."""
+    from pathlib import Path
+
+    from bringup.runner import BenchSource
+
+    if args.sim:
+        return BenchSource.simulated(args.scenario or "healthy", args.seed)
+    if args.bench:
+        path = Path(args.bench).expanduser()
+        if not path.is_file():
+            raise InputError(f"--bench {args.bench}: no such file")
+        return BenchSource.from_file(path)
+    return None
+
+
+def run_headless_cli(runner, args: argparse.Namespace) -> int:
+    """Run ``runner``'s unfinished steps headless, print progress and verdicts; exit status."""
+    import json
+
+    from bringup.runner.answers import load_answers
+    from bringup.runner.headless import run_headless
+    from bringup.runner.reporting import PASSING, attempt_lines, summary_json
+
+    book = load_answers(args.answers, runner.checklist) if args.answers else None
+    out = sys.stderr if args.json else sys.stdout
+    total = len(runner.checklist.steps())
+    index = {s.id: i for i, s in enumerate(runner.checklist.steps(), start=1)}
+    print(f"session {runner.session_id}: {runner.board.name} rev {runner.board.revision}, "
+          f"serial {runner.serial}, operator {runner.operator}", file=out, flush=True)  # fmt: skip
+    runner.bench()  # an unreachable bench is an error (exit 2), not a list of not-run steps
+
+    def show(result) -> None:
+        for line in attempt_lines(index[result.step_id], total, result):
+            print(line, file=out, flush=True)
+
+    verdict = run_headless(runner, book, on_result=show)
+    summary = summary_json(runner)
+    stages = ", ".join(f"{s['id']} {s['verdict']}" for s in summary["stages"])
+    print(f"session {runner.session_id}: {verdict} ({stages})", file=out, flush=True)
+    if args.json:
+        print(json.dumps(summary), flush=True)
+    return 0 if verdict in PASSING else 1
+
+
+def run(args: argparse.Namespace) -> int:
+    """Create the session and run it headless (``--auto``) or in the notebook."""
+    check_headless_options(args)
+    source = bench_source(args)
+    if source is None:
+        raise InputError("give --bench FILE (your instruments) or --sim (a simulated bench)")
+    board = args.board or ("demo" if args.sim else None)
+    if board is None:
+        raise InputError("--board FILE is needed with --bench ('demo' names the demo board)")
+    operator = (args.operator or os.environ.get("BRINGUP_OPERATOR", "")).strip()
+    if not operator:
+        raise InputError("--operator NAME: who runs the session (or set $BRINGUP_OPERATOR)")
+    if not args.serial:
+        raise InputError("--serial SN: the board's serial number")
+    if not args.auto:
+        return _notebook(args, board, operator)
+    from bringup.checklist.board import load_board
+    from bringup.checklist.load import load_checklist
+    from bringup.runner import SessionRunner
+
+    board_file = load_board(board)
+    checklist = load_checklist(args.checklist)
+    if args.answers:  # validate before anything is created
+        from bringup.runner.answers import load_answers
+
+        load_answers(args.answers, checklist)
+    runner = SessionRunner.create(board=board_file, checklist=checklist, serial=args.serial,
+                                  operator=operator, bench=source, db_path=args.db)  # fmt: skip
+    with runner:
+        return run_headless_cli(runner, args)
+
+
+def _notebook(args: argparse.Namespace, board: str, operator: str) -> int:
+    try:
+        from bringup.tui.launch import Launcher
+        from bringup.tui.run_app import run_app
+    except ImportError:
+        print("bringup run: the notebook screen is not in this build; use --auto", file=sys.stderr)
+        return 2
+    launcher = Launcher(args.db)
+    return run_app(launcher, open_new={
+        "board": board,
+        "checklist": args.checklist,
+        "bench_file": args.bench,
+        "scenario": args.scenario if args.sim else None,
+        "serial": args.serial,
+        "operator": operator,
+    })  # fmt: skip

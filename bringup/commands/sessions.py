@@ -1,0 +1,71 @@
+"""``bringup sessions [--db PATH] [--json]``: the sessions in the log, most recent first."""
+
+from __future__ import annotations
+
+import argparse
+
+__all__ = ["add_parser", "run"]
+
+
+def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    """Register ``sessions``."""
+    parser = subparsers.add_parser(
+        "sessions",
+        help="list the sessions in the log",
+        description="List the sessions in the log: id, board, serial, progress, overall "
+        "verdict, last activity. Reads the log only; never changes it.",
+    )
+    parser.add_argument("--db", metavar="PATH", help="session log (default: your data directory)")
+    parser.add_argument("--json", action="store_true", help="a JSON list of objects")
+    parser.set_defaults(func=run)
+    return parser
+
+
+def _row(s) -> dict:
+    return {
+        "id": s.id,
+        "board": s.board_name,
+        "revision": s.board_revision,
+        "serial": s.serial,
+        "operator": s.operator,
+        "checklist": s.checklist_id,
+        "state": s.state,
+        "verdict": s.verdict or "not-started",
+        "finished": s.finished,
+        "steps_done": s.steps_done,
+        "steps_total": s.steps_total,
+        "progress": dict(s.progress),
+        "attempts": s.attempts,
+        "created": s.created_utc,
+        "last_activity": s.last_activity_utc,
+    }
+
+
+def run(args: argparse.Namespace) -> int:
+    """Print the sessions (a table, or JSON with ``--json``)."""
+    import json
+    from pathlib import Path
+
+    from bringup.store import SessionLog, default_db_path
+
+    path = Path(args.db).expanduser() if args.db else default_db_path()
+    if not path.exists():
+        rows: list[dict] = []
+    else:
+        with SessionLog.open(path, create=False) as log:
+            rows = [_row(s) for s in log.sessions()]
+    if args.json:
+        print(json.dumps(rows))
+        return 0
+    if not rows:
+        print(f"no sessions in {path}")
+        return 0
+    head = f"{'id':<12} {'board':<34} {'serial':<12} {'progress':>8}  {'verdict':<16} last activity"
+    print(head)
+    for r in rows:
+        total = r["steps_total"] if r["steps_total"] is not None else "?"
+        board = f"{r['board']} rev {r['revision']}" if r["revision"] else r["board"]
+        state = "" if r["state"] == "open" else f" ({r['state']})"
+        print(f"{r['id']:<12} {board[:34]:<34} {r['serial']:<12} {r['steps_done']:>4}/{total:<3}  "
+              f"{r['verdict']:<16} {r['last_activity']}{state}")  # fmt: skip
+    return 0

@@ -1,0 +1,40 @@
+"""Plain-text lines and the JSON summary of a headless run (no UI: strings only)."""
+
+from __future__ import annotations
+
+from bringup.analysis.quantities import format_quantity
+from bringup.runner.results import AttemptResult
+from bringup.runner.session import SessionRunner
+
+__all__ = ["attempt_lines", "summary_json", "PASSING"]
+
+#: Overall states that count as "everything passed" for the exit status.
+PASSING = ("pass", "conditional-pass", "waived")
+
+
+def attempt_lines(index: int, total: int, result: AttemptResult) -> list[str]:
+    """One line for the step's verdict, then one per judged metric, then warnings."""
+    head = f"[{index}/{total}] {result.step_id:<32} {result.state}"
+    lines = [head + (f"  ({result.message})" if result.message else "")]
+    for m in result.metrics:
+        if not m.judged:
+            continue
+        value = format_quantity(m.measured, m.unit)
+        limit = m.limit.describe() if m.limit else ""
+        margin = f", margin {format_quantity(m.margin, m.unit)}" if m.margin is not None else ""
+        pred = f", design {format_quantity(m.predicted, m.unit)}" if m.predicted is not None else ""
+        lines.append(f"        {m.id:<26} {value:>12}  {m.outcome:<16} limit {limit}{margin}{pred}")
+        if m.disagreement:
+            lines.append(f"        ! {m.id}: {m.disagreement}")
+    for warning in result.warnings:
+        lines.append(f"        ! {warning}")
+    return lines
+
+
+def summary_json(runner: SessionRunner) -> dict:
+    """``{"session": ID, "verdict": ..., "stages": [{"id": ..., "verdict": ...}, ...]}``."""
+    return {
+        "session": runner.session_id,
+        "verdict": runner.verdict(),
+        "stages": [{"id": s.stage_id, "verdict": s.state} for s in runner.stages()],
+    }
