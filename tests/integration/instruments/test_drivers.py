@@ -153,10 +153,11 @@ def test_supply_setpoints_protection_and_measurements(opened):
         bench.simulation.set_pwm(True)
         bench.simulation.set_duty(0.9)
         # a 4 ohm heater at 24 V and 90 % duty draws ~5.4 A on average [computed]: a 1 A limit
-        # puts the supply in constant current
+        # puts the supply in constant current, the output voltage sagging below the setpoint
         bench.supply.set_current_limit(1.0)
         assert powered.regulation() is Regulation.CONSTANT_CURRENT
-        assert powered.measure_current() == pytest.approx(1.0, abs=0.05)
+        assert powered.measure_current() <= 1.05
+        assert powered.measure_voltage() < 23.0
     assert not sim.supply.output_on
 
 
