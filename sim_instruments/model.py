@@ -36,6 +36,7 @@ __all__ = ["StageModel", "NETS"]
 NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
 # The sample grid repeats after p samples covering q periods; q is kept small.
 _MAX_PERIODS_PER_REPEAT = 64
+_CHUNK = 1 << 16
 
 
 class StageModel:
@@ -253,5 +254,11 @@ def _sample_periodic(
     if 0 < p_samples < n and n * abs(dt - q_periods * period / p_samples) < 1e-3 * dt:
         ph = np.mod(t0 + dt * np.arange(p_samples), period)
         return np.resize(fn(ph), n)
-    ph = np.mod(t0 + dt * np.arange(n), period)
-    return fn(ph)
+    # No short repeat: evaluate every sample, in cache-sized chunks (the piecewise formulas make
+    # several passes over their input; small chunks keep those passes in cache).
+    out = np.empty(n)
+    for start in range(0, n, _CHUNK):
+        stop = min(start + _CHUNK, n)
+        ph = np.mod(t0 + dt * np.arange(start, stop, dtype=np.float64), period)
+        out[start:stop] = fn(ph)
+    return out
