@@ -234,16 +234,17 @@ class Scope(Instrument):
             return record
 
     def _tip_signal(self, ch: Channel, probe: Probe, t0: float, dt: float, n: int) -> np.ndarray:
-        """Volts the channel reports before its filters and ADC (model signal x probe errors)."""
-        with self.lock:
-            wave = np.asarray(self.board.model.waveform(probe.net, t0, dt, n), dtype=np.float64)
-        scale = (1.0 + probe.gain_error) * ch.attenuation / probe.ratio
+        """Volts the channel reports before its filters and ADC (model signal x probe errors),
+        float32 (ample for a 12-bit ADC, half the memory traffic of float64)."""
         if ch.coupling == "GND":
-            return np.zeros(n)
-        wave = wave * scale
+            return np.zeros(n, np.float32)
+        with self.lock:
+            wave = self.board.model.waveform(probe.net, t0, dt, n)
+        scale = (1.0 + probe.gain_error) * ch.attenuation / probe.ratio
+        out = np.multiply(wave, scale, dtype=np.float32)
         if ch.coupling == "AC":
-            wave -= wave.mean()
-        return wave
+            out -= out.mean(dtype=np.float64)
+        return out
 
     def _find_trigger(self, channels, probes, dt: float, rng) -> tuple[float, bool]:
         """Time of the first trigger-source crossing after a random phase, seconds.
@@ -282,21 +283,26 @@ class Scope(Instrument):
                 gain *= 1.0 - p
         if len(a_coef) > 1:
             # start from the steady state of the first sample (no start-up transient)
-            zi = lfilter_zi([gain], a_coef) * v[0]
-            v, _ = lfilter([gain], a_coef, v, zi=zi)
+            b32, a32 = np.array([gain], np.float32), a_coef.astype(np.float32)
+            zi = (lfilter_zi([gain], a_coef) * v[0]).astype(np.float32)
+            v, _ = lfilter(b32, a32, v, zi=zi)
         sigma = NOISE_FRACTION * ch.range_v
         if ch.bw_limit:
             sigma *= math.sqrt(LIMIT_BANDWIDTH_HZ / FULL_BANDWIDTH_HZ)
-        noise = rng.standard_normal(n, dtype=np.float32)
-        noise *= np.float32(sigma)
         lsb = ch.range_v / 2.0**bits
-        x = (v - ch.offset_v) * (1.0 / lsb)
-        x += noise * np.float32(1.0 / lsb)
+        # in place, in float32: x = (v - offset)/lsb + noise/lsb, rounded and clipped
+        x = np.asarray(v, dtype=np.float32)
+        x -= np.float32(ch.offset_v)
+        x *= np.float32(1.0 / lsb)
+        noise = rng.standard_normal(n, dtype=np.float32)
+        noise *= np.float32(sigma / lsb)
+        x += noise
+        del noise
         lo, hi = -(2 ** (bits - 1)), 2 ** (bits - 1) - 1
+        clipped = bool(x.min() <= lo - 0.5 or x.max() >= hi + 0.5)
         np.rint(x, out=x)
         np.clip(x, lo, hi, out=x)
         codes = x.astype(np.int16)
-        clipped = bool(codes.min() <= lo or codes.max() >= hi)
         return Trace(codes, None, lsb, ch.offset_v, bits, clipped)
 
     def current_record(self) -> Record:
@@ -490,25 +496,25 @@ class Scope(Instrument):
         tree.add("INPut<n>:COUPling", set=coupling, query=lambda s, p, n: ch(n[0]).coupling)
         for attr, pattern, lo, hi in (
             ("attenuation", "INPut<n>:ATTenuation", 0.001, 10000.0),
-            ("range_v", "SENSe<n>:VOLTage:RANGe:PTPeak", 1e-3, 1e5),
-            ("offset_v", "SENSe<n>:VOLTage:RANGe:OFFSet", -1e5, 1e5),
+            ("range_v", "[SENSe<n>:]VOLTage:RANGe:PTPeak", 1e-3, 1e5),
+            ("offset_v", "[SENSe<n>:]VOLTage:RANGe:OFFSet", -1e5, 1e5),
         ):
             set_, get = chan_num(attr, lo, hi)
             tree.add(pattern, set=set_, query=get)
         for attr, pattern, lo, hi, integer in (
-            ("sweep_time_s", "SENSe:SWEep:TIME", 1e-9, 100.0, False),
-            ("points", "SENSe:SWEep:POINts", MIN_POINTS, MAX_POINTS, True),
-            ("sweep_offset_s", "SENSe:SWEep:OFFSet:TIME", -100.0, 100.0, False),
+            ("sweep_time_s", "[SENSe:]SWEep:TIME", 1e-9, 100.0, False),
+            ("points", "[SENSe:]SWEep:POINts", MIN_POINTS, MAX_POINTS, True),
+            ("sweep_offset_s", "[SENSe:]SWEep:OFFSet:TIME", -100.0, 100.0, False),
             ("trigger_level_v", "TRIGger[:SEQuence]:LEVel", -1e5, 1e5, False),
         ):
             set_, get = sweep(attr, lo, hi, integer)
             tree.add(pattern, set=set_, query=get)
         tree.add(
-            "SENSe:SWEep:TINTerval",
+            "[SENSe:]SWEep:TINTerval",
             query=lambda s, p, n: format_nr3(self.sweep_time_s / self.points),
         )
         tree.add(
-            "SENSe:VOLTage:RESolution",
+            "[SENSe:]VOLTage:RESolution",
             set=lambda s, p, n: setattr(self, "resolution_bits", self._bits(p)),
             query=lambda s, p, n: str(self.resolution_bits),
         )

@@ -458,6 +458,7 @@ class Session:
     def execute(self, line: str) -> list[Reply]:
         """Run one program message (a line) and return the replies of its queries, in order."""
         self.instrument.faults.deliver_pending_errors(self)
+        self._path = []  # each program message starts at the root (SCPI-99 6.2.4)
         try:
             units = split_units(line)
         except ScpiError as exc:
@@ -495,9 +496,13 @@ class Session:
             candidates = [tokens] if absolute or not self._path else [self._path + tokens, tokens]
         found = None
         for cand in candidates:
-            found = self.instrument.tree.lookup(cand)
-            if found is not None:
-                tokens = cand
+            hit = self.instrument.tree.lookup(cand)
+            if hit is None:
+                continue
+            handler = hit[0].query_handler if is_query else hit[0].set_handler
+            if found is None or handler is not None:
+                found, tokens = hit, cand
+            if handler is not None:
                 break
         if found is None:
             raise ScpiError(-113, header + ("?" if is_query else ""))

@@ -72,6 +72,9 @@ class ScpiServer:
     def stop(self, timeout_s: float = 2.0) -> None:
         """Close the listener and every connection; join the threads (seconds to wait each)."""
         self._stop.set()
+        if self._listener is not None:
+            with contextlib.suppress(OSError):  # wakes a blocked accept() at once on Linux
+                self._listener.shutdown(socket.SHUT_RDWR)
         if self._accept_thread is not None:
             self._accept_thread.join(timeout_s)
         if self._listener is not None:

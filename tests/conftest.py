@@ -1,0 +1,61 @@
+"""Fixtures shared by every test folder.
+
+``demo_design`` (session): the demo board's ``[design]`` values as SI floats
+(``checklists/demo-board.toml`` read by ``bringup.checklist.board.load_board``).
+
+``sim_bench``: a factory that starts simulated benches in this process on free loopback ports
+and stops every one it started at teardown (supply output OFF, connections closed)::
+
+    def test_something(sim_bench):
+        bench = sim_bench()                                   # healthy, seed 0, demo board
+        bench = sim_bench("slow-gate", seed=3, design=None)   # design=None -> demo board
+        bench.resources["scope"]                              # "TCPIP::127.0.0.1::PORT::SOCKET"
+        bench.scope.faults.inject("drop")                     # fault injection from Python
+        bench.supply.output_on                                # instrument state
+        bench.clock.advance(600.0)                            # jump simulated time (seconds)
+
+``visa_rm`` (session): the process's ``pyvisa.ResourceManager("@py")`` (pyvisa-py backend).
+Open resources with ``read_termination="\\n"``, ``write_termination="\\n"`` and a timeout in ms;
+never call ``list_resources()`` (it broadcasts beyond this machine).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator, Mapping
+
+import pytest
+
+
+@pytest.fixture(scope="session")
+def demo_design() -> dict[str, float]:
+    from bringup.commands.sim import load_design
+
+    return load_design("demo")
+
+
+@pytest.fixture
+def sim_bench(demo_design: dict[str, float]) -> Iterator[Callable[..., object]]:
+    pytest.importorskip("sim_instruments.model", reason="the stage model has not landed yet")
+    from sim_instruments.bench import RunningBench, start_bench
+
+    started: list[RunningBench] = []
+
+    def start(
+        scenario: str = "healthy", seed: int = 0, design: Mapping[str, float] | None = None
+    ) -> RunningBench:
+        bench = start_bench(dict(design or demo_design), scenario=scenario, seed=seed)
+        started.append(bench)
+        return bench
+
+    yield start
+    for bench in started:
+        bench.stop()
+
+
+@pytest.fixture(scope="session")
+def visa_rm():
+    import pyvisa
+
+    rm = pyvisa.ResourceManager("@py")
+    yield rm
+    rm.close()
