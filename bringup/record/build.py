@@ -9,6 +9,9 @@ but a new logged entry can change a signed content. See ``SCHEMA.md`` beside thi
 from __future__ import annotations
 
 import base64
+import datetime as _dt
+import hashlib
+import tomllib
 from collections.abc import Callable
 from typing import Any
 
@@ -70,12 +73,20 @@ def _targets(board: dict) -> dict:
     return targets if isinstance(targets, dict) else {}
 
 
-def _verdicts(attempt: AttemptRecord, targets: dict) -> list[dict]:
+def _verdicts(attempt: AttemptRecord, targets: dict, metrics: dict) -> list[dict]:
+    """Each verdict with the measured value, its unit and the guard band (ILAC-G8 §4.2: w = U
+    under the guarded rule, 0 under simple acceptance)."""
     out = []
     for key in sorted(attempt.verdicts):
         raw = attempt.verdicts[key]
         entry = dict(raw) if isinstance(raw, dict) else {"outcome": raw}
         entry.setdefault("target", key)
+        metric = metrics.get(key)
+        if isinstance(metric, dict):
+            entry.setdefault("value", metric.get("value"))
+            entry.setdefault("unit", metric.get("unit", ""))
+        if "guard_band" not in entry and isinstance(entry.get("uncertainty"), int | float):
+            entry["guard_band"] = entry["uncertainty"] if entry.get("rule") == "guarded" else 0.0
         target = targets.get(entry.get("target")) or targets.get(key)
         if isinstance(target, dict) and "limit" not in entry:
             limit = {k: target.get(k) for k in ("min", "max") if target.get(k) is not None}
@@ -86,9 +97,32 @@ def _verdicts(attempt: AttemptRecord, targets: dict) -> list[dict]:
     return out
 
 
+def _markers_from_views(extra: dict) -> dict[str, list[dict]]:
+    """Plot markers from the runner's notes: named levels, reference-level crossings, the
+    on-time window (``extra["views"]``, one per waveform, keyed by net)."""
+    out: dict[str, list[dict]] = {}
+    for view in extra.get("views") or []:
+        if not isinstance(view, dict):
+            continue
+        marks: list[dict] = []
+        for label, y in sorted((view.get("levels") or {}).items()):
+            if isinstance(y, int | float):
+                marks.append({"kind": "level", "label": str(label), "y": y})
+        for c in view.get("crossings") or []:
+            if isinstance(c, dict) and isinstance(c.get("time_s"), int | float):
+                marks.append({"kind": "time", "label": str(c.get("name", "")), "t": c["time_s"]})
+        window = view.get("window_s")
+        if isinstance(window, list) and len(window) == 2:
+            marks.append({"kind": "window", "label": "on-time", "t": window[0], "t_end": window[1]})
+        for key in {view.get("net"), view.get("name")} - {None}:
+            out.setdefault(str(key), marks)
+    return out
+
+
 def _waveforms(attempt: AttemptRecord, load: WaveformLoader) -> list[dict]:
     extra = attempt.extra or {}
     markers = extra.get("markers") if isinstance(extra.get("markers"), dict) else {}
+    markers = {**_markers_from_views(extra), **markers}
     models = extra.get("models") if isinstance(extra.get("models"), dict) else {}
     titles = extra.get("titles") if isinstance(extra.get("titles"), dict) else {}
     out = []
@@ -125,8 +159,13 @@ def _waveforms(attempt: AttemptRecord, load: WaveformLoader) -> list[dict]:
     return out
 
 
+def _unit_of(metric: Any) -> str:
+    return str(metric.get("unit") or "") if isinstance(metric, dict) else ""
+
+
 def _attempt(a: AttemptRecord, offset: str | None, targets: dict, load: WaveformLoader) -> dict:
     extra = {k: v for k, v in (a.extra or {}).items() if k not in ("markers", "models", "titles")}
+    metrics = {k: _metric(v) for k, v in sorted(a.metrics.items())}
     entry = {
         "number": a.attempt_no,
         "seq": a.seq,
@@ -137,9 +176,11 @@ def _attempt(a: AttemptRecord, offset: str | None, targets: dict, load: Waveform
         "outcome": a.outcome,
         "instruments": a.instruments,
         "settings": a.settings,
-        "metrics": {k: _metric(v) for k, v in sorted(a.metrics.items())},
-        "predicted": {k: _metric(v) for k, v in sorted(a.predictions.items())},
-        "verdicts": _verdicts(a, targets),
+        "metrics": metrics,
+        "predicted": {
+            k: _metric(v, _unit_of(metrics.get(k))) for k, v in sorted(a.predictions.items())
+        },
+        "verdicts": _verdicts(a, targets, metrics),
         "notes": [a.notes] if a.notes else [],
         "waveforms": _waveforms(a, load),
         "log": {"content_hash": a.content_hash, "chain_hash": a.chain_hash},
@@ -192,9 +233,50 @@ def step_statuses(data: SessionData) -> dict[tuple[str, str], tuple[str, str | N
     return state
 
 
+def _file_tables(snapshot: dict) -> dict:
+    """The tables of a snapshot's file text (the runner logs the file's text), {} if none."""
+    text = snapshot.get("text") if isinstance(snapshot, dict) else None
+    if not isinstance(text, str):
+        return {}
+    try:
+        return _plain(tomllib.loads(text))
+    except tomllib.TOMLDecodeError:
+        return {}
+
+
+def _plain(value: Any) -> Any:
+    """TOML values as JSON values: dates and times become ISO 8601 text."""
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_plain(v) for v in value]
+    if isinstance(value, _dt.date | _dt.time):
+        return value.isoformat()
+    return value
+
+
 def _definitions(checklist: dict) -> list[dict]:
+    """Stages with their steps, each merged with its table in the checklist file's text
+    (cautions, instructions, settings), so the record shows what the operator was told."""
     stages = checklist.get("stages") if isinstance(checklist, dict) else None
-    return [s for s in stages if isinstance(s, dict)] if isinstance(stages, list) else []
+    if not isinstance(stages, list):
+        return []
+    tables = _file_tables(checklist).get("stages") or {}
+    out = []
+    for stage in stages:
+        if not isinstance(stage, dict):
+            continue
+        table = tables.get(stage.get("id")) if isinstance(tables, dict) else None
+        table = table if isinstance(table, dict) else {}
+        step_tables = table.get("steps") if isinstance(table.get("steps"), dict) else {}
+        merged = {k: v for k, v in table.items() if k != "steps"} | stage
+        merged["steps"] = [
+            (step_tables.get(step.get("id")) or {}) | step
+            for step in stage.get("steps") or []
+            if isinstance(step, dict)
+        ]
+        out.append(merged)
+    return out
 
 
 def _bench(bench: dict | None, data: SessionData) -> dict:
@@ -223,11 +305,20 @@ def _bench(bench: dict | None, data: SessionData) -> dict:
             ]
         instruments.append(inst)
     simulation = bench.get("simulation")
+    simulated = bench.get("kind") == "simulated" or (
+        isinstance(simulation, dict) and bool(simulation.get("enabled"))
+    )
     return {
-        "simulated": bool(isinstance(simulation, dict) and simulation.get("enabled")),
+        "simulated": simulated,
         "instruments": instruments,
         "other": {k: v for k, v in bench.items() if k not in roles},
     }
+
+
+def _text_digest(snapshot: dict) -> str | None:
+    """SHA-256 of the logged file text: the file's identity when it states no version."""
+    text = snapshot.get("text") if isinstance(snapshot, dict) else None
+    return hashlib.sha256(text.encode("utf-8")).hexdigest() if isinstance(text, str) else None
 
 
 def build_content(data: SessionData, load: WaveformLoader) -> dict:
@@ -239,6 +330,7 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
     targets = _targets(board_snap)
     checklist = data.checklist if isinstance(data.checklist, dict) else {}
     statuses = step_statuses(data)
+    checklist_file = _file_tables(checklist).get("checklist") or {}
 
     by_step: dict[tuple[str, str], list[AttemptRecord]] = {}
     for a in data.attempts:
@@ -338,6 +430,7 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
             "revision": summary.board_revision,
             "description": board_info.get("description"),
             "serial_pattern": board_info.get("serial_pattern"),
+            "text_sha256": _text_digest(board_snap),
             "design": board_snap.get("design")
             if isinstance(board_snap.get("design"), dict)
             else {},
@@ -349,7 +442,9 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
         "checklist": {
             "id": summary.checklist_id,
             "name": checklist.get("name") or checklist.get("title") or summary.checklist_id,
-            "version": checklist.get("version"),
+            "version": checklist.get("version") or checklist_file.get("version"),
+            "description": checklist_file.get("description"),
+            "text_sha256": _text_digest(checklist),
             "snapshot": {k: v for k, v in checklist.items() if k != "stages"},
         },
         "bench": _bench(data.bench, data),
@@ -390,7 +485,13 @@ def _step(
         "attempts": [_attempt(a, offset, targets, load) for a in by_step.get((sid, tid), [])],
         "events": [_event(e, offset) for e in step_events.get((sid, tid), [])],
     }
-    definition = {k: v for k, v in tdef.items() if k not in ("id", "title", "name")}
+    cautions = tdef.get("cautions")
+    if cautions:
+        step["cautions"] = [cautions] if isinstance(cautions, str) else list(cautions)
+    if isinstance(tdef.get("instructions"), str):
+        step["instructions"] = tdef["instructions"].strip()
+    skip = ("id", "title", "name", "cautions", "instructions")
+    definition = {k: v for k, v in tdef.items() if k not in skip}
     if definition:
         step["definition"] = definition
     return step

@@ -16,11 +16,15 @@ from bringup.record.view import (
     OUTCOME_WORDS,
     OVERALL_WORDS,
     STATUS_WORDS,
+    Trace,
     comparison_rows,
     decode_trace,
     design_rows,
     fmt_time,
     fmt_value,
+    soak_trace,
+    step_cautions,
+    zoom_trace,
 )
 
 __all__ = ["render_html"]
@@ -129,8 +133,8 @@ def _cautions(content: dict) -> str:
     out = ['<section id="cautions"><h2>Cautions</h2>']
     out += [f'<p class="caution">{_e(c)}</p>' for c in GENERAL_CAUTIONS]
     for stage in content.get("stages", []):
-        for c in stage.get("cautions") or []:
-            out.append(f'<p class="caution"><b>{_e(stage.get("title"))}:</b> {_e(c)}</p>')
+        for where, c in step_cautions(stage):
+            out.append(f'<p class="caution"><b>{_e(where)}:</b> {_e(c)}</p>')
     out.append("</section>")
     return "".join(out)
 
@@ -228,8 +232,20 @@ def _results(attempt: dict) -> str:
     return out
 
 
+def _svg(trace: Trace) -> str:
+    return plot_svg(trace.t, trace.y, title=trace.name, unit=trace.unit, markers=trace.markers,
+                    overlay=trace.model)  # fmt: skip
+
+
 def _plots(attempt: dict) -> str:
     out = []
+    soak = soak_trace(attempt)
+    if soak is not None:
+        out.append(
+            f"<figure>{_svg(soak)}<figcaption>{soak.t.size} readings of the heatsink "
+            "temperature; dashed: the first-order fit T(t) = T_final - (T_final - T_0) "
+            "exp(-t/tau).</figcaption></figure>"
+        )
     for wave in attempt.get("waveforms") or []:
         trace = decode_trace(wave)
         if trace is None:
@@ -249,6 +265,13 @@ def _plots(attempt: dict) -> str:
             + "; drawn as the min/max of each pixel column."
         )
         out.append(f"<figure>{svg}<figcaption>{caption}</figcaption></figure>")
+        zoom = zoom_trace(trace)
+        if zoom is not None:
+            out.append(
+                f"<figure>{_svg(zoom)}<figcaption>{_e(wave.get('name'))}: the first edge, "
+                f"{int(zoom.t.size)} samples around its reference-level crossings."
+                "</figcaption></figure>"
+            )
     return "".join(out)
 
 
@@ -286,6 +309,8 @@ def _stage(stage: dict) -> str:
         out.append(
             f"<h3>{_e(step.get('title') or step.get('id'))} {_tag(step.get('status', ''))}</h3>"
         )
+        for c in step.get("cautions") or []:
+            out.append(f'<p class="caution">Caution: {_e(c)}</p>')
         attempts = step.get("attempts") or []
         if attempts:
             final = attempts[-1]

@@ -20,11 +20,15 @@ from bringup.record.view import (
     OUTCOME_WORDS,
     OVERALL_WORDS,
     STATUS_WORDS,
+    Trace,
     comparison_rows,
     decode_trace,
     design_rows,
     fmt_time,
     fmt_value,
+    soak_trace,
+    step_cautions,
+    zoom_trace,
 )
 
 __all__ = ["render_pdf"]
@@ -132,14 +136,15 @@ def _plot(pdf: Any, wave: dict) -> None:
     if trace is None:
         _para(pdf, f"Waveform {wave.get('name')}: cannot be decoded.")
         return
-    svg = plot_svg(
-        trace.t,
-        trace.y,
-        title=trace.name,
-        unit=trace.unit,
-        markers=trace.markers,
-        overlay=trace.model,
-    )
+    _draw(pdf, trace, f"{wave.get('name')}: {trace.t.size} samples, min/max per column.")
+    zoom = zoom_trace(trace)
+    if zoom is not None:
+        _draw(pdf, zoom, f"{wave.get('name')}: the first edge, {zoom.t.size} samples.")
+
+
+def _draw(pdf: Any, trace: Trace, caption: str) -> None:
+    svg = plot_svg(trace.t, trace.y, title=trace.name, unit=trace.unit, markers=trace.markers,
+                   overlay=trace.model)  # fmt: skip
     svg = svg.replace(svg[svg.index("<title>") : svg.index("</title>") + 8], "")
     svg = _latin1(svg)
     height = 190 * 220 / 640
@@ -149,7 +154,7 @@ def _plot(pdf: Any, wave: dict) -> None:
     logging.getLogger("fpdf.svg").setLevel(logging.ERROR)
     pdf.image(io.BytesIO(svg.encode("utf-8")), x=pdf.l_margin, y=y, w=190)
     pdf.set_y(y + height + 1)
-    _para(pdf, f"{wave.get('name')}: {trace.t.size} samples, min/max per column.")
+    _para(pdf, caption)
 
 
 def render_pdf(record: dict) -> bytes:
@@ -212,8 +217,8 @@ def render_pdf(record: dict) -> bytes:
     for c in GENERAL_CAUTIONS:
         _para(pdf, f"CAUTION: {c}")
     for stage in content.get("stages", []):
-        for c in stage.get("cautions") or []:
-            _para(pdf, f"CAUTION ({stage.get('title')}): {c}")
+        for where, c in step_cautions(stage):
+            _para(pdf, f"CAUTION ({where}): {c}")
 
     _heading(pdf, "Bench", 11)
     bench_rows = []
@@ -260,6 +265,8 @@ def render_pdf(record: dict) -> bytes:
                 f"{step.get('title') or step.get('id')}: {STATUS_WORDS.get(status, status)}",
                 10,
             )
+            for c in step.get("cautions") or []:
+                _para(pdf, f"Caution: {c}")
             attempts = step.get("attempts") or []
             if not attempts:
                 _para(pdf, "No attempt recorded.")
@@ -288,6 +295,11 @@ def render_pdf(record: dict) -> bytes:
                     vrows,
                     (50, 35, 45, 30, 30),
                 )
+                soak = soak_trace(final)
+                if soak is not None:
+                    _draw(
+                        pdf, soak, f"{soak.t.size} temperature readings; dashed: first-order fit."
+                    )
                 for wave in final.get("waveforms") or []:
                     _plot(pdf, wave)
             hist = [

@@ -28,6 +28,9 @@ __all__ = [
     "short_hash",
     "GENERAL_CAUTIONS",
     "design_rows",
+    "soak_trace",
+    "step_cautions",
+    "zoom_trace",
 ]
 
 # Each word carries a symbol too, so no outcome is told by colour alone.
@@ -162,6 +165,75 @@ def design_rows(board: dict) -> list[list[str]]:
         else:
             rows.append([key, fmt_value(value, unit)])
     return rows
+
+
+def zoom_trace(trace: Trace) -> Trace | None:
+    """A close view of the first edge when its crossings are too close to see on the full
+    record (a 1 ns edge in a 100 us record): the span of the first group of crossing markers
+    widened on each side, with the markers that fall inside. None when no zoom is needed."""
+    times = sorted(m.t for m in trace.markers if m.kind == "time" and m.t is not None)
+    if not times or trace.t.size < 2:
+        return None
+    record = float(trace.t[-1] - trace.t[0])
+    group = [t for t in times if t - times[0] <= 0.02 * record]
+    span = group[-1] - group[0]
+    if span > 0.05 * record:
+        return None
+    dt = record / (trace.t.size - 1)
+    pad = max(2.0 * span, 40.0 * dt)
+    lo, hi = group[0] - pad, group[-1] + pad
+    keep = (trace.t >= lo) & (trace.t <= hi)
+    if keep.sum() < 4:
+        return None
+    marks = tuple(
+        m for m in trace.markers if m.kind == "level" or (m.t is not None and lo <= m.t <= hi)
+    )
+    return Trace(f"{trace.name}, first edge (close view)", trace.unit, trace.t[keep],
+                 trace.y[keep], marks, None)  # fmt: skip
+
+
+def soak_trace(attempt: dict) -> Trace | None:
+    """The thermal soak's readings (``extra.soak`` as the runner logs them) with the fitted
+    first-order curve, or None when the attempt has no soak."""
+    soak = (attempt.get("extra") or {}).get("soak")
+    if not isinstance(soak, dict):
+        return None
+    try:
+        t = np.asarray(soak["times_s"], dtype=float)
+        y = np.asarray(soak["temperatures_c"], dtype=float)
+    except (KeyError, TypeError, ValueError):
+        return None
+    if t.size < 2 or t.size != y.size:
+        return None
+    markers: list[Marker] = []
+    if isinstance(soak.get("limit_c"), int | float):
+        markers.append(Marker("level", f"limit {format_quantity(soak['limit_c'], 'degC')}",
+                              y=float(soak["limit_c"])))  # fmt: skip
+    fit = None
+    final, tau = soak.get("predicted_final_c"), soak.get("time_constant_s")
+    if isinstance(final, int | float) and isinstance(tau, int | float):
+        model = {"final_value": final, "initial_value": float(y[0]), "tau_s": tau,
+                 "start_s": float(t[0]), "unit": "degC"}  # fmt: skip
+        fit = _soak_model(model, t)
+        sigma = soak.get("predicted_sigma_c")
+        if fit is not None and isinstance(sigma, int | float):
+            fit = (fit[0], fit[1], fit[2] + f" (+/- {format_quantity(sigma, 'degC')})")
+    return Trace("heatsink temperature (soak)", "degC", t, y, tuple(markers), fit)
+
+
+def step_cautions(stage: dict) -> list[tuple[str, str]]:
+    """(where, text) for every caution of a stage and its steps, without repeats."""
+    seen: set[str] = set()
+    out = []
+    for where, items in [(stage.get("title") or stage.get("id"), stage.get("cautions"))] + [
+        (step.get("title") or step.get("id"), step.get("cautions"))
+        for step in stage.get("steps") or []
+    ]:
+        for text in items or []:
+            if text not in seen:
+                seen.add(text)
+                out.append((str(where), str(text)))
+    return out
 
 
 def final_attempt(step: dict) -> dict | None:
