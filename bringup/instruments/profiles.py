@@ -363,7 +363,7 @@ def _block(src: TomlSource, kind: str) -> BlockFormat | None:
     for extra in preamble:
         if extra not in PREAMBLE_NAMES and extra != "ignore":
             raise src.error(("block",), "preamble", f"unknown field {extra!r} (or 'ignore')")
-    chunk = block.get("chunk_bytes", 1 << 20)
+    chunk = block.get("chunk_bytes", 1 << 22)
     if isinstance(chunk, bool) or not isinstance(chunk, int) or not 4096 <= chunk <= 1 << 28:
         raise src.error(("block",), "chunk_bytes", f"must be bytes 4096..268435456, not {chunk!r}")
     return BlockFormat(datatype, order == "big", tuple(preamble), chunk)
