@@ -37,11 +37,14 @@ def capture(
     rng: np.random.Generator,
 ) -> np.ndarray:
     """Digitised volts of ``net``: band-limited, noisy, 8-bit, clipped to offset +/- range/2."""
-    from scipy.signal import lfilter
-
     y = model.waveform(net, t0, dt, n)
-    a = math.exp(-2.0 * math.pi * BANDWIDTH_HZ * dt)  # exact discrete first-order pole
-    y = lfilter([1.0 - a], [1.0, -a], y, zi=[a * y[0]])[0]
+    # First-order pole, discretised exactly: impulse response (1 - a) a^k, truncated at 1e-7.
+    a = math.exp(-2.0 * math.pi * BANDWIDTH_HZ * dt)
+    taps = max(1, math.ceil(math.log(1e-7) / math.log(a))) if a > 1e-7 else 1
+    h = (1.0 - a) * a ** np.arange(taps)
+    h /= h.sum()
+    padded = np.concatenate((np.full(taps - 1, y[0]), y))
+    y = np.convolve(padded, h, mode="valid")
     y = y + rng.standard_normal(n) * (NOISE_FRACTION * range_v)
     lsb = range_v / 2**BITS
     codes = np.clip(np.round((y - offset_v) / lsb), -(2 ** (BITS - 1)), 2 ** (BITS - 1) - 1)

@@ -138,7 +138,7 @@ def test_input_current_never_falls_as_the_voltage_rises(demo_design, name):
     """The supply's CV/CC solver needs I(V) non-decreasing; with the PWM off it is a small
     quiescent current (well under the 0.1 A first-power limit)."""
     m = StageModel(demo_design, name)
-    volts = np.linspace(0.0, 30.0, 121)
+    volts = np.linspace(0.0, 30.0, 61)
     for enabled in (False, True):
         m.set_pwm(enabled, 0.95)
         amps = np.array([m.bus_current(v) for v in volts])
