@@ -76,7 +76,11 @@ def test_html_is_self_contained_with_the_summary_first(
     assert "DHS24-0117" in text and "Lindqvist" in text
     record = json.loads(_export(session, "json", tmp_path / "r.json").read_text())
     assert record["seal"]["content_sha256"] in text
-    assert html.count("<svg") == 5  # one plot per final attempt with a waveform
+    # A plot per logged waveform (the failed first gate try included), and a close view of
+    # the first edge where crossings were marked (the gate retake and the switch node).
+    assert html.count("drawn as the min/max of each pixel column") == 5
+    assert html.count("first edge (close view)</title>") == 2
+    assert html.count("<svg") == 7
 
 
 def test_pdf_carries_serial_verdicts_and_hash_on_every_page(
