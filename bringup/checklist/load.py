@@ -176,6 +176,15 @@ def _scope(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> ScopeSetup:
         )
     if len(captures) > 4:
         raise doc.error(nkeys, "a 4-channel scope acquires at most 4 nets at once")
+    if trigger is not None:
+        seen = {c.net for c in captures}
+        if any(c.probe == "math" for c in captures):
+            seen |= {"gate", "switch"}
+        if trigger.net not in seen:
+            raise doc.error(
+                (*keys, "trigger", "net"),
+                f"triggers on {trigger.net!r}, which is not acquired (nets: {', '.join(sorted(seen))})",
+            )
     return ScopeSetup(points, duration, pre, trigger, tuple(captures))
 
 

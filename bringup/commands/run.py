@@ -30,6 +30,14 @@ def add_bench_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--seed", type=int, default=0, help="simulated bench's noise seed (default 0)"
     )
+    parser.add_argument(
+        "--time-scale",
+        type=float,
+        default=None,
+        metavar="K",
+        help="with --sim: simulated seconds per real second of the thermal model "
+        "(default 1000: a 20-minute soak in 1.2 s)",
+    )
 
 
 def add_headless_options(parser: argparse.ArgumentParser) -> None:
@@ -72,6 +80,10 @@ def check_headless_options(args: argparse.Namespace) -> None:
         raise InputError("--answers: only with --auto (the notebook asks the operator)")
     if args.scenario is not None and not args.sim:
         raise InputError("--scenario: only with --sim")
+    if args.time_scale is not None and not args.sim:
+        raise InputError("--time-scale: only with --sim")
+    if args.time_scale is not None and not args.time_scale > 0:
+        raise InputError(f"--time-scale {args.time_scale:g}: must be above 0")
     if args.scenario is not None and args.scenario not in SCENARIOS:
         raise InputError(f"--scenario {args.scenario}: unknown (one of {', '.join(SCENARIOS)})")
 
@@ -83,6 +95,8 @@ def bench_source(args: argparse.Namespace):
     from bringup.runner import BenchSource
 
     if args.sim:
+        if args.time_scale is not None:
+            return BenchSource.simulated(args.scenario or "healthy", args.seed, args.time_scale)
         return BenchSource.simulated(args.scenario or "healthy", args.seed)
     if args.bench:
         path = Path(args.bench).expanduser()

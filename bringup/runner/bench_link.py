@@ -159,7 +159,7 @@ class BenchLink:
         else:
             scope.disable_math()
         scope.configure_timebase(duration_s=setup["duration_s"], points=setup["points"],
-                                 start_s=-setup["pretrigger_s"])  # fmt: skip
+                                 start_s=0.0 - setup["pretrigger_s"])  # fmt: skip
         trig = setup.get("trigger")
         if trig is not None:
             net = trig["net"]

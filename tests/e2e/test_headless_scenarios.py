@@ -1,0 +1,118 @@
+"""Headless runs (``bringup run --sim --auto --json``) on every scenario of the simulated bench.
+
+Healthy passes every stage; each fault scenario passes the stages before its own, fails its
+own, and the later stages are not run (their order is the order of safety). A false pass is the
+worst bug this product can have, so the fault scenarios are checked as strictly as the healthy
+one. The six runs are separate processes started together (the bench is on loopback ports).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+
+import pytest
+
+from bringup.store import SessionLog
+
+STAGES = ["power-rails", "gate-overdrive", "edge-speed", "droop-max-on-time", "thermal"]
+# The scenario plan agreed with the simulator (scenario -> the stage it must fail).
+FAULTS = {
+    "sagging-rail": "power-rails",
+    "no-overdrive": "gate-overdrive",
+    "slow-gate": "edge-speed",
+    "weak-bootstrap": "droop-max-on-time",
+    "hot-switch": "thermal",
+}
+SCENARIOS = ["healthy", *FAULTS]
+
+
+def _command(scenario: str, db) -> list[str]:
+    return [sys.executable, "-m", "bringup", "run", "--sim", "--scenario", scenario,
+            "--serial", "DHS24-0007", "--operator", "tester", "--db", str(db),
+            "--auto", "--json"]  # fmt: skip
+
+
+@pytest.fixture(scope="module")
+def runs(tmp_path_factory):
+    """Run all scenarios at once; scenario -> (exit status, JSON summary, stderr, db path)."""
+    folder = tmp_path_factory.mktemp("headless")
+    env = {**os.environ, "PYTHONUNBUFFERED": "1"}
+    procs = {}
+    for scenario in SCENARIOS:
+        db = folder / f"{scenario}.sqlite"
+        procs[scenario] = (subprocess.Popen(_command(scenario, db), stdout=subprocess.PIPE,
+                                            stderr=subprocess.PIPE, text=True, env=env), db)  # fmt: skip
+    out = {}
+    for scenario, (proc, db) in procs.items():
+        stdout, stderr = proc.communicate(timeout=240)
+        lines = [line for line in stdout.splitlines() if line.strip()]
+        assert len(lines) == 1, f"{scenario}: stdout must be one JSON object, got {stdout!r}"
+        out[scenario] = (proc.returncode, json.loads(lines[0]), stderr, db)
+    return out
+
+
+def test_healthy_passes_every_stage(runs):
+    status, summary, stderr, _ = runs["healthy"]
+    assert status == 0, stderr
+    assert summary["verdict"] == "pass"
+    assert [s["id"] for s in summary["stages"]] == STAGES
+    assert all(s["verdict"] == "pass" for s in summary["stages"]), summary
+    assert "Traceback" not in stderr
+
+
+@pytest.mark.parametrize("scenario", list(FAULTS))
+def test_fault_fails_its_own_stage_and_stops_the_later_ones(runs, scenario):
+    status, summary, stderr, _ = runs[scenario]
+    own = FAULTS[scenario]
+    verdicts = {s["id"]: s["verdict"] for s in summary["stages"]}
+    assert status == 1, stderr
+    assert summary["verdict"] == "fail"
+    assert verdicts[own] == "fail", (scenario, verdicts)
+    before = STAGES[: STAGES.index(own)]
+    after = STAGES[STAGES.index(own) + 1 :]
+    # Stages before the fault are inside their limits (a guard band may make one conditional).
+    assert all(verdicts[s] in ("pass", "conditional-pass") for s in before), verdicts
+    assert all(verdicts[s] == "not-run" for s in after), verdicts
+    assert "Traceback" not in stderr
+
+
+def test_the_log_holds_every_attempt_with_its_evidence(runs):
+    _, summary, _, db = runs["healthy"]
+    with SessionLog.open(db, create=False) as log:
+        data = log.session(summary["session"])
+        assert data.summary.finished and data.summary.verdict == "pass"
+        assert log.verify_chain(summary["session"]).ok
+        attempts = data.attempts
+        assert [a.step_id for a in attempts] == [
+            "first-power", "rails-unloaded", "logic-meter", "rails-loaded",
+            "vgs-on", "edges", "droop", "soak",
+        ]  # fmt: skip
+        for a in attempts:
+            assert a.operator == "tester" and a.outcome == "pass"
+            # every attempt names the instruments by their *IDN? replies
+            assert set(a.instruments) == {"scope", "supply", "thermometer"}
+            assert all(v.startswith("NULLPOINT,") for v in a.instruments.values())
+            assert a.verdicts and all("margin" in v for v in a.verdicts.values())
+        edges = next(a for a in attempts if a.step_id == "edges")
+        assert set(edges.waveforms) == {"vgs", "switch"}
+        stored = log.load_waveform(edges.id, "switch")
+        # raw ADC codes plus scale, not volts as float64
+        assert stored.codes.dtype.kind == "i" and stored.codes.size == 100_000
+        assert edges.predictions["switch_rise"] > 0
+        assert edges.settings["scope"]["points"] == 100_000
+
+
+def test_later_stages_are_logged_as_not_run(runs):
+    _, summary, _, db = runs["no-overdrive"]
+    with SessionLog.open(db, create=False) as log:
+        data = log.session(summary["session"])
+        assert not data.summary.finished  # a failed session stays open for a retake
+        by_step = {a.step_id: a for a in data.attempts}
+        assert by_step["vgs-on"].outcome == "fail"
+        for step in ("edges", "droop", "soak"):
+            assert by_step[step].outcome == "not-run"
+            assert by_step[step].waveforms == {}
+        assert log.verify_chain(summary["session"]).ok
