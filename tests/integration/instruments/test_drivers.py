@@ -91,7 +91,7 @@ def test_waveform_codes_and_scale_match_the_instruments_record(opened):
     sim, bench, which = opened
     scope = bench.scope
     scope.configure_channel(1, range_v=48.0, offset_v=18.0)
-    scope.configure_timebase(duration_s=100e-6, points=50_000, start_s=-10e-6)
+    scope.configure_timebase(duration_s=100e-6, points=20_000, start_s=-10e-6)
     scope.configure_trigger(source=1, level_v=6.0)
     with energised(bench, volts=24.0, current_limit_a=8.0, ovp_v=27.0):
         bench.simulation.set_pwm(True)
@@ -100,11 +100,11 @@ def test_waveform_codes_and_scale_match_the_instruments_record(opened):
         mean = scope.measure_mean(1)
         ptp = scope.measure_peak_to_peak(1)
     assert sim.scope.byte_order == ("NORM" if which == "short-forms" else "SWAP")
-    assert wf.codes.dtype == np.int16 and wf.points == 50_000
+    assert wf.codes.dtype == np.int16 and wf.points == 20_000
     truth = sim.scope.record.traces["CH1"]
     np.testing.assert_array_equal(wf.codes, truth.codes << (16 - truth.bits))
     np.testing.assert_allclose(wf.volts(), truth.as_volts(), rtol=0, atol=1e-5)
-    assert wf.x_increment == pytest.approx(100e-6 / 50_000) and wf.x_origin == pytest.approx(-10e-6)
+    assert wf.x_increment == pytest.approx(100e-6 / 20_000) and wf.x_origin == pytest.approx(-10e-6)
     assert wf.times()[0] == pytest.approx(-10e-6)
     # numpy as the reference for the scope's own measurements
     assert mean == pytest.approx(float(np.mean(truth.as_volts())), abs=1e-3)
@@ -184,3 +184,58 @@ def test_simulation_control_plays_the_operators_hands(opened):
     control.set_time_scale(60.0)
     assert control.time_scale() == pytest.approx(60.0)
     assert control.scenario() == "healthy"
+
+
+@pytest.mark.parametrize(("datatype", "word"), [("int8", "INT,8"), ("float32", "REAL,32")])
+def test_users_profile_with_another_block_format(sim_bench, tmp_path, datatype, word):
+    # a user's copy of the sim profile asking for 8-bit codes or 32-bit floats
+    folder = tmp_path / "profiles"
+    folder.mkdir()
+    from bringup.instruments.profiles import BUILTIN_DIR
+
+    text = (
+        (BUILTIN_DIR / "sim-scope.toml")
+        .read_text()
+        .replace('datatype = "int16"', f'datatype = "{datatype}"')
+    )
+    (folder / "sim-scope.toml").write_text(text)
+    sim = sim_bench()
+    path = tmp_path / "bench.toml"
+    path.write_text(sim.bench_file_text())
+    with open_bench(load_bench(path), profiles_dir=folder) as bench:
+        bench.scope.configure_timebase(duration_s=50e-6, points=10_000, start_s=-5e-6)
+        with energised(bench, volts=24.0, current_limit_a=8.0, ovp_v=27.0):
+            bench.simulation.set_pwm(True)
+            bench.scope.acquire()
+            wf = bench.scope.fetch_waveform(2)
+    assert sim.scope.data_format == word.replace(",", "")
+    assert wf.codes.dtype == {"int8": np.int8, "float32": np.float32}[datatype]
+    truth = sim.scope.record.traces["CH2"].as_volts()
+    # 8-bit codes keep the volts to within one 8-bit step; floats to float32 rounding
+    tolerance = wf.y_increment if datatype == "int8" else 1e-5
+    np.testing.assert_allclose(wf.volts(), truth, rtol=0, atol=tolerance)
+
+
+def test_a_profiles_spelling_is_what_the_instrument_receives(sim_bench, tmp_path):
+    # a profile that spells one command wrongly: the sim's error queue names the header
+    from bringup.instruments import faults
+    from bringup.instruments.profiles import BUILTIN_DIR
+
+    folder = tmp_path / "profiles"
+    folder.mkdir()
+    text = (
+        (BUILTIN_DIR / "sim-scope.toml")
+        .read_text()
+        .replace('"TRIG:LEV {volts}"', '"TRIG:LEVL {volts}"')
+    )
+    (folder / "sim-scope.toml").write_text(text)
+    sim = sim_bench()
+    path = tmp_path / "bench.toml"
+    path.write_text(sim.bench_file_text())
+    with open_bench(load_bench(path), profiles_dir=folder) as bench:
+        with pytest.raises(
+            faults.InstrumentError, match=r"scope after 'TRIG:LEVL 2\.5': .*-113"
+        ) as info:
+            bench.scope.configure_trigger(source=1, level_v=2.5)
+        assert info.value.code == -113  # Undefined header (SCPI-99 error list)
+        assert sim.scope.trigger_source == 1  # the steps before it went through
