@@ -255,8 +255,11 @@ class Energised:
 
     # -- exit ----------------------------------------------------------------------------
     def __exit__(self, exc_type: object, exc: BaseException | None, tb: object) -> None:
-        self._disarm_guards()
-        make_safe(self.supply)  # raises ProtectionFault if OFF cannot be confirmed
+        # guards stay armed while switching off: a Ctrl-C now still ends with the output OFF
+        try:
+            make_safe(self.supply)  # raises ProtectionFault if OFF cannot be confirmed
+        finally:
+            self._disarm_guards()
 
     def switch_off_now(self) -> str | None:
         """Turn the output OFF from any thread (guards call this); returns a problem or None."""
@@ -275,6 +278,9 @@ class Energised:
             self.switch_off_now()
 
     def _on_signal(self, signum: int, frame: FrameType | None) -> None:
+        # the signal may have landed in the middle of an exchange with the supply: start the
+        # switch-off on a fresh connection rather than read that exchange's reply as our own
+        self.supply.session.mark_out_of_sync()
         self.switch_off_now()
         previous = self._saved_handlers.get(signum)
         if callable(previous) and previous is not signal.default_int_handler:

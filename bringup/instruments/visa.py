@@ -152,6 +152,10 @@ class InstrumentSession:
             self._open()
             self.reconnects += 1
 
+    def mark_out_of_sync(self) -> None:
+        """Reconnect before the next exchange (an exchange may have been cut off midway)."""
+        self._broken = True
+
     def close(self) -> None:
         """Close the connection; safe to call twice."""
         with self._lock:
