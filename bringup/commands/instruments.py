@@ -50,7 +50,7 @@ def _check_one(role: str, entry, profile, profiles: dict) -> tuple[list[str], bo
         identity = session.ask("identify")
         took_ms = (time.monotonic() - start) * 1000
         lines.append(f"  *IDN?     {identity}")
-        lines.append(f"  answers   yes, in {took_ms:.0f} ms")
+        lines.append(f"  answers   yes, in {took_ms:.1f} ms")
         fits = matching_profiles(identity, [p for p in profiles.values() if p.kind == role])
         if profile.matches(identity):
             lines.append(f"  profile   {profile.name} matches")
@@ -67,8 +67,10 @@ def _check_one(role: str, entry, profile, profiles: dict) -> tuple[list[str], bo
         if role == "supply":
             from bringup.instruments.supply import Supply
 
-            state = "ON" if Supply(session).output_is_on() else "OFF"
-            lines.append(f"  output    {state}")
+            if Supply(session).output_is_on():
+                lines.append("  output    ON: the board is powered (left as found)")
+            else:
+                lines.append("  output    OFF")
         if entry.calibration_due is not None:
             import datetime as dt
 
@@ -92,6 +94,8 @@ def run(args: argparse.Namespace) -> int:
     config = load_bench(bench_path)
     profiles = all_profiles(args.profiles)
     healthy = True
+    if config.simulated:
+        print(f"{config.path}: simulated bench ([simulation] enabled)")
     try:
         for role in ROLES:
             entry = config.instruments[role]

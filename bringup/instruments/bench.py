@@ -240,9 +240,12 @@ class Bench:
         self.wiring[channel] = ChannelWiring(channel, net, old.probe_ratio if old else 1.0)
 
     def close(self) -> None:
-        """Make the supply safe (output OFF, confirmed) and close every connection."""
+        """Make the supply safe (output OFF, confirmed) and close every connection; a second
+        call does nothing."""
         from bringup.instruments.safety import make_safe
 
+        if all(session.closed for session in self.sessions.values()):
+            return
         try:
             make_safe(self.supply)
         finally:
