@@ -9,7 +9,8 @@
 * Reference levels: y_x = y_low + x/100 * (y_high - y_low), 10/50/90 % by default.
 * Transitions: a transition is a run from inside one state's band to inside the other's
   (IEEE 181 state boundaries: level +/- 2 % of the amplitude, widened to 4 sigma of the noise on
-  that state when the record is noisy, never past the outer reference levels). Noise that leaves
+  that state when the record is noisy, never past 80 % of the way to the outer reference
+  levels; with min/max levels, that widest band, since the extremes are not the states). Noise that leaves
   a band and comes back without reaching the other band is not a transition: that is the
   hysteresis. Found vectorised: only the few thousand band entries are looked at one by one.
 * Crossing instants: the last crossing of each reference level before the transition enters
@@ -310,8 +311,13 @@ def _find(y, dt, t0, pct, state: StateLevels, band_pct: float) -> Transitions:
     # State bands: IEEE 181 boundaries, widened for noise, kept inside the outer references.
     cap_low = 0.8 * pct[0] / 100.0 * amp
     cap_high = 0.8 * (100.0 - pct[2]) / 100.0 * amp
-    band_low = min(max(band_pct / 100.0 * amp, 4.0 * state.low_noise_v), cap_low)
-    band_high = min(max(band_pct / 100.0 * amp, 4.0 * state.high_noise_v), cap_high)
+    if state.method == "minmax":
+        # Min/max levels are the extremes (an overshoot peak, a noise spike): the states sit
+        # inside them, so use the widest bands the reference levels allow.
+        band_low, band_high = cap_low, cap_high
+    else:
+        band_low = min(max(band_pct / 100.0 * amp, 4.0 * state.low_noise_v), cap_low)
+        band_high = min(max(band_pct / 100.0 * amp, 4.0 * state.high_noise_v), cap_high)
     enter_low = _entries(y <= state.low_v + band_low)
     enter_high = _entries(y >= state.high_v - band_high)
 
