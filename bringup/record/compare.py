@@ -84,20 +84,43 @@ def _untext(text: str) -> Path:
     return tuple(p.replace("%2F", _SEP).replace("%25", "%") for p in text.split(_SEP))
 
 
+def _sealed_text(node: Any, path: Path, parts: dict[str, str], order: dict[str, list[str]]) -> str:
+    """The canonical text of ``node``, built from its children's texts (each computed once),
+    recording the digest of every object and list and the order of every keyed list."""
+    if isinstance(node, dict):
+        names = sorted(node, key=lambda k: k.encode("utf-16-be"))
+        inner = ",".join(
+            canonical_text(k) + ":" + _sealed_text(node[k], (*path, k), parts, order) for k in names
+        )
+        text = "{" + inner + "}"
+    elif isinstance(node, list):
+        keys = _keys(node)
+        names = keys if keys is not None else [f"[{i}]" for i in range(len(node))]
+        if keys is not None:
+            order[_text(path)] = keys
+        text = (
+            "["
+            + ",".join(
+                _sealed_text(item, (*path, name), parts, order)
+                for name, item in zip(names, node, strict=True)
+            )
+            + "]"
+        )
+    else:
+        return canonical_text(node)
+    if path:
+        parts[_text(path)] = hashlib.sha256(text.encode("utf-8")).hexdigest()[:_DIGEST_CHARS]
+    return text
+
+
 def seal_of(content: dict) -> dict:
     """The seal of ``content``: its digest, part digests and keyed-list orders."""
     parts: dict[str, str] = {}
     order: dict[str, list[str]] = {}
-    for path, node in _walk(content):
-        if path:
-            parts[_text(path)] = _short(node)
-        if isinstance(node, list):
-            keys = _keys(node)
-            if keys is not None:
-                order[_text(path)] = keys
+    text = _sealed_text(content, (), parts, order)
     return {
         "algorithm": "SHA-256",
-        "content_sha256": content_digest(content),
+        "content_sha256": hashlib.sha256(text.encode("utf-8")).hexdigest(),
         "parts": parts,
         "order": order,
     }

@@ -117,12 +117,10 @@ def test_html_renders_and_prints_in_headless_chromium(session: Session, tmp_path
         "--disable-background-networking", "--no-first-run", f"--user-data-dir={profile}",
     ]  # fmt: skip
     shot, printed = tmp_path / "shot.png", tmp_path / "printed.pdf"
+    # One launch takes the screenshot and prints the page to PDF.
     subprocess.run(
-        [*base, "--window-size=1000,1400", f"--screenshot={shot}", html.as_uri()],
-        check=True, capture_output=True, timeout=60,
-    )  # fmt: skip
-    subprocess.run(
-        [*base, "--no-pdf-header-footer", f"--print-to-pdf={printed}", html.as_uri()],
+        [*base, "--window-size=1000,1400", f"--screenshot={shot}", "--no-pdf-header-footer",
+         f"--print-to-pdf={printed}", html.as_uri()],
         check=True, capture_output=True, timeout=60,
     )  # fmt: skip
     data = shot.read_bytes()
