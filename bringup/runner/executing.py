@@ -217,6 +217,10 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
     first = ramp[0] if ramp else supply["voltage_v"]
     top = max([supply["voltage_v"], *ramp])
     acknowledged = bool(answers.hazard_acknowledged) if answers is not None else False
+    if plan.settings.get("soak") is not None:
+        # The fit's scipy import takes a good part of a second: done now, not in the middle of
+        # the temperature log (on a sped-up simulated clock that gap would be minutes).
+        import scipy.optimize  # noqa: F401
     ctx.check()
     ctx.emit("energising", plan.energise.prompt if plan.energise else "supply on")
     with bench.energised(first, supply["current_limit_a"], supply["ovp_v"], top,

@@ -1,0 +1,116 @@
+"""The runner's rules on a simulated bench: order, skip, waive, go back, retake, refusal."""
+
+from __future__ import annotations
+
+import pytest
+
+from bringup.errors import InputError
+from bringup.runner import RunnerError, StepAnswers
+from bringup.store import SessionLog
+
+FIRST, UNLOADED, METER = (
+    "power-rails.first-power",
+    "power-rails.rails-unloaded",
+    "power-rails.logic-meter",
+)
+
+
+def test_steps_run_in_order_and_a_skip_needs_a_reason(make_runner):
+    runner = make_runner()
+    assert runner.current_step() == FIRST
+    assert [s.state for s in runner.stages()] == ["not-started"] * 5
+    with pytest.raises(RunnerError, match="steps run in order"):
+        runner.run_step(METER)
+    with pytest.raises(RunnerError, match="needs a reason"):
+        runner.skip(FIRST, "  ")
+    runner.skip(FIRST, "ramp done on the bench supply's front panel")
+    runner.skip(UNLOADED, "scope in use elsewhere")
+    assert runner.current_step() == METER
+    result = runner.run_step(METER)  # the simulated bench reads its meter
+    assert result.state == "pass"
+    # the meter reads the logic rail: 3.3 V nominal, target 3.2-3.4 V
+    assert result.metric("logic_level").measured == pytest.approx(3.3, abs=0.05)
+    with SessionLog.open(runner.log.path, create=False) as log:
+        events = log.events(runner.session_id)
+        assert [(e.kind, e.step_id) for e in events] == [
+            ("skip", "first-power"),
+            ("skip", "rails-unloaded"),
+        ]
+        assert events[1].reason == "scope in use elsewhere"
+        assert [a.step_id for a in log.attempts(runner.session_id)] == ["logic-meter"]
+    assert runner.step_status(FIRST).state == "skipped"
+
+
+def test_waive_needs_a_failed_step_a_reason_and_a_name_and_retakes_keep_history(make_runner):
+    runner = make_runner()
+    runner.skip(FIRST, "not today")
+    runner.skip(UNLOADED, "not today")
+    with pytest.raises(RunnerError, match="only a failed step"):
+        runner.waive(FIRST, "fine", "Bo")
+    failed = runner.run_step(METER, answers=StepAnswers(confirmed=True, reading="3.6 V"))
+    logic = failed.metric("logic_level")
+    # typed 3.6 V against a 3.4 V max [computed]: margin -0.2 V, beyond the 0.02 V guard band
+    assert failed.state == "fail" and logic.measured == pytest.approx(3.6)
+    assert logic.margin == pytest.approx(-0.2)
+    with pytest.raises(RunnerError, match="waive it"):
+        runner.skip(METER, "meter broken")
+    with pytest.raises(RunnerError, match="name"):
+        runner.waive(METER, "meter reads high, known offset", " ")
+    with pytest.raises(RunnerError, match="reason"):
+        runner.waive(METER, "", "Bo Lindqvist")
+    runner.waive(METER, "meter reads high, known offset", "Bo Lindqvist")
+    assert runner.step_status(METER).state == "waived"
+    assert runner.current_step() == "power-rails.rails-loaded"
+
+    runner.go_back("power-rails")
+    retake = runner.run_step(METER, answers=StepAnswers(confirmed=True, reading="3.30"))
+    assert retake.state == "pass" and retake.attempt_no == 2
+    assert [a.state for a in runner.attempts(METER)] == ["fail", "pass"]
+    with SessionLog.open(runner.log.path, create=False) as log:
+        stored = log.attempts(runner.session_id, step_id="logic-meter")
+        assert [a.outcome for a in stored] == ["fail", "pass"]  # the retake overwrote nothing
+        assert stored[0].metrics["logic_level"]["value"] == pytest.approx(3.6)
+        waive = [e for e in log.events(runner.session_id) if e.kind == "waive"][0]
+        assert waive.operator == "Bo Lindqvist" and "offset" in waive.reason
+        assert log.verify_chain(runner.session_id).ok
+
+
+def test_a_bad_typed_reading_is_refused_with_the_step_named(make_runner):
+    runner = make_runner()
+    with pytest.raises(InputError, match=r"power-rails.logic-meter reading.*'3,3'"):
+        runner.check_reading(METER, "3,3")
+    assert runner.check_reading(METER, "3300 mV") == pytest.approx(3.3)
+    runner.skip(FIRST, "x")
+    runner.skip(UNLOADED, "x")
+    result = runner.run_step(METER, answers=StepAnswers(confirmed=True, reading="three volts"))
+    assert result.state == "not-run" and "three volts" in result.message
+
+
+def _bench_file_without_simulation(tmp_path, running):
+    """The simulated bench's file with its [simulation] table removed: a bench on which the
+    runner cannot play the operator's hands, like a real one."""
+    text = running.bench_file_text().replace("[simulation]\nenabled = true\n", "")
+    assert "[simulation]" not in text
+    path = tmp_path / "bench.toml"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def test_without_answers_a_step_is_refused_and_logged_as_not_run(make_runner, tmp_path):
+    from bringup.checklist.board import load_board
+    from bringup.runner import BenchSource
+    from sim_instruments.bench import start_bench
+
+    with start_bench(load_board("demo").design, "healthy", 3) as running:
+        source = BenchSource.from_file(_bench_file_without_simulation(tmp_path, running))
+        runner = make_runner(bench=source)
+        refused = runner.run_step(FIRST)
+        assert refused.state == "not-run"
+        assert "needs the operator's confirmation" in refused.message
+        assert runner.step_status(FIRST).state == "not-run"
+        done = runner.run_step(FIRST, answers=StepAnswers(confirmed=True))
+        assert done.state == "pass" and done.attempt_no == 2
+        assert not running.supply.output_on
+        runner.close()  # while the bench still answers: closing confirms the output OFF
+        with SessionLog.open(runner.log.path, create=False) as log:
+            assert [a.outcome for a in log.attempts(runner.session_id)] == ["not-run", "pass"]
