@@ -37,6 +37,11 @@ class SessionLink:
         return self.runner.operator
 
     @property
+    def simulated(self) -> bool:
+        """True on a simulated bench (it plays the hands and reads its own meter)."""
+        return bool(self.runner.bench_source.is_simulated)
+
+    @property
     def session_id(self) -> str:
         """The session id in the log."""
         return self.runner.session_id
@@ -118,12 +123,11 @@ class SessionLink:
         """Run one attempt (blocking: call from a worker thread) and return it as a view."""
         from bringup.runner import StepAnswers
 
-        step_answers = None
-        if answers.get("confirmed") is not None or answers.get("reading") is not None:
-            step_answers = StepAnswers(
-                confirmed=answers.get("confirmed"),  # type: ignore[arg-type]
-                reading=answers.get("reading"),  # type: ignore[arg-type]
-            )
+        step_answers = StepAnswers(
+            confirmed=answers.get("confirmed"),  # type: ignore[arg-type]
+            reading=answers.get("reading"),  # type: ignore[arg-type]
+            hazard_acknowledged=bool(answers.get("hazard_acknowledged", False)),
+        )
         self._idle.clear()
         try:
             result = self.runner.run_step(

@@ -100,7 +100,7 @@ def soak_trace(soak: Any) -> TraceView:
     if soak.limit_c is not None:
         levels.append(("limit", float(soak.limit_c)))
     if soak.predicted_final_c is not None:
-        levels.append(("final?", float(soak.predicted_final_c)))
+        levels.append(("→ final", float(soak.predicted_final_c)))
     return TraceView(
         title="heatsink temperature",
         t=np.asarray(soak.times_s, dtype=float),
@@ -136,6 +136,8 @@ def progress_view(p: Any) -> Progress:
             if soak.limit_c is not None:
                 predicted += f" (limit {format_quantity(soak.limit_c, 'degC')})"
     return Progress(
+        soak_limit_c=soak.limit_c if soak is not None else None,
+        soak_final_c=soak.predicted_final_c if soak is not None else None,
         fraction=p.fraction,
         text=f"{p.phase}: {p.message}" if p.message else p.phase,
         readings=tuple(readings),

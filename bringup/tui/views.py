@@ -129,6 +129,8 @@ class Progress:
     soak_temp: tuple[float, ...] = ()  # °C
     predicted_final: str = ""
     settled: bool = False
+    soak_limit_c: float | None = None
+    soak_final_c: float | None = None
 
 
 @dataclass(frozen=True)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
@@ -9,6 +11,7 @@ from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Static
 
 from bringup.analysis.quantities import format_quantity
+from bringup.errors import BringupError
 from bringup.tui.views import Energise
 
 __all__ = ["EnergisePrompt", "ReasonPrompt", "ConfirmPrompt"]
@@ -28,16 +31,20 @@ class EnergisePrompt(ModalScreen[bool]):
         Binding("n,escape", "answer(False)", "no, keep it off"),
     ]
 
-    def __init__(self, step_title: str, energise: Energise) -> None:
+    def __init__(self, step_title: str, energise: Energise, by_hand: str = "") -> None:
+        """``by_hand``: what the operator confirms has been done first (one question for both)."""
         super().__init__()
         self.step_title = step_title
         self.energise = energise
+        self.by_hand = by_hand
 
     def compose(self) -> ComposeResult:
         volts = format_quantity(self.energise.voltage_v, "V")
         amps = format_quantity(self.energise.current_limit_a, "A")
         with Vertical(id="energise-box", classes="prompt-box"):
             yield Label("⚡ ENERGISE THE BOARD?", classes="prompt-title")
+            if self.by_hand:
+                yield Static(f"First, by hand: {self.by_hand}", id="energise-hands")
             ramp = ""
             if self.energise.ramp_v:
                 steps = ", ".join(format_quantity(v, "V") for v in self.energise.ramp_v)
@@ -54,7 +61,11 @@ class EnergisePrompt(ModalScreen[bool]):
                 notice = self.energise.hazard or HAZARD_NOTICE
                 yield Static(f"⚠ {notice}", id="hazard-notice", classes="hazard")
             with Horizontal(classes="prompt-buttons"):
-                yield Button(f"Y  switch on at {volts}", id="yes", variant="warning")
+                yield Button(
+                    f"Y  {'done, ' if self.by_hand else ''}switch on at {volts}",
+                    id="yes",
+                    variant="warning",
+                )
                 yield Button("N  keep it off", id="no", variant="primary")
 
     def on_mount(self) -> None:
@@ -82,6 +93,8 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         name_default: str = "",
         placeholder: str = "reason",
         empty_problem: str = "A reason is needed: type one, or Esc to cancel.",
+        allow_empty: bool = False,
+        validate: Callable[[str], object] | None = None,
     ) -> None:
         super().__init__()
         self.title_text = title
@@ -90,6 +103,8 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         self.name_default = name_default
         self.placeholder = placeholder
         self.empty_problem = empty_problem
+        self.allow_empty = allow_empty
+        self.validate = validate
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="prompt-box"):
@@ -110,10 +125,17 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         reason = self.query_one("#reason", Input).value.strip()
         who = self.query_one("#who", Input).value.strip() if self.ask_name else ""
         problem = self.query_one("#prompt-problem", Static)
-        if not reason:
+        if not reason and not self.allow_empty:
             problem.update(self.empty_problem)
             self.query_one("#reason", Input).focus()
             return
+        if reason and self.validate is not None:
+            try:
+                self.validate(reason)
+            except BringupError as exc:
+                problem.update(str(exc))
+                self.query_one("#reason", Input).focus()
+                return
         if self.ask_name and not who:
             problem.update("A name is needed for a waiver.")
             self.query_one("#who", Input).focus()

@@ -105,6 +105,7 @@ class SessionScreen(Screen[None]):
                     with TabPane("1 result", id="tab-result"):
                         yield Static("", id="verdict-banner")
                         yield DataTable(id="results", cursor_type="row", zebra_stripes=True)
+                        yield Static("", id="metric-detail")
                     with TabPane("2 trace", id="tab-trace"):
                         yield WaveformPlot(id="plot")
                     with TabPane("3 attempts", id="tab-attempts"):
@@ -214,6 +215,19 @@ class SessionScreen(Screen[None]):
             )
         self._show_trace()
 
+    def _show_metric_detail(self, row: int) -> None:
+        detail = self.query_one("#metric-detail", Static)
+        attempt = self._attempt
+        if attempt is None or not (0 <= row < len(attempt.metrics)):
+            detail.update("")
+            return
+        m = attempt.metrics[row]
+        detail.update(f"{m.label}: {m.reason}" if m.reason else m.label)
+
+    @on(DataTable.RowHighlighted, "#results")
+    def _metric_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        self._show_metric_detail(event.cursor_row)
+
     def _show_trace(self) -> None:
         plot = self.query_one("#plot", WaveformPlot)
         attempt = self._attempt
@@ -249,10 +263,12 @@ class SessionScreen(Screen[None]):
             self.show_step(event.node.data)
 
     def action_next_step(self) -> None:
-        self.query_one("#checklist", ChecklistTree).action_cursor_down()
+        """Cursor to the next step, over the stage headings."""
+        self.query_one("#checklist", ChecklistTree).move_to_step(+1)
 
     def action_previous_step(self) -> None:
-        self.query_one("#checklist", ChecklistTree).action_cursor_up()
+        """Cursor to the previous step, over the stage headings."""
+        self.query_one("#checklist", ChecklistTree).move_to_step(-1)
 
     def action_tab(self, tab: str) -> None:
         self.query_one("#tabs", TabbedContent).active = tab
@@ -301,6 +317,18 @@ class SessionScreen(Screen[None]):
     async def _ask_then_start(self, detail: StepDetail) -> None:
         """The by-hand confirmation, the typed reading and the energising prompt, in order."""
         answers: dict[str, object] = {}
+        if detail.confirm and detail.energise is not None and not detail.reading_prompt:
+            # one question: the hands are done and the supply may go on
+            yes = await self.app.push_screen_wait(
+                EnergisePrompt(detail.title, detail.energise, by_hand=detail.confirm)
+            )
+            if not yes:
+                self.say("Not confirmed: the step did not run and nothing was energised.", "warn")
+                return
+            answers["confirmed"] = True
+            answers["hazard_acknowledged"] = detail.energise.hazardous
+            self._start(detail, answers)
+            return
         if detail.confirm:
             yes = await self.app.push_screen_wait(ConfirmPrompt("Check by hand", detail.confirm))
             if not yes:
@@ -308,25 +336,33 @@ class SessionScreen(Screen[None]):
                 return
             answers["confirmed"] = True
         if detail.reading_prompt:
-            unit = f" (in {detail.reading_unit})" if detail.reading_unit else ""
+            from bringup.analysis.quantities import parse_quantity
+
+            unit = detail.reading_unit
+            sim = self.link.simulated
+            hint = "\n(Simulated bench: leave it empty and the simulated meter reads it.)"
             typed = await self.app.push_screen_wait(
                 ReasonPrompt(
                     "Type the reading",
-                    f"{detail.reading_prompt}{unit}",
-                    placeholder=f"e.g. 3.31 {detail.reading_unit}".strip(),
+                    f"{detail.reading_prompt}"
+                    + (f" (in {unit})" if unit else "")
+                    + (hint if sim else ""),
+                    placeholder=f"e.g. 3.31 {unit}".strip(),
                     empty_problem="Type the value read on the meter, or Esc to cancel.",
+                    allow_empty=sim,
+                    validate=lambda text: parse_quantity(text, unit or None, where="the reading"),
                 )
             )
             if typed is None:
                 self.say("No reading typed: the step did not run.", "warn")
                 return
-            answers["reading"] = typed[0]
+            answers["reading"] = typed[0] or None
         if detail.energise is not None:
             yes = await self.app.push_screen_wait(EnergisePrompt(detail.title, detail.energise))
             if not yes:
                 self.say("Not energised: the step did not run.", "warn")
                 return
-            answers["energise"] = True
+            answers["hazard_acknowledged"] = detail.energise.hazardous
         self._start(detail, answers)
 
     def _start(self, detail: StepDetail, answers: dict[str, object]) -> None:

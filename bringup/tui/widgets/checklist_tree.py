@@ -61,6 +61,22 @@ class ChecklistTree(Tree[str]):
                     self.move_cursor(leaf)
                     return
 
+    def move_to_step(self, direction: int) -> None:
+        """Move the cursor to the next (+1) or previous (-1) step leaf, skipping stage rows."""
+        leaves = [leaf for branch in self.root.children for leaf in branch.children]
+        current = self.cursor_node
+        if current is None or current.data is None:
+            # on a stage row: its first step going down, the previous stage's last going up
+            line = self.cursor_line
+            candidates = [leaf for leaf in leaves if (leaf.line > line) == (direction > 0)]
+            if candidates:
+                self.move_cursor(candidates[0] if direction > 0 else candidates[-1])
+            return
+        index = next(i for i, leaf in enumerate(leaves) if leaf is current)
+        target = index + direction
+        if 0 <= target < len(leaves):
+            self.move_cursor(leaves[target])
+
     def number_of(self, step_id: str) -> str:
         """'2.3' for the third step of the second stage ('' when unknown)."""
         for i, stage in enumerate(self._shown, 1):

@@ -76,6 +76,11 @@ def braille_envelope(
         return dots
     x0, x1 = x_range
     y0, y1 = y_range
+    if t.size < width and t.size >= 2:
+        # sparse samples (a temperature log): draw the line between them, one per dot column
+        centres = x0 + (np.arange(width) + 0.5) * ((x1 - x0) / width)
+        inside = (centres >= t[0]) & (centres <= t[-1])
+        t, v = centres[inside], np.interp(centres[inside], t, v)
     span_x = (x1 - x0) or 1.0
     span_y = (y1 - y0) or 1.0
     col = np.clip(((t - x0) / span_x * width).astype(np.int64), 0, width - 1)
@@ -287,9 +292,9 @@ class WaveformPlot(Widget):
             pos = min(max(0, pos - len(text) // 2), len(axis_chars) - len(text))
             axis_chars[pos : pos + len(text)] = list(text)
         lines.append(Strip([Segment(" " * _LEFT, base), Segment("".join(axis_chars), axis)]))
-        legend = "  ".join(
-            [f"▲ {label} {format_quantity(ts, 's', 4)}" for label, ts in marks.crossings]
-            + list(marks.extra_legend)
-        )
+        shown = [f"▲ {label} {format_quantity(ts, 's', 4)}" for label, ts in marks.crossings[:4]]
+        if len(marks.crossings) > 4:
+            shown.append(f"(+{len(marks.crossings) - 4} more crossings)")
+        legend = "  ".join(shown + list(marks.extra_legend))
         lines.append(Strip([Segment(legend[:width].ljust(width), axis)]))
         return lines[:height]
