@@ -9,15 +9,13 @@ but a new logged entry can change a signed content. See ``SCHEMA.md`` beside thi
 from __future__ import annotations
 
 import base64
-import datetime as _dt
-import hashlib
-import tomllib
 from collections.abc import Callable
 from typing import Any
 
 import numpy as np
 
 from bringup.record.compare import content_digest, seal_of
+from bringup.record.snapshots import bench_view, checklist_file, step_definitions, text_digest
 from bringup.store.entries import AttemptRecord, EventRecord, SessionData
 
 __all__ = ["RECORD_SCHEMA", "build_content", "assemble_record", "step_statuses", "stamp"]
@@ -233,94 +231,6 @@ def step_statuses(data: SessionData) -> dict[tuple[str, str], tuple[str, str | N
     return state
 
 
-def _file_tables(snapshot: dict) -> dict:
-    """The tables of a snapshot's file text (the runner logs the file's text), {} if none."""
-    text = snapshot.get("text") if isinstance(snapshot, dict) else None
-    if not isinstance(text, str):
-        return {}
-    try:
-        return _plain(tomllib.loads(text))
-    except tomllib.TOMLDecodeError:
-        return {}
-
-
-def _plain(value: Any) -> Any:
-    """TOML values as JSON values: dates and times become ISO 8601 text."""
-    if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_plain(v) for v in value]
-    if isinstance(value, _dt.date | _dt.time):
-        return value.isoformat()
-    return value
-
-
-def _definitions(checklist: dict) -> list[dict]:
-    """Stages with their steps, each merged with its table in the checklist file's text
-    (cautions, instructions, settings), so the record shows what the operator was told."""
-    stages = checklist.get("stages") if isinstance(checklist, dict) else None
-    if not isinstance(stages, list):
-        return []
-    tables = _file_tables(checklist).get("stages") or {}
-    out = []
-    for stage in stages:
-        if not isinstance(stage, dict):
-            continue
-        table = tables.get(stage.get("id")) if isinstance(tables, dict) else None
-        table = table if isinstance(table, dict) else {}
-        step_tables = table.get("steps") if isinstance(table.get("steps"), dict) else {}
-        merged = {k: v for k, v in table.items() if k != "steps"} | stage
-        merged["steps"] = [
-            (step_tables.get(step.get("id")) or {}) | step
-            for step in stage.get("steps") or []
-            if isinstance(step, dict)
-        ]
-        out.append(merged)
-    return out
-
-
-def _bench(bench: dict | None, data: SessionData) -> dict:
-    """Each instrument with its *IDN? (as the attempts logged it), profile, probes, due date."""
-    bench = bench or {}
-    idn: dict[str, str] = {}
-    for a in data.attempts:
-        for role, value in (a.instruments or {}).items():
-            text = value.get("idn") if isinstance(value, dict) else value
-            if isinstance(text, str):
-                idn.setdefault(role, text)
-    instruments = []
-    roles = [r for r in ("scope", "supply", "thermometer") if isinstance(bench.get(r), dict)]
-    roles += sorted(r for r in idn if r not in roles)
-    for role in roles:
-        conf = bench.get(role) if isinstance(bench.get(role), dict) else {}
-        inst: dict[str, Any] = {"id": role, "idn": idn.get(role)}
-        for key in ("resource", "profile", "calibration_due"):
-            inst[key] = conf.get(key)
-        channels = conf.get("channels")
-        if isinstance(channels, dict):
-            inst["channels"] = [
-                {"id": str(n), **{k: v for k, v in sorted(c.items())}}
-                for n, c in sorted(channels.items(), key=lambda kv: str(kv[0]))
-                if isinstance(c, dict)
-            ]
-        instruments.append(inst)
-    simulation = bench.get("simulation")
-    simulated = bench.get("kind") == "simulated" or (
-        isinstance(simulation, dict) and bool(simulation.get("enabled"))
-    )
-    return {
-        "simulated": simulated,
-        "instruments": instruments,
-        "other": {k: v for k, v in bench.items() if k not in roles},
-    }
-
-
-def _text_digest(snapshot: dict) -> str | None:
-    """SHA-256 of the logged file text: the file's identity when it states no version."""
-    text = snapshot.get("text") if isinstance(snapshot, dict) else None
-    return hashlib.sha256(text.encode("utf-8")).hexdigest() if isinstance(text, str) else None
-
-
 def build_content(data: SessionData, load: WaveformLoader) -> dict:
     """The record's content for ``data`` (see SCHEMA.md); ``load`` reads a waveform's codes."""
     offset = _offset_of(data)
@@ -330,7 +240,7 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
     targets = _targets(board_snap)
     checklist = data.checklist if isinstance(data.checklist, dict) else {}
     statuses = step_statuses(data)
-    checklist_file = _file_tables(checklist).get("checklist") or {}
+    checklist_table = checklist_file(checklist)
 
     by_step: dict[tuple[str, str], list[AttemptRecord]] = {}
     for a in data.attempts:
@@ -344,7 +254,7 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
             session_events.append(e)
 
     stages, known = [], set()
-    for sdef in _definitions(checklist):
+    for sdef in step_definitions(checklist):
         sid = str(sdef.get("id"))
         steps = []
         for tdef in sdef.get("steps") or []:
@@ -430,7 +340,7 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
             "revision": summary.board_revision,
             "description": board_info.get("description"),
             "serial_pattern": board_info.get("serial_pattern"),
-            "text_sha256": _text_digest(board_snap),
+            "text_sha256": text_digest(board_snap),
             "design": board_snap.get("design")
             if isinstance(board_snap.get("design"), dict)
             else {},
@@ -442,12 +352,12 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
         "checklist": {
             "id": summary.checklist_id,
             "name": checklist.get("name") or checklist.get("title") or summary.checklist_id,
-            "version": checklist.get("version") or checklist_file.get("version"),
-            "description": checklist_file.get("description"),
-            "text_sha256": _text_digest(checklist),
+            "version": checklist.get("version") or checklist_table.get("version"),
+            "description": checklist_table.get("description"),
+            "text_sha256": text_digest(checklist),
             "snapshot": {k: v for k, v in checklist.items() if k != "stages"},
         },
-        "bench": _bench(data.bench, data),
+        "bench": bench_view(data.bench, data.attempts),
         "stages": stages,
         "events": [_event(e, offset) for e in session_events],
         "summary": {

@@ -22,6 +22,7 @@ from bringup.record.view import (
     design_rows,
     fmt_time,
     fmt_value,
+    probe_text,
     soak_trace,
     step_cautions,
     zoom_trace,
@@ -143,10 +144,7 @@ def _bench(content: dict) -> str:
     bench = content.get("bench", {})
     rows = []
     for inst in bench.get("instruments", []):
-        probes = "; ".join(
-            f"CH{c.get('id')} {c.get('net', '-')} x{fmt_value(c.get('probe_ratio'))}"
-            for c in inst.get("channels") or []
-        )
+        probes = "; ".join(probe_text(c) for c in inst.get("channels") or [])
         rows.append(
             [
                 inst.get("id"),

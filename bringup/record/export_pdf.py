@@ -26,6 +26,7 @@ from bringup.record.view import (
     design_rows,
     fmt_time,
     fmt_value,
+    probe_text,
     soak_trace,
     step_cautions,
     zoom_trace,
@@ -223,10 +224,7 @@ def render_pdf(record: dict) -> bytes:
     _heading(pdf, "Bench", 11)
     bench_rows = []
     for inst in (content.get("bench") or {}).get("instruments", []):
-        probes = "; ".join(
-            f"CH{c.get('id')} {c.get('net', '-')} x{fmt_value(c.get('probe_ratio'))}"
-            for c in inst.get("channels") or []
-        )
+        probes = "; ".join(probe_text(c) for c in inst.get("channels") or [])
         bench_rows.append(
             [
                 inst.get("id"),

@@ -31,6 +31,7 @@ __all__ = [
     "soak_trace",
     "step_cautions",
     "zoom_trace",
+    "probe_text",
 ]
 
 # Each word carries a symbol too, so no outcome is told by colour alone.
@@ -79,6 +80,16 @@ def fmt_time(stamp: Any) -> str:
     utc = utc.split(".")[0]
     offset = stamp.get("offset")
     return f"{utc} UTC" + (f" (local UTC{offset})" if offset else "")
+
+
+def probe_text(channel: dict) -> str:
+    """'CH1 vgs x10 differential' from a bench channel entry."""
+    parts = [f"CH{channel.get('id')}", str(channel.get("net") or "-")]
+    if isinstance(channel.get("probe_ratio"), int | float):
+        parts.append(f"x{channel['probe_ratio']:g}")
+    if channel.get("probe"):
+        parts.append(str(channel["probe"]))
+    return " ".join(parts)
 
 
 def fmt_value(entry: Any, unit: str | None = None) -> str:
