@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import signal
+import sqlite3
 import subprocess
 import sys
 import textwrap
@@ -19,6 +20,7 @@ HERE = Path(__file__).resolve().parent
 
 WRITER = textwrap.dedent(
     """
+    import os
     import sys
     sys.path.insert(0, sys.argv[3])
     from store_samples import gate_waveform
@@ -26,8 +28,19 @@ WRITER = textwrap.dedent(
 
     log = SessionLog.open(sys.argv[1])
     sid = sys.argv[2]
+    stop_inside = int(sys.argv[4])               # 0: never; k: freeze inside attempt k's transaction
     n = 0
-    while True:                                   # until killed
+
+    def freeze_inside(sql):
+        # called by sqlite3 as each statement starts: attempt row and metrics are in, the
+        # waveform is next, the COMMIT has not happened; wait here to be killed
+        if n == stop_inside and sql.lstrip().upper().startswith('INSERT INTO "WAVEFORMS"'):
+            print("inside", n, flush=True)
+            sys.stdin.readline()
+            os._exit(3)                           # the test went away without killing us
+
+    log._conn.set_trace_callback(freeze_inside)
+    while n < 100:                                # until killed (bounded if the test fails)
         n += 1
         attempt_id = log.record_attempt(
             sid, stage_id="edge-speed", step_id="vgs-edges", operator="rig",
@@ -42,22 +55,33 @@ WRITER = textwrap.dedent(
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("kill_after", [3, 6, 11])
-def test_sigkill_while_logging_keeps_every_committed_attempt_whole(tmp_path, kill_after):
+@pytest.mark.parametrize(
+    ("kill_after", "inside_transaction"),
+    [(3, False), (8, False), (4, True)],
+    ids=["early", "later", "mid-commit"],
+)
+def test_sigkill_while_logging_keeps_every_committed_attempt_whole(
+    tmp_path, kill_after, inside_transaction
+):
     db_path = tmp_path / "crash.db"
     with SessionLog.open(db_path) as log:
         sid = log.create_session(board={"board": {"name": "DHS"}}, checklist={"id": "c"}, bench=None,
                                  serial="DHS24-0001", operator="rig")  # fmt: skip
     child = subprocess.Popen(
-        [sys.executable, "-c", WRITER, str(db_path), sid, str(HERE)],
-        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+        [sys.executable, "-c", WRITER, str(db_path), sid, str(HERE), str(kill_after + 1 if inside_transaction else 0)],
+        stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
     )  # fmt: skip
     committed: dict[int, int] = {}
     try:
         for line in child.stdout:
+            if line.startswith("inside"):
+                # frozen between the attempt's first inserts and its COMMIT
+                os.kill(child.pid, signal.SIGKILL)
+                break
             attempt_id, n = map(int, line.split())
             committed[attempt_id] = n
-            if len(committed) == kill_after:
+            assert len(committed) <= kill_after + 1, "the writer never reached the frozen point"
+            if len(committed) == kill_after and not inside_transaction:
                 # the child is now inside the next attempt (compressing or inserting)
                 os.kill(child.pid, signal.SIGKILL)
                 break
@@ -65,8 +89,8 @@ def test_sigkill_while_logging_keeps_every_committed_attempt_whole(tmp_path, kil
         if child.poll() is None:
             child.kill()
         child.wait(timeout=10)
-        child.stdout.close()
-        child.stderr.close()
+        for stream in (child.stdin, child.stdout, child.stderr):
+            stream.close()
     assert len(committed) == kill_after, "the writer died before being killed"
     assert child.returncode == -signal.SIGKILL
 
@@ -75,6 +99,12 @@ def test_sigkill_while_logging_keeps_every_committed_attempt_whole(tmp_path, kil
         by_id = {a.id: a for a in attempts}
         # every attempt reported as committed is there; at most the one in flight was added
         assert set(committed) <= set(by_id) and len(by_id) - len(committed) in (0, 1)
+        if inside_transaction:
+            # the attempt killed before its COMMIT left nothing: no row, no metrics, no waveform
+            assert set(by_id) == set(committed)
+            with sqlite3.connect(db_path) as conn:
+                assert conn.execute("SELECT count(*) FROM metrics").fetchone()[0] == kill_after
+                assert conn.execute("SELECT count(*) FROM waveforms").fetchone()[0] == kill_after
         for attempt in attempts:
             n = attempt.settings["n"]
             assert attempt.metrics["rise_time_s"]["value"] == pytest.approx(n * 1e-9)
