@@ -64,7 +64,12 @@ def test_demo_session_exports_signs_and_verifies(
     ).fetchone()
     conn.close()
     assert gate["metrics"]["vgs_on"]["value"] == logged
-    assert "first edge (close view)</title>" in out["html"].read_text()
+    html = out["html"].read_text()
+    assert "first edge (close view)</title>" in html
+    # The soak readings are drawn with their first-order fit (the runner's prediction).
+    soak = next(s for s in steps if s["id"] == "soak")["attempts"][-1]["extra"]["soak"]
+    assert "heatsink temperature (soak)</title>" in html and "dashed: fit: final" in html
+    assert len(soak["times_s"]) == len(soak["temperatures_c"]) > 10
 
 
 @pytest.mark.slow

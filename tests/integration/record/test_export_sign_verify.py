@@ -302,3 +302,30 @@ def test_errors_are_one_line(
     assert main(args) == 2
     err = capsys.readouterr().err
     assert len(err.strip().splitlines()) == 1 and message in err and "Traceback" not in err
+
+
+def test_unsigned_record_does_not_hold(
+    session: Session, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    path = _export(session, tmp_path / "unsigned.json")
+    capsys.readouterr()
+    assert _verify(path, "--db", str(session.db)) == 1
+    assert _changed(capsys) == [
+        "CHANGED: signatures: the record carries no signature (sign it with `bringup sign`)"
+    ]
+
+
+def test_entry_logged_after_signing_voids_the_signatures(
+    session: Session, keys: Keys, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert _sign(session, keys.operator, "operator") == 0
+    with SessionLog.open(session.db, create=False) as log:
+        log.record_event(session.session_id, kind="note", operator="R. Okafor", reason="late")
+    path = _export(session, tmp_path / "late.json")
+    capsys.readouterr()
+    assert _verify(path, "--db", str(session.db)) == 1
+    found = _changed(capsys)
+    assert found == [
+        "CHANGED: signature 1 (operator R. Okafor): does not verify: "
+        "the content or the signer fields changed since signing"
+    ]
