@@ -212,10 +212,10 @@ def _state_levels(y: np.ndarray, method: str, ymin: float, ymax: float) -> State
     peaky = True
     levels, noise = [], []
     for mode, (first, last) in zip(modes, ((0, half), (half, nb)), strict=True):
-        # A state is a peak: its modal bin must stand well above the average bin of its half
-        # (a ramp or a triangle has a flat histogram and no state levels to find).
-        mean_count = coarse[first:last].sum() / (last - first)
-        if coarse[mode] < 3.0 * mean_count:
+        # A state is a peak: the bins within 3 of the mode must hold a quarter of its half
+        # (a ramp, a triangle or a slow ramp's quantisation staircase spread their samples).
+        near = coarse[max(mode - 3, first) : min(mode + 4, last)].sum()
+        if near < 0.25 * coarse[first:last].sum():
             peaky = False
         lo_bin, hi_bin = max(mode - 1, first), min(mode + 2, last)
         counts = fine[lo_bin * _FINE : hi_bin * _FINE]
