@@ -198,7 +198,11 @@ class LogReading:
             )
 
     def load_waveform(self, attempt_id: int, name: str) -> StoredWaveform:
-        """The waveform ``name`` of attempt ``attempt_id``: codes exactly as stored, and scale."""
+        """The waveform ``name`` of attempt ``attempt_id``: codes exactly as stored, and scale.
+
+        The decoded samples are checked against their stored SHA-256: a damaged blob raises a
+        ``StoreError`` instead of returning wrong samples (LZ4 itself carries no checksum).
+        """
         with self._read():
             rows = self._rows(
                 "SELECT * FROM waveforms WHERE attempt_id = ? AND name = ?", [attempt_id, name]
@@ -208,6 +212,10 @@ class LogReading:
         row = rows[0]
         try:
             codes = decode_codes(bytes(row["data"]), row["codec"], row["dtype"], row["points"])
+            if codes_digest(codes) != row["raw_sha256"]:
+                raise ValueError(
+                    "waveform blob is damaged (its samples do not match their SHA-256)"
+                )
         except ValueError as error:
             raise StoreError(
                 f"{self._path}: waveform {name!r} of attempt {attempt_id}: {error}"

@@ -176,7 +176,10 @@ def decode_codes(data: bytes, codec: str, dtype: str, points: int) -> np.ndarray
         _, cbytes, _ = blosc.get_cbuffer_sizes(header)
         if cbytes <= 0 or offset + cbytes > len(view):
             raise ValueError("waveform blob is damaged (truncated chunk)")
-        parts.append(blosc.decompress(bytes(view[offset : offset + cbytes])))
+        try:
+            parts.append(blosc.decompress(bytes(view[offset : offset + cbytes])))
+        except Exception as error:  # blosc_extension.error: damaged compressed data
+            raise ValueError(f"waveform blob is damaged ({error})") from None
         offset += cbytes
     raw = b"".join(parts)
     expected = points * np.dtype(dtype).itemsize

@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 from store_samples import gate_waveform, record
 
+from bringup.store import StoreError
 from bringup.store.canonical import sha256_hex
 from bringup.store.waveforms import encode_waveform
 
@@ -110,6 +111,22 @@ def test_a_replaced_waveform_is_found(db_path, log, filled):
     conn.close()
     report = log.verify_chain(filled)
     assert (report.ok, report.seq, report.field) == (False, 1, "waveform:vgs")
+
+
+def test_a_damaged_waveform_blob_is_never_returned_as_samples(db_path, log, filled):
+    conn = sqlite3.connect(db_path)
+    blob = bytearray(conn.execute("SELECT data FROM waveforms").fetchone()[0])
+    conn.close()
+    for offset in range(200, len(blob), 997):  # past the 16-byte chunk header: still "valid"
+        blob[offset] ^= 0x5A
+    conn = sqlite3.connect(db_path)
+    conn.execute("DROP TRIGGER waveforms_no_update")
+    conn.execute("UPDATE waveforms SET data = ?", [bytes(blob)])
+    conn.commit()
+    conn.close()
+    with pytest.raises(StoreError, match="waveform 'vgs' of attempt 1: waveform blob is damaged"):
+        log.load_waveform(1, "vgs")
+    assert log.verify_chain(filled).field == "waveform:vgs"
 
 
 def test_a_rescaled_waveform_is_found(db_path, log, filled):
