@@ -10,7 +10,7 @@ from collections.abc import Callable
 from bringup.tui.screens.prompts import ConfirmPrompt, EnergisePrompt, ReasonPrompt
 from bringup.tui.screens.session import SessionScreen
 
-__all__ = ["wait_until", "take_step", "session_screen", "status_text", "sync"]
+__all__ = ["wait_until", "take_step", "session_screen", "status_text", "sync", "wait_for_session"]
 
 
 def sync(test):
@@ -40,6 +40,19 @@ def session_screen(app) -> SessionScreen:
         if isinstance(screen, SessionScreen):
             return screen
     raise AssertionError(f"no session screen in {app.screen_stack!r}")
+
+
+async def wait_for_session(pilot, timeout: float = 30.0) -> SessionScreen:
+    """Wait until the session screen is up and shows a step; return it."""
+    app = pilot.app
+
+    def ready() -> bool:
+        screen = app.screen
+        return isinstance(screen, SessionScreen) and screen.is_mounted and bool(screen.viewed)
+
+    await wait_until(pilot, ready, timeout, what="the session screen")
+    await pilot.pause()
+    return app.screen
 
 
 def status_text(app) -> str:

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import sqlite3
 
-from helpers import session_screen, sync, take_step, wait_until
+from helpers import sync, take_step, wait_for_session, wait_until
 
 from bringup.store import SessionLog
 from bringup.tui.app import BringupApp
@@ -34,8 +34,7 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         await pilot.click("#serial")
         await _type(pilot, "DHS24-0042")
         await pilot.press("ctrl+n")
-        await wait_until(pilot, lambda: isinstance(app.screen, SessionScreen), what="session")
-        screen = session_screen(app)
+        screen = await wait_for_session(pilot)
         session_id = screen.link.session_id
         assert screen.viewed == "power-rails.first-power"
 
@@ -147,8 +146,7 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         table = app.screen.query_one("#sessions")
         assert table.row_count == 1
         await pilot.press("ctrl+o")
-        await wait_until(pilot, lambda: isinstance(app.screen, SessionScreen), what="resumed")
-        screen = session_screen(app)
+        screen = await wait_for_session(pilot)
         assert screen.link.session_id == session_id
         assert screen.viewed == "gate-overdrive.vgs-on"
         while screen.link.current_step_id() is not None:

@@ -104,12 +104,18 @@ class SessionScreen(Screen[None]):
                 with TabbedContent(initial="tab-result", id="tabs"):
                     with TabPane("1 result", id="tab-result"):
                         yield Static("", id="verdict-banner")
-                        yield DataTable(id="results", cursor_type="row", zebra_stripes=True)
+                        results = DataTable(id="results", cursor_type="row", zebra_stripes=True)
+                        results.add_columns(
+                            "metric", "measured", "predicted", "limits", "margin", "verdict"
+                        )
+                        yield results
                         yield Static("", id="metric-detail")
                     with TabPane("2 trace", id="tab-trace"):
                         yield WaveformPlot(id="plot")
                     with TabPane("3 attempts", id="tab-attempts"):
-                        yield DataTable(id="attempts", cursor_type="row")
+                        attempts = DataTable(id="attempts", cursor_type="row")
+                        attempts.add_columns("#", "verdict", "when", "by", "summary")
+                        yield attempts
                     with TabPane("4 notes", id="tab-notes"):
                         yield Static("", id="notes-list")
                         yield Input(placeholder="type a note, Enter to keep it", id="note-input")
@@ -117,10 +123,6 @@ class SessionScreen(Screen[None]):
         yield Footer()
 
     def on_mount(self) -> None:
-        results = self.query_one("#results", DataTable)
-        results.add_columns("metric", "measured", "predicted", "limits", "margin", "verdict")
-        attempts = self.query_one("#attempts", DataTable)
-        attempts.add_columns("#", "verdict", "when", "by", "summary")
         self.query_one("#live").display = False
         self.refresh_all(select=self.link.current_step_id())
         self.query_one("#checklist", ChecklistTree).focus()
