@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 
 from bringup.record.compare import content_digest, seal_of
+from bringup.record.signing import open_item
 from bringup.record.snapshots import bench_view, checklist_file, step_definitions, text_digest
 from bringup.store.entries import AttemptRecord, EventRecord, SessionData
 
@@ -304,10 +305,9 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
         for step in stage["steps"]:
             counts[step["status"]] = counts.get(step["status"], 0) + 1
             where = f"{stage['id']}/{step['id']}"
-            if step["status"] in ("not-started", "in-progress"):
-                open_items.append(f"{where}: unfinished ({step['status']})")
-            elif step["status"] == "rejected":
-                open_items.append(f"{where}: failed ({step['outcome']}) without a waiver")
+            item = open_item(stage["id"], step)
+            if item is not None:
+                open_items.append(item)
             elif step["status"] in ("waived", "skipped"):
                 kind = {"waived": "waive", "skipped": "skip"}[step["status"]]
                 ev = [e for e in step["events"] if e["kind"] == kind]

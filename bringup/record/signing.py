@@ -33,6 +33,7 @@ __all__ = [
     "signed_message",
     "check_signature",
     "open_items",
+    "open_item",
 ]
 
 ROLES = ("operator", "reviewer")
@@ -130,15 +131,24 @@ def check_signature(content: dict, entry: Any, index: int) -> SignatureCheck:
     return SignatureCheck(label, tuple(problems), raw)
 
 
+def open_item(stage_id: str, step: dict) -> str | None:
+    """Why one step blocks a sign-off (one line), or None when it does not."""
+    status, where = step.get("status"), f"{stage_id}/{step.get('id')}"
+    if status == "not-started":
+        return f"{where}: unfinished (not started)"
+    if status == "in-progress":
+        return f"{where}: unfinished (last attempt {step.get('outcome') or 'without a verdict'})"
+    if status == "rejected":
+        return f"{where}: failed ({step.get('outcome')}) without a waiver"
+    return None
+
+
 def open_items(content: dict) -> list[str]:
     """What blocks a sign-off: steps unfinished, or failed without a waiver (one line each)."""
     items = []
     for stage in content.get("stages", []):
         for step in stage.get("steps", []):
-            status = step.get("status")
-            where = f"{stage.get('id')}/{step.get('id')}"
-            if status in ("not-started", "in-progress"):
-                items.append(f"{where}: unfinished ({status})")
-            elif status == "rejected":
-                items.append(f"{where}: failed ({step.get('outcome')}) without a waiver")
+            item = open_item(str(stage.get("id")), step)
+            if item is not None:
+                items.append(item)
     return items

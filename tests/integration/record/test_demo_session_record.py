@@ -85,4 +85,4 @@ def test_source_follower_board_cannot_be_signed(
     err = capsys.readouterr().err
     # A gate without overdrive fails its step; the later stages are logged as not run.
     assert "gate-overdrive/vgs-on: failed" in err and "without a waiver" in err
-    assert "thermal-soak/" in err or "unfinished" in err
+    assert "thermal/soak: unfinished (last attempt not-run)" in err

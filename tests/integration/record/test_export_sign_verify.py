@@ -246,7 +246,7 @@ def test_sign_off_refused_while_steps_are_unfinished(
     assert len(err.splitlines()) == 1 and "sign-off refused" in err
     # The first gate try failed and was never retaken; later stages never started.
     assert "gate-overdrive/vgs-on: failed (fail) without a waiver" in err
-    assert "thermal-soak/soak: unfinished (not-started)" in err
+    assert "thermal-soak/soak: unfinished (not started)" in err
     with SessionLog.open(s.db, create=False) as log:
         assert log.signatures(s.session_id) == []
 

@@ -59,6 +59,7 @@ def test_html_is_self_contained_with_the_summary_first(
 ) -> None:
     _sign_both(session, keys)
     html = _export(session, "html", tmp_path / "r.html").read_text()
+    assert _export(session, "html", tmp_path / "again.html").read_text() == html  # reproducible
     outline = _Outline()
     outline.feed(html)
     assert outline.references == []  # no links, images or scripts to fetch
