@@ -32,16 +32,16 @@ BENCH = {"scope": {"resource": "TCPIP0::127.0.0.1::5025::SOCKET", "idn": "NULLPO
 def gate_waveform(points: int = 20_000, dtype: str = "int16", seed: int = 0) -> StoredWaveform:
     """A gate-source record as a scope would send it: RC edges, ringing, noise, quantised codes.
 
-    12 V swing at 25 kHz, 1 ns sampling; codes step 10 mV (int16/int32/uint16), 100 mV (8-bit)
-    or raw volts (float32/float64, y_increment 1).
+    A 12 V, 1 MHz pattern (so that a short record holds many edges), 1 ns sampling; codes step
+    10 mV (int16/int32/uint16), 100 mV (8-bit) or raw volts (float32/float64, y_increment 1).
     """
     rng = np.random.default_rng(seed)
-    t = np.arange(points) * 1e-9
-    phase = (t * 25e3 * 40) % 1.0  # several edges in a short record
-    volts = np.where(
+    phase = np.arange(1000) / 1000.0  # one 1 us period at 1 ns, tiled below
+    period = np.where(
         phase < 0.5, 12 * (1 - np.exp(-phase / 0.02)), 12 * np.exp(-(phase - 0.5) / 0.02)
     )
-    volts += 0.8 * np.exp(-(phase % 0.5) / 0.01) * np.sin(2 * np.pi * 30 * phase)  # ringing
+    period += 0.8 * np.exp(-(phase % 0.5) / 0.01) * np.sin(2 * np.pi * 30 * phase)  # ringing
+    volts = np.resize(period, points)
     volts += rng.normal(0.0, 0.03, points)  # noise
     if dtype in ("float32", "float64"):
         return StoredWaveform(volts.astype(dtype), x_increment=1e-9, x_origin=-2e-6)
