@@ -257,11 +257,14 @@ def test_levels_and_times_follow_an_affine_change_of_the_record(gain, offset, se
     y = scope(rc_pwm(20_000, dt, 4e-6, 0.35, 25e-9, phase_s=0.5e-6), noise_v=0.05, seed=seed)
     a = measure_edges(y, dt)
     b = measure_edges(gain * y + offset, dt)
-    assert b.low_level_v == pytest.approx(gain * a.low_level_v + offset, abs=1e-6 * gain * 16)
-    assert b.high_level_v == pytest.approx(gain * a.high_level_v + offset, abs=1e-6 * gain * 16)
+    # To within a fine histogram bin (1/3200 of the range): a sample on a bin edge may land in
+    # the neighbouring bin once the record is rescaled in floating point.
+    tol = 1e-3 * gain * a.amplitude_v
+    assert b.low_level_v == pytest.approx(gain * a.low_level_v + offset, abs=tol)
+    assert b.high_level_v == pytest.approx(gain * a.high_level_v + offset, abs=tol)
     assert b.edges == a.edges
-    assert np.allclose(b.transitions.t_mid_s, a.transitions.t_mid_s, rtol=0, atol=1e-6 * dt)
-    assert b.rise_time_s == pytest.approx(a.rise_time_s, rel=1e-6)
+    assert np.allclose(b.transitions.t_mid_s, a.transitions.t_mid_s, rtol=0, atol=0.01 * dt)
+    assert b.rise_time_s == pytest.approx(a.rise_time_s, rel=1e-3)
 
 
 @settings(max_examples=40, deadline=None)
