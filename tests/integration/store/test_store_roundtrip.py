@@ -158,3 +158,13 @@ def test_bad_content_is_refused_in_one_line(log, session_id):
     assert log.attempts(session_id) == []  # nothing half-logged by a refusal
     for error in ("outcome", "naive"):
         assert "\n" not in error
+
+
+def test_non_ascii_text_round_trips_and_hashes_as_utf8(db_path, log, session_id):
+    record(log, session_id, operator="Zoë Ångström", notes="Vgs ≈ 11.8 V, probe Ω-rated")
+    (attempt,) = log.attempts(session_id)
+    assert attempt.operator == "Zoë Ångström" and attempt.notes == "Vgs ≈ 11.8 V, probe Ω-rated"
+    conn = sqlite3.connect(db_path)
+    stored = conn.execute("SELECT notes FROM attempts").fetchone()[0]
+    conn.close()
+    assert stored == "Vgs ≈ 11.8 V, probe Ω-rated" and log.verify_chain(session_id).ok
