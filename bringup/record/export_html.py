@@ -17,6 +17,7 @@ from bringup.record.view import (
     OVERALL_WORDS,
     STATUS_WORDS,
     Trace,
+    checklist_label,
     comparison_rows,
     decode_trace,
     design_rows,
@@ -87,7 +88,7 @@ def _summary(content: dict, signatures: list[dict], digest: str) -> str:
         ["Board", f"{board.get('name', '-')} rev {board.get('revision', '-')}"],
         ["Serial number", session.get("serial", "-")],
         ["Session", session.get("id", "-")],
-        ["Checklist", f"{checklist.get('name', '-')} version {checklist.get('version', '-')}"],
+        ["Checklist", checklist_label(checklist)],
         ["Operators", ", ".join(session.get("operators") or []) or "-"],
         ["Started", fmt_time(session.get("started"))],
         ["Last entry", fmt_time(session.get("ended"))],
@@ -167,7 +168,7 @@ def _comparison(content: dict) -> str:
     rows = comparison_rows(content)
     body = (
         _table(
-            ["Step", "Quantity", "Design", "Basis", "Measured", "Deviation"],
+            ["Step", "Quantity", "Design", "Basis", "Measured", "Deviation", "Note"],
             [
                 [
                     r["where"],
@@ -176,6 +177,7 @@ def _comparison(content: dict) -> str:
                     r["basis"],
                     r["measured"],
                     r["deviation"],
+                    r["note"],
                 ]
                 for r in rows
             ],

@@ -21,6 +21,7 @@ from bringup.record.view import (
     OVERALL_WORDS,
     STATUS_WORDS,
     Trace,
+    checklist_label,
     comparison_rows,
     decode_trace,
     design_rows,
@@ -183,7 +184,7 @@ def render_pdf(record: dict) -> bytes:
     rows = [
         ["Board", f"{board.get('name', '-')} rev {board.get('revision', '-')}"],
         ["Serial number", session.get("serial", "-")],
-        ["Checklist", f"{checklist.get('name', '-')} version {checklist.get('version', '-')}"],
+        ["Checklist", checklist_label(checklist)],
         ["Operators", ", ".join(session.get("operators") or []) or "-"],
         ["Started", fmt_time(session.get("started"))],
         ["Last entry", fmt_time(session.get("ended"))],
@@ -242,9 +243,12 @@ def render_pdf(record: dict) -> bytes:
     comp = comparison_rows(content)
     _table(
         pdf,
-        ["Step", "Quantity", "Design", "Measured", "Deviation"],
-        [[r["where"], r["quantity"], r["predicted"], r["measured"], r["deviation"]] for r in comp],
-        (50, 45, 35, 35, 25),
+        ["Step", "Quantity", "Design", "Measured", "Deviation", "Note"],
+        [
+            [r["where"], r["quantity"], r["predicted"], r["measured"], r["deviation"], r["note"]]
+            for r in comp
+        ],
+        (40, 32, 24, 24, 20, 50),
     )
     if not comp:
         _para(pdf, "No predicted values were recorded.")

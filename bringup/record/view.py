@@ -32,6 +32,7 @@ __all__ = [
     "step_cautions",
     "zoom_trace",
     "probe_text",
+    "checklist_label",
 ]
 
 # Each word carries a symbol too, so no outcome is told by colour alone.
@@ -80,6 +81,15 @@ def fmt_time(stamp: Any) -> str:
     utc = utc.split(".")[0]
     offset = stamp.get("offset")
     return f"{utc} UTC" + (f" (local UTC{offset})" if offset else "")
+
+
+def checklist_label(checklist: dict) -> str:
+    """'NAME version V', or the file's digest when the checklist states no version."""
+    name = checklist.get("name") or checklist.get("id") or "-"
+    if checklist.get("version"):
+        return f"{name}, version {checklist['version']}"
+    digest = checklist.get("text_sha256")
+    return f"{name} (no version stated; file SHA-256 {digest[:16]})" if digest else str(name)
 
 
 def probe_text(channel: dict) -> str:
@@ -265,6 +275,15 @@ def comparison_rows(content: dict) -> list[dict]:
             if not attempt:
                 continue
             metrics = attempt.get("metrics") or {}
+            notes = {
+                v.get("target"): v.get("disagreement")
+                for v in attempt.get("verdicts") or []
+                if v.get("disagreement")
+            }
+            reported = (attempt.get("extra") or {}).get("reported") or {}
+            for key, r in reported.items():
+                if isinstance(r, dict) and r.get("disagreement"):
+                    notes.setdefault(key, r["disagreement"])
             for name, pred in sorted((attempt.get("predicted") or {}).items()):
                 measured = metrics.get(name)
                 pv = pred.get("value") if isinstance(pred, dict) else pred
@@ -280,6 +299,7 @@ def comparison_rows(content: dict) -> list[dict]:
                         "basis": pred.get("basis", "") if isinstance(pred, dict) else "",
                         "measured": fmt_value(measured) if measured is not None else "-",
                         "deviation": "-" if deviation is None else f"{deviation:+.1f} %",
+                        "note": str(notes.get(name) or ""),
                     }
                 )
     return rows
