@@ -56,6 +56,7 @@ class AnalysisInput:
     reading: float | None = None
     reading_metric: str | None = None
     supply_v: float | None = None  # supply output read back during the acquisition (V)
+    clipped: dict[str, str] = field(default_factory=dict)  # net -> why its trace is unusable
 
 
 @dataclass
@@ -352,12 +353,40 @@ ANALYSE: dict[str, Callable[[AnalysisInput, Board, AnalysisOutput], None]] = {
 }
 
 
+# Metrics that come from a net other than the one their name starts with.
+_METRIC_NET = {
+    "uvlo_margin": "vbs",
+    "on_time_supported": "vgs",
+    "on_time": "vgs",
+    "miller_plateau": "vgs",
+    "switching_loss": "switch",
+}
+
+
+def metric_net(metric: str) -> str | None:
+    """The net a metric is measured on (None for metrics not taken from a trace)."""
+    if metric in _METRIC_NET:
+        return _METRIC_NET[metric]
+    head = metric.split("_", 1)[0]
+    return head if head in ("vgs", "vbs", "switch", "bus", "vdrv", "logic") else None
+
+
 def analyse(name: str, data: AnalysisInput, board: Board) -> AnalysisOutput:
     """Run analysis ``name`` of the catalogue on ``data``; never raises ``AnalysisError``
-    (what cannot be measured is a metric of None with its reason)."""
+    (what cannot be measured is a metric of None with its reason).
+
+    A metric taken from a clipped trace is withdrawn (None, so it fails its target): the
+    signal went beyond what the scope saw, and a clipped peak or level reads inside a limit it
+    may really be beyond."""
     out = AnalysisOutput()
     try:
         ANALYSE[name](data, board, out)
     except AnalysisError as exc:
         out.warnings.append(str(exc))
+    for metric in list(out.metrics):
+        net = metric_net(metric)
+        if net is not None and net in data.clipped and net in data.traces:
+            out.set(metric, None, data.clipped[net])
+    for why in data.clipped.values():
+        out.warnings.append(why)
     return out

@@ -21,6 +21,25 @@ __all__ = ["BenchLink"]
 _SLOPES = {"positive": "rising", "negative": "falling"}
 
 
+def _clipping(net: str, source, volts, offset_v: float, range_v: float) -> str | None:
+    """Why a trace is clipped (samples at the top or bottom of the screen), or None.
+
+    Within 1 % of the range from either edge counts: an 8-bit scope's top codes."""
+    top, bottom = offset_v + range_v / 2, offset_v - range_v / 2
+    margin = range_v / 100
+    hi, lo = float(volts.max()), float(volts.min())
+    edge = None
+    if hi >= top - margin:
+        edge = f"top ({top:.4g} V)"
+    elif lo <= bottom + margin:
+        edge = f"bottom ({bottom:.4g} V)"
+    if edge is None:
+        return None
+    return (
+        f"CH{source} ({net}) clipped at the {edge} of its range: widen the range or move the offset"
+    )
+
+
 class BenchLink:
     """An open bench (real or simulated) for one session."""
 
@@ -137,11 +156,12 @@ class BenchLink:
             return make_safe_quietly(self.bench.supply)
 
     # ---------------------------------------------------------------- scope
-    def acquire(self, plan: StepPlan) -> tuple[dict[str, Trace], dict]:
+    def acquire(self, plan: StepPlan) -> tuple[dict[str, Trace], dict, dict[str, str]]:
         """Set up the scope as planned, take one record, fetch every planned trace.
 
-        Returns traces by net (volts) and the raw records by net (``Waveform``: codes + scale)
-        for the log. A math capture (vgs = gate - switch) is fetched from the MATH source."""
+        Returns traces by net (volts), the raw records by net (``Waveform``: codes + scale) for
+        the log, and the nets whose trace clipped (net -> why). A math capture (vgs = gate -
+        switch) is fetched from the MATH source."""
         scope = self.bench.scope
         setup = plan.settings["scope"]
         used = {ch.channel for ch in plan.channels}
@@ -169,12 +189,19 @@ class BenchLink:
         scope.acquire()
         traces: dict[str, Trace] = {}
         raw: dict = {}
+        clipped: dict[str, str] = {}
         wanted = [(ch.net, ch.channel) for ch in plan.channels] + [(n, "math") for n in math_nets]
+        windows = {ch.net: (ch.offset_v, ch.range_v) for ch in plan.channels}
         for net, source in wanted:
             wf = scope.fetch_waveform(source)
             raw[net] = wf
-            traces[net] = Trace(net, wf.volts(), wf.x_increment, wf.x_origin)
-        return traces, raw
+            volts = wf.volts()
+            traces[net] = Trace(net, volts, wf.x_increment, wf.x_origin)
+            if net in windows:
+                why = _clipping(net, source, volts, *windows[net])
+                if why:
+                    clipped[net] = why
+        return traces, raw, clipped
 
     # ---------------------------------------------------------------- meters
     def read_meter_volts(self) -> float:

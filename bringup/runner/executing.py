@@ -235,8 +235,9 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
         if plan.settings.get("scope") is not None:
             ctx.check()
             ctx.emit("acquiring", "acquiring")
-            traces, raw = bench.acquire(plan)
+            traces, raw, clipped = bench.acquire(plan)
             ctx.data.supply_v = powered.measure_voltage()
+            ctx.data.clipped.update(clipped)
             ctx.data.traces.update(traces)
             ctx.raw.update(raw)
         if step.reading is not None and ctx.data.reading is None:

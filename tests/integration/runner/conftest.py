@@ -15,9 +15,12 @@ def make_runner(tmp_path):
     (supply off, bench stopped) at the end of the test."""
     made = []
 
-    def make(scenario: str = "healthy", bench: BenchSource | None = None, **kw) -> SessionRunner:
+    def make(
+        scenario: str = "healthy", bench: BenchSource | None = None, checklist=None, **kw
+    ) -> SessionRunner:
         source = bench or BenchSource.simulated(scenario, **kw)
-        runner = SessionRunner.create(board=load_board("demo"), checklist=load_checklist(),
+        runner = SessionRunner.create(board=load_board("demo"),
+                                      checklist=checklist or load_checklist(),
                                       serial="DHS24-0100", operator="tester", bench=source,
                                       db_path=tmp_path / "log.sqlite")  # fmt: skip
         made.append(runner)

@@ -114,3 +114,29 @@ def test_without_answers_a_step_is_refused_and_logged_as_not_run(make_runner, tm
         runner.close()  # while the bench still answers: closing confirms the output OFF
         with SessionLog.open(runner.log.path, create=False) as log:
             assert [a.outcome for a in log.attempts(runner.session_id)] == ["not-run", "pass"]
+
+
+def test_a_clipped_trace_is_never_judged(make_runner, tmp_path):
+    from bringup.checklist.load import load_checklist, standard_checklist_path
+
+    # The logic rail (3.3 V) on a screen from 2.9 V to 3.3 V: its samples pile up on the top
+    # code. Read as it is, the mean would look like a healthy 3.29 V.
+    text = (
+        standard_checklist_path()
+        .read_text()
+        .replace(
+            'logic = { range = "1 V", offset = "design.logic_voltage" }',
+            'logic = { range = "0.4 V", offset = "3.1 V" }',
+            1,
+        )
+    )
+    path = tmp_path / "narrow.toml"
+    path.write_text(text)
+    runner = make_runner(checklist=load_checklist(path))
+    assert runner.run_step(FIRST).state == "pass"
+    result = runner.run_step(UNLOADED)
+    assert result.state == "fail"
+    logic = result.metric("logic_level")
+    assert logic.measured is None and logic.outcome == "fail" and "clipped" in logic.reason
+    assert result.metric("vdrv_level").outcome == "pass"  # the other traces still count
+    assert any("clipped at the top" in w for w in result.warnings)
