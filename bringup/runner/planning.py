@@ -38,20 +38,23 @@ def _channels(
         return ()
     free_single = [n for n in sorted(kinds) if kinds[n] == "single-ended"]
     free_diff = [n for n in sorted(kinds) if kinds[n] == "differential"]
-    wanted: list[tuple[str, str, float, float, str, bool]] = []  # net, probe, range, offset, ...
+    # One channel per net (net -> probe, range, offset, coupling, bandwidth limit). A net the
+    # step acquires itself keeps its own setup when the math difference needs it too.
+    wanted: dict[str, tuple[str, str, float, float, str, bool]] = {}
+    for cap in step.scope.captures:
+        if cap.probe != "math":
+            wanted[cap.net] = (cap.net, cap.probe, cap.range_v.resolve(design),
+                               cap.offset_v.resolve(design), cap.coupling, cap.bandwidth_limit)  # fmt: skip
     for cap in step.scope.captures:
         if cap.probe == "math":
             # vgs = gate - switch from two ground-referenced probes, each over the full swing
             swing = design["bus_voltage"] + design["gate_drive_voltage"]
             for net in ("gate", "switch"):
-                wanted.append((net, "single-ended", 1.6 * swing, 0.5 * swing, cap.coupling,
-                               cap.bandwidth_limit))  # fmt: skip
-            continue
-        wanted.append((cap.net, cap.probe, cap.range_v.resolve(design), cap.offset_v.resolve(design),
-                       cap.coupling, cap.bandwidth_limit))  # fmt: skip
+                wanted.setdefault(net, (net, "single-ended", 1.6 * swing, 0.5 * swing,
+                                        cap.coupling, cap.bandwidth_limit))  # fmt: skip
     plans: dict[str, ChannelPlan] = {}
     for net, probe, span, offset, coupling, bw in sorted(
-        wanted, key=lambda w: w[1] != "differential"
+        wanted.values(), key=lambda w: w[1] != "differential"
     ):
         if probe == "differential":
             pool = free_diff
@@ -64,7 +67,7 @@ def _channels(
             )
         channel = pool.pop(0)
         plans[net] = ChannelPlan(channel, net, kinds[channel], span, offset, coupling, bw)
-    return tuple(plans[w[0]] for w in wanted)
+    return tuple(plans[net] for net in wanted)
 
 
 def _hands(step: Step, design: dict[str, float], channels: tuple[ChannelPlan, ...]) -> list[str]:

@@ -84,3 +84,23 @@ def test_answer_file_sample_loads_and_bad_ones_name_the_line(tmp_path):
     with pytest.raises(ConfigError) as info:
         load_answers(bad, CHECKLIST)
     assert info.value.line == 3 and info.value.key == "steps.thermal.soak.confirmed"
+
+
+def test_vgs_from_a_math_difference_is_planned_on_two_probes_with_a_warning(tmp_path):
+    from bringup.checklist.load import standard_checklist_path
+
+    text = standard_checklist_path().read_text()
+    head, tail = text.split("[stages.edge-speed.steps.edges.scope.nets]")
+    tail = tail.replace('probe = "differential"', 'probe = "math"', 1)
+    path = tmp_path / "math.toml"
+    path.write_text(head + "[stages.edge-speed.steps.edges.scope.nets]" + tail)
+    plan = plan_step(load_checklist(path).step("edge-speed.edges"), load_board("demo"), SIM)
+    assert sorted((c.net, c.probe) for c in plan.channels) == [
+        ("gate", "single-ended"),
+        ("switch", "single-ended"),
+    ]
+    assert plan.settings["scope"]["math"] == ["vgs"]
+    # 1 % of the 24 V common mode is 0.24 V of error on Vgs [computed]
+    assert len(plan.warnings) == 1 and "240 mV" in plan.warnings[0]
+    # the switch node keeps the range the step gave it (50 V), not the math's
+    assert next(c for c in plan.channels if c.net == "switch").range_v == 50.0
