@@ -230,6 +230,12 @@ class InstrumentSession:
             return faults.ConnectionLost(
                 self.role, command, f"the instrument closed the connection{part}"
             )
+        if received:
+            return faults.InstrumentTimeout(
+                self.role,
+                command,
+                f"{received} bytes of a reply, then nothing within {timeout_ms} ms",
+            )
         return faults.InstrumentTimeout(self.role, command, f"nothing within {timeout_ms} ms")
 
     def _tell(self, fault: faults.InstrumentFault) -> None:

@@ -196,3 +196,15 @@ def test_refused_connection_is_connection_lost():
     with pytest.raises(faults.ConnectionLost, match="cannot open"):
         session.open()
         session.query("*IDN?")
+
+
+def test_a_reply_that_stops_midway_says_how_much_came(scripted_server, fast_profiles):
+    server = scripted_server(lambda line, n: [b"NULLPOINT,SIM", "hang"])
+    session = _session(server.resource, True, fast_profiles)
+    try:
+        with pytest.raises(
+            faults.InstrumentTimeout, match="13 bytes of a reply, then nothing within 400 ms"
+        ):
+            session.query("*IDN?")
+    finally:
+        session.close()
