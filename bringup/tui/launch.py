@@ -100,11 +100,10 @@ class Launcher:
         name = scenario or "healthy"
         if name not in SCENARIOS:
             raise InputError(f"--scenario {name}: unknown (one of {', '.join(SCENARIOS)})")
+        text = f"sim bench ({name})"
         if self.sim_time_scale is None:
-            return BenchSource.simulated(name), f"simulated bench ({name})"
-        return BenchSource.simulated(
-            name, time_scale=self.sim_time_scale
-        ), f"simulated bench ({name})"
+            return BenchSource.simulated(name), text
+        return BenchSource.simulated(name, time_scale=self.sim_time_scale), text
 
     def new_session(
         self,
@@ -147,7 +146,7 @@ class Launcher:
         runner = SessionRunner.resume(str(session_id), db_path=self.db_path)
         source = runner.bench_source
         if source.is_simulated:
-            text = f"simulated bench ({source.scenario})"
+            text = f"sim bench ({source.scenario})"
         else:
             text = f"bench {Path(source.path).name}"
         return SessionLink(runner, text)

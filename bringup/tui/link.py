@@ -56,9 +56,8 @@ class SessionLink:
         rev = getattr(board, "revision", "")
         bench = f" · {self.bench_text}" if self.bench_text else ""
         return (
-            f"{name}{' rev ' + rev if rev else ''} · serial {self.runner.serial} · "
-            f"operator {self.operator} · session {self.session_id}{bench} · "
-            f"{done}/{len(steps)} steps done"
+            f"{name}{' rev ' + rev if rev else ''} · SN {self.runner.serial} · "
+            f"{self.operator} · session {self.session_id}{bench} · {done}/{len(steps)} done"
         )
 
     def stages(self) -> tuple[StageRow, ...]:
@@ -102,7 +101,7 @@ class SessionLink:
         """Notes logged about the step, and the reason of a skip or waiver."""
         step = self.runner.checklist.step(step_id)
         notes = []
-        for e in self.runner.log.events(self.session_id):
+        for e in self.runner.log.events(self.runner.session_id):
             if e.stage_id == step.stage_id and e.step_id == step.key:
                 if e.kind == "note":
                     notes.append(f"{e.operator}: {e.reason}")

@@ -44,7 +44,7 @@ def metric_row(m: Any) -> MetricRow:
         label=m.label,
         measured=_q(m.measured, m.unit),
         predicted="—" if m.predicted is None else format_quantity(m.predicted, m.unit),
-        limits=m.limit.describe() if m.limit is not None else "reported only",
+        limits=m.limit.describe() if m.limit is not None else "(reported)",
         margin=margin,
         verdict=m.outcome or "reported",
         reason=reason,

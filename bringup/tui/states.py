@@ -66,6 +66,7 @@ STATE_LOOKS: dict[str, StateLook] = {
     "not-run": StateLook("–", "not run", "todo"),
     "cancelled": StateLook("■", "stopped", "skipped"),
     "error": StateLook("!", "fault", "fail"),
+    "reported": StateLook("·", "reported, not judged", "todo", "info"),
 }
 
 # spellings the runner or store may use for the same state

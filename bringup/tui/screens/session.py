@@ -105,8 +105,9 @@ class SessionScreen(Screen[None]):
                     with TabPane("1 result", id="tab-result"):
                         yield Static("", id="verdict-banner")
                         results = DataTable(id="results", cursor_type="row", zebra_stripes=True)
+                        # the verdict second: it must never scroll off a narrow terminal
                         results.add_columns(
-                            "metric", "measured", "predicted", "limits", "margin", "verdict"
+                            "metric", "verdict", "measured", "predicted", "limits", "margin"
                         )
                         yield results
                         yield Static("", id="metric-detail")
@@ -212,9 +213,11 @@ class SessionScreen(Screen[None]):
             self.query_one("#plot", WaveformPlot).clear("no attempt yet: press r to run the step")
             return
         for m in attempt.metrics:
-            table.add_row(
-                m.label, m.measured, m.predicted, m.limits, m.margin, _verdict_text(m.verdict)
-            )
+            label = m.label if len(m.label) <= 30 else m.label[:29] + "…"
+            look = look_of(m.verdict)
+            verdict = Text(f"{look.symbol} {look.brief}", style=look.style)
+            table.add_row(label, verdict, m.measured, m.predicted, m.limits, m.margin)
+        self._show_metric_detail(0)
         self._show_trace()
 
     def _show_metric_detail(self, row: int) -> None:
@@ -436,15 +439,19 @@ class SessionScreen(Screen[None]):
             text += f"\npredicted final {p.predicted_final}  ({settled})"
         self.query_one("#live-text", Static).update(text)
         if p.soak_t:
-            plot = self.query_one("#plot", WaveformPlot)
             import numpy as np
 
-            plot.show(
-                np.asarray(p.soak_t),
-                np.asarray(p.soak_temp),
-                PlotMarks(),
-                title="temperature log (°C against time)",
-                unit="°C",
+            levels = []
+            if p.soak_limit_c is not None:
+                levels.append(("limit", float(p.soak_limit_c)))
+            if p.soak_final_c is not None:
+                levels.append(("→ final", float(p.soak_final_c)))
+            self.query_one("#plot", WaveformPlot).show(
+                np.asarray(p.soak_t, dtype=float),
+                np.asarray(p.soak_temp, dtype=float),
+                PlotMarks(levels=tuple(levels)),
+                title=f"heatsink temperature, live: {len(p.soak_t)} readings",
+                unit="degC",
             )
 
     def _finish(self, select_next: bool) -> None:
@@ -457,7 +464,11 @@ class SessionScreen(Screen[None]):
         self._finish(select_next=False)
         look = look_of(message.attempt.verdict)
         kind = "good" if look.key in ("pass", "cond") else "fault"
-        nxt = " r retakes; j goes to the next step." if kind == "good" else " r retakes it."
+        nxt = (
+            " r retakes; j goes to the next step."
+            if kind == "good"
+            else " r retakes it; w waives it (reason and name)."
+        )
         self.say(f"Attempt {message.attempt.number}: {look.label()}.{nxt}", kind)
         self.show_step(step)
 

@@ -1,0 +1,97 @@
+"""Screenshot baselines (pytest-textual-snapshot) of the start screen, a passed step, a failed
+step and the summary. Each baseline SVG in ``__snapshots__`` was looked at before it was kept.
+
+Plain ``def`` tests (``snap_compare`` runs the app itself); ``run_before`` waits for layout
+first. Session ids and times are fixed (``fixed_labels``); the bench is the seeded simulator.
+"""
+
+from __future__ import annotations
+
+from fixed_labels import FixedLauncher
+from helpers import take_step, wait_for_session, wait_until
+from textual.widgets import Input
+
+from bringup.tui.app import BringupApp
+from bringup.tui.screens.start import StartScreen
+from bringup.tui.screens.summary import SummaryScreen
+
+SIZE = (130, 40)
+STEP = "gate-overdrive.vgs-on"
+
+
+def _values(scenario: str) -> dict:
+    return {"board": "demo", "checklist": None, "bench_file": None, "scenario": scenario,
+            "serial": "DHS24-0001", "operator": "tester"}  # fmt: skip
+
+
+async def _no_blink(pilot) -> None:
+    for widget in pilot.app.screen.query(Input):
+        widget.cursor_blink = False
+    await pilot.pause()
+
+
+async def _take_gate_step(pilot) -> None:
+    """Skip the power-rail steps (through the runner), then take the gate-overdrive step."""
+    screen = await wait_for_session(pilot)
+    runner = screen.link.runner
+    for step in runner.checklist.steps():
+        if step.id == STEP:
+            break
+        runner.skip(step.id, "rails checked on the previous board")
+    screen.refresh_all(select=STEP)
+    await wait_until(pilot, lambda: screen.viewed == STEP, what=STEP)
+    await take_step(pilot)
+    screen.query_one("#checklist").focus()
+    await pilot.pause()
+
+
+def test_start_screen(snap_compare, log_path):
+    from bringup.checklist.board import load_board
+    from bringup.checklist.load import load_checklist
+    from bringup.runner import BenchSource, SessionRunner
+
+    # one unfinished session in the log (created, one step skipped, no bench opened)
+    runner = SessionRunner.create(
+        board=load_board("demo"), checklist=load_checklist(), serial="DHS24-0007",
+        operator="tester", bench=BenchSource.simulated("healthy"), db_path=log_path,
+    )  # fmt: skip
+    with runner:
+        runner.skip("power-rails.first-power", "powered up on the previous shift")
+
+    async def run_before(pilot) -> None:
+        await pilot.pause()
+        await wait_until(pilot, lambda: isinstance(pilot.app.screen, StartScreen))
+        await _no_blink(pilot)
+
+    assert snap_compare(BringupApp(FixedLauncher(log_path)), terminal_size=SIZE,
+                        run_before=run_before)  # fmt: skip
+
+
+def test_passed_step(snap_compare, log_path):
+    async def run_before(pilot) -> None:
+        await pilot.pause()
+        await _take_gate_step(pilot)
+
+    app = BringupApp(FixedLauncher(log_path), open_new=_values("healthy"))
+    assert snap_compare(app, terminal_size=SIZE, run_before=run_before)
+
+
+def test_failed_step(snap_compare, log_path):
+    async def run_before(pilot) -> None:
+        await pilot.pause()
+        await _take_gate_step(pilot)
+
+    app = BringupApp(FixedLauncher(log_path), open_new=_values("no-overdrive"))
+    assert snap_compare(app, terminal_size=SIZE, run_before=run_before)
+
+
+def test_summary(snap_compare, log_path):
+    async def run_before(pilot) -> None:
+        await pilot.pause()
+        await _take_gate_step(pilot)
+        await pilot.press("m")
+        await wait_until(pilot, lambda: isinstance(pilot.app.screen, SummaryScreen))
+        await pilot.pause()
+
+    app = BringupApp(FixedLauncher(log_path), open_new=_values("no-overdrive"))
+    assert snap_compare(app, terminal_size=SIZE, run_before=run_before)
