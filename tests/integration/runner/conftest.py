@@ -16,10 +16,14 @@ def make_runner(tmp_path):
     made = []
 
     def make(
-        scenario: str = "healthy", bench: BenchSource | None = None, checklist=None, **kw
+        scenario: str = "healthy",
+        bench: BenchSource | None = None,
+        checklist=None,
+        board=None,
+        **kw,
     ) -> SessionRunner:
         source = bench or BenchSource.simulated(scenario, **kw)
-        runner = SessionRunner.create(board=load_board("demo"),
+        runner = SessionRunner.create(board=board or load_board("demo"),
                                       checklist=checklist or load_checklist(),
                                       serial="DHS24-0100", operator="tester", bench=source,
                                       db_path=tmp_path / "log.sqlite")  # fmt: skip

@@ -140,3 +140,23 @@ def test_a_clipped_trace_is_never_judged(make_runner, tmp_path):
     assert logic.measured is None and logic.outcome == "fail" and "clipped" in logic.reason
     assert result.metric("vdrv_level").outcome == "pass"  # the other traces still count
     assert any("clipped at the top" in w for w in result.warnings)
+
+
+def test_the_first_power_ramp_stops_at_the_first_step_over_its_limit(make_runner, tmp_path):
+    from bringup.checklist.board import demo_board_path, load_board
+
+    # A ramp-current limit below what the board draws at its first step plays a short.
+    text = demo_board_path().read_text().replace('max = "0.1 A"', 'max = "1 mA"', 1)
+    path = tmp_path / "board.toml"
+    path.write_text(text)
+    board = load_board(path)
+    assert board.targets["ramp_current"].limit.max == pytest.approx(1e-3)
+    runner = make_runner(board=board)
+    events = []
+    result = runner.run_step(FIRST, on_progress=events.append)
+    ramp = [e for e in events if e.phase == "ramp"]
+    assert result.state == "fail"
+    assert len(ramp) == 1  # stopped at 6 V: 12, 18 and 24 V were never applied
+    assert "ramp stopped at 6 V" in " ".join(result.warnings)
+    assert result.metric("ramp_current").measured > 1e-3
+    assert runner.bench().bench.supply.output_is_on() is False
