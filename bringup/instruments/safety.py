@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import atexit
 import enum
+import logging
 import signal
 import threading
 from collections.abc import Iterable
@@ -32,6 +33,7 @@ if TYPE_CHECKING:
     from bringup.instruments.bench import Bench
     from bringup.instruments.visa import InstrumentSession
 
+LOG = logging.getLogger(__name__)
 TOUCH_SAFE_LIMIT_V = 60.0
 STRONG_WARNING_V = 120.0
 
@@ -73,6 +75,7 @@ def hazard_for(volts: float) -> HazardNotice | None:
     return None
 
 
+#: For the UI to show after every powered step: switching off does not discharge the bus.
 STORED_ENERGY_NOTE = (
     "Output off; bus capacitors may stay charged: check they are discharged before touching."
 )
@@ -242,6 +245,8 @@ class Energised:
                     f"setpoint reads {setpoint:g} V, set {self.volts:g} V",
                 )
             self._arm_guards()
+            if self.notice is not None:  # acknowledged (checked above): still say it, loudly
+                LOG.warning("%s (acknowledged: %s)", self.notice.text, self.acknowledged.name)
             s._switch_output(True)  # never retried: a failure here goes straight to OFF
             if not s.output_is_on():
                 raise faults.ProtectionFault(
