@@ -1,0 +1,112 @@
+"""``bringup demo`` in a real terminal (tmux): keys in, screen read back, supply off on Ctrl+C.
+
+The simulated bench is started by the test and handed to the demo as a bench file, so it
+outlives the demo's process and its supply can be asked afterwards over its own socket.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import subprocess
+import sys
+import time
+import uuid
+from pathlib import Path
+
+import pytest
+
+TMUX = shutil.which("tmux") or ("/usr/bin/tmux" if Path("/usr/bin/tmux").exists() else None)
+pytestmark = pytest.mark.skipif(TMUX is None, reason="tmux is not installed on this machine")
+
+
+class Pane:
+    """One detached tmux session on its own server socket."""
+
+    def __init__(self, command: str, env: dict[str, str]) -> None:
+        self.socket = f"bringup-smoke-{uuid.uuid4().hex[:8]}"
+        self.env = env
+        self._tmux("new-session", "-d", "-s", "smoke", "-x", "130", "-y", "40", command)
+
+    def _tmux(self, *args: str) -> str:
+        out = subprocess.run([TMUX, "-L", self.socket, *args], capture_output=True, text=True,
+                             env=self.env, timeout=10, check=True)  # fmt: skip
+        return out.stdout
+
+    def keys(self, *keys: str) -> None:
+        self._tmux("send-keys", "-t", "smoke", *keys)
+
+    def screen(self) -> str:
+        return self._tmux("capture-pane", "-p", "-t", "smoke")
+
+    def wait_for(self, *texts: str, timeout: float = 30.0) -> str:
+        """The screen once every one of ``texts`` is on it."""
+        deadline = time.monotonic() + timeout
+        while True:
+            screen = self.screen()
+            if all(text in screen for text in texts):
+                return screen
+            if time.monotonic() > deadline:
+                raise AssertionError(f"{texts!r} never all appeared; the screen:\n{screen}")
+            time.sleep(0.1)  # polling the terminal, not a fixed wait for the app
+
+    def kill(self) -> None:
+        subprocess.run([TMUX, "-L", self.socket, "kill-server"], capture_output=True,
+                       env=self.env, timeout=10)  # fmt: skip
+
+
+def _wait(predicate, timeout: float, what: str) -> None:
+    deadline = time.monotonic() + timeout
+    while not predicate():
+        if time.monotonic() > deadline:
+            raise AssertionError(f"timed out waiting for {what}")
+        time.sleep(0.05)
+
+
+def test_demo_in_tmux_runs_a_step_and_ctrl_c_turns_the_supply_off(bench_file, tmp_path, visa_rm):
+    bench, path = bench_file("healthy")
+    log = tmp_path / "smoke.sqlite"
+    bringup = Path(sys.executable).with_name("bringup")
+    env = {**os.environ, "TERM": "xterm-256color", "BRINGUP_OPERATOR": "smoke",
+           "TEXTUAL_ANIMATIONS": "none"}  # fmt: skip
+    command = f"{bringup} demo --bench {path} --db {log}; echo bringup-exit=$?; read done"
+    pane = Pane(command, env)
+    try:
+        pane.wait_for("CHECKLIST", "First power", "r run / retake step", timeout=40)
+
+        # first power: one prompt names the supply; y energises; the step passes
+        pane.keys("r")
+        pane.wait_for("ENERGISE THE BOARD?", "switch on at 24 V")
+        pane.keys("y")
+        pane.wait_for("PASSED", timeout=40)
+
+        # the next step, and Ctrl+C while its supply is on
+        pane.keys("j")
+        pane.wait_for("1.2  Rail levels")
+        pane.keys("r")
+        pane.wait_for("ENERGISE THE BOARD?")
+        pane.keys("y")
+        _wait(lambda: bench.supply.output_on, 30, "the supply to go on")
+        pane.keys("C-c")
+        screen = pane.wait_for("bringup-exit=", timeout=30)
+    finally:
+        pane.kill()
+
+    assert "bringup-exit=0" in screen, screen
+    assert "Traceback" not in screen
+    assert not bench.supply.output_on
+    supply = visa_rm.open_resource(
+        bench.resources["supply"], read_termination="\n", write_termination="\n", timeout=2000
+    )
+    try:
+        assert supply.query("OUTPut:STATe?").strip() == "0"
+    finally:
+        supply.close()
+
+    from bringup.store import SessionLog
+
+    with SessionLog.open(log) as opened:
+        (session,) = opened.sessions()
+        outcomes = [(a.step_id, a.outcome) for a in opened.attempts(session.id)]
+    assert outcomes[0] == ("first-power", "pass")
+    assert session.state == "open"  # quit mid-session: it can be resumed
