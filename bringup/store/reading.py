@@ -70,13 +70,15 @@ class LogReading:
     def resolve_session(self, text: str) -> str:
         """The full id of the session named by ``text`` (a whole id or a unique prefix)."""
         text = (text or "").strip()
+        if not text:
+            raise StoreError(f"{self._path}: no session id given")
         with self._read():
             exact = self._rows("SELECT id FROM sessions WHERE id = ?", [text])
             if exact:
                 return exact[0]["id"]
             like = text.replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_") + "%"
             found = self._rows("SELECT id FROM sessions WHERE id LIKE ? ESCAPE '\\'", [like])
-        if len(found) == 1 and text:
+        if len(found) == 1:
             return found[0]["id"]
         if not found:
             raise StoreError(f"{self._path}: no session {text!r} in this log")

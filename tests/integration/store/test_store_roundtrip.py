@@ -168,3 +168,20 @@ def test_non_ascii_text_round_trips_and_hashes_as_utf8(db_path, log, session_id)
     stored = conn.execute("SELECT notes FROM attempts").fetchone()[0]
     conn.close()
     assert stored == "Vgs ≈ 11.8 V, probe Ω-rated" and log.verify_chain(session_id).ok
+
+
+def test_session_ids_resolve_from_a_unique_prefix_only(log, session_id):
+    other = log.create_session(
+        board=BOARD, checklist=CHECKLIST, bench=None, serial="DHS24-0002", operator="Ana"
+    )
+    assert other != session_id and log.resolve_session(other) == other
+    with pytest.raises(StoreError, match="matches 2 sessions; type more of the id"):
+        log.resolve_session(session_id[:6])
+    with pytest.raises(StoreError, match="no session 'zzzz' in this log"):
+        log.resolve_session("zzzz")
+    with pytest.raises(StoreError, match="no session id given"):
+        log.resolve_session("  ")
+    assert [s.serial for s in log.sessions()] == [
+        "DHS24-0002",
+        "DHS24-0001",
+    ]  # latest activity first
