@@ -10,8 +10,13 @@ from __future__ import annotations
 import argparse
 import time
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from bringup.errors import BringupError, InputError
+
+if TYPE_CHECKING:
+    from bringup.instruments.bench import InstrumentEntry
+    from bringup.instruments.profiles import Profile
 
 
 def add_parser(subparsers: argparse._SubParsersAction) -> None:
@@ -35,7 +40,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
     parser.set_defaults(func=run)
 
 
-def _check_one(role: str, entry, profile, profiles: dict) -> tuple[list[str], bool]:
+def _check_one(
+    role: str, entry: InstrumentEntry, profile: Profile, profiles: dict[str, Profile]
+) -> tuple[list[str], bool]:
     """Lines to print for one instrument and whether it is healthy."""
     from bringup.instruments import faults
     from bringup.instruments.profiles import matching_profiles
@@ -96,32 +103,27 @@ def run(args: argparse.Namespace) -> int:
     healthy = True
     if config.simulated:
         print(f"{config.path}: simulated bench ([simulation] enabled)")
-    try:
-        for role in ROLES:
-            entry = config.instruments[role]
-            try:
-                profile = profile_for_role(config, role, args.profiles)
-            except BringupError as exc:
-                print(f"{role}: {entry.resource}\n  problem   {exc}")
-                healthy = False
-                continue
-            lines, ok = _check_one(role, entry, profile, profiles)
-            healthy &= ok
-            print("\n".join(lines))
-        if config.channels:
-            wiring = ", ".join(
-                f"CH{w.channel}={w.net} ({w.probe_ratio:g}:1)" for w in config.channels.values()
-            )
-            print(f"scope wiring: {wiring}")
-        if args.discover:
-            from bringup.instruments.visa import discover_resources
+    for role in ROLES:
+        entry = config.instruments[role]
+        try:
+            profile = profile_for_role(config, role, args.profiles)
+        except BringupError as exc:
+            print(f"{role}: {entry.resource}\n  problem   {exc}")
+            healthy = False
+            continue
+        lines, ok = _check_one(role, entry, profile, profiles)
+        healthy &= ok
+        print("\n".join(lines))
+    if config.channels:
+        wiring = ", ".join(
+            f"CH{w.channel}={w.net} ({w.probe_ratio:g}:1)" for w in config.channels.values()
+        )
+        print(f"scope wiring: {wiring}")
+    if args.discover:
+        from bringup.instruments.visa import discover_resources
 
-            print("VISA resources found (broadcast listing, as asked):")
-            for name in discover_resources() or ("(none)",):
-                print(f"  {name}")
-    finally:
-        from bringup.instruments.visa import close_resource_manager
-
-        close_resource_manager()
+        print("VISA resources found (broadcast listing, as asked):")
+        for name in discover_resources() or ("(none)",):
+            print(f"  {name}")
     print("all instruments answer" if healthy else "some instruments need attention")
     return 0 if healthy else 1
