@@ -81,7 +81,7 @@ class SessionRunner:
         self._run_lock = threading.Lock()  # one step at a time
         self._abort = threading.Event()
         self._bench = None  # opened lazily on the first step that needs instruments
-        self._cursor: str | None = None  # stage the operator went back to
+        self._cursor: int | None = None  # index of the step to retake after a go-back
         self._running: str | None = None
 
     # ------------------------------------------------------------------ building
@@ -173,20 +173,25 @@ class SessionRunner:
         return worst_state([s.state for s in self.stages()])
 
     def current_step(self) -> str | None:
-        """The step to run next: the first unfinished step (from the stage gone back to, if
-        any); None when every step is finished."""
+        """The step to run next. After ``go_back`` it walks the stage gone back to and the
+        later ones step by step (each is retaken in order); otherwise it is the first step not
+        yet accepted. None when every step is accepted."""
         with self._lock:
             steps = self.checklist.steps()
-            start = 0
-            if self._cursor is not None:
-                start = next(i for i, s in enumerate(steps) if s.stage_id == self._cursor)
-            for step in steps[start:]:
+            if self._cursor is not None and self._cursor < len(steps):
+                return steps[self._cursor].id
+            self._cursor = None
+            for step in steps:
                 if self._state.state(step.id) not in ACCEPTED:
                     return step.id
-            if self._cursor is not None:
-                self._cursor = None
-                return self.current_step()
             return None
+
+    def _advance(self, step_id: str) -> None:
+        """After an attempt or a decision: a go-back walk moves on once its step is accepted."""
+        steps = self.checklist.steps()
+        if self._cursor is not None and steps[self._cursor].id == step_id:
+            if self._state.state(step_id) in ACCEPTED:
+                self._cursor += 1
 
     def plan(self, step_id: str) -> StepPlan:
         """What ``step_id`` will set on the instruments and ask of the operator (resolved for
@@ -252,6 +257,7 @@ class SessionRunner:
             result = execute(self, step, answers, cancel, finish, on_progress)
             with self._lock:
                 self._state.add(result)
+                self._advance(step_id)
                 self._update_listing()
             return result
         finally:
@@ -288,13 +294,11 @@ class SessionRunner:
         return parse_quantity(text, step.reading.unit, where=f"{step_id} reading")
 
     def _check_order(self, step: Step) -> None:
+        # Going back changes where the walk starts, not the rule: every step before the one
+        # run must stand accepted (a retake that fails blocks the later steps again).
         for earlier in self.checklist.steps():
             if earlier.id == step.id:
                 return
-            if self._cursor is not None and self._stage_index(
-                earlier.stage_id
-            ) >= self._stage_index(self._cursor):
-                continue
             state = self._state.state(earlier.id)
             if state not in ACCEPTED:
                 raise RunnerError(
@@ -319,6 +323,7 @@ class SessionRunner:
             self._log.record_event(self.session_id, kind="skip", operator=self.operator,
                                    stage_id=step.stage_id, step_id=step.key, reason=reason.strip())  # fmt: skip
             self._state.decide(step_id, "skipped", reason.strip())
+            self._advance(step_id)
             self._update_listing()
 
     def waive(self, step_id: str, reason: str, name: str) -> None:
@@ -336,6 +341,7 @@ class SessionRunner:
                                    stage_id=step.stage_id, step_id=step.key, reason=reason.strip(),
                                    payload={"recorded_by": self.operator})  # fmt: skip
             self._state.decide(step_id, "waived", f"{reason.strip()} ({name.strip()})")
+            self._advance(step_id)
             self._update_listing()
 
     def note(self, text: str, step_id: str | None = None) -> None:
@@ -364,8 +370,9 @@ class SessionRunner:
         with self._lock:
             self._log.record_event(self.session_id, kind="go-back", operator=self.operator,
                                    stage_id=stage_id, reason="operator went back")  # fmt: skip
-            self._cursor = stage_id
-            self._state.reopen_from(stage_id)
+            self._cursor = next(
+                i for i, s in enumerate(self.checklist.steps()) if s.stage_id == stage_id
+            )
 
     def abort(self, reason: str = "operator abort") -> None:
         """Put the bench in its safe state now (supply output OFF) and stop a running step.

@@ -30,9 +30,6 @@ class SessionState:
         """Record a skip ("skipped") or waiver ("waived") of ``step_id``."""
         self._decision[step_id] = (state, reason)
 
-    def reopen_from(self, stage_id: str) -> None:
-        """Nothing is forgotten when going back: retakes simply add attempts."""
-
     def state(self, step_id: str) -> str:
         """The step's state from its latest attempt or decision."""
         if step_id in self._decision:
