@@ -37,11 +37,22 @@ def checklist_snapshot(checklist: Checklist) -> dict:
     }
 
 
+def _text(data: dict, what: str) -> str:
+    from bringup.errors import InputError
+
+    text = data.get("text") if isinstance(data, dict) else None
+    if not isinstance(text, str):
+        raise InputError(f"the session's {what} snapshot holds no file text: it cannot be resumed")
+    return text
+
+
 def board_from_snapshot(data: dict) -> Board:
     """Rebuild (and re-validate) the board from a session's snapshot."""
-    return board_from_document(parse_toml(data["text"], data.get("path", "<logged board>")))
+    return board_from_document(parse_toml(_text(data, "board"), data.get("path", "<logged board>")))
 
 
 def checklist_from_snapshot(data: dict) -> Checklist:
     """Rebuild (and re-validate) the checklist from a session's snapshot."""
-    return checklist_from_document(parse_toml(data["text"], data.get("path", "<logged checklist>")))
+    return checklist_from_document(
+        parse_toml(_text(data, "checklist"), data.get("path", "<logged checklist>"))
+    )
