@@ -104,6 +104,12 @@ def main() -> None:
                 statistics.median(runs[k]) for k in ("raw", "driver", "block")
             )
             raw_client.close()
+            # the same record sent little-endian: native order here, so no byte swap
+            session.configure("byte_order", order=bench.profiles["scope"].word("order_little"))
+            t_native, codes_native = timed(
+                lambda: session.query_block("TRAC? CH1", "<i2"), args.repeats
+            )
+            session.configure("byte_order", order=bench.profiles["scope"].word("order_big"))
 
             slow = InstrumentSession(
                 "scope", sim.resources["scope"], bench.profiles["scope"], fast_reads=False
@@ -155,6 +161,7 @@ def main() -> None:
     print(line("plain socket (reference)", t_raw))
     print(line("driver fetch_waveform (with preamble)", t_driver))
     print(line("driver query_block (block read alone)", t_block))
+    print(line("driver query_block, little-endian (no swap)", t_native))
     print(line("driver on public PyVISA API (fast_reads=False)", t_public))
     print(line("pyvisa query_binary_values (stock)", t_stock))
     ratio = t_raw / t_driver
