@@ -1,0 +1,82 @@
+"""``bringup run/resume/sessions`` options and bad files: one line, exit status 2, no traceback,
+nothing created; and a headless run that takes its typed reading from an answer file."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+from bringup.checklist.board import checklists_dir
+from bringup.store import SessionLog
+
+BASE = ["run", "--serial", "DHS24-0001", "--operator", "tester"]
+
+
+def _start(args: list[str]) -> subprocess.Popen:
+    return subprocess.Popen([sys.executable, "-m", "bringup", *args], stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True)  # fmt: skip
+
+
+def test_bad_options_and_files_are_one_line_errors(tmp_path):
+    db = tmp_path / "never.sqlite"
+    bad_checklist = tmp_path / "checklist.toml"
+    text = (checklists_dir() / "high-side-bootstrap.toml").read_text()
+    bad_checklist.write_text(text.replace('analysis = "droop"', 'analysis = "sag"'))
+    line = next(i for i, t in enumerate(bad_checklist.read_text().splitlines(), 1) if '"sag"' in t)
+    bad_answers = tmp_path / "answers.toml"
+    bad_answers.write_text('schema = 1\n[steps."thermal.soak"]\nconfirmd = true\n')
+    cases = {
+        "json without auto": (BASE + ["--sim", "--json", "--db", str(db)], "--json: only with --auto"),
+        "no bench": (BASE + ["--auto", "--db", str(db)], "give --bench FILE"),
+        "bad serial": (["run", "--sim", "--serial", "42", "--operator", "t", "--auto", "--db", str(db)],
+                       "does not match the pattern"),
+        "missing board": (BASE + ["--sim", "--board", str(tmp_path / "nope.toml"), "--auto",
+                                  "--db", str(db)], "file not found"),
+        "bad checklist": (BASE + ["--sim", "--checklist", str(bad_checklist), "--auto", "--db", str(db)],
+                          f"{bad_checklist}:{line}: stages.droop-max-on-time.steps.droop.analysis"),
+        "bad answers": (BASE + ["--sim", "--answers", str(bad_answers), "--auto", "--db", str(db)],
+                        f"{bad_answers}:3: steps.thermal.soak.confirmd: unknown key"),
+        "unknown scenario": (BASE + ["--sim", "--scenario", "smoky", "--auto", "--db", str(db)],
+                             "--scenario smoky: unknown"),
+        "resume without a log": (["resume", "--auto", "--db", str(db)], "no session log there"),
+    }  # fmt: skip
+    procs = {name: (_start(args), want) for name, (args, want) in cases.items()}
+    for name, (proc, want) in procs.items():
+        out, err = proc.communicate(timeout=120)
+        assert proc.returncode == 2, (name, out, err)
+        assert len(err.strip().splitlines()) == 1 and want in err, (name, err)
+        assert "Traceback" not in err and out == "", (name, out)
+    assert not db.exists()  # nothing starts on an invalid file or option
+
+
+def test_sessions_on_a_log_that_does_not_exist_yet(tmp_path):
+    db = tmp_path / "none.sqlite"
+    done = subprocess.run([sys.executable, "-m", "bringup", "sessions", "--db", str(db), "--json"],
+                          capture_output=True, text=True, timeout=60)  # fmt: skip
+    assert done.returncode == 0 and json.loads(done.stdout) == []
+    assert not db.exists()
+
+
+def test_a_typed_reading_from_the_answer_file_is_judged(tmp_path):
+    db = tmp_path / "log.sqlite"
+    answers = tmp_path / "answers.toml"
+    text = (checklists_dir() / "answers-demo.toml").read_text().replace('"3.31 V"', '"3.45 V"')
+    answers.write_text(text)
+    done = subprocess.run([sys.executable, "-m", "bringup", *BASE, "--sim", "--auto", "--json",
+                           "--answers", str(answers), "--db", str(db)],
+                          capture_output=True, text=True, timeout=120)  # fmt: skip
+    summary = json.loads(done.stdout)
+    # 3.45 V typed against 3.2-3.4 V: beyond the max by more than the 0.02 V guard band
+    assert done.returncode == 1 and summary["stages"][0] == {"id": "power-rails", "verdict": "fail"}
+    assert [s["verdict"] for s in summary["stages"][1:]] == ["not-run"] * 4
+    with SessionLog.open(db, create=False) as log:
+        meter = log.attempts(summary["session"], step_id="logic-meter")[0]
+        assert meter.metrics["logic_level"]["value"] == 3.45
+        assert meter.verdicts["logic_level"]["outcome"] == "fail"
+    listed = subprocess.run([sys.executable, "-m", "bringup", "sessions", "--db", str(db), "--json"],
+                            capture_output=True, text=True, timeout=60)  # fmt: skip
+    rows = json.loads(listed.stdout)
+    assert [(r["id"], r["serial"], r["verdict"], r["finished"]) for r in rows] == [
+        (summary["session"], "DHS24-0001", "fail", False)
+    ]
