@@ -35,8 +35,9 @@ class DroopMetrics:
     """Droop of one on-pulse. Volts, seconds; ``droop_rate_v_per_s`` > 0 when the top sags.
 
     ``start_v``/``end_v`` are the fitted line at the settled start and at the end of the top.
-    ``on_time_s`` is the observed on-time (50 % rising to 50 % falling, or to the record's end
-    when ``window`` says "edge-to-end"). ``t_on_max_s`` is the on-time at which the line
+    ``on_time_s`` is the observed on-time, ``on_start_s`` to ``on_end_s`` (50 % rising to 50 %
+    falling, or to the record's end when ``window`` says "edge-to-end"; ``window`` is one of
+    "edge-to-edge", "edge-to-end", "start-to-edge", "whole-record", "given"). ``t_on_max_s`` is the on-time at which the line
     reaches ``floor_v`` (None with a reason when it never does). ``extrapolation`` is
     t_on_max_s / on_time_s. ``droop_rate_uncertainty_v_per_s`` is the standard error (k = 1)
     of the fitted slope.
@@ -48,6 +49,8 @@ class DroopMetrics:
     droop_rate_v_per_s: float
     droop_rate_uncertainty_v_per_s: float
     on_time_s: float
+    on_start_s: float
+    on_end_s: float
     t_on_max_s: float | None
     floor_v: float
     top_start_s: float
@@ -116,29 +119,19 @@ def _settled_index(y: np.ndarray, a: int, b: int, line: _Line) -> int:
     if width > 1:
         c = np.concatenate(([0.0], np.cumsum(resid)))
         resid = (c[width:] - c[:-width]) / width
-    limit = 5.0 * line.rms / math.sqrt(width) + 1e-12
+    # A quantised record (a scope's 8 bits) leaves a staircase about the line that averaging
+    # does not remove: never call a residual under 1.5 steps of the ADC "not settled".
+    sample = np.abs(np.diff(y[a : min(b, a + 100_000)].astype(np.float64)))
+    steps = sample[sample > 0]
+    lsb = float(steps.min()) if steps.size else 0.0
+    limit = max(5.0 * line.rms / math.sqrt(width), 1.5 * lsb) + 1e-12
     out = np.flatnonzero(np.abs(resid) > limit)
     return a if out.size == 0 else min(a + int(out[-1]) + width, half)
 
 
-def measure_droop(
-    y: np.ndarray,
-    dt: float,
-    floor_v: float,
-    t0: float = 0.0,
-    *,
-    settle_s: float | None = None,
-) -> DroopMetrics:
-    """Measure the droop of the longest on-pulse of ``y`` (V, ``dt`` s apart).
-
-    ``floor_v``: the lowest acceptable level (V). ``settle_s``: time after the rising edge to
-    skip before fitting; by default found from the data (where the top starts to follow its
-    line within 5 sigma of its noise). Raises ``AnalysisError`` when there is no top to fit.
-    """
-    if not (isinstance(floor_v, int | float | np.floating) and math.isfinite(floor_v)):
-        raise AnalysisError(f"floor must be a finite voltage, got {floor_v!r}")
-    y = np.asarray(y)
-    dt, t0, n = float(dt), float(t0), int(np.asarray(y).size)
+def _find_pulse(y: np.ndarray, dt: float, t0: float, n: int):
+    """(on start instant, top start index, top end index, on end instant, window) of the
+    longest high pulse of ``y``."""
     try:
         tr, _ = find_transitions(y, dt, t0)
     except AnalysisError as exc:
@@ -149,7 +142,7 @@ def measure_droop(
         # A "transition" that takes a quarter of the record is the droop itself (a capture of
         # the top alone, read by min/max levels), not an edge.
         tr = None
-    pulses = []  # (on start instant, top start index, top end index, on end instant, window)
+    pulses = []
     if tr is not None and len(tr):
         rising = tr.direction > 0
         for k in range(len(tr)):
@@ -165,13 +158,59 @@ def measure_droop(
             elif k == 0:
                 end_idx = int(math.floor((tr.t_high_s[k] - t0) / dt))
                 pulses.append((t0, 0, end_idx, tr.t_mid_s[k], "start-to-edge"))
-    elif tr is None or len(tr) == 0:
+    else:
         pulses.append((t0, 0, n, t0 + n * dt, "whole-record"))
     if not pulses:
         raise AnalysisError("no on-pulse in the record")
-    on_start, a, b, on_end, window = max(pulses, key=lambda p: p[3] - p[0])
+    return max(pulses, key=lambda p: p[3] - p[0])
+
+
+def _given_window(on_window_s, dt: float, t0: float, n: int):
+    try:
+        on_start, on_end = (float(v) for v in on_window_s)
+    except (TypeError, ValueError):
+        raise AnalysisError(f"on-window must be two instants (s), got {on_window_s!r}") from None
+    if not (math.isfinite(on_start) and math.isfinite(on_end) and on_end > on_start):
+        raise AnalysisError(f"on-window must run forwards, got {on_start:g} s to {on_end:g} s")
+    a = max(int(math.ceil((on_start - t0) / dt)), 0)
+    b = min(int(math.floor((on_end - t0) / dt)) + 1, n)
+    if b <= a:
+        raise AnalysisError(
+            f"the on-window {on_start:g} s to {on_end:g} s is outside the record "
+            f"({t0:g} s to {t0 + n * dt:g} s)"
+        )
+    return on_start, a, b, on_end, "given"
+
+
+def measure_droop(
+    y: np.ndarray,
+    dt: float,
+    floor_v: float,
+    t0: float = 0.0,
+    *,
+    settle_s: float | None = None,
+    on_window_s: tuple[float, float] | None = None,
+) -> DroopMetrics:
+    """Measure the droop of the longest on-pulse of ``y`` (V, ``dt`` s apart).
+
+    ``floor_v``: the lowest acceptable level (V). ``settle_s``: time after the on-pulse starts
+    to skip before fitting; by default found from the data (where the top starts to follow its
+    line within 5 sigma of its noise). ``on_window_s``: the on-pulse's start and end instants
+    (s) when another trace knows them better, e.g. V_BS, whose on-time is its lower, sagging
+    part between recharge bumps: pass the ``on_start_s``/``on_end_s`` that ``measure_droop``
+    found on V_GS of the same acquisition. Raises ``AnalysisError`` when there is no top.
+    """
+    if not (isinstance(floor_v, int | float | np.floating) and math.isfinite(floor_v)):
+        raise AnalysisError(f"floor must be a finite voltage, got {floor_v!r}")
+    y = np.asarray(y)
+    dt, t0, n = float(dt), float(t0), int(np.asarray(y).size)
+    if on_window_s is not None:
+        on_start, a, b, on_end, window = _given_window(on_window_s, dt, t0, n)
+    else:
+        on_start, a, b, on_end, window = _find_pulse(y, dt, t0, n)
     # Stop a little before the falling edge so that its first samples do not bend the line.
-    b = max(a, b - max(1, (b - a) // 200)) if window in ("edge-to-edge", "start-to-edge") else b
+    if window in ("edge-to-edge", "start-to-edge", "given"):
+        b = max(a, b - max(1, (b - a) // 200))
     if b - a < _MIN_TOP_SAMPLES:
         raise AnalysisError(
             f"the on-pulse top has only {max(b - a, 0)} samples (need {_MIN_TOP_SAMPLES})"
@@ -216,6 +255,8 @@ def measure_droop(
         droop_rate_v_per_s=float(-slope_v_per_s),
         droop_rate_uncertainty_v_per_s=float(line.slope_se / dt),
         on_time_s=float(on_end - on_start),
+        on_start_s=float(on_start),
+        on_end_s=float(on_end),
         t_on_max_s=None if t_on_max is None else float(t_on_max),
         floor_v=float(floor_v),
         top_start_s=float(top_start),

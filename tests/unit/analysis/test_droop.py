@@ -80,3 +80,28 @@ def test_bad_floor_and_too_short_a_top():
         measure_droop(y, 100e-9, 8.2)
     with pytest.raises(AnalysisError, match="floor"):
         measure_droop(y, 100e-9, float("nan"))
+
+
+def test_bootstrap_voltage_with_the_on_window_of_vgs():
+    # V_BS sags during the on-time and is topped up by a recharge bump in each off-time: its
+    # on-time is its lower part, so the window comes from V_GS of the same acquisition.
+    dt, period, on = 10e-9, 40e-6, 38e-6
+    t = np.arange(int(1.5 * period / dt)) * dt - 1e-6
+    ph = np.mod(t, period)
+    vgs = np.where(ph < on, 11.4 - 12.7e3 * ph, 0.0)
+    bump = 10.45 - 0.1 * np.exp(-(ph - on) / 0.3e-6)
+    vbs = np.where(ph < on, 10.39 - 12.7e3 * ph, bump)
+    g = measure_droop(scope(vgs, noise_v=0.02, seed=27), dt, 8.0, t0=t[0])
+    assert g.on_start_s == pytest.approx(0.0, abs=20e-9)
+    assert g.on_end_s == pytest.approx(on, abs=20e-9)
+    b = measure_droop(
+        scope(vbs, noise_v=0.02, seed=28), dt, 8.2, t0=t[0], on_window_s=(g.on_start_s, g.on_end_s)
+    )
+    assert b.window == "given"
+    assert b.droop_rate_v_per_s == pytest.approx(12.7e3, rel=0.02)
+    assert b.end_v == pytest.approx(10.39 - 12.7e3 * on, abs=0.03)
+    assert b.t_on_max_s == pytest.approx((10.39 - 8.2) / 12.7e3, rel=0.03)
+    with pytest.raises(AnalysisError, match="outside the record"):
+        measure_droop(vbs, dt, 8.2, t0=t[0], on_window_s=(1.0, 2.0))
+    with pytest.raises(AnalysisError, match="forwards"):
+        measure_droop(vbs, dt, 8.2, t0=t[0], on_window_s=(2e-6, 1e-6))
