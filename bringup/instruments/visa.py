@@ -134,6 +134,12 @@ class InstrumentSession:
             wire.no_delay()
         else:
             wire = ResourceWire(res, chunk)
+            try:  # the VISA way to ask for TCP_NODELAY; backends without it just refuse
+                from pyvisa import constants
+
+                res.set_visa_attribute(constants.ResourceAttribute.tcpip_nodelay, True)
+            except Exception:  # not a TCP resource, or the backend does not offer it
+                pass
         self._resource, self._wire, self._broken = res, wire, False
 
     def _drop(self) -> None:

@@ -239,3 +239,45 @@ def test_a_profiles_spelling_is_what_the_instrument_receives(sim_bench, tmp_path
             bench.scope.configure_trigger(source=1, level_v=2.5)
         assert info.value.code == -113  # Undefined header (SCPI-99 error list)
         assert sim.scope.trigger_source == 1  # the steps before it went through
+
+
+def test_public_pyvisa_path_reads_the_same_record(sim_bench, tmp_path):
+    # fast_reads=False: only the resource API (read_raw / read_bytes), as with another backend
+    sim = sim_bench()
+    path = bench_file(sim, tmp_path, PROFILE_SETS["short-forms"])
+    with open_bench(load_bench(path), fast_reads=False) as bench:
+        bench.scope.configure_timebase(duration_s=50e-6, points=10_000, start_s=-5e-6)
+        bench.scope.acquire()
+        wf = bench.scope.fetch_waveform(1)
+        assert bench.sessions["scope"].query("*IDN?").startswith("NULLPOINT,SIMSCOPE-4")
+    truth = sim.scope.record.traces["CH1"]
+    np.testing.assert_array_equal(wf.codes, truth.codes << (16 - truth.bits))
+
+
+def test_one_instrument_shared_by_two_threads_never_mixes_replies(sim_bench, tmp_path):
+    import threading
+
+    sim = sim_bench()
+    path = bench_file(sim, tmp_path, PROFILE_SETS["short-forms"])
+    with open_bench(load_bench(path)) as bench:
+        bench.scope.configure_timebase(duration_s=50e-6, points=10_000, start_s=-5e-6)
+        bench.scope.acquire()
+        expected = bench.scope.fetch_waveform(2).codes
+        problems: list[str] = []
+
+        def fetch() -> None:
+            for _ in range(15):
+                if not np.array_equal(bench.scope.fetch_waveform(2).codes, expected):
+                    problems.append("waveform differs")
+
+        def ask() -> None:
+            for _ in range(60):
+                if not bench.sessions["scope"].query("*IDN?").startswith("NULLPOINT,SIMSCOPE-4,"):
+                    problems.append("identity reply mixed up")
+
+        threads = [threading.Thread(target=fetch), threading.Thread(target=ask)]
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join(30)
+        assert not problems and not any(t.is_alive() for t in threads)
