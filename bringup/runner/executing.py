@@ -9,7 +9,6 @@ logged as ``not-run`` with the reason).
 
 from __future__ import annotations
 
-import math
 import threading
 import time
 from collections.abc import Callable
@@ -342,8 +341,3 @@ def execute(
     stored = store_attempt(runner, step, result, ctx.raw, out)
     ctx.emit("done", f"{step.id}: {state}")
     return stored
-
-
-def is_number(value: object) -> bool:
-    """True for a finite float or int (not bool)."""
-    return isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value)

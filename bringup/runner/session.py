@@ -38,7 +38,6 @@ from bringup.errors import BringupError, InputError
 from bringup.runner.bench_source import BenchSource
 from bringup.runner.results import (
     ACCEPTED,
-    FINISHED,
     AttemptResult,
     Progress,
     StageStatus,
@@ -306,9 +305,6 @@ class SessionRunner:
                     "steps run in order (retake, skip or waive it first)"
                 )
 
-    def _stage_index(self, stage_id: str) -> int:
-        return [s.id for s in self.checklist.stages].index(stage_id)
-
     # ------------------------------------------------------------------ decisions
     def skip(self, step_id: str, reason: str) -> None:
         """Skip a step with a reason (logged). A failed step cannot be skipped: waive it."""
@@ -446,7 +442,3 @@ class SessionRunner:
 
     def __exit__(self, *exc: object) -> None:
         self.close()
-
-
-# States a step may be left in (re-exported for callers that test membership).
-FINISHED_STATES = FINISHED
