@@ -6,6 +6,8 @@ not guess: quantiphy (which ``format_quantity`` uses for printing) reads "47R" a
 "4k7" as 4 with unit "k7", "1,5" as 15 and "2 K" as 2000, all silently. The resistor codes
 of the trade ("47R", "4R7", "4k7", "1M5", IEC 60062) are read as ohms.
 
+"min" and "h" are read as seconds (a soak of "20 min" is 1200.0 s).
+
 A bare "K" after a number is kilo when no unit is expected ("2K2", "10K" in electronics
 usage) and kelvin when the caller expects K or K/W.
 """
@@ -70,6 +72,8 @@ _UNIT_ALIASES = {
     "A/s": "A/s",
     "%": "%",
 }
+# Longer times for soaks and logs ("20 min"), read as seconds; no prefixes on them.
+_MINUTES_HOURS = {"min": 60, "h": 3600}
 # Units that take no SI prefix on input or output (temperatures, ratios, thermal resistance).
 _NO_PREFIX = {"degC", "%", "K/W"}
 # How each canonical unit is printed.
@@ -118,6 +122,8 @@ def _split_suffix(suffix: str, expected: str | None) -> tuple[int, str | None] |
     """Split "kohm" into (3, "ohm"); None when the suffix is not prefix+unit."""
     if suffix == "":
         return 0, None
+    if suffix in _MINUTES_HOURS:
+        return 0, "s"  # scaled by the caller
     if suffix in _UNIT_ALIASES:
         unit = _UNIT_ALIASES[suffix]
         # Bare "K": kelvin only when the caller expects a kelvin quantity.
@@ -189,7 +195,7 @@ def parse_quantity_unit(
     scale, found = split
     if expected is not None and found is not None and found != expected:
         raise _fail(text, expected, where, f"its unit is {_DISPLAY.get(found, found)}")
-    value = _scaled(number, scale)
+    value = _scaled(number, scale) * _MINUTES_HOURS.get(suffix, 1)
     if not math.isfinite(value):
         raise _fail(text, expected, where, "not a finite number")
     return value, found if found is not None else expected

@@ -38,6 +38,8 @@ from bringup.errors import InputError
         ("25 kHz", "Hz", 25e3),
         ("38 us", "s", 38e-6),
         ("1.5 mA", "A", 1.5e-3),
+        ("20 min", "s", 1200.0),
+        ("1.5 h", None, 5400.0),
         ("12", "V", 12.0),  # a bare number is in the expected unit
         ("1e-6", None, 1e-6),
         (" -0.5 V ", "V", -0.5),
