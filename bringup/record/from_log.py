@@ -11,6 +11,8 @@ import base64
 import datetime as _dt
 from pathlib import Path
 
+import numpy as np
+
 from bringup.record.build import assemble_record, build_content
 from bringup.record.compare import content_digest
 from bringup.record.keys import load_private_key
@@ -43,7 +45,7 @@ def content_from_log(log: SessionLog, session_id: str) -> tuple[dict, SessionDat
     """The record content of ``session_id`` (a full id) and the session data it came from."""
     data = log.session(session_id)
 
-    def load(attempt: AttemptRecord, name: str):  # noqa: ANN202 - numpy array
+    def load(attempt: AttemptRecord, name: str) -> np.ndarray:
         return log.load_waveform(attempt.id, name).codes
 
     return build_content(data, load), data
