@@ -254,8 +254,12 @@ class InstrumentSession:
     def write(self, command: str) -> None:
         """Send a command that changes state. Never retried: it may have taken effect."""
         with self._lock:
-            self._ready()
-            self._write(command)
+            try:
+                self._ready()
+                self._write(command)
+            except faults.ConnectionLost as fault:
+                self._tell(fault)
+                raise
 
     def query(self, command: str, *, timeout_ms: int | None = None, repeatable: bool = True) -> str:
         """Send ``command`` and return its one-line reply as text (terminator removed)."""

@@ -108,14 +108,19 @@ def test_an_exception_inside_the_step_turns_the_output_off(rig, error):
     assert not sim.supply.output_on
 
 
-def test_losing_another_instrument_turns_the_output_off_at_once(rig):
+@pytest.mark.parametrize("role", ["thermometer", "scope"])
+def test_losing_another_instrument_turns_the_output_off_at_once(rig, role):
     sim, bench = rig
+    step = {
+        "thermometer": bench.thermometer.read_temperature_c,  # a query
+        "scope": bench.scope.arm,  # a command, then its error query
+    }[role]
     with pytest.raises(faults.ConnectionLost):
         with energised(bench, volts=24.0, current_limit_a=8.0, ovp_v=27.0) as powered:
             assert sim.supply.output_on
-            sim.servers["thermometer"].stop()  # the meter's cable is pulled
+            sim.servers[role].stop()  # the instrument's cable is pulled
             try:
-                bench.thermometer.read_temperature_c()
+                step()
             except faults.ConnectionLost:
                 # off before the runner has even seen the fault
                 assert not sim.supply.output_on
