@@ -183,6 +183,9 @@ def _soak(ctx: _Context, bench, powered) -> None:
                                 fit.final_c_uncertainty / 2 if fit else None,
                                 fit.tau_s if fit else None, settled, limit)  # fmt: skip
         readings = {"temperature_c": temps[-1], "bench_time_s": elapsed}
+        if len(temps) % _REFIT_EVERY == 1:  # the load current now and then, not every reading
+            readings["supply_voltage_v"] = powered.measure_voltage()
+            readings["supply_current_a"] = powered.measure_current()
         ctx.emit("soaking", f"soak {elapsed:.0f} s: {temps[-1]:.1f} degC",
                  fraction=min(1.0, elapsed / soak["duration_s"]), readings=readings,
                  soak=ctx.soak)  # fmt: skip
