@@ -283,6 +283,12 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.set("on_time", d.on_time_s)
         if d.t_on_max_s is not None:
             out.set("on_time_supported", d.t_on_max_s)
+        elif d.start_v <= floor:
+            # Vgs is below the floor as soon as the edge settles: no on-time is supported.
+            out.set("on_time_supported", 0.0)
+            out.warnings.append(
+                f"Vgs starts at {d.start_v:.3g} V, already below the {floor:.3g} V floor"
+            )
         elif d.droop_rate_v_per_s <= 0 and d.end_v > floor:
             # The top does not sag at all: its line never reaches the floor. Reported as a
             # large finite value so that the target can judge it.
