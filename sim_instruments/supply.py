@@ -85,7 +85,10 @@ class Supply(Instrument):
                         hi = mid
                     else:
                         lo = mid
-                v, i = lo, min(float(model.bus_current(lo)), self.current_limit)
+                # In CC the output current is the limit. (A load that jumps across the limit,
+                # e.g. a driver dropping out at its UVLO, has no steady point: a real supply
+                # then hovers at that voltage with the current at the limit.)
+                v, i = lo, self.current_limit
                 self.in_cc = True
             self.out_v, self.out_i = v, i
             self.board.set_bus(v)

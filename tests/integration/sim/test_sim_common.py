@@ -140,3 +140,34 @@ def test_command_only_and_query_only_headers(bench, connect):
     supply.write("MEAS:VOLT 3")  # a query only
     supply.write("VOLT:PROT:CLE?")  # a command only: no reply is sent
     assert [c for c, _ in _errors(supply)] == [-113, -113]
+
+
+def test_wai_ese_and_status_byte_summary(bench, connect):
+    scope = connect(bench, "scope", timeout_ms=10000)
+    scope.write("SWE:POIN 100000;INIT;*WAI")  # *WAI: the next command waits for the record
+    assert scope.query("TRAC:PRE? CH1").startswith("100000,")
+    scope.write("*ESE 32;BAD:HEADER")
+    assert scope.query("*ESE?") == "32"
+    assert int(scope.query("*STB?")) & 32  # ESB: an enabled event bit (command error) is set
+    scope.write("*CLS")
+    assert int(scope.query("*STB?")) == 0
+
+
+def test_simulation_subsystem_is_shared_by_the_three_instruments(bench, connect):
+    meter = connect(bench, "thermometer")
+    supply = connect(bench, "supply")
+    assert meter.query("SIM:SCEN?") == '"healthy"'
+    meter.write("SIM:TIME:SCAL 0")  # hold simulated time
+    assert float(meter.query("SIM:TIME:SCAL?")) == 0.0  # done before asking elsewhere
+    assert float(supply.query("SIM:TIME:SCAL?")) == 0.0
+    t0 = float(supply.query("SIM:TIME?"))
+    assert float(meter.query("SIM:TIME?")) == t0
+    supply.write("VOLT 24;CURR 8;OUTP ON")
+    idle = float(supply.query("MEAS:CURR?"))
+    meter.write("SIM:PWM:DUTY 0.5;SIM:PWM ON")  # the PWM switch, thrown from another instrument
+    assert meter.query("SIM:PWM?") == "1" and supply.query("SIM:PWM?") == "1"
+    loaded = float(supply.query("MEAS:CURR?"))
+    # [computed] 24 V across the 4 ohm load at 50 % duty draws about 3 A on average
+    assert loaded - idle == pytest.approx(24.0 / 4.0 * 0.5, rel=0.1)
+    meter.write("SIM:PWM:DUTY 1.5")
+    assert meter.query("SYST:ERR?").startswith("-222,")
