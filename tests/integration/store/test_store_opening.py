@@ -192,3 +192,24 @@ def test_an_exclusive_transaction_in_another_process_is_reported(db_path):
         record(log, sid, outcome="pass")
         assert [a.outcome for a in log.attempts(sid)] == ["fail", "pass"]
         assert log.verify_chain(sid).ok
+
+
+def test_damage_deep_in_the_file_is_found_by_the_integrity_check(db_path):
+    sid = _v1_log_with_a_session(db_path)
+    with SessionLog.open(db_path) as log:
+        assert log.check_integrity() == []
+    conn = sqlite3.connect(db_path)
+    page_size = conn.execute("PRAGMA page_size").fetchone()[0]
+    root = conn.execute("SELECT rootpage FROM sqlite_master WHERE name = 'metrics'").fetchone()[0]
+    conn.close()
+    data = bytearray(db_path.read_bytes())
+    # a b-tree page starts with its type byte (2, 5, 10 or 13) and cell count at offset 3
+    # [read: sqlite.org/fileformat.html, 1.6 "B-tree Pages"]: make it a page of no known type
+    start = (root - 1) * page_size
+    data[start : start + 8] = b"\x63\xff\xff\xff\xff\xff\xff\xff"
+    db_path.write_bytes(bytes(data))
+    with SessionLog.open(db_path) as log:  # page 1 is intact, so the file opens
+        assert log.check_integrity() != []
+        assert log.attempts(sid)[0].outcome == "fail"  # the attempts table itself is unharmed
+        with pytest.raises(StoreError, match="corrupt"):
+            log.verify_chain(sid)  # reads the damaged metrics table
