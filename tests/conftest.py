@@ -35,7 +35,6 @@ def demo_design() -> dict[str, float]:
 
 @pytest.fixture
 def sim_bench(demo_design: dict[str, float]) -> Iterator[Callable[..., object]]:
-    pytest.importorskip("sim_instruments.model", reason="the stage model has not landed yet")
     from sim_instruments.bench import RunningBench, start_bench
 
     started: list[RunningBench] = []

@@ -70,7 +70,11 @@ def run(args: argparse.Namespace) -> int:
             f"--port-base {args.port_base}: cannot listen on 127.0.0.1: {exc.strerror or exc}"
         ) from None
     stop = threading.Event()
-    previous = signal.signal(signal.SIGTERM, lambda signum, frame: stop.set())
+    # Ctrl-C, SIGTERM and a closed terminal all end the same way: supply OFF, servers closed.
+    stopping = [signal.SIGINT, signal.SIGTERM] + (
+        [signal.SIGHUP] if hasattr(signal, "SIGHUP") else []
+    )
+    previous = {sig: signal.signal(sig, lambda signum, frame: stop.set()) for sig in stopping}
     try:
         if args.bench_out:
             path = Path(args.bench_out)
@@ -91,6 +95,7 @@ def run(args: argparse.Namespace) -> int:
             pass
     finally:
         bench.stop()  # supply output OFF first, then every connection closed
-        signal.signal(signal.SIGTERM, previous)
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
     print("simulated bench stopped (supply output OFF).", flush=True)
     return 0

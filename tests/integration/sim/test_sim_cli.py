@@ -41,7 +41,10 @@ def _wait_for(q: queue.Queue, prefix: str, timeout_s: float = 20.0) -> list[str]
             return seen
 
 
-def test_bringup_sim_serves_writes_a_bench_file_and_stops_on_sigterm(tmp_path, visa_rm):
+@pytest.mark.parametrize("stop_signal", [signal.SIGTERM, signal.SIGINT])
+def test_bringup_sim_serves_writes_a_bench_file_and_stops_on_a_signal(
+    tmp_path, visa_rm, stop_signal
+):
     bench_path = tmp_path / "bench.toml"
     proc = subprocess.Popen(
         [
@@ -64,7 +67,8 @@ def test_bringup_sim_serves_writes_a_bench_file_and_stops_on_sigterm(tmp_path, v
         env={**os.environ, "PYTHONUNBUFFERED": "1"},
     )
     try:
-        lines = _wait_for(_lines(proc), "serving on 127.0.0.1")
+        q = _lines(proc)
+        lines = _wait_for(q, "serving on 127.0.0.1")
         text = "".join(lines)
         data = tomllib.loads(bench_path.read_text())
         assert data["simulation"] == {"enabled": True}
@@ -84,7 +88,7 @@ def test_bringup_sim_serves_writes_a_bench_file_and_stops_on_sigterm(tmp_path, v
         config = load_bench(bench_path)
         assert config is not None
     finally:
-        proc.send_signal(signal.SIGTERM)
+        proc.send_signal(stop_signal)
         try:
             rc = proc.wait(timeout=10)
         except subprocess.TimeoutExpired:
@@ -92,6 +96,10 @@ def test_bringup_sim_serves_writes_a_bench_file_and_stops_on_sigterm(tmp_path, v
             raise
     assert rc == 0
     assert proc.stderr.read() == ""
+    rest = []
+    while (line := q.get(timeout=10)) is not None:
+        rest.append(line)
+    assert rest == ["simulated bench stopped (supply output OFF).\n"]
 
 
 def test_bringup_sim_rejects_an_unknown_scenario_in_one_line():
