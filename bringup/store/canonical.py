@@ -3,7 +3,7 @@
 Everything that enters the log goes through :func:`to_plain` first: numpy scalars become
 Python ``int``/``float``/``bool`` (sqlite3 would otherwise bind ``np.float32`` as raw bytes,
 a silent corruption), arrays become lists, tuples become lists, mapping keys become ``str``,
-and non-finite floats (NaN, +/-inf) become ``None`` so that every stored JSON document is
+-0.0 becomes 0.0, and non-finite floats (NaN, +/-inf) become ``None`` so that every stored JSON document is
 strict RFC 8259 JSON that SQLite's own ``json_extract`` can read.
 
 :func:`canonical_json` is the byte string that is hashed: keys sorted, no spaces, UTF-8,
@@ -39,7 +39,9 @@ def to_plain(value: Any) -> Any:
     if isinstance(value, (int, np.integer)):
         return int(value)
     if isinstance(value, (float, np.floating)):
-        number = float(value)
+        # "+ 0.0" turns -0.0 into 0.0: SQLite stores a REAL -0.0 as 0, so a hash over -0.0
+        # would not match the value read back
+        number = float(value) + 0.0
         return number if math.isfinite(number) else None
     if isinstance(value, np.ndarray):
         return [to_plain(item) for item in value.tolist()]

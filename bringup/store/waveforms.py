@@ -80,7 +80,8 @@ class StoredWaveform:
         # Big-endian blocks (IEEE 488.2 NORMal byte order) become native little-endian here.
         self.codes = np.ascontiguousarray(codes, dtype=np.dtype(name).newbyteorder("<"))
         for attr in ("x_increment", "x_origin", "y_increment", "y_origin"):
-            number = float(getattr(self, attr))  # numpy scalars -> float (never a blob)
+            # numpy scalars -> float (never a blob); + 0.0 maps -0.0 to 0.0 as SQLite would
+            number = float(getattr(self, attr)) + 0.0
             if not math.isfinite(number):
                 raise ValueError(f"waveform {attr} must be finite, got {number!r}")
             setattr(self, attr, number)

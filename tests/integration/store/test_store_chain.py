@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from store_samples import gate_waveform, record
 
-from bringup.store import StoreError
+from bringup.store import StoredWaveform, StoreError
 from bringup.store.canonical import sha256_hex
 from bringup.store.waveforms import encode_waveform
 
@@ -198,3 +198,17 @@ def test_waveform_codes_digest_is_sha256_of_little_endian_bytes(log, session_id)
     expected = hashlib.sha256(wave.codes.astype("<i2").tobytes()).hexdigest()
     assert description["raw_sha256"] == expected
     assert np.array_equal(log.load_waveform(attempt_id, "vgs").codes, wave.codes)
+
+
+def test_negative_zero_reads_back_as_zero_and_the_chain_still_verifies(db_path, log, session_id):
+    # SQLite keeps no negative zero in a REAL column [read: sqlite.org/datatype3.html: REAL
+    # values with no fractional part may be stored as integers]; a hash over -0.0 would break
+    wave = StoredWaveform(
+        np.arange(100, dtype=np.int16), 1e-9, x_origin=-0.0, y_origin=np.float32(-0.0)
+    )
+    attempt_id = record(
+        log, session_id, metrics={"offset_v": {"value": -0.0, "unit": "V"}}, waveforms={"vgs": wave}
+    )
+    assert log.verify_chain(session_id).ok
+    stored = log.load_waveform(attempt_id, "vgs")
+    assert (stored.x_origin, stored.y_origin) == (0.0, 0.0)
