@@ -14,7 +14,7 @@ and stops every one it started at teardown (supply output OFF, connections close
         bench.supply.output_on                                # instrument state
         bench.clock.advance(600.0)                            # jump simulated time (seconds)
 
-``visa_rm`` (session): the process's ``pyvisa.ResourceManager("@py")`` (pyvisa-py backend).
+``visa_rm``: the process's live ``pyvisa.ResourceManager("@py")`` (pyvisa-py backend).
 Open resources with ``read_termination="\\n"``, ``write_termination="\\n"`` and a timeout in ms;
 never call ``list_resources()`` (it broadcasts beyond this machine).
 """
@@ -51,10 +51,11 @@ def sim_bench(demo_design: dict[str, float]) -> Iterator[Callable[..., object]]:
         bench.stop()
 
 
-@pytest.fixture(scope="session")
+@pytest.fixture
 def visa_rm():
+    """The live ResourceManager: pyvisa keeps one per backend (and closes it at exit), so this
+    is the same object the instrument layer uses; it is not closed here, so a test that closes
+    it cannot leave a stale one for the next test."""
     import pyvisa
 
-    rm = pyvisa.ResourceManager("@py")
-    yield rm
-    rm.close()
+    return pyvisa.ResourceManager("@py")
