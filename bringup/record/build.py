@@ -211,7 +211,7 @@ def step_statuses(data: SessionData) -> dict[tuple[str, str], tuple[str, str | N
     """(stage, step) -> (status, latest outcome) from the chain's entries in order.
 
     Status: "accepted" (pass / conditional pass), "rejected" (fail / conditional fail, no
-    waiver), "waived" (a waiver after the failure), "skipped", "in-progress" (the last try
+    waiver), "waived" (a waiver after the failure), "skipped", "unfinished" (the last try
     could not judge: not-run, error). Steps with no entry are not in the map.
     """
     state: dict[tuple[str, str], tuple[str, str | None]] = {}
@@ -224,7 +224,7 @@ def step_statuses(data: SessionData) -> dict[tuple[str, str], tuple[str, str | N
             elif outcome in _FAILED:
                 state[key] = ("rejected", outcome)
             else:
-                state[key] = ("in-progress", outcome)
+                state[key] = ("unfinished", outcome)
         elif entry.kind == "waive" and entry.step_id:
             state[key] = ("waived", state.get(key, ("", None))[1])
         elif entry.kind == "skip" and entry.step_id:
@@ -315,10 +315,11 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
                 exceptions.append(
                     f"{where}: {step['status']} by {why.get('by', '?')}: {why.get('text', '')}"
                 )
-    if any(k in counts for k in ("not-started", "in-progress")):
-        overall = "incomplete"
-    elif "rejected" in counts:
+    # A failure without a waiver is told first: it is the news, unfinished steps or not.
+    if "rejected" in counts:
         overall = "rejected"
+    elif any(k in counts for k in ("not-started", "unfinished")):
+        overall = "incomplete"
     elif "waived" in counts or "skipped" in counts:
         overall = "accepted-with-exceptions"
     else:

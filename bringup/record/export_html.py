@@ -43,7 +43,7 @@ th{background:#efece4}
 .mono{font-family:'DejaVu Sans Mono',monospace;font-size:.82rem;word-break:break-all}
 .tag{font-weight:bold;padding:0 .3rem;border:1px solid #555;border-radius:3px}
 .tag-accepted{background:#dcefe0}.tag-rejected{background:#f6d4cf}
-.tag-waived,.tag-skipped{background:#f5e9c8}.tag-in-progress,.tag-not-started{background:#e4e4e4}
+.tag-waived,.tag-skipped{background:#f5e9c8}.tag-unfinished,.tag-not-started{background:#e4e4e4}
 .overall{font-size:1.1rem;font-weight:bold;border:2px solid #333;padding:.4rem .6rem}
 .caution{border-left:5px solid #8a5a00;background:#fbf3e2;padding:.3rem .6rem;margin:.3rem 0}
 figure{margin:.5rem 0;break-inside:avoid}

@@ -136,7 +136,7 @@ def open_item(stage_id: str, step: dict) -> str | None:
     status, where = step.get("status"), f"{stage_id}/{step.get('id')}"
     if status == "not-started":
         return f"{where}: unfinished (not started)"
-    if status == "in-progress":
+    if status == "unfinished":
         return f"{where}: unfinished (last attempt {step.get('outcome') or 'without a verdict'})"
     if status == "rejected":
         return f"{where}: failed ({step.get('outcome')}) without a waiver"

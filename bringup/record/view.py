@@ -41,7 +41,7 @@ STATUS_WORDS = {
     "waived": "[W] failed, waived",
     "skipped": "[S] skipped",
     "rejected": "[X] failed, open",
-    "in-progress": "[..] unfinished",
+    "unfinished": "[..] unfinished",
     "not-started": "[ ] not started",
 }
 OUTCOME_WORDS = {
@@ -49,12 +49,14 @@ OUTCOME_WORDS = {
     "conditional-pass": "pass within guard band",
     "conditional-fail": "fail within guard band",
     "fail": "FAIL",
+    "not-run": "not run",
+    "error": "ERROR: could not complete",
     None: "no verdict",
 }
 OVERALL_WORDS = {
     "accepted": "ACCEPTED: every step passed",
     "accepted-with-exceptions": "ACCEPTED WITH EXCEPTIONS: waived or skipped steps, see below",
-    "rejected": "NOT ACCEPTED: failed steps without a waiver",
+    "rejected": "NOT ACCEPTED: a step failed and carries no waiver",
     "incomplete": "INCOMPLETE: steps not finished",
 }
 GENERAL_CAUTIONS = (

@@ -249,6 +249,10 @@ def test_sign_off_refused_while_steps_are_unfinished(
     assert "thermal-soak/soak: unfinished (not started)" in err
     with SessionLog.open(s.db, create=False) as log:
         assert log.signatures(s.session_id) == []
+    # The draft record tells the same: the failure first, then every open item.
+    summary = json.loads(_export(s, tmp_path / "draft.json").read_text())["content"]["summary"]
+    assert summary["overall"] == "rejected"
+    assert all(item in err for item in summary["open_items"]) and len(summary["open_items"]) == 4
 
 
 def test_sign_off_refused_for_a_failure_without_waiver(
