@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import sqlite3
 import subprocess
 import sys
@@ -186,9 +187,15 @@ def test_an_exclusive_transaction_in_another_process_is_reported(db_path):
             # reads still work in WAL mode while another process holds the write lock
             assert len(log.attempts(sid)) == 1
         finally:
-            locker.stdin.write("\n")
-            locker.stdin.close()
-            locker.wait(timeout=10)
+            with contextlib.suppress(OSError):  # the locker may already be gone
+                locker.stdin.write("\n")
+                locker.stdin.close()
+            try:
+                locker.wait(timeout=10)
+            except subprocess.TimeoutExpired:
+                locker.kill()
+                locker.wait()
+            locker.stdout.close()
         record(log, sid, outcome="pass")
         assert [a.outcome for a in log.attempts(sid)] == ["fail", "pass"]
         assert log.verify_chain(sid).ok
