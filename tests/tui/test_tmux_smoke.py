@@ -72,7 +72,7 @@ def test_demo_in_tmux_runs_a_step_and_ctrl_c_turns_the_supply_off(bench_file, tm
     command = f"{bringup} demo --bench {path} --db {log}; echo bringup-exit=$?; read done"
     pane = Pane(command, env)
     try:
-        pane.wait_for("CHECKLIST", "First power", "r run / retake step", timeout=40)
+        pane.wait_for("CHECKLIST", "First power", "r run/retake", timeout=40)
 
         # first power: one prompt names the supply; y energises; the step passes
         pane.keys("r")

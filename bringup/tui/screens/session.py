@@ -50,24 +50,29 @@ def _verdict_text(verdict: str) -> Text:
 class SessionScreen(Screen[None]):
     """One board going through its checklist."""
 
+    _STEPS = Binding.Group("step", compact=True)
+    _TABS = Binding.Group("tabs", compact=True)
     BINDINGS = [
-        Binding("r", "take", "run / retake step"),
-        Binding("x", "cancel", "stop acquiring"),
-        Binding("t", "stop_soak", "soak settled: stop", show=False),
-        Binding("s", "skip", "skip…"),
-        Binding("w", "waive", "waive…"),
+        Binding("r", "take", "run/retake"),
+        Binding("x", "cancel", "STOP (supply off)"),
+        Binding("t", "stop_soak", "soak settled: finish"),
+        Binding("s", "skip", "skip"),
+        Binding("w", "waive", "waive"),
         Binding("n", "note", "note"),
-        Binding("b", "back", "back a stage"),
-        Binding("j", "next_step", "next step", show=False),
-        Binding("k", "previous_step", "previous step", show=False),
-        Binding("p", "next_trace", "next trace", show=False),
-        Binding("1", "tab('tab-result')", "result", show=False),
-        Binding("2", "tab('tab-trace')", "trace", show=False),
-        Binding("3", "tab('tab-attempts')", "attempts", show=False),
-        Binding("4", "tab('tab-notes')", "notes", show=False),
+        Binding("b", "back", "back"),
+        Binding("k", "previous_step", "previous step", group=_STEPS),
+        Binding("j", "next_step", "next step", group=_STEPS),
+        Binding("1", "tab('tab-result')", "result", group=_TABS),
+        Binding("2", "tab('tab-trace')", "trace", group=_TABS),
+        Binding("3", "tab('tab-attempts')", "attempts", group=_TABS),
+        Binding("4", "tab('tab-notes')", "notes", group=_TABS),
+        Binding("p", "next_trace", "trace"),
+        Binding("z", "zoom", "zoom"),
         Binding("m", "summary", "summary"),
-        Binding("q", "app.quit_safely", "quit (supply off)"),
+        Binding("q", "app.quit_safely", "quit, supply off"),
     ]
+    #: actions refused while a step runs (they are hidden from the footer then)
+    _IDLE_ONLY = {"take", "skip", "waive", "back", "summary"}
 
     def __init__(self) -> None:
         super().__init__()
@@ -78,6 +83,7 @@ class SessionScreen(Screen[None]):
         self._trace_index = 0
         self._attempt: AttemptView | None = None
         self._soak_t: list[float] = []
+        self._running_kind = ""
         self._soak_temp: list[float] = []
 
     @property
@@ -256,6 +262,22 @@ class SessionScreen(Screen[None]):
             "\n".join(notes) if notes else "No notes on this step yet."
         )
 
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        """Show only the keys that do something now: stop and finish while a step runs."""
+        if action == "cancel":
+            return self.running is not None
+        if action == "stop_soak":
+            return self.running is not None and self._running_kind == "soak"
+        if action in self._IDLE_ONLY:
+            return self.running is None
+        return True
+
+    def action_zoom(self) -> None:
+        """Toggle between the whole record and the first edge's crossings."""
+        plot = self.query_one("#plot", WaveformPlot)
+        plot.zoomed = not plot.zoomed
+        self.action_tab("tab-trace")
+
     # -- navigation ------------------------------------------------------------------------
     @on(Tree.NodeHighlighted, "#checklist")
     def _highlighted(self, event: Tree.NodeHighlighted) -> None:
@@ -372,6 +394,8 @@ class SessionScreen(Screen[None]):
 
     def _start(self, detail: StepDetail, answers: dict[str, object]) -> None:
         self.running = detail.id
+        self._running_kind = detail.kind
+        self.refresh_bindings()
         self._cancel = threading.Event()
         self._stop_soak = threading.Event()
         self._soak_t, self._soak_temp = [], []
@@ -456,6 +480,7 @@ class SessionScreen(Screen[None]):
 
     def _finish(self, select_next: bool) -> None:
         self.running = None
+        self.refresh_bindings()
         self.query_one("#live").display = False
         self.refresh_all(select=self.link.current_step_id() if select_next else self.viewed)
 

@@ -134,6 +134,8 @@ class WaveformPlot(Widget):
     }
 
     revision: reactive[int] = reactive(0, layout=False)
+    #: show only the neighbourhood of the first crossings (an edge) instead of the whole record
+    zoomed: reactive[bool] = reactive(False)
 
     def __init__(
         self, *, name: str | None = None, id: str | None = None, classes: str | None = None
@@ -175,6 +177,27 @@ class WaveformPlot(Widget):
         """True when a trace is shown."""
         return self._t.size > 0
 
+    def watch_zoomed(self) -> None:
+        self._drawn_for = None
+        self.refresh()
+
+    def _view(self) -> tuple[np.ndarray, np.ndarray]:
+        """The samples to draw: all of them, or (zoomed) those around the first edge.
+
+        The window spans the first two crossings plus four times their spacing on each side,
+        at least 40 samples, so a 10-90 % rise fills the plot instead of one column."""
+        t, v = self._t, self._v
+        crossings = sorted(ts for _, ts in self._marks.crossings)
+        if not self.zoomed or len(crossings) < 1 or t.size < 2:
+            return t, v
+        first = crossings[0]
+        second = crossings[1] if len(crossings) > 1 else first
+        dt = float(t[1] - t[0]) or 1e-12
+        span = max(4.0 * abs(second - first), 20 * dt)
+        lo, hi = np.searchsorted(t, [first - span, second + span])
+        lo, hi = int(max(0, lo)), int(min(t.size, max(hi, lo + 2)))
+        return t[lo:hi], v[lo:hi]
+
     def watch_revision(self) -> None:
         self._drawn_for = None
         self.refresh()
@@ -209,14 +232,15 @@ class WaveformPlot(Widget):
             return lines
 
         marks = self._marks
-        x0, x1 = float(self._t[0]), float(self._t[-1])
+        t, v = self._view()
+        x0, x1 = float(t[0]), float(t[-1])
         if x1 <= x0:
             x1 = x0 + 1e-12
-        values = [float(self._v.min()), float(self._v.max())] + [lv for _, lv in marks.levels]
+        values = [float(v.min()), float(v.max())] + [lv for _, lv in marks.levels]
         y0, y1 = min(values), max(values)
         pad = (y1 - y0) * 0.06 or 0.5
         y0, y1 = y0 - pad, y1 + pad
-        dots = braille_envelope(self._t, self._v, cols, rows, (x0, x1), (y0, y1))
+        dots = braille_envelope(t, v, cols, rows, (x0, x1), (y0, y1))
         codes = _cells(dots)
 
         def col_of(ts: float) -> int:
@@ -287,14 +311,20 @@ class WaveformPlot(Widget):
         # time axis: start, middle and end of the record
         axis_chars = [" "] * (cols + _RIGHT)
         for frac in (0.0, 0.5, 1.0):
-            text = format_quantity(x0 + frac * (x1 - x0), "s", 3)
+            at = x0 + frac * (x1 - x0)
+            if abs(at) < 1e-6 * (x1 - x0):
+                at = 0.0  # rounding residue of a window centred on zero
+            text = format_quantity(at, "s", 3)
             pos = int(frac * (cols - 1))
             pos = min(max(0, pos - len(text) // 2), len(axis_chars) - len(text))
             axis_chars[pos : pos + len(text)] = list(text)
         lines.append(Strip([Segment(" " * _LEFT, base), Segment("".join(axis_chars), axis)]))
-        shown = [f"▲ {label} {format_quantity(ts, 's', 4)}" for label, ts in marks.crossings[:4]]
-        if len(marks.crossings) > 4:
-            shown.append(f"(+{len(marks.crossings) - 4} more crossings)")
+        visible = [(label, ts) for label, ts in marks.crossings if x0 <= ts <= x1]
+        shown = [f"▲ {label} {format_quantity(ts, 's', 4)}" for label, ts in visible[:4]]
+        if len(visible) > 4:
+            shown.append(f"(+{len(visible) - 4} more crossings)")
+        if self.zoomed:
+            shown.append("[z: whole record]")
         legend = "  ".join(shown + list(marks.extra_legend))
         lines.append(Strip([Segment(legend[:width].ljust(width), axis)]))
         return lines[:height]
