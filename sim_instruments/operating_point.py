@@ -99,10 +99,11 @@ def _board_current(p: StageParameters, v_bus: float, vdrv: float, vdrv_load: flo
 
 
 def _idle(p: StageParameters, v_bus: float, duty: float) -> OperatingPoint:
-    load = p.vdrv_idle_current
-    vdrv = gate_drive_rail(p, v_bus, load * min(max(v_bus, 0.0) / p.gate_drive_voltage, 1.0))
+    # Below its regulation the rail's load (driver and logic regulator) draws less in proportion.
+    unloaded = gate_drive_rail(p, v_bus, 0.0)
+    load = p.vdrv_idle_current * min(unloaded / p.gate_drive_voltage, 1.0)
+    vdrv = gate_drive_rail(p, v_bus, load)
     vbs = v_bus if p.gate_drive_to_bus else max(vdrv - p.bootstrap_diode_drop, 0.0)
-    load_now = p.vdrv_idle_current * min(vdrv / p.gate_drive_voltage, 1.0)
     return OperatingPoint(
         mode="idle",
         v_bus=v_bus,
@@ -112,7 +113,7 @@ def _idle(p: StageParameters, v_bus: float, duty: float) -> OperatingPoint:
         vbs_idle=max(vbs, 0.0),
         current_a=0.0,
         losses=_idle_losses(),
-        bus_current_a=_board_current(p, v_bus, vdrv, load_now),
+        bus_current_a=_board_current(p, v_bus, vdrv, load),
     )
 
 
@@ -154,13 +155,18 @@ def _steady_bootstrap(
     One period maps V_b0 to V_charge - (V_charge - V_end(V_b0)) exp(-t_off / tau); that map
     rises with slope below 1, so its fixed point is unique and bisection finds it."""
     uvlo = p.driver_uvlo_falling
+    # The driver must also be able to carry the gate past its plateau.
+    v_pl = p.mosfet_threshold + current / p.transconductance
+    floor = max(uvlo, v_pl + p.level_shift_charge / p.bootstrap_capacitance + 0.05)
+    if v_charge <= floor:
+        return None
 
     def gap(v_b0: float) -> float:
         plan = plan_gate(p, v_b0, t_on, current, uvlo)
         left = max(p.period - plan.t4, 0.0)
         return v_charge - (v_charge - plan.v_end) * math.exp(-left / tau_rc) - v_b0
 
-    lo, hi = uvlo + 1e-6, v_charge
+    lo, hi = floor + 1e-6, v_charge
     if gap(lo) < 0.0:
         return None
     for _ in range(60):
@@ -180,7 +186,7 @@ def _switching(p: StageParameters, v_bus: float, duty: float, t_on: float) -> Op
     c = p.bootstrap_capacitance
     current = v_bus / (p.load_resistance + p.mosfet_rds_on)
     tau_rc = (p.bootstrap_path_resistance + p.load_resistance) * c
-    # The gate-drive rail's load depends on the recharge charge: two passes settle it.
+    # The gate-drive rail's load depends on the recharge charge: a few passes settle it.
     recharge_q = 0.0
     plan: GatePlan | None = None
     for _ in range(3):
