@@ -197,3 +197,32 @@ def test_two_logs_on_one_file_interleave_without_losing_entries(db_path, log, se
             record(other, session_id, step="logic-rail")
     assert [a.seq for a in log.attempts(session_id)] == [1, 2, 3, 4, 5, 6]
     assert log.verify_chain(session_id).ok
+
+
+def test_signatures_are_stored_as_given_and_never_changed(db_path, log, session_id):
+    record(log, session_id)
+    log.record_event(session_id, kind="finish", operator="Ana Ortiz", payload={"verdict": "pass"})
+    key, signature = bytes(range(32)), bytes(range(64, 128))  # Ed25519 sizes: 32 and 64 bytes
+    row_id = log.add_signature(
+        session_id,
+        name="Ana Ortiz",
+        role="operator",
+        signed_utc="2026-12-01T12:00:00Z",
+        public_key=key,
+        fingerprint="SHA256:abcd",
+        signature=signature,
+        content_digest=log.chain_head(session_id),
+    )
+    (stored,) = log.signatures(session_id)
+    assert stored.id == row_id and stored.public_key == key and stored.signature == signature
+    assert stored.content_digest == log.chain_head(session_id) and stored.role == "operator"
+    assert log.session(session_id).signatures == [stored]
+    with pytest.raises(StoreError, match="signer's role is required"):
+        log.add_signature(
+            session_id, name="Ana", role=" ", signed_utc="2026-12-01T12:00:00Z", public_key=key,
+            fingerprint="f", signature=signature, content_digest="d",
+        )  # fmt: skip
+    conn = sqlite3.connect(db_path)
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        conn.execute("UPDATE signatures SET name = 'someone else'")
+    conn.close()
