@@ -239,6 +239,9 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
             ctx.emit("acquiring", "acquiring")
             traces, raw, clipped = bench.acquire(plan)
             ctx.data.supply_v = powered.measure_voltage()
+            ctx.emit("acquiring", f"{len(traces)} traces acquired",
+                     readings={"supply_voltage_v": ctx.data.supply_v,
+                               "supply_current_a": powered.measure_current()})  # fmt: skip
             ctx.data.clipped.update(clipped)
             ctx.data.traces.update(traces)
             ctx.raw.update(raw)

@@ -144,3 +144,10 @@ def test_bad_serial_pattern(tmp_path):
         'serial_pattern = "^DHS24-[0-9]{4}$"', 'serial_pattern = "^DHS24-[0-9"'
     )
     _expect(tmp_path, text, "board.serial_pattern", "serial_pattern", "not a regular expression")
+
+
+def test_design_keys_are_the_ones_the_simulator_reads():
+    # The contract of DEVELOPERS.md: the simulator reads the same [design] keys.
+    from sim_instruments.stage_params import DESIGN_KEYS
+
+    assert set(DESIGN_UNITS) == set(DESIGN_KEYS)
