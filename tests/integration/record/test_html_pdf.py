@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import json
+import os
 import re
 import shutil
 import subprocess
+import sys
 from html.parser import HTMLParser
 from pathlib import Path
 
@@ -140,3 +142,22 @@ def test_html_renders_and_prints_in_headless_chromium(session: Session, tmp_path
     assert "DHS24-0117" in printed_text and "Summary" in printed_text
     assert "Stage: Thermal soak" in printed_text
     shutil.rmtree(profile, ignore_errors=True)
+
+
+def test_exports_are_identical_across_processes(session: Session, tmp_path: Path) -> None:
+    """Two fresh interpreters with different hash seeds write the same JSON and PDF bytes."""
+    outputs = []
+    for seed in ("1", "2"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        files = []
+        for fmt in ("json", "pdf"):
+            out = tmp_path / f"seed{seed}.{fmt}"
+            subprocess.run(
+                [sys.executable, "-m", "bringup", "export", session.session_id, "--db",
+                 str(session.db), "--format", fmt, "--out", str(out)],
+                check=True, capture_output=True, env=env, timeout=120,
+            )  # fmt: skip
+            files.append(out.read_bytes())
+        outputs.append(files)
+    assert outputs[0] == outputs[1]
+    assert _export(session, "json", tmp_path / "here.json").read_bytes() == outputs[0][0]
