@@ -128,3 +128,16 @@ def test_several_clients_at_once_share_state_but_not_error_queues(bench, connect
     assert bench.servers["supply"].client_count == 4
     assert clients[0].query("SYST:ERR?") == '0,"No error"'
     assert clients[1].query("SYST:ERR?").startswith("-113,")
+
+
+def test_delay_once_from_scpi_and_a_bad_fault_parameter(bench, connect):
+    scope = connect(bench, "scope", timeout_ms=150)
+    scope.write("SIM:FAUL:DEL 0.4,ONCE")
+    with pytest.raises(VisaIOError):
+        scope.query("*OPC?")
+    scope.timeout = 2000
+    assert scope.read() == "1"  # the late reply
+    reply = scope.query("SIM:FAUL?")
+    assert reply == '""'  # ONCE: gone after one reply
+    scope.write("SIM:FAUL:DROP TWICE")
+    assert scope.query("SYST:ERR?").startswith("-224,")
