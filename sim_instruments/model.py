@@ -37,6 +37,7 @@ NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
 # The sample grid repeats after p samples covering q periods; q is kept small.
 _MAX_PERIODS_PER_REPEAT = 64
 _CHUNK = 1 << 16
+_CURRENT_CACHE_SIZE = 512
 
 
 class StageModel:
@@ -65,6 +66,8 @@ class StageModel:
             p.ambient_temperature, p.thermal_resistance, p.thermal_time_constant
         )
         self._op = solve_operating_point(p, 0.0, False, self._duty)
+        # The supply asks for the current at the same few voltages again and again.
+        self._current_cache: dict[tuple, float] = {}
 
     # --- state ---
     @property
@@ -114,7 +117,14 @@ class StageModel:
     def bus_current(self, volts: float) -> float:
         """Average input current (A) at ``volts`` (V) in the present PWM state; non-decreasing
         in volts (the supply solves its CV/CC state with it)."""
-        return solve_operating_point(self.params, volts, self._pwm, self._duty).bus_current_a
+        key = (float(volts), self._pwm, self._duty, self.params)
+        amps = self._current_cache.get(key)
+        if amps is None:
+            amps = solve_operating_point(self.params, volts, self._pwm, self._duty).bus_current_a
+            if len(self._current_cache) >= _CURRENT_CACHE_SIZE:
+                self._current_cache.clear()
+            self._current_cache[key] = amps
+        return amps
 
     def losses(self) -> dict[str, float]:
         """Losses (W): "switching", "conduction", "gate_drive", "linear" (source follower),

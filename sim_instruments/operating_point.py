@@ -153,7 +153,7 @@ def _steady_bootstrap(
     it would sit below the driver's UVLO.
 
     One period maps V_b0 to V_charge - (V_charge - V_end(V_b0)) exp(-t_off / tau); that map
-    rises with slope below 1, so its fixed point is unique and bisection finds it."""
+    rises with slope below 1, so its fixed point is unique and a bracketing search finds it."""
     uvlo = p.driver_uvlo_falling
     # The driver must also be able to carry the gate past its plateau.
     v_pl = p.mosfet_threshold + current / p.transconductance
@@ -166,18 +166,31 @@ def _steady_bootstrap(
         left = max(p.period - plan.t4, 0.0)
         return v_charge - (v_charge - plan.v_end) * math.exp(-left / tau_rc) - v_b0
 
+    # gap falls with v_b0 (the map's slope is below 1): a bracketed root, found by false
+    # position with the Illinois modification (a handful of evaluations, never leaves the bracket).
     lo, hi = floor + 1e-6, v_charge
-    if gap(lo) < 0.0:
+    g_lo, g_hi = gap(lo), gap(hi)
+    if g_lo < 0.0:
         return None
+    if g_hi >= 0.0:
+        return hi
+    side = 0
     for _ in range(60):
-        mid = 0.5 * (lo + hi)
-        if gap(mid) >= 0.0:
-            lo = mid
+        mid = (lo * g_hi - hi * g_lo) / (g_hi - g_lo)
+        g_mid = gap(mid)
+        if abs(g_mid) < 1e-10 or hi - lo < 1e-10:
+            return mid
+        if g_mid > 0.0:
+            lo, g_lo = mid, g_mid
+            if side == 1:
+                g_hi *= 0.5
+            side = 1
         else:
-            hi = mid
-        if hi - lo < 1e-10:
-            break
-    return lo
+            hi, g_hi = mid, g_mid
+            if side == -1:
+                g_lo *= 0.5
+            side = -1
+    return 0.5 * (lo + hi)
 
 
 def _switching(p: StageParameters, v_bus: float, duty: float, t_on: float) -> OperatingPoint | None:
