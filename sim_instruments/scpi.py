@@ -475,6 +475,9 @@ class Session:
             except ScpiError as exc:
                 self.push_error(exc.code, exc.info)
                 continue
+            except Exception as exc:  # a fault inside the simulation: report it, keep serving
+                self.push_error(-300, f"{type(exc).__name__}: {exc}"[:200])
+                continue
             if reply is not None:
                 replies.append(reply)
         return replies
