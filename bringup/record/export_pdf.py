@@ -288,15 +288,26 @@ def render_pdf(record: dict) -> bytes:
                             fmt_value(v.get("value"), unit),
                             limit,
                             fmt_value(v.get("margin"), unit),
+                            fmt_value(v.get("guard_band"), unit),
                             OUTCOME_WORDS.get(v.get("outcome"), v.get("outcome")),
                         ]
                     )
                 _table(
                     pdf,
-                    ["Quantity", "Measured", "Limits", "Margin", "Verdict"],
+                    ["Quantity", "Measured", "Limits", "Margin", "Guard band", "Verdict"],
                     vrows,
-                    (50, 35, 45, 30, 30),
+                    (44, 30, 40, 26, 22, 28),
                 )
+                judged = {v.get("target") for v in final.get("verdicts") or []}
+                also = [
+                    f"{name} {fmt_value(m)}"
+                    for name, m in sorted((final.get("metrics") or {}).items())
+                    if name not in judged
+                ]
+                if also:
+                    _para(pdf, "Also measured (reported, not judged): " + "; ".join(also))
+                for note in final.get("notes") or []:
+                    _para(pdf, f"Note: {note}")
                 soak = soak_trace(final)
                 if soak is not None:
                     _draw(
