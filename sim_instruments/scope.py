@@ -230,6 +230,11 @@ class Scope(Instrument):
                 traces["MATH"] = Trace(None, diff, span / 65536.0, origin, 16, False)
             record = Record(traces, dt, offset, n_pts, triggered, time.monotonic())
             with self.lock:
+                fmt, order = self.data_format, self.byte_order
+            if fmt != "ASC":  # ready to send, as a scope holds its record in memory
+                for source in traces:
+                    self.encode(record, source, fmt, order)
+            with self.lock:
                 self.record = record
             return record
 
