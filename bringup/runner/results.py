@@ -77,10 +77,16 @@ _SEVERITY = (
 
 def worst_state(states: list[str] | tuple[str, ...]) -> str:
     """The worst of ``states`` (fail > conditional-fail > not-run > in-progress > not-started >
-    skipped > waived > conditional-pass > pass); "not-started" for an empty list."""
+    skipped > waived > conditional-pass > pass); "not-started" for an empty list.
+
+    A mix of finished and not-started states with nothing worse is "in-progress": the stage
+    (or session) has begun but is not done."""
     if not states:
         return "not-started"
-    return min(states, key=_SEVERITY.index)
+    worst = min(states, key=_SEVERITY.index)
+    if worst == "not-started" and any(s != "not-started" for s in states):
+        return "in-progress"
+    return worst
 
 
 @dataclass(frozen=True)

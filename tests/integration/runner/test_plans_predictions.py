@@ -66,7 +66,9 @@ def test_worst_state_orders_failures_first():
     assert worst_state(["pass", "conditional-pass"]) == "conditional-pass"
     assert worst_state(["pass", "not-run", "conditional-fail"]) == "conditional-fail"
     assert worst_state(["waived", "pass"]) == "waived"
-    assert worst_state(["skipped", "not-started"]) == "not-started"
+    assert worst_state(["skipped", "not-started"]) == "in-progress"
+    assert worst_state(["pass", "not-started", "not-started"]) == "in-progress"
+    assert worst_state(["not-started", "not-started"]) == "not-started"
     assert worst_state([]) == "not-started"
 
 
