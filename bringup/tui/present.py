@@ -132,7 +132,7 @@ def progress_view(p: Any) -> Progress:
         if soak.predicted_final_c is not None:
             predicted = format_quantity(soak.predicted_final_c, "degC")
             if soak.predicted_sigma_c is not None:
-                predicted += f" ± {format_quantity(soak.predicted_sigma_c, 'K')}"
+                predicted += f" ± {format_quantity(soak.predicted_sigma_c, 'K', 2)}"
             if soak.limit_c is not None:
                 predicted += f" (limit {format_quantity(soak.limit_c, 'degC')})"
     return Progress(

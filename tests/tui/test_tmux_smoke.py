@@ -110,3 +110,51 @@ def test_demo_in_tmux_runs_a_step_and_ctrl_c_turns_the_supply_off(bench_file, tm
         outcomes = [(a.step_id, a.outcome) for a in opened.attempts(session.id)]
     assert outcomes[0] == ("first-power", "pass")
     assert session.state == "open"  # quit mid-session: it can be resumed
+
+
+CRASHING = """
+import sys
+from bringup.tui.screens.session import SessionScreen
+
+original = SessionScreen.on_step_progressed
+
+def crash(self, message):
+    # an unexpected error in the interface once a live reading shows the supply on
+    for name, value in message.progress.readings:
+        number, _, unit = value.partition(" ")
+        if name == "supply voltage" and unit == "V" and float(number) > 1.0:
+            raise RuntimeError(f"injected fault while the supply read {value}")
+    return original(self, message)
+
+SessionScreen.on_step_progressed = crash
+from bringup.cli import main
+sys.exit(main(["demo", "--bench", sys.argv[1], "--db", sys.argv[2]]))
+"""
+
+
+def test_a_crash_mid_step_prints_one_line_and_leaves_the_supply_off(bench_file, tmp_path):
+    bench, path = bench_file("healthy")
+    log = tmp_path / "crash.sqlite"
+    script = tmp_path / "crashing.py"
+    script.write_text(CRASHING)
+    env = {**os.environ, "TERM": "xterm-256color", "BRINGUP_OPERATOR": "smoke",
+           "TEXTUAL_ANIMATIONS": "none"}  # fmt: skip
+    command = f"{sys.executable} {script} {path} {log} 2>&1; echo bringup-exit=$?; read done"
+    pane = Pane(command, env)
+    try:
+        pane.wait_for("CHECKLIST", "r run/retake", timeout=40)
+        pane.keys("r")
+        pane.wait_for("ENERGISE THE BOARD?")
+        pane.keys("y")
+        screen = pane.wait_for("bringup-exit=", timeout=40)
+    finally:
+        pane.kill()
+    assert "bringup-exit=2" in screen, screen
+    assert "Traceback" not in screen
+    # the fault came while the supply was on (a live reading above 1 V) ...
+    assert "unexpected fault: RuntimeError: injected fault while the supply read" in screen
+    # ... and the way out switched it off
+
+    assert "supply was switched off" in screen
+    assert not bench.supply.output_on
+    assert (tmp_path / "bringup-fault.txt").read_text().startswith("Traceback")

@@ -406,7 +406,10 @@ class SessionScreen(Screen[None]):
         self.query_one("#live-text", Static).update("starting: sending the settings…")
         if detail.kind == "soak":
             self.action_tab("tab-trace")
-            self.say("Soaking: t stops once the prediction has settled; x abandons the soak.")
+            self.say(
+                "Soaking until the prediction settles. t: finish early and judge the prediction "
+                "(not before the minimum soak); x: abandon the soak, supply off."
+            )
         else:
             self.say("Acquiring: x stops and puts the bench in its safe state.")
         self.query_one("#checklist", ChecklistTree).show_stages(self.link.stages(), detail.id)
@@ -459,7 +462,7 @@ class SessionScreen(Screen[None]):
         readings = "   ".join(f"{name}: {value}" for name, value in p.readings)
         text = p.text + (f"\n{readings}" if readings else "")
         if p.predicted_final:
-            settled = "settled: t to stop now" if p.settled else "still converging"
+            settled = "settled: finishing" if p.settled else "converging; t finishes early"
             text += f"\npredicted final {p.predicted_final}  ({settled})"
         self.query_one("#live-text", Static).update(text)
         if p.soak_t:
@@ -530,7 +533,7 @@ class SessionScreen(Screen[None]):
             self.say("No soak is running.")
             return
         self._stop_soak.set()
-        self.say("Stopping the soak: judging the prediction from the samples so far…")
+        self.say("Finishing the soak (once its minimum duration is reached), then judging it…")
 
     def on_worker_state_changed(self, event: Worker.StateChanged) -> None:
         if event.worker.group == "bench" and event.state == WorkerState.ERROR and self.running:
