@@ -14,8 +14,9 @@ computes nor stores anything itself. Typical use::
         result = runner.run_step(step_id, answers=StepAnswers(confirmed=True),
                                  cancel=threading.Event(), on_progress=print)
 
-Rules it keeps: steps run in checklist order (``run_step`` refuses a step whose earlier steps are
-not finished, unless the operator went back to an earlier stage with ``go_back``); every attempt
+Rules it keeps: steps run in checklist order (``run_step`` refuses a step while an earlier one
+is not accepted: passed, waived or skipped; ``go_back`` restarts the walk at an earlier stage
+for retakes, under the same rule); every attempt
 is committed to the log in one transaction before the next step can start and a retake never
 overwrites one; a skip needs a reason, a waiver a failed step, a reason and a name; the supply
 is switched only through the instrument layer's safe-state owner, and every way out of a step
