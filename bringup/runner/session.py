@@ -240,9 +240,9 @@ class SessionRunner:
         stops before its minimum duration). ``on_progress`` receives ``Progress`` events from
         this thread (live supply readings, the soak's temperature log and prediction).
 
-        Raises ``RunnerError`` when an earlier step is unfinished (go back first) or another
-        step is running. Instrument faults do not raise: the attempt is logged as ``not-run``
-        with the fault in its message, and the supply is off.
+        Raises ``RunnerError`` when an earlier step is not accepted (retake, skip or waive it
+        first) or another step is running. Instrument faults do not raise: the attempt is logged as
+        ``not-run`` with the fault in its message, and the supply is off.
         """
         from bringup.runner.executing import execute
 
