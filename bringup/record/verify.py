@@ -100,6 +100,39 @@ def verify_record(
     findings += _check_signatures(content, record.get("signatures"), trusted or [])
     if log is not None:
         findings += _check_log(content, log)
+        findings += _check_log_signatures(record.get("signatures"), content, log)
+    return findings
+
+
+def _check_log_signatures(signatures: Any, content: dict, log: Any) -> list[str]:
+    """The record carries exactly the sign-offs the log holds (none dropped, none added)."""
+    from bringup.record.from_log import signature_entry
+    from bringup.store.errors import StoreError
+
+    session_id = (content.get("session") or {}).get("id")
+    if not isinstance(session_id, str) or not isinstance(signatures, list):
+        return []
+    try:
+        logged = [signature_entry(s) for s in log.signatures(session_id)]
+    except StoreError as exc:
+        return [f"log: {exc}"]
+
+    def key(entry: Any) -> str:
+        return entry.get("signature", "") if isinstance(entry, dict) else ""
+
+    in_record = {key(e) for e in signatures}
+    findings = [
+        f"signatures: the log holds a sign-off by {e['role']} {e['name']} at {e['signed_at']} "
+        "that the record does not carry"
+        for e in logged
+        if key(e) not in in_record
+    ]
+    in_log = {key(e) for e in logged}
+    findings += [
+        f"signatures: signature {i + 1} is not in the log"
+        for i, e in enumerate(signatures)
+        if key(e) not in in_log
+    ]
     return findings
 
 

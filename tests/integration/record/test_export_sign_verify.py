@@ -333,3 +333,18 @@ def test_entry_logged_after_signing_voids_the_signatures(
         "CHANGED: signature 1 (operator R. Okafor): does not verify: "
         "the content or the signer fields changed since signing"
     ]
+
+
+def test_sign_off_dropped_from_the_record_is_named_against_the_log(
+    session: Session, keys: Keys, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    path = _signed(session, keys, tmp_path)
+    record = json.loads(path.read_text())
+    del record["signatures"][1]  # hide the reviewer's sign-off
+    _rewrite(path, record)
+    capsys.readouterr()
+    assert _verify(path) == 0  # on its own, the operator's signature still holds
+    capsys.readouterr()
+    assert _verify(path, "--db", str(session.db)) == 1
+    found = _changed(capsys)
+    assert len(found) == 1 and "the log holds a sign-off by reviewer M. Lindqvist" in found[0]
