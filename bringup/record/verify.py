@@ -5,7 +5,7 @@ A record holds when the list of findings is empty: the file is the canonical JSO
 the content matches its seal, it carries at least one signature, every signature verifies
 with the key it names (and that key is among the trusted keys, when any are given), and,
 with the log at hand, the log's chain is intact, ends at the record's chain head and holds
-exactly the content the record shows.
+exactly the content and the sign-offs the record shows.
 """
 
 from __future__ import annotations
