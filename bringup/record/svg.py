@@ -165,9 +165,10 @@ def plot_svg(
         pts = " ".join(f"{_f(px(a))},{_f(py(b))}" for a, b in zip(ot[ok], oy[ok], strict=True))
         parts.append(f'<polyline points="{pts}" fill="none" {_STYLES["fit"]}/>')
         parts.append(
-            f'<text x="{left + pw - 4}" y="{top + 12}" font-size="10" text-anchor="end">'
+            f'<text x="{left + pw - 4}" y="{top + ph - 4}" font-size="10" text-anchor="end">'
             f"dashed: {escape(olabel)}</text>"
         )
+    placed: list[float] = []
     for i, m in enumerate(markers):
         label = escape(m.label)
         if m.kind == "level" and m.y is not None:
@@ -175,7 +176,13 @@ def plot_svg(
             parts.append(
                 f'<line x1="{left}" x2="{left + pw}" y1="{_f(yy)}" y2="{_f(yy)}" {_STYLES["level"]}/>'
             )
-            parts.append(f'<text x="{left + 4}" y="{_f(yy - 3)}" font-size="10">{label}</text>')
+            # Labels of nearby levels (high, 90 %) would overprint: move each one along.
+            slot = sum(1 for y0 in placed if abs(y0 - yy) < 11)
+            placed.append(yy)
+            parts.append(
+                f'<text x="{left + pw - 4 - 56 * slot}" y="{_f(yy - 3)}" font-size="10" '
+                f'text-anchor="end">{label}</text>'
+            )
         elif m.kind == "time" and m.t is not None:
             xx = px(m.t)
             parts.append(
