@@ -28,7 +28,7 @@ Gate overdrive and edges: duty 0.50 (on-time 20 us), 100 us at 1 ns. Droop: duty
 | switching loss, W (<= 0.5)      | 0.11    | 0.11         | 0.16         | **7.3**   | 0.11           | 0.10       |
 | Vgs droop over 38 us, V (<= 0.3)| 0.009   | 0.011        | 0.001        | -         | **0.49**       | 0.009      |
 | Vgs at end, V (>= 10.5)         | 11.18   | 10.09        | 4.28         | -         | **9.91**       | 11.18      |
-| on-time supported, us (>= 76)   | 3000    | -            | -            | -         | **below floor**| 3000       |
+| on-time supported, us (>= 76)   | 3100    | -            | -            | -         | **below floor**| 3100       |
 | VBS end - UVLO, V (>= 1)        | 3.0     | 1.9          | 5.7          | -         | 2.0            | 3.0        |
 | heatsink final, degC (<= 70)    | 37.5    | 37.9         | 632          | 25 (idle) | 37.8           | **84.4**   |
 
