@@ -70,12 +70,12 @@ def test_a_seed_fixes_the_board_and_only_the_rails_ripple_phase_differs(demo_des
     """Deterministic for a seed; another seed is another board's regulator ripple, nothing else."""
     one, same, other = (_running_seeded(demo_design, s) for s in (3, 3, 4))
     for net in ("switch", "vgs", "vbs", "vdrv", "logic"):
-        a = one.waveform(net, -1e-6, 1e-9, 50_000)
-        assert np.array_equal(a, same.waveform(net, -1e-6, 1e-9, 50_000))
-        b = other.waveform(net, -1e-6, 1e-9, 50_000)
+        a = one.waveform(net, -1e-6, 1e-9, 80_000)
+        assert np.array_equal(a, same.waveform(net, -1e-6, 1e-9, 80_000))
+        b = other.waveform(net, -1e-6, 1e-9, 80_000)
         if net in ("vdrv", "logic"):
             assert not np.array_equal(a, b)
-            assert abs(a.mean() - b.mean()) < 1e-3  # same level, ripple shifted in phase
+            assert abs(a.mean() - b.mean()) < 1e-4  # whole periods: same level, ripple phase moved
         else:
             assert np.array_equal(a, b)
 
