@@ -60,6 +60,29 @@ def _timing(d: dict[str, float]) -> eq.GateTiming:
     )
 
 
+def _vgs_rise(d: dict[str, float]) -> float:
+    """Vgs 10-90 % rise time (s) from three first-order charging intervals of the gate
+    (TI SLUA618's turn-on sequence): C_iss charged through the turn-on resistance R_on up to
+    the plateau, the plateau held while Q_gd flows (``gate_timing``), then the charge left above
+    the plateau, C_2 = (Q_G - Q_GS - Q_GD) / (V_test - V_pl), charged through R_on again. The
+    gate charge's test voltage is taken as the R_DS(on) rating voltage (datasheets commonly
+    rate both at 10 V; common practice, no source)."""
+    v_drive = d["gate_drive_voltage"] - d["bootstrap_diode_drop"]
+    v_pl, v_top = d["mosfet_plateau"], _bootstrap_start(d)
+    r_on = d["driver_source_resistance"] + d["gate_resistor"] + d["gate_resistance_internal"]
+    tau1 = r_on * d["mosfet_ciss"]
+    q_above = d["mosfet_gate_charge"] - d["mosfet_qgs"] - d["mosfet_qgd"]
+    tau2 = r_on * q_above / (d["mosfet_rds_on_vgs"] - v_pl)
+    t10 = -tau1 * math.log(1.0 - 0.1 * v_top / v_drive)
+    t_plateau_start = -tau1 * math.log(1.0 - v_pl / v_drive)
+    t90 = (
+        t_plateau_start
+        + _timing(d).t_vds_on_s
+        + tau2 * math.log((v_drive - v_pl) / (v_drive - 0.9 * v_top))
+    )
+    return t90 - t10
+
+
 def predict(analysis: str, board: Board) -> dict[str, float]:
     """Predicted value (in the metric's unit) of each metric of ``analysis`` that has a model."""
     d = board.design
@@ -81,6 +104,7 @@ def predict(analysis: str, board: Board) -> dict[str, float]:
             out["switch_rise"] = 0.8 * t.t_vds_on_s
             out["switch_fall"] = 0.8 * t.t_vds_off_s
             out["miller_plateau"] = d["mosfet_plateau"]
+            out["vgs_rise"] = _vgs_rise(d)
             out["switching_loss"] = eq.switching_loss(
                 d["bus_voltage"], _load_current(d), t.t_vds_on_s, t.t_vds_off_s,
                 d["switching_frequency"],
@@ -108,7 +132,7 @@ def predict(analysis: str, board: Board) -> dict[str, float]:
                 p, d["thermal_resistance"], d["ambient_temperature"]
             )
             out["soak_time_constant"] = d["thermal_time_constant"]
-    except (InputError, KeyError, ZeroDivisionError):
+    except (InputError, KeyError, ZeroDivisionError, ValueError):
         return {}  # a design the equations cannot use predicts nothing (it was validated)
     return out
 

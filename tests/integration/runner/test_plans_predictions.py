@@ -54,6 +54,11 @@ def test_predictions_follow_the_design_equations():
     # P_sw = 1/2 V I (t_r + t_f) f [read: ST A5972D eq. 23] with 24 V, 6 A, 80.16 ns, 25 kHz
     # = 0.1443 W [computed]
     assert p["switching_loss"] == pytest.approx(0.1443, rel=2e-3)
+    # Vgs 10-90 % over three RC intervals [computed]: tau1 = 17.5 ohm x 2.2 nF = 38.5 ns,
+    # t10 = -tau1 ln(1 - 1.1355/11.4) = 4.04 ns, plateau from -tau1 ln(1 - 4.6/11.4) = 19.97 ns
+    # for 36.03 ns, then tau2 = 17.5 ohm x 14 nC / 5.4 V = 45.37 ns to 90 % (10.22 V):
+    # 45.37 ns x ln(6.8/1.18) = 79.45 ns; 19.97 + 36.03 + 79.45 - 4.04 = 131.4 ns
+    assert p["vgs_rise"] == pytest.approx(131.4e-9, rel=2e-3)
     soak = predict("soak", load_board("demo"))
     # T = 25 degC + (0.1443 W + 6^2 x 0.008 x 0.95 W) x 30 K/W = 37.54 degC [computed]
     assert soak["heatsink_final"] == pytest.approx(37.54, abs=0.01)
