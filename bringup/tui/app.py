@@ -28,7 +28,7 @@ class BringupApp(App[int]):
     ENABLE_COMMAND_PALETTE = False
     BINDINGS = [
         Binding("ctrl+c", "quit_safely", "quit", priority=True, show=False),
-        Binding("ctrl+q", "quit_safely", "quit", priority=True, show=False),
+        Binding("ctrl+q", "quit_safely", "quit", show=False),
     ]
 
     def __init__(

@@ -150,6 +150,27 @@ def progress_view(p: Any) -> Progress:
 
 def _channel_settings(plan: Any) -> list[tuple[str, str, str]]:
     rows: list[tuple[str, str, str]] = []
+    settings = plan.settings if isinstance(plan.settings, dict) else {}
+    scope = settings.get("scope") or {}
+    if scope.get("points"):
+        rows.append(
+            (
+                "scope",
+                "record",
+                f"{scope['points']:,} points over {format_quantity(scope['duration_s'], 's')}, "
+                f"pre-trigger {format_quantity(scope.get('pretrigger_s', 0.0), 's')}",
+            )
+        )
+    trigger = scope.get("trigger") or {}
+    if trigger:
+        rows.append(
+            (
+                "scope",
+                f"trigger on {trigger['net']}",
+                f"{trigger.get('slope', 'positive')} edge at "
+                f"{format_quantity(trigger['level_v'], 'V')}",
+            )
+        )
     for ch in plan.channels:
         bw = ", 20 MHz limit" if ch.bandwidth_limit else ""
         rows.append(
@@ -160,6 +181,14 @@ def _channel_settings(plan: Any) -> list[tuple[str, str, str]]:
                 f"{format_quantity(ch.offset_v, 'V')}, {ch.coupling}{bw}",
             )
         )
+    supply = settings.get("supply") or {}
+    if supply.get("ovp_v"):
+        rows.append(("supply", "over-voltage protection", format_quantity(supply["ovp_v"], "V")))
+    pwm = settings.get("pwm") or {}
+    if pwm:
+        duty = pwm.get("duty")
+        state = "on" if pwm.get("enabled") else "off"
+        rows.append(("board", "PWM (by hand)", state + (f", duty {duty:.0%}" if duty else "")))
     return rows
 
 

@@ -84,6 +84,7 @@ class SessionScreen(Screen[None]):
         self._attempt: AttemptView | None = None
         self._soak_t: list[float] = []
         self._running_kind = ""
+        self._history: dict[str, AttemptView] = {}
         self._soak_temp: list[float] = []
 
     @property
@@ -194,9 +195,22 @@ class SessionScreen(Screen[None]):
     def _show_attempts(self, attempts: tuple[AttemptView, ...]) -> None:
         table = self.query_one("#attempts", DataTable)
         table.clear()
+        self._history = {str(a.number): a for a in attempts}
         for a in reversed(attempts):
             summary = a.message or ", ".join(f"{m.label} {m.measured}" for m in a.metrics[:2])
-            table.add_row(str(a.number), _verdict_text(a.verdict), a.when, a.operator, summary)
+            table.add_row(
+                str(a.number), _verdict_text(a.verdict), a.when, a.operator, summary,
+                key=str(a.number),
+            )  # fmt: skip
+
+    @on(DataTable.RowSelected, "#attempts")
+    def _attempt_selected(self, event: DataTable.RowSelected) -> None:
+        """Enter (or a click) on an earlier attempt shows its result and trace."""
+        attempt = self._history.get(str(event.row_key.value))
+        if attempt is not None:
+            self._show_attempt(attempt)
+            self.action_tab("tab-result")
+            self.say(f"Showing attempt {attempt.number} of this step (the latest is on top).")
 
     def _show_attempt(self, attempt: AttemptView | None) -> None:
         self._attempt = attempt
@@ -497,6 +511,8 @@ class SessionScreen(Screen[None]):
             if kind == "good"
             else " r retakes it; w waives it (reason and name)."
         )
+        if self.link.current_step_id() is None:
+            nxt = " Every step now has a verdict: m shows the summary."
         self.say(f"Attempt {message.attempt.number}: {look.label()}.{nxt}", kind)
         self.show_step(step)
 

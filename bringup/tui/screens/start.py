@@ -29,9 +29,9 @@ class NewSessionForm(Vertical):
 
     def compose(self) -> ComposeResult:
         yield Static("START A NEW BOARD", classes="pane-title")
-        yield Label("Board file ('demo' = the shipped demo board)")
+        yield Label("Board file ('demo' = the demo board)")
         yield Input(value="demo", id="board")
-        yield Label("Checklist file (empty = the standard checklist)")
+        yield Label("Checklist file (empty = the standard one)")
         yield Input(placeholder="standard checklist", id="checklist")
         yield Label("Bench")
         yield Select(
@@ -116,7 +116,7 @@ class StartScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#sessions", DataTable)
-        table.add_columns("session", "board", "serial", "operator", "done", "last activity")
+        table.add_columns("session", "serial", "done", "last activity", "operator", "board")
         self.action_reload()
         if self._autostart is not None:
             self.say("Opening the session: connecting to the bench…")
@@ -138,11 +138,11 @@ class StartScreen(Screen[None]):
         for row in self._rows:
             table.add_row(
                 str(row.id),
-                row.board,
                 row.serial,
-                row.operator,
                 row.progress,
                 row.last_activity,
+                row.operator,
+                row.board,
                 key=str(row.id),
             )
         hint = self.query_one("#sessions-hint", Static)
