@@ -296,6 +296,7 @@ def execute(
     cancel: threading.Event | None,
     finish: threading.Event | None,
     on_progress: Callable[[Progress], None] | None,
+    notes: str = "",
 ) -> AttemptResult:
     """Run one attempt of ``step`` for ``runner`` and log it (see the module docstring)."""
     plan = runner.plan(step.id)
@@ -343,6 +344,7 @@ def execute(
         message=message,
         warnings=tuple(dict.fromkeys(ctx.warnings)),
         soak=ctx.soak,
+        notes=str(notes or "").strip(),
     )
     stored = store_attempt(runner, step, result, ctx.raw, out)
     ctx.emit("done", f"{step.id}: {state}")

@@ -229,8 +229,11 @@ class SessionRunner:
         cancel: threading.Event | None = None,
         finish: threading.Event | None = None,
         on_progress: ProgressCallback | None = None,
+        notes: str = "",
     ) -> AttemptResult:
         """Run one attempt of ``step_id`` and log it; blocks until done (call from a worker).
+
+        ``notes``: the operator's notes, logged with the attempt itself.
 
         ``answers``: the operator's confirmation and typed reading. With none, a simulated
         bench answers for itself (it plays the operator's hands and reads its meter); otherwise
@@ -254,7 +257,7 @@ class SessionRunner:
                 self._check_order(step)
                 self._running = step_id
                 self._abort.clear()
-            result = execute(self, step, answers, cancel, finish, on_progress)
+            result = execute(self, step, answers, cancel, finish, on_progress, notes)
             with self._lock:
                 self._state.add(result)
                 self._advance(step_id)

@@ -26,7 +26,8 @@ def test_steps_run_in_order_and_a_skip_needs_a_reason(make_runner):
     runner.skip(FIRST, "ramp done on the bench supply's front panel")
     runner.skip(UNLOADED, "scope in use elsewhere")
     assert runner.current_step() == METER
-    result = runner.run_step(METER)  # the simulated bench reads its meter
+    result = runner.run_step(METER, notes="meter on its 4 V range")  # the sim reads its meter
+    assert result.notes == "meter on its 4 V range"
     assert result.state == "pass"
     # the meter reads the logic rail: 3.3 V nominal, target 3.2-3.4 V
     assert result.metric("logic_level").measured == pytest.approx(3.3, abs=0.05)
@@ -38,6 +39,7 @@ def test_steps_run_in_order_and_a_skip_needs_a_reason(make_runner):
         ]
         assert events[1].reason == "scope in use elsewhere"
         assert [a.step_id for a in log.attempts(runner.session_id)] == ["logic-meter"]
+        assert log.attempts(runner.session_id)[0].notes == "meter on its 4 V range"
     assert runner.step_status(FIRST).state == "skipped"
 
 
