@@ -52,6 +52,11 @@ async def test_keys_work_during_a_soak_and_cancel_leaves_the_supply_off(
             timeout=20,
         )
         assert screen.running == SOAK
+        # the temperature log grows on the trace tab while the soak runs
+        plot = screen.query_one("#plot")
+        await wait_until(pilot, lambda: plot.point_count >= 2, what="a temperature log")
+        first = plot.point_count
+        await wait_until(pilot, lambda: plot.point_count > first, what="the log to grow")
 
         # a key while the soak runs: handled at once, the soak still running
         started = time.monotonic()

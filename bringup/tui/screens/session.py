@@ -84,6 +84,7 @@ class SessionScreen(Screen[None]):
         self._attempt: AttemptView | None = None
         self._soak_t: list[float] = []
         self._running_kind = ""
+        self._finals: list[float] = []  # the soak's successive predictions of its final value
         self._history: dict[str, AttemptView] = {}
         self._soak_temp: list[float] = []
 
@@ -413,6 +414,7 @@ class SessionScreen(Screen[None]):
         self._cancel = threading.Event()
         self._stop_soak = threading.Event()
         self._soak_t, self._soak_temp = [], []
+        self._finals = []
         live = self.query_one("#live")
         live.display = True
         bar = self.query_one("#live-bar", ProgressBar)
@@ -477,7 +479,12 @@ class SessionScreen(Screen[None]):
         text = p.text + (f"\n{readings}" if readings else "")
         if p.predicted_final:
             settled = "settled: finishing" if p.settled else "converging; t finishes early"
-            text += f"\npredicted final {p.predicted_final}  ({settled})"
+            if p.soak_final_c is not None and (
+                not self._finals or abs(self._finals[-1] - p.soak_final_c) > 1e-9
+            ):
+                self._finals.append(float(p.soak_final_c))
+            trail = " → ".join(f"{v:.2f}" for v in self._finals[-4:])
+            text += f"\npredicted final {p.predicted_final}  ({settled})\n  so far: {trail} °C"
         self.query_one("#live-text", Static).update(text)
         if p.soak_t:
             import numpy as np

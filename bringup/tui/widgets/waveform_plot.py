@@ -173,6 +173,11 @@ class WaveformPlot(Widget):
         self.show(np.zeros(0), np.zeros(0), None, title)
 
     @property
+    def point_count(self) -> int:
+        """How many samples the trace holds."""
+        return int(self._t.size)
+
+    @property
     def has_trace(self) -> bool:
         """True when a trace is shown."""
         return self._t.size > 0
