@@ -117,7 +117,6 @@ class SessionLink:
         cancel: threading.Event,
         finish: threading.Event,
         on_progress: Callable[[Progress], None],
-        ask: Callable[..., object] | None = None,
     ) -> AttemptView:
         """Run one attempt (blocking: call from a worker thread) and return it as a view."""
         from bringup.runner import StepAnswers

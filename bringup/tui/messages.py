@@ -6,7 +6,7 @@ from textual.message import Message
 
 from bringup.tui.views import AttemptView, Progress
 
-__all__ = ["StepProgressed", "StepFinished", "StepFaulted", "StepStopped", "AnswerNeeded"]
+__all__ = ["StepProgressed", "StepFinished", "StepFaulted", "StepStopped"]
 
 
 class StepProgressed(Message):
@@ -43,22 +43,3 @@ class StepStopped(Message):
         super().__init__()
         self.step_id = step_id
         self.message = message
-
-
-class AnswerNeeded(Message):
-    """The runner asks the operator something mid-step (a typed reading, a confirmation).
-
-    The worker waits on ``done``; the handler fills ``answer`` (None = refused) and sets it.
-    """
-
-    def __init__(self, step_id: str, kind: str, prompt: str, unit: str = "", payload=None) -> None:
-        super().__init__()
-        import threading
-
-        self.step_id = step_id
-        self.kind = kind
-        self.prompt = prompt
-        self.unit = unit
-        self.payload = payload
-        self.answer: object = None
-        self.done = threading.Event()

@@ -27,14 +27,8 @@ from textual.widgets import (
 from textual.worker import Worker, WorkerState
 
 from bringup.errors import BringupError
-from bringup.tui.messages import (
-    AnswerNeeded,
-    StepFaulted,
-    StepFinished,
-    StepProgressed,
-    StepStopped,
-)
-from bringup.tui.screens.prompts import ConfirmPrompt, EnergisePrompt, ReasonPrompt
+from bringup.tui.messages import StepFaulted, StepFinished, StepProgressed, StepStopped
+from bringup.tui.screens.step_actions import StepActions
 from bringup.tui.states import LEGEND, look_of
 from bringup.tui.views import AttemptView, Progress, StepDetail
 from bringup.tui.widgets.checklist_tree import ChecklistTree
@@ -47,7 +41,7 @@ def _verdict_text(verdict: str) -> Text:
     return look_of(verdict).text()
 
 
-class SessionScreen(Screen[None]):
+class SessionScreen(StepActions, Screen[None]):
     """One board going through its checklist."""
 
     _STEPS = Binding.Group("step", compact=True)
@@ -325,88 +319,7 @@ class SessionScreen(Screen[None]):
 
         self.app.push_screen(SummaryScreen())
 
-    def action_back(self) -> None:
-        """Go back to the first step of the stage before the viewed one."""
-        if self._busy():
-            return
-        try:
-            step_id = self.link.go_back(self.viewed)
-        except BringupError as exc:
-            self.say(str(exc), "fault")
-            return
-        self.refresh_all(select=step_id)
-        self.say("Back one stage: press r to take the step again.")
-
     # -- taking a step ---------------------------------------------------------------------
-    def _busy(self) -> bool:
-        if self.running is not None:
-            self.say("A step is running: x stops it first.", "warn")
-            return True
-        return False
-
-    def action_take(self) -> None:
-        """Run (or retake) the viewed step: ask what it needs, then start the worker."""
-        if self._busy() or self.viewed is None:
-            return
-        try:
-            detail = self.link.detail(self.viewed)
-        except BringupError as exc:
-            self.say(str(exc), "fault")
-            return
-        self._ask_then_start(detail)
-
-    @work(exclusive=True, group="prompts")
-    async def _ask_then_start(self, detail: StepDetail) -> None:
-        """The by-hand confirmation, the typed reading and the energising prompt, in order."""
-        answers: dict[str, object] = {}
-        if detail.confirm and detail.energise is not None and not detail.reading_prompt:
-            # one question: the hands are done and the supply may go on
-            yes = await self.app.push_screen_wait(
-                EnergisePrompt(detail.title, detail.energise, by_hand=detail.confirm)
-            )
-            if not yes:
-                self.say("Not confirmed: the step did not run and nothing was energised.", "warn")
-                return
-            answers["confirmed"] = True
-            answers["hazard_acknowledged"] = detail.energise.hazardous
-            self._start(detail, answers)
-            return
-        if detail.confirm:
-            yes = await self.app.push_screen_wait(ConfirmPrompt("Check by hand", detail.confirm))
-            if not yes:
-                self.say("Not confirmed: the step did not run.", "warn")
-                return
-            answers["confirmed"] = True
-        if detail.reading_prompt:
-            from bringup.analysis.quantities import parse_quantity
-
-            unit = detail.reading_unit
-            sim = self.link.simulated
-            hint = "\n(Simulated bench: leave it empty and the simulated meter reads it.)"
-            typed = await self.app.push_screen_wait(
-                ReasonPrompt(
-                    "Type the reading",
-                    f"{detail.reading_prompt}"
-                    + (f" (in {unit})" if unit else "")
-                    + (hint if sim else ""),
-                    placeholder=f"e.g. 3.31 {unit}".strip(),
-                    empty_problem="Type the value read on the meter, or Esc to cancel.",
-                    allow_empty=sim,
-                    validate=lambda text: parse_quantity(text, unit or None, where="the reading"),
-                )
-            )
-            if typed is None:
-                self.say("No reading typed: the step did not run.", "warn")
-                return
-            answers["reading"] = typed[0] or None
-        if detail.energise is not None:
-            yes = await self.app.push_screen_wait(EnergisePrompt(detail.title, detail.energise))
-            if not yes:
-                self.say("Not energised: the step did not run.", "warn")
-                return
-            answers["hazard_acknowledged"] = detail.energise.hazardous
-        self._start(detail, answers)
-
     def _start(self, detail: StepDetail, answers: dict[str, object]) -> None:
         self.running = detail.id
         self._running_kind = detail.kind
@@ -444,16 +357,8 @@ class SessionScreen(Screen[None]):
         def progress(p: Progress) -> None:
             self.post_message(StepProgressed(step_id, p))
 
-        def ask(kind: str, prompt: str, unit: str = "", payload=None) -> object:
-            question = AnswerNeeded(step_id, kind, prompt, unit, payload)
-            self.post_message(question)
-            while not question.done.wait(0.1):
-                if cancel.is_set():
-                    return None
-            return question.answer
-
         try:
-            attempt = self.link.run(step_id, answers, cancel, stop_soak, progress, ask)
+            attempt = self.link.run(step_id, answers, cancel, stop_soak, progress)
         except BringupError as exc:
             # the runner leaves the supply off on every way out of a step
             self.post_message(StepFaulted(step_id, str(exc)))
@@ -532,18 +437,6 @@ class SessionScreen(Screen[None]):
         extra = f" ({message.message})" if message.message else ""
         self.say(f"Stopped: the supply is off and nothing was judged{extra}.", "warn")
 
-    def on_answer_needed(self, message: AnswerNeeded) -> None:
-        def answered(result: tuple[str, str] | None) -> None:
-            message.answer = result[0] if result else None
-            message.done.set()
-
-        self.app.push_screen(
-            ReasonPrompt(
-                "A reading is needed", message.prompt, placeholder=message.unit or "value"
-            ),
-            answered,
-        )
-
     def action_cancel(self) -> None:
         if self.running is None:
             self.say("Nothing is running.")
@@ -562,60 +455,6 @@ class SessionScreen(Screen[None]):
         if event.worker.group == "bench" and event.state == WorkerState.ERROR and self.running:
             self._finish(select_next=False)
             self.say(f"Fault, bench made safe: {event.worker.error}", "fault")
-
-    # -- skip, waive, note -----------------------------------------------------------------
-    def action_skip(self) -> None:
-        if self._busy() or self.viewed is None:
-            return
-        step = self.viewed
-
-        def answered(result: tuple[str, str] | None) -> None:
-            if result is None:
-                return
-            try:
-                self.link.skip(step, result[0])
-            except BringupError as exc:
-                self.say(str(exc), "fault")
-                return
-            self.refresh_all(select=self.link.current_step_id() or step)
-            self.say(f"Skipped, reason kept: {result[0]}")
-
-        self.app.push_screen(
-            ReasonPrompt(
-                "Skip this step?", "A skipped step needs a reason; it goes in the record."
-            ),
-            answered,
-        )
-
-    def action_waive(self) -> None:
-        if self._busy() or self.viewed is None:
-            return
-        step = self.viewed
-
-        def answered(result: tuple[str, str] | None) -> None:
-            if result is None:
-                return
-            try:
-                self.link.waive(step, result[0], result[1])
-            except BringupError as exc:
-                self.say(str(exc), "fault")
-                return
-            self.refresh_all(select=self.link.current_step_id() or step)
-            self.say(f"Waived by {result[1]}: {result[0]}")
-
-        self.app.push_screen(
-            ReasonPrompt(
-                "Waive this failed step?",
-                "A waiver accepts a failed result: it needs a reason and the name of who accepts it.",
-                ask_name=True,
-                name_default=self.link.operator,
-            ),
-            answered,
-        )
-
-    def action_note(self) -> None:
-        self.action_tab("tab-notes")
-        self.query_one("#note-input", Input).focus()
 
     @on(Input.Submitted, "#note-input")
     def _note_submitted(self, event: Input.Submitted) -> None:
