@@ -49,11 +49,10 @@ class EnergisePrompt(ModalScreen[bool]):
             if self.energise.ramp_v:
                 steps = ", ".join(format_quantity(v, "V") for v in self.energise.ramp_v)
                 ramp = f"\nIt ramps in steps ({steps}) and stops at once if the current says short."
-            extra = f"\n{self.energise.prompt}" if self.energise.prompt else ""
             yield Static(
                 f"Step: {self.step_title}\n\n"
                 f"The supply output will be switched ON at {volts} "
-                f"with the current limit at {amps}.{ramp}{extra}\n"
+                f"with the current limit at {amps}.{ramp}\n"
                 "Check the probes and the load are in place and hands are clear.",
                 id="energise-text",
             )
