@@ -14,6 +14,7 @@ operation does not have, a query template without ``?`` (or a command with one) 
 
 from __future__ import annotations
 
+import os
 import re
 import string
 from collections.abc import Iterable, Mapping
@@ -385,17 +386,29 @@ def _status(src: TomlSource, kind: str) -> dict[str, int]:
     return dict(status)
 
 
+PROFILES_ENV = "BRINGUP_PROFILES"
+
+
 def profile_dirs(user_dir: Path | None) -> list[Path]:
-    """Folders searched for profiles: the user's first (their copies win), then the built-in."""
+    """Folders searched for profiles: the user's first (their copies win), then the built-in.
+
+    Without an explicit ``user_dir`` (``--profiles DIR``), the folder named by the environment
+    variable ``BRINGUP_PROFILES`` is the user's: that reaches every command that opens a bench
+    (``run``, ``resume``, the notebook), not only ``bringup instruments``.
+    """
+    if user_dir is None and os.environ.get(PROFILES_ENV):
+        user_dir = Path(os.environ[PROFILES_ENV])
     dirs = [Path(user_dir)] if user_dir is not None else []
     return [*dirs, BUILTIN_DIR]
 
 
 def find_profile(name: str, user_dir: Path | None = None) -> Profile:
     """The profile called ``name`` (file ``<name>.toml``) from the user's folder or the built-in."""
-    if user_dir is not None and not Path(user_dir).is_dir():
-        raise ConfigError(user_dir, None, "profile folder not found")
-    for folder in profile_dirs(user_dir):
+    folders = profile_dirs(user_dir)
+    if len(folders) > 1 and not folders[0].is_dir():
+        where = "" if user_dir is not None else f" (from {PROFILES_ENV})"
+        raise ConfigError(folders[0], None, f"profile folder not found{where}")
+    for folder in folders:
         candidate = folder / f"{name}.toml"
         if candidate.is_file():
             return load_profile(candidate)
