@@ -17,6 +17,7 @@ import numpy as np
 from bringup.record.compare import content_digest, seal_of
 from bringup.record.signing import open_item
 from bringup.record.snapshots import bench_view, checklist_file, step_definitions, text_digest
+from bringup.store.content import WAVEFORM_SCALE_COLUMNS
 from bringup.store.entries import AttemptRecord, EventRecord, SessionData
 
 __all__ = ["RECORD_SCHEMA", "build_content", "assemble_record", "step_statuses", "stamp"]
@@ -131,20 +132,8 @@ def _waveforms(attempt: AttemptRecord, load: WaveformLoader) -> list[dict]:
         codes = codes.astype(codes.dtype.newbyteorder("<"), copy=False)
         wave = {
             "name": name,
-            **{
-                k: desc.get(k)
-                for k in (
-                    "dtype",
-                    "points",
-                    "x_increment",
-                    "x_origin",
-                    "y_increment",
-                    "y_origin",
-                    "y_unit",
-                    "x_unit",
-                    "raw_sha256",
-                )
-            },  # fmt: skip
+            # the store's scale columns plus the samples' digest: one list of what a wave is
+            **{k: desc.get(k) for k in (*WAVEFORM_SCALE_COLUMNS, "raw_sha256")},
             "byte_order": "little",
             "codes_b64": base64.b64encode(codes.tobytes()).decode("ascii"),
         }
