@@ -97,6 +97,20 @@ class SessionLink:
             out.append(view)
         return tuple(out)
 
+    def blocking_step(self, step_id: str) -> str | None:
+        """The title of the unfinished step that must come before ``step_id`` (None if it may
+        run now): the runner's own order rule, asked before the operator is prompted."""
+        from bringup.runner.results import ACCEPTED
+
+        current = self.runner.current_step()
+        if current is None or current == step_id:
+            return None
+        steps = [s.id for s in self.runner.checklist.steps()]
+        if steps.index(step_id) <= steps.index(current):
+            return None  # a retake of an earlier step, or one of a stage gone back to
+        status = self.runner.step_status(current)
+        return None if status.state in ACCEPTED else status.title
+
     def step_notes(self, step_id: str) -> tuple[str, ...]:
         """Notes logged about the step, and the reason of a skip or waiver."""
         step = self.runner.checklist.step(step_id)

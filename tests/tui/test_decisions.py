@@ -62,6 +62,17 @@ async def test_failed_step_refused_skip_waiver_and_going_back(log_path):
         assert "waive" in status and "failed" in status, status
         assert runner.step_status(STEP).state == "fail"
 
+        # the next step cannot run while this one is failed: said before any prompt
+        await pilot.press("j")
+        await wait_until(pilot, lambda: screen.viewed == "edge-speed.edges")
+        await pilot.press("r")
+        await pilot.pause()
+        assert isinstance(app.screen, SessionScreen) and screen.running is None
+        status = str(screen.query_one("#status").render())
+        assert "in order" in status and "Gate-source voltage" in status, status
+        await pilot.press("k")
+        await wait_until(pilot, lambda: screen.viewed == STEP)
+
         # the waiver: a reason and a name
         await pilot.press("w")
         await wait_until(pilot, lambda: isinstance(app.screen, ReasonPrompt))

@@ -27,6 +27,7 @@ from textual.widgets import (
 from textual.worker import Worker, WorkerState
 
 from bringup.errors import BringupError
+from bringup.runner import RunnerError
 from bringup.tui.messages import StepFaulted, StepFinished, StepProgressed, StepStopped
 from bringup.tui.screens.step_actions import StepActions
 from bringup.tui.states import LEGEND, look_of
@@ -359,6 +360,9 @@ class SessionScreen(StepActions, Screen[None]):
 
         try:
             attempt = self.link.run(step_id, answers, cancel, stop_soak, progress)
+        except RunnerError as exc:  # refused (order, another step running): nothing was done
+            self.post_message(StepStopped(step_id, f"refused: {exc}"))
+            return
         except BringupError as exc:
             # the runner leaves the supply off on every way out of a step
             self.post_message(StepFaulted(step_id, str(exc)))

@@ -35,8 +35,13 @@ class StepActions:
             return
         try:
             detail = self.link.detail(self.viewed)
+            waiting = self.link.blocking_step(self.viewed)
         except BringupError as exc:
             self.say(str(exc), "fault")
+            return
+        if waiting is not None:
+            # the runner would refuse it; say so before asking anything of the operator
+            self.say(f"Steps run in order: {waiting} comes first (run, skip or waive it).", "warn")
             return
         self._ask_then_start(detail)
 
