@@ -1,0 +1,13 @@
+"""The bench notebook in the terminal (Textual). No measurement or storage logic lives here.
+
+- ``app.py``: ``BringupApp`` (start screen, session screen, safe state on every way out);
+  ``run_app.py`` runs it with signals and crashes covered.
+- ``launch.py``: ``Launcher`` lists unfinished sessions and creates or resumes them through
+  ``bringup.runner.SessionRunner``; ``link.py``: ``SessionLink``, the one object the screens
+  talk to; ``present.py`` formats the runner's records into ``views.py``'s frozen rows.
+- ``screens/``: ``start``, ``session`` (+ ``step_actions``), ``summary``, ``prompts``.
+- ``widgets/``: ``waveform_plot`` (braille, levels, crossings, on-time window),
+  ``checklist_tree``; ``states.py``: each state's symbol, word and colour.
+- Styles: ``bringup.tcss``. Instrument I/O only in thread workers (group "bench"), results
+  back as messages (``messages.py``).
+"""
