@@ -7,7 +7,7 @@ accepts a waiver with a reason and a name. Results are read back from the log.
 
 from __future__ import annotations
 
-from helpers import sync, take_step, wait_for_session, wait_until
+from tui_pilot import sync, take_step, wait_for_session, wait_until
 
 from bringup.store import SessionLog
 from bringup.tui.app import BringupApp

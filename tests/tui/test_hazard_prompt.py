@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from helpers import sync, wait_for_session, wait_until
+from tui_pilot import sync, wait_for_session, wait_until
 
 from bringup.checklist.board import demo_board_path
 from bringup.store import SessionLog

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import sqlite3
 
-from helpers import sync, take_step, wait_for_session, wait_until
+from tui_pilot import sync, take_step, wait_for_session, wait_until
 
 from bringup.store import SessionLog
 from bringup.tui.app import BringupApp

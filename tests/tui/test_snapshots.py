@@ -2,14 +2,14 @@
 step and the summary. Each baseline SVG in ``__snapshots__`` was looked at before it was kept.
 
 Plain ``def`` tests (``snap_compare`` runs the app itself); ``run_before`` waits for layout
-first. Session ids and times are fixed (``fixed_labels``); the bench is the seeded simulator.
+first. Session ids and times are fixed (``tui_fixed_labels``); the bench is the seeded simulator.
 """
 
 from __future__ import annotations
 
-from fixed_labels import FixedLauncher
-from helpers import take_step, wait_for_session, wait_until
 from textual.widgets import Input
+from tui_fixed_labels import FixedLauncher
+from tui_pilot import take_step, wait_for_session, wait_until
 
 from bringup.tui.app import BringupApp
 from bringup.tui.screens.start import StartScreen
