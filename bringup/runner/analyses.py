@@ -21,17 +21,43 @@ from bringup.checklist.board import Board
 from bringup.checklist.catalogue import RAIL_NETS
 from bringup.runner.results import Crossing, SoakProgress, WaveformView
 
-__all__ = ["Trace", "RampStep", "AnalysisInput", "AnalysisOutput", "ANALYSE", "analyse"]
+__all__ = ["Trace", "clipping", "RampStep", "AnalysisInput", "AnalysisOutput", "ANALYSE", "analyse"]
 
 
 @dataclass(frozen=True, eq=False)
 class Trace:
-    """One acquired trace in volts: sample ``i`` at ``t0_s + i * dt_s`` seconds."""
+    """One acquired trace in volts: sample ``i`` at ``t0_s + i * dt_s`` seconds.
+
+    ``screen_v``: the channel's vertical window as (offset, full-scale range) in volts, when
+    known; what lies within 1 % of its edges is clipped (see ``clipping``)."""
 
     net: str
     volts: np.ndarray
     dt_s: float
     t0_s: float
+    screen_v: tuple[float, float] | None = None
+
+    def span(self, start_s: float, end_s: float) -> np.ndarray:
+        """The samples from ``start_s`` to ``end_s`` (s), both included."""
+        a = max(int(math.floor((start_s - self.t0_s) / self.dt_s)), 0)
+        b = min(int(math.ceil((end_s - self.t0_s) / self.dt_s)) + 1, self.volts.size)
+        return self.volts[a:b]
+
+
+def clipping(volts: np.ndarray, offset_v: float, range_v: float) -> str | None:
+    """Which edge of the screen ``volts`` reach ("top (14 V)"/"bottom (-2 V)"), or None.
+
+    The screen spans ``offset_v`` +/- ``range_v``/2; samples within 1 % of the range from
+    either edge count as clipped: an 8-bit scope's top and bottom codes."""
+    if volts.size == 0:
+        return None
+    top, bottom = offset_v + range_v / 2, offset_v - range_v / 2
+    margin = range_v / 100
+    if float(volts.max()) >= top - margin:
+        return f"top ({top:.4g} V)"
+    if float(volts.min()) <= bottom + margin:
+        return f"bottom ({bottom:.4g} V)"
+    return None
 
 
 @dataclass(frozen=True)
@@ -61,7 +87,10 @@ class AnalysisInput:
 
 @dataclass
 class AnalysisOutput:
-    """Measured values by metric id (None = not measured), reasons, views, warnings."""
+    """Measured values by metric id (None = not measured), reasons, views, warnings.
+
+    ``spans``: for a metric computed from part of its trace only, the time windows (s) of the
+    samples it uses; a clipped trace then withdraws the metric only when those samples clip."""
 
     metrics: dict[str, float | None] = field(default_factory=dict)
     reasons: dict[str, str] = field(default_factory=dict)
@@ -69,6 +98,7 @@ class AnalysisOutput:
     warnings: list[str] = field(default_factory=list)
     details: dict = field(default_factory=dict)
     soak: SoakProgress | None = None
+    spans: dict[str, tuple[tuple[float, float], ...]] = field(default_factory=dict)
 
     def set(self, metric: str, value: float | None, reason: str = "") -> None:
         if value is not None and not math.isfinite(value):
@@ -267,7 +297,19 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     over the settled top (``bringup.analysis.droop``); Vgs at the start and end of the on-time;
     the longest on-time at which the line reaches the Vgs floor (the ``vgs_end`` target's min,
     else the R_DS(on) rating voltage); the bootstrap voltage at the end of the on-time minus
-    the driver's falling UVLO (V)."""
+    the driver's falling UVLO (V).
+
+    The standard checklist zooms in on the flat top (offset near the on level, a range of half
+    the gate-drive voltage: one 8-bit code is 23 mV instead of 62.5 mV on the demo board, and
+    the line through some 47 000 noisy samples resolves a millivolt): the off level and the
+    bottom of the edges then lie off the screen, and only the fitted top's samples decide whether the droop metrics stand
+    (``spans``). The on-time runs between the crossings of the mid level of what the screen
+    shows; on a zoomed record that level sits near the top, so each crossing is off the 50 %
+    instant of the full swing by less than that edge's duration (about 0.15 us of a 38 us
+    on-time on the demo board).
+
+    V_BS is fitted over the on-time found on V_GS: alone, its longest "pulse" is the recharge
+    bump in the off-time, not the sagging on-time (``measure_droop``'s ``on_window_s``)."""
     from bringup.analysis.droop import measure_droop
 
     vgs, vbs = _trace(data, "vgs"), _trace(data, "vbs")
@@ -275,12 +317,19 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     floor = target.limit.min if target is not None and target.limit.min is not None else None
     if floor is None:
         floor = board.design["mosfet_rds_on_vgs"]
+    on_window = None
     try:
         d = measure_droop(vgs.volts, vgs.dt_s, floor, vgs.t0_s)
+        on_window = (d.on_start_s, d.on_end_s)
+        top = ((d.top_start_s, d.top_end_s),)
         out.set("vgs_droop", d.droop_v)
         out.set("vgs_start", d.start_v)
         out.set("vgs_end", d.end_v)
         out.set("on_time", d.on_time_s)
+        for metric in ("vgs_droop", "vgs_start", "vgs_end", "on_time_supported"):
+            out.spans[metric] = top
+        # The on-time uses the samples that bracket its two crossings (interpolated between).
+        out.spans["on_time"] = tuple((t - vgs.dt_s, t + vgs.dt_s) for t in on_window)
         if d.t_on_max_s is not None:
             out.set("on_time_supported", d.t_on_max_s)
         elif d.start_v <= floor:
@@ -309,12 +358,19 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         for metric in ("vgs_droop", "vgs_start", "vgs_end", "on_time", "on_time_supported"):
             out.set(metric, None, f"vgs: {exc}")
     uvlo = board.design["driver_uvlo_falling"]
+    if on_window is None:
+        why = "vbs: needs the on-time found on vgs, which was not measured"
+        out.set("vbs_end", None, why)
+        out.set("uvlo_margin", None, why)
+        return
     try:
-        b = measure_droop(vbs.volts, vbs.dt_s, uvlo, vbs.t0_s)
+        b = measure_droop(vbs.volts, vbs.dt_s, uvlo, vbs.t0_s, on_window_s=on_window)
         out.set("vbs_end", b.end_v)
         out.set("uvlo_margin", b.end_v - uvlo)
+        out.spans["vbs_end"] = out.spans["uvlo_margin"] = ((b.top_start_s, b.top_end_s),)
         out.views.append(_view("vbs", vbs, {"start": b.start_v, "end": b.end_v, "uvlo": uvlo},
                                window=(b.top_start_s, b.top_end_s)))  # fmt: skip
+        out.details["vbs_droop"] = b.to_dict()
     except AnalysisError as exc:
         out.set("vbs_end", None, f"vbs: {exc}")
         out.set("uvlo_margin", None, f"vbs: {exc}")
@@ -383,16 +439,36 @@ def analyse(name: str, data: AnalysisInput, board: Board) -> AnalysisOutput:
 
     A metric taken from a clipped trace is withdrawn (None, so it fails its target): the
     signal went beyond what the scope saw, and a clipped peak or level reads inside a limit it
-    may really be beyond."""
+    may really be beyond. A metric that uses only part of its trace (``spans``, e.g. the fitted
+    top of a zoomed record) is withdrawn only when those samples clip."""
     out = AnalysisOutput()
     try:
         ANALYSE[name](data, board, out)
     except AnalysisError as exc:
         out.warnings.append(str(exc))
+    withdrawn: dict[str, str] = {}
     for metric in list(out.metrics):
         net = metric_net(metric)
-        if net is not None and net in data.clipped and net in data.traces:
-            out.set(metric, None, data.clipped[net])
-    for why in data.clipped.values():
-        out.warnings.append(why)
+        if net is None or net not in data.clipped or net not in data.traces:
+            continue
+        trace = data.traces[net]
+        spans = out.spans.get(metric)
+        if spans and trace.screen_v is not None:
+            edges = [clipping(trace.span(a, b), *trace.screen_v) for a, b in spans]
+            edge = next((e for e in edges if e is not None), None)
+            if edge is None:
+                continue  # its own samples are all on the screen
+            why = data.clipped[net].split(" clipped", 1)[0]
+            why = f"{why} clipped at the {edge} of its range over the samples {metric} uses"
+        else:
+            why = data.clipped[net]
+        out.set(metric, None, why)
+        withdrawn[net] = data.clipped[net]
+    for net, why in data.clipped.items():
+        if net in withdrawn or not any(metric_net(m) == net for m in out.metrics):
+            out.warnings.append(why)
+        else:
+            # Off the screen only where no metric looks (a zoomed record's edges): noted, no
+            # warning.
+            out.details.setdefault("off_screen", {})[net] = why
     return out

@@ -12,7 +12,7 @@ from pathlib import Path
 
 from bringup.checklist.board import Board
 from bringup.checklist.model import Step
-from bringup.runner.analyses import Trace
+from bringup.runner.analyses import Trace, clipping
 from bringup.runner.bench_source import BenchSource
 from bringup.runner.results import StepPlan
 
@@ -22,17 +22,8 @@ _SLOPES = {"positive": "rising", "negative": "falling"}
 
 
 def _clipping(net: str, source, volts, offset_v: float, range_v: float) -> str | None:
-    """Why a trace is clipped (samples at the top or bottom of the screen), or None.
-
-    Within 1 % of the range from either edge counts: an 8-bit scope's top codes."""
-    top, bottom = offset_v + range_v / 2, offset_v - range_v / 2
-    margin = range_v / 100
-    hi, lo = float(volts.max()), float(volts.min())
-    edge = None
-    if hi >= top - margin:
-        edge = f"top ({top:.4g} V)"
-    elif lo <= bottom + margin:
-        edge = f"bottom ({bottom:.4g} V)"
+    """Why a trace is clipped (samples at the top or bottom of the screen), or None."""
+    edge = clipping(volts, offset_v, range_v)
     if edge is None:
         return None
     return (
@@ -196,7 +187,7 @@ class BenchLink:
             wf = scope.fetch_waveform(source)
             raw[net] = wf
             volts = wf.volts()
-            traces[net] = Trace(net, volts, wf.x_increment, wf.x_origin)
+            traces[net] = Trace(net, volts, wf.x_increment, wf.x_origin, windows.get(net))
             if net in windows:
                 why = _clipping(net, source, volts, *windows[net])
                 if why:

@@ -11,6 +11,8 @@ from bringup.checklist.load import check_against_board, load_checklist, standard
 from bringup.errors import ConfigError
 
 TEXT = standard_checklist_path().read_text(encoding="utf-8")
+# The droop step's zoomed vertical setup, shared by its vgs and vbs channels.
+ZOOM = 'range = "0.5 * design.gate_drive_voltage", offset = "0.9 * design.gate_drive_voltage"'
 
 
 def _line_of(text: str, needle: str, after: str | None = None) -> int:
@@ -126,10 +128,11 @@ def test_design_reference_of_the_wrong_unit(tmp_path):
 
 
 def test_single_ended_probe_on_a_floating_net(tmp_path):
-    old = 'vbs = { range = "16 V", offset = "6 V", probe = "differential" }'
-    text = TEXT.replace(old, 'vbs = { range = "16 V", offset = "6 V" }')
+    old = f'vbs = {{ {ZOOM}, probe = "differential" }}'
+    assert old in TEXT
+    text = TEXT.replace(old, f"vbs = {{ {ZOOM} }}")
     _fails(tmp_path, text, "stages.droop-max-on-time.steps.droop.scope.nets.vbs.probe",
-           _line_of(text, 'vbs = { range = "16 V", offset = "6 V" }'), "floats")  # fmt: skip
+           _line_of(text, f"vbs = {{ {ZOOM} }}"), "floats")  # fmt: skip
 
 
 def test_record_too_long(tmp_path):
@@ -139,7 +142,9 @@ def test_record_too_long(tmp_path):
 
 
 def test_analysis_needs_its_nets(tmp_path):
-    text = TEXT.replace('vbs = { range = "16 V", offset = "6 V", probe = "differential" }\n', "")
+    old = f'vbs = {{ {ZOOM}, probe = "differential" }}\n'
+    assert old in TEXT
+    text = TEXT.replace(old, "")
     _fails(tmp_path, text, "stages.droop-max-on-time.steps.droop.scope.nets",
            _line_of(text, "[stages.droop-max-on-time.steps.droop.scope.nets]"),
            "needs net 'vbs'")  # fmt: skip
@@ -161,7 +166,8 @@ def test_syntax_error(tmp_path):
 
 
 def test_trigger_on_a_net_not_acquired(tmp_path):
-    old = 'trigger = { net = "vgs", level = "0.5 * design.gate_drive_voltage", slope = "positive" }'
+    old = 'trigger = { net = "vgs", level = "0.7 * design.gate_drive_voltage", slope = "positive" }'
+    assert old in TEXT
     text = TEXT.replace(old, old.replace('net = "vgs"', 'net = "logic"'))
     _fails(tmp_path, text, "stages.droop-max-on-time.steps.droop.scope.trigger.net",
            _line_of(text, 'net = "logic"', after="droop.scope]"), "not acquired")  # fmt: skip
