@@ -11,6 +11,8 @@ from bringup import __version__
 from bringup.commands import COMMANDS
 from bringup.errors import BringupError
 
+_OWN_OPTIONS = ("-h", "--help", "--version")
+
 
 class _Parser(argparse.ArgumentParser):
     """argparse that reports bad options in one line with exit status 2 (its default)."""
@@ -40,10 +42,16 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    # `bringup --db PATH` means the start screen on that log: options before any command
+    # belong to `open` unless they are the program's own.
+    if argv and argv[0].startswith("-") and argv[0] not in _OWN_OPTIONS:
+        if "open" in sub_names(parser):
+            argv = ["open", *argv]
     args = parser.parse_args(argv)
     if args.command is None:
         if "open" in sub_names(parser):
-            args = parser.parse_args(["open", *(argv or [])])
+            args = parser.parse_args(["open"])
         else:
             parser.print_help()
             return 0
