@@ -16,7 +16,7 @@ from bringup.runner.analyses import Trace, clipping
 from bringup.runner.bench_source import BenchSource
 from bringup.runner.results import StepPlan
 
-__all__ = ["BenchLink"]
+__all__ = ["BenchLink", "local_utc_offset"]
 
 _SLOPES = {"positive": "rising", "negative": "falling"}
 
@@ -29,6 +29,16 @@ def _clipping(net: str, source, volts, offset_v: float, range_v: float) -> str |
     return (
         f"CH{source} ({net}) clipped at the {edge} of its range: widen the range or move the offset"
     )
+
+
+def local_utc_offset() -> str:
+    """This machine's UTC offset now, as "+01:00" (ISO 8601)."""
+    import datetime as dt
+
+    offset = dt.datetime.now().astimezone().utcoffset() or dt.timedelta(0)
+    minutes = int(offset.total_seconds() // 60)
+    sign = "-" if minutes < 0 else "+"
+    return f"{sign}{abs(minutes) // 60:02d}:{abs(minutes) % 60:02d}"
 
 
 class BenchLink:
@@ -79,6 +89,36 @@ class BenchLink:
     def identities(self) -> dict[str, str]:
         """``*IDN?`` of each instrument by role."""
         return dict(self.bench.identities)
+
+    def snapshot(self, source: BenchSource) -> dict:
+        """The bench as logged with a new session: ``source.describe()`` (how to reopen it),
+        one table per instrument (``resource``, ``profile``, ``calibration_due`` as ISO date or
+        null, ``idn``: its ``*IDN?`` answer), the scope's ``channels`` by number (``net``,
+        ``probe_ratio``, ``probe`` kind), ``simulation`` for a simulated bench, the file's
+        ``text``, and the local
+        ``utc_offset`` ("+01:00") of the machine that ran the session."""
+        config = self.bench.config
+        kinds = self.probe_kinds()
+        identities = self.identities()
+        out: dict = dict(source.describe())
+        for role, entry in config.instruments.items():
+            due = entry.calibration_due
+            out[role] = {"resource": entry.resource, "profile": entry.profile,
+                         "calibration_due": due.isoformat() if due is not None else None,
+                         "idn": identities.get(role)}  # fmt: skip
+        if "scope" in out:
+            out["scope"]["channels"] = {
+                str(n): {"net": w.net, "probe_ratio": w.probe_ratio, "probe": kinds.get(n)}
+                for n, w in sorted(config.channels.items())
+            }
+        if self.simulated:
+            out["simulation"] = {"enabled": True}
+        try:
+            out["text"] = Path(config.path).read_text(encoding="utf-8")
+        except (OSError, UnicodeDecodeError):
+            pass  # the tables above hold what was read from it
+        out["utc_offset"] = local_utc_offset()
+        return out
 
     def probe_kinds(self) -> dict[int, str]:
         """The kind of probe on each wired scope channel, as the bench file wires it: a channel

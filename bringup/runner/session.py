@@ -98,8 +98,9 @@ class SessionRunner:
     ) -> SessionRunner:
         """Start a new session for board ``serial`` (checked against the board's pattern).
 
-        The board, checklist and bench description are snapshotted into the log so the session
-        can be resumed and exported exactly as it ran. ``db_path`` None = the default log.
+        The board, checklist and bench are snapshotted into the log so the session can be
+        resumed and exported exactly as it ran; the bench is opened here for its identities
+        (``BenchLink.snapshot``), so nothing is logged for a bench that cannot be reached. ``db_path`` None = the default log.
         Raises ``InputError`` for a bad serial or an empty operator, ``ConfigError`` when the
         checklist names a target the board does not define, ``StoreError`` for the log.
         """
@@ -111,20 +112,32 @@ class SessionRunner:
             raise InputError("--operator: a session needs the operator's name")
         board.check_serial(serial)
         check_against_board(checklist, board)
+        from bringup.runner.bench_link import BenchLink
+
         log = SessionLog.open(db_path)
+        link = None
         try:
+            # The bench is opened now so that the log holds what it really is: each
+            # instrument's *IDN? answer, resources, profiles, probes, calibration dates.
+            link = BenchLink.open(bench, board)
             session_id = log.create_session(
                 board=board_snapshot(board),
                 checklist=checklist_snapshot(checklist),
-                bench=bench.describe(),
+                bench=link.snapshot(bench),
                 serial=serial,
                 operator=operator.strip(),
             )
         except BaseException:
-            log.close()
+            try:
+                if link is not None:
+                    link.close()
+            finally:
+                log.close()
             raise
-        return cls(log=log, session_id=session_id, board=board, checklist=checklist,
-                   serial=serial, operator=operator.strip(), bench=bench)  # fmt: skip
+        runner = cls(log=log, session_id=session_id, board=board, checklist=checklist,
+                     serial=serial, operator=operator.strip(), bench=bench)  # fmt: skip
+        runner._bench = link
+        return runner
 
     @classmethod
     def resume(
