@@ -69,6 +69,14 @@ class Thermometer(Instrument):
             self._sensor_t = t
             return self._sensor_c
 
+    def settle_sensor_at(self, temp_c: float) -> None:
+        """Test hook: put the thermocouple junction at ``temp_c`` degC at the present simulated
+        time, as if it had settled there before the heatsink stepped; the next readings lag
+        from it towards the heatsink (first order, ``SENSOR_TAU_S``)."""
+        with self.lock:
+            self._sensor_c = float(temp_c)
+            self._sensor_t = self.board.clock.now()
+
     def _reading(self) -> str:
         if self.faults.overrange:
             return format_nr3(OVERRANGE)

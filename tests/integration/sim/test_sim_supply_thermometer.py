@@ -89,7 +89,7 @@ def test_sensor_lag_is_first_order(bench):
     therm = bench.thermometer
     bench.clock.set_scale(0.0)
     start = therm.sensor_temperature()
-    therm._sensor_c = start - 10.0  # the junction 10 K below the heatsink, as after a step
+    therm.settle_sensor_at(start - 10.0)  # the junction 10 K below the heatsink, as after a step
     bench.clock.advance(SENSOR_TAU_S)
     after = therm.sensor_temperature()
     heatsink = bench.board.heatsink_temperature()
