@@ -66,10 +66,10 @@ async def test_failed_step_refused_skip_waiver_and_going_back(log_path):
         await pilot.press("j")
         await wait_until(pilot, lambda: screen.viewed == "edge-speed.edges")
         await pilot.press("r")
-        await pilot.pause()
+        await wait_until(pilot, lambda: "in order" in str(screen.query_one("#status").render()))
         assert isinstance(app.screen, SessionScreen) and screen.running is None
         status = str(screen.query_one("#status").render())
-        assert "in order" in status and "Gate-source voltage" in status, status
+        assert "Gate-source voltage" in status, status
         await pilot.press("k")
         await wait_until(pilot, lambda: screen.viewed == STEP)
 
