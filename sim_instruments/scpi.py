@@ -71,6 +71,9 @@ ERROR_TEXTS: dict[int, str] = {
 #: Depth of each session's error queue; the last slot reports -350 (SCPI-99 vol. 2 21.8.3).
 QUEUE_DEPTH = 16
 
+#: How many program messages an instrument keeps in ``Instrument.received`` (oldest dropped).
+RECEIVED_LOG_LINES = 10_000
+
 # Standard event status register bits (IEEE 488.2 11.5.1).
 ESR_OPC, ESR_QYE, ESR_DDE, ESR_EXE, ESR_CME = 1, 4, 8, 16, 32
 
@@ -333,7 +336,9 @@ class Instrument:
     """Base of the simulated instruments: identity, lock, faults, the 488.2 common commands.
 
     Subclasses set ``model_name`` and extend ``build_commands``. ``lock`` guards the
-    instrument's state (and, shared across a bench, the physical model).
+    instrument's state (and, shared across a bench, the physical model). ``received`` logs
+    every program message (line) any client sent, in arrival order, as received (stripped),
+    the last ``RECEIVED_LOG_LINES`` of them: tests check what was sent, and in which order.
     """
 
     model_name = "SIMINSTRUMENT"
@@ -343,6 +348,7 @@ class Instrument:
         self.serial = serial
         self.lock = lock
         self.faults = faults
+        self.received: deque[str] = deque(maxlen=RECEIVED_LOG_LINES)
         self.tree = CommandTree()
         self._add_common()
         self.build_commands(self.tree)
@@ -457,6 +463,7 @@ class Session:
     # --- execution -----------------------------------------------------------------------
     def execute(self, line: str) -> list[Reply]:
         """Run one program message (a line) and return the replies of its queries, in order."""
+        self.instrument.received.append(line)
         self.instrument.faults.deliver_pending_errors(self)
         self._path = []  # each program message starts at the root (SCPI-99 6.2.4)
         try:

@@ -44,8 +44,19 @@ def test_hazard_levels_follow_the_dc_energy_classes():
     assert "60 V DC" in hazard_for(72.0).text and "local codes" in hazard_for(72.0).text
 
 
+def _units(lines: list[str]) -> list[tuple[str, str]]:
+    """Program messages as (HEADER, parameter) units in the order received, ';' split."""
+    units = []
+    for line in lines:
+        for unit in line.split(";"):
+            header, _, param = unit.strip().partition(" ")
+            units.append((header.upper(), param.strip()))
+    return units
+
+
 def test_protection_is_set_and_read_back_before_the_output_goes_on(rig):
     sim, bench = rig
+    before = len(sim.supply.received)  # what opening the bench sent is not this test's
     with energised(bench, volts=24.0, current_limit_a=3.0, ovp_v=26.5) as powered:
         assert sim.supply.output_on
         assert (sim.supply.current_limit, sim.supply.ovp_level, sim.supply.voltage_set) == (
@@ -55,8 +66,27 @@ def test_protection_is_set_and_read_back_before_the_output_goes_on(rig):
         )
         assert powered.volts == 24.0 and powered.notice is None
     assert not sim.supply.output_on
-    sent = [c for c in bench.sessions["supply"].profile.commands.values()]
-    assert "OUTP {state}" in sent  # the profile's spelling was used
+    # What the supply received, in order (the sim's command log; sim-supply short forms).
+    units = _units(list(sim.supply.received)[before:])
+    on = [i for i, u in enumerate(units) if u == ("OUTP", "ON")]
+    assert len(on) == 1, units  # turned ON exactly once
+    first_on = on[0]
+
+    def last_index(wanted) -> int:
+        hits = [i for i, u in enumerate(units[:first_on]) if wanted(u)]
+        assert hits, f"not sent before OUTP ON: {units[:first_on]}"
+        return hits[-1]
+
+    set_limit = last_index(lambda u: u[0] == "CURR" and u[1] and float(u[1]) == 3.0)
+    set_ovp = last_index(lambda u: u[0] == "VOLT:PROT" and u[1] and float(u[1]) == 26.5)
+    read_limit = last_index(lambda u: u == ("CURR?", ""))
+    read_ovp = last_index(lambda u: u == ("VOLT:PROT?", ""))
+    # set, then read back, then (and only then) ON; nothing re-sets them in between
+    assert set_limit < read_limit < first_on and set_ovp < read_ovp < first_on
+    between = units[min(read_limit, read_ovp) : first_on]
+    assert not [u for u in between if u[0] in ("CURR", "VOLT:PROT")], between
+    # and the output is switched OFF after ON (the way out of the block)
+    assert ("OUTP", "OFF") in units[first_on:]
 
 
 def test_voltage_above_the_touch_safe_limit_needs_acknowledgement(rig):

@@ -171,3 +171,19 @@ def test_simulation_subsystem_is_shared_by_the_three_instruments(bench, connect)
     assert loaded - idle == pytest.approx(24.0 / 4.0 * 0.5, rel=0.1)
     meter.write("SIM:PWM:DUTY 1.5")
     assert meter.query("SYST:ERR?").startswith("-222,")
+
+
+def test_command_log_keeps_every_line_in_arrival_order_and_is_bounded(bench, connect):
+    # The sim's own test hook (no real instrument has it): what clients sent, in order.
+    from sim_instruments.scpi import RECEIVED_LOG_LINES
+
+    a, b = connect(bench, "supply"), connect(bench, "supply")
+    start = len(bench.supply.received)
+    a.write("VOLT 5; CURR 2")
+    assert a.query("*OPC?") == "1"  # a's lines are handled before b sends
+    assert b.query("VOLT?;CURR?") == "5.000000000E+00;2.000000000E+00"
+    assert list(bench.supply.received)[start:] == ["VOLT 5; CURR 2", "*OPC?", "VOLT?;CURR?"]
+    a.write_raw(b"*CLS\n" * (RECEIVED_LOG_LINES + 50))  # more lines than the log holds
+    assert a.query("*OPC?") == "1"
+    log = list(bench.supply.received)
+    assert len(log) == RECEIVED_LOG_LINES and log[-1] == "*OPC?" and log[0] == "*CLS"
