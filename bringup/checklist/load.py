@@ -3,7 +3,7 @@
 Format (``checklists/high-side-bootstrap.toml`` is the shipped standard checklist)::
 
     schema = 1
-    [checklist]                      name, description
+    [checklist]                      id, title (or name), version, description
     [stages.ID]                      title, purpose          (stages run in file order)
     [stages.ID.steps.KEY]            title, instructions, analysis (required);
                                      cautions, confirm, reading, pwm, supply, targets, report
@@ -52,7 +52,8 @@ _ID_RE = re.compile(r"^[a-z0-9][a-z0-9-]*$")
 _DESIGN_REF_RE = re.compile(r"^\s*(?:([0-9]*\.?[0-9]+)\s*\*\s*)?design\.([A-Za-z0-9_]+)\s*$")
 
 _TOP = {"schema": True, "checklist": True, "stages": True}
-_HEAD = {"name": True, "description": False}
+_HEAD = {"id": False, "title": False, "name": False, "version": False, "description": False}
+_VERSION_RE = re.compile(r"^[0-9A-Za-z][0-9A-Za-z.+-]*$")
 _STAGE = {"title": True, "purpose": False, "steps": True}
 _STEP = {
     "title": True,
@@ -325,13 +326,48 @@ def checklist_from_document(doc: TomlDocument) -> Checklist:
     if not isinstance(description, str):
         raise doc.error(("checklist", "description"), "must be a string")
     return Checklist(
-        name=expect_str(doc, ("checklist", "name"), head["name"]),
+        name=_title(doc, head),
         description=description.strip(),
         stages=tuple(stages),
         path=doc.path,
         text=doc.text,
         source=doc.data,
+        id=_head_id(doc, head),
+        version=_version(doc, head),
     )
+
+
+def _title(doc: TomlDocument, head: dict) -> str:
+    """``title`` (``name`` is its older spelling): exactly one of them."""
+    if "title" in head and "name" in head:
+        raise doc.error(("checklist", "name"), "give title or name, not both")
+    if "title" not in head and "name" not in head:
+        raise doc.error(("checklist",), "missing key 'title'")
+    key = "title" if "title" in head else "name"
+    return expect_str(doc, ("checklist", key), head[key])
+
+
+def _head_id(doc: TomlDocument, head: dict) -> str:
+    """The checklist's id: lower-case letters, digits and '-' (default: the file's stem)."""
+    if "id" not in head:
+        return Path(doc.path).stem
+    value = head["id"]
+    if not isinstance(value, str) or not _ID_RE.match(value):
+        raise doc.error(("checklist", "id"), "must be lower-case letters, digits and '-'")
+    return value
+
+
+def _version(doc: TomlDocument, head: dict) -> str | None:
+    """The checklist's version, a string such as "1.2" (None when not given)."""
+    if "version" not in head:
+        return None
+    value = head["version"]
+    if not isinstance(value, str) or not _VERSION_RE.match(value):
+        raise doc.error(
+            ("checklist", "version"),
+            f"must be a version string such as \"1.2\" (letters, digits, '.', '+', '-'), not {value!r}",
+        )
+    return value
 
 
 def load_checklist(path: str | Path | None = None) -> Checklist:

@@ -158,7 +158,10 @@ class Stage:
 
 @dataclass(frozen=True)
 class Checklist:
-    """A validated checklist file."""
+    """A validated checklist file.
+
+    ``name`` is its title; ``id`` names the checklist (the file's stem when the file gives
+    none) and ``version`` its revision (None when the file gives none)."""
 
     name: str
     description: str
@@ -166,6 +169,13 @@ class Checklist:
     path: Path
     text: str
     source: dict = field(repr=False)
+    id: str = ""
+    version: str | None = None
+
+    @property
+    def title(self) -> str:
+        """The checklist's title (the same as ``name``)."""
+        return self.name
 
     def steps(self) -> tuple[Step, ...]:
         """Every step, in checklist order."""

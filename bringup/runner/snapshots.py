@@ -20,10 +20,13 @@ def board_snapshot(board: Board) -> dict:
 
 
 def checklist_snapshot(checklist: Checklist) -> dict:
-    """The checklist's id, stages and step ids (for listings), path and text, for the log."""
+    """The checklist's id, title, version, stages and step ids (for listings), path and text,
+    for the log."""
     return {
-        "id": checklist.path.stem,
+        "id": checklist.id or checklist.path.stem,
         "name": checklist.name,
+        "title": checklist.title,
+        "version": checklist.version,
         "stages": [
             {
                 "id": s.id,

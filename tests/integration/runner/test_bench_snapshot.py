@@ -78,6 +78,9 @@ def test_a_bench_file_is_logged_with_its_tables_identities_and_offset(tmp_path):
     assert record["bench"]["simulated"] is False
     assert record["log"]["utc_offset_logged"] is True
     assert record["session"]["started"]["offset"] == local_utc_offset()
+    # the standard checklist's [checklist] table, carried through the session's snapshot
+    assert record["checklist"]["id"] == "high-side-bootstrap"
+    assert record["checklist"]["version"] == load_checklist().version == "1.1"
 
 
 def test_a_simulated_bench_is_logged_with_scenario_seed_and_resources(tmp_path):
