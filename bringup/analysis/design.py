@@ -21,6 +21,7 @@ __all__ = [
     "bootstrap_charge",
     "bootstrap_charging_drop",
     "bootstrap_droop",
+    "bootstrap_dv_max",
     "bootstrap_on_time_max",
     "bootstrap_precharge_time",
     "bootstrap_recharge_time",
@@ -92,6 +93,29 @@ def bootstrap_c_min(q_total_c: float, dv_v: float, margin: float = 1.0) -> float
 def bootstrap_droop(q_total_c: float, c_f: float) -> float:
     """Droop (V) of a chosen bootstrap capacitor: dV = Q_total / C (same charge balance)."""
     return _check("q_total_c", q_total_c) / _check("c_f", c_f, positive=True)
+
+
+def bootstrap_dv_max(v_supply_v: float, v_diode_v: float, v_uvlo_v: float) -> float:
+    """Largest droop (V) the bootstrap capacitor may take: dV_max = V_DD - V_F - V_BST,UVLO.
+
+    TI SLUA887 ("Bootstrap Circuitry Selection for Half-Bridge Configurations"), as applied
+    in TI datasheets' bootstrap sections (e.g. MCF8329A-Q1, SLLSFV1: GVDD 12 V, diode 0.85 V,
+    BST UVLO 4.45 V -> 6.7 V): the capacitor charges to the supply ``v_supply_v`` less the
+    bootstrap diode's forward drop ``v_diode_v`` and must stay above the driver's bootstrap
+    undervoltage lockout ``v_uvlo_v``. The practical droop is far smaller (0.5-1 V); this is
+    the bound. Raises ``InputError`` when the charged capacitor would not clear the UVLO.
+    """
+    dv = (
+        _check("v_supply_v", v_supply_v, positive=True)
+        - _check("v_diode_v", v_diode_v)
+        - _check("v_uvlo_v", v_uvlo_v)
+    )
+    if not dv > 0:
+        raise InputError(
+            f"the bootstrap capacitor charges to {v_supply_v:g} V - {v_diode_v:g} V, which does "
+            f"not clear the {v_uvlo_v:g} V undervoltage lockout: no droop is allowed"
+        )
+    return dv
 
 
 @dataclass(frozen=True)

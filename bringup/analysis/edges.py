@@ -3,9 +3,12 @@
 * State levels: histogram of the record (100 bins between min and max), split halfway between
   the lowest and the highest occupied bins; each level is the mode of its half, refined to the
   mean of the samples in the modal bin and its two neighbours (a bin centre alone is off by up to
-  half a bin: 0.5 % of the amplitude). Records too short or too sparse for a histogram (and
-  records whose histogram has no distinct peaks) fall back to min/max; ``level_method`` says
-  which was used. Overshoot is 0 by construction with min/max.
+  half a bin: 0.5 % of the amplitude). The bins are taken on the normalised record
+  (y - min)/(max - min), so the levels follow an affine change of the record to rounding (a
+  quantised sample on a bin edge is counted in the same bin whatever the scale). Records too
+  short or too sparse for a histogram (and records whose histogram has no distinct peaks) fall
+  back to min/max; ``level_method`` says which was used. Overshoot is 0 by construction with
+  min/max.
 * Reference levels: y_x = y_low + x/100 * (y_high - y_low), 10/50/90 % by default.
 * Transitions: a transition is a run from inside one state's band to inside the other's
   (IEEE 181 state boundaries: level +/- 2 % of the amplitude, widened to 4 sigma of the noise on
@@ -201,41 +204,69 @@ def _state_levels(y: np.ndarray, method: str, ymin: float, ymax: float) -> State
         return _checked_minmax(y, ymin, ymax)
 
     nb = HISTOGRAM_BINS
-    fine, _ = np.histogram(y, bins=nb * _FINE, range=(ymin, ymax))
+    span = ymax - ymin
+    fine, sum_u, sum_u2 = _fine_histogram(y, ymin, span, nb * _FINE)
     coarse = fine.reshape(nb, _FINE).sum(axis=1)
-    width_fine = (ymax - ymin) / (nb * _FINE)
-    centres = ymin + (np.arange(nb * _FINE) + 0.5) * width_fine
+    centres_u = (np.arange(nb * _FINE) + 0.5) / (nb * _FINE)
     # Split halfway between the lowest and highest occupied bins (bins 0 and nb-1 always hold
     # min and max).
     half = nb // 2
     modes = (int(np.argmax(coarse[:half])), half + int(np.argmax(coarse[half:])))
     peaky = True
-    levels, noise = [], []
+    levels_u, noise_u = [], []
     for mode, (first, last) in zip(modes, ((0, half), (half, nb)), strict=True):
         # A state is a peak: the bins within 3 of the mode must hold a quarter of its half
         # (a ramp, a triangle or a slow ramp's quantisation staircase spread their samples).
         near = coarse[max(mode - 3, first) : min(mode + 4, last)].sum()
         if near < 0.25 * coarse[first:last].sum():
             peaky = False
-        lo_bin, hi_bin = max(mode - 1, first), min(mode + 2, last)
-        counts = fine[lo_bin * _FINE : hi_bin * _FINE]
-        x = centres[lo_bin * _FINE : hi_bin * _FINE]
-        level = float(np.dot(counts, x) / counts.sum())
-        levels.append(level)
+        # The level: mean of the samples in the modal bin and its two neighbours.
+        lo_bin, hi_bin = max(mode - 1, first) * _FINE, min(mode + 2, last) * _FINE
+        levels_u.append(float(sum_u[lo_bin:hi_bin].sum() / fine[lo_bin:hi_bin].sum()))
         # Noise on the state: spread of the samples within +/- 3 bins of the mode.
-        lo_n, hi_n = max(mode - 3, first), min(mode + 4, last)
-        counts = fine[lo_n * _FINE : hi_n * _FINE]
-        x = centres[lo_n * _FINE : hi_n * _FINE]
-        mu = np.dot(counts, x) / counts.sum()
-        noise.append(float(math.sqrt(max(np.dot(counts, (x - mu) ** 2) / counts.sum(), 0.0))))
+        lo_n, hi_n = max(mode - 3, first) * _FINE, min(mode + 4, last) * _FINE
+        count = fine[lo_n:hi_n].sum()
+        mu = sum_u[lo_n:hi_n].sum() / count
+        var = sum_u2[lo_n:hi_n].sum() / count - mu * mu
+        noise_u.append(float(math.sqrt(max(var, 0.0))))
     if not peaky and method == "auto":
         return _checked_minmax(y, ymin, ymax)
-    low, high = levels
-    amp = high - low
-    mid = (centres > low + 0.25 * amp) & (centres < low + 0.75 * amp)
-    if amp < 8.0 * max(noise) or fine[mid].sum() > 0.5 * y.size:
+    low_u, high_u = levels_u
+    amp_u = high_u - low_u
+    mid = (centres_u > low_u + 0.25 * amp_u) & (centres_u < low_u + 0.75 * amp_u)
+    low, high = ymin + span * low_u, ymin + span * high_u
+    noise = [span * v for v in noise_u]
+    if amp_u < 8.0 * max(noise_u) or fine[mid].sum() > 0.5 * y.size:
         raise _one_level(low, high)
     return StateLevels(low, high, "histogram", noise[0], noise[1])
+
+
+_CHUNK = 1 << 16  # samples normalised at a time (bounded float64 scratch memory)
+_EDGE_SNAP = 1e-7  # of a fine bin: a sample this close below a bin edge counts as on it
+
+
+def _fine_histogram(
+    y: np.ndarray, ymin: float, span: float, bins: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Counts, sums of u and sums of u^2 per bin of u = (y - ymin)/span over [0, 1].
+
+    Binning the normalised record makes the bins scale and shift with the data, so the state
+    levels follow an affine change of the record to float rounding. A sample on a bin edge
+    (an 8-bit record over a round range puts every code on one) is always counted in the bin
+    above: the index is snapped by 1e-7 of a bin, far more than the rounding of u (~1e-13)
+    and far less than the gap between a 16-bit code and the nearest edge it is not on
+    (>= 1.5e-5 of a bin).
+    """
+    counts = np.zeros(bins, np.int64)
+    sum_u = np.zeros(bins)
+    sum_u2 = np.zeros(bins)
+    for start in range(0, y.size, _CHUNK):
+        u = (y[start : start + _CHUNK].astype(np.float64) - ymin) / span
+        idx = np.clip(np.floor(u * bins + _EDGE_SNAP), 0, bins - 1).astype(np.intp)
+        counts += np.bincount(idx, minlength=bins)
+        sum_u += np.bincount(idx, weights=u, minlength=bins)
+        sum_u2 += np.bincount(idx, weights=u * u, minlength=bins)
+    return counts, sum_u, sum_u2
 
 
 def _one_level(low: float, high: float) -> AnalysisError:

@@ -88,6 +88,16 @@ def trapezoid(
     return high_v * (up - down)
 
 
+def damped_ring(
+    n: int, dt: float, at_s: float, amplitude_v: float, freq_hz: float, decay_s: float
+) -> np.ndarray:
+    """A ring that starts at ``at_s``: amplitude_v sin(2 pi f (t - at)) exp(-(t - at)/decay),
+    0 before (the parasitic L-C ringing a step excites; it starts from zero, no jump)."""
+    s = np.arange(n) * dt - at_s
+    ring = amplitude_v * np.sin(2 * np.pi * freq_hz * s) * np.exp(-np.maximum(s, 0.0) / decay_s)
+    return np.where(s >= 0, ring, 0.0)
+
+
 def gate_with_plateau(
     n: int,
     dt: float,
@@ -97,9 +107,18 @@ def gate_with_plateau(
     v_pl: float = 4.6,
     tau_s: float = 36e-9,
     plateau_s: float = 31e-9,
+    ring_v: float = 0.0,
+    ring_hz: float = 150e6,
+    ring_decay_s: float = 6e-9,
 ) -> np.ndarray:
     """V_gs of a MOSFET driven through R into C_iss: RC to V_pl, flat for Q_gd/I_g, RC to V_drv
-    (the gate-charge picture of TI SLUA618), then an RC discharge at turn-off."""
+    (the gate-charge picture of TI SLUA618), then an RC discharge at turn-off.
+
+    ``ring_v`` > 0 adds the ringing of a real gate loop: a damped ring of that amplitude at the
+    start of the plateau (the drain current stops rising; the source inductance's di/dt step)
+    and at its end (V_DS reaches the bottom; the drain's ring couples through C_gd), at
+    ``ring_hz``, decaying with ``ring_decay_s``.
+    """
     t = np.arange(n) * dt
     t1 = -tau_s * np.log(1 - v_pl / v_drv)  # time to reach the plateau
     s = t - t_on
@@ -117,4 +136,8 @@ def gate_with_plateau(
         ),
     )
     at_off = rising[min(int(t_off / dt), n - 1)]
-    return np.where(t < t_off, rising, at_off * np.exp(-(t - t_off) / (tau_s / 2)))
+    y = np.where(t < t_off, rising, at_off * np.exp(-(t - t_off) / (tau_s / 2)))
+    if ring_v > 0:
+        for at in (t_on + t1, t_on + t1 + plateau_s):
+            y = y + damped_ring(n, dt, at, ring_v, ring_hz, ring_decay_s)
+    return y

@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from bringup.analysis import design
+from bringup.analysis import bootstrap_dv_max, design
 from bringup.errors import InputError
 
 # --- Bootstrap capacitor -------------------------------------------------------------------
@@ -13,12 +13,14 @@ from bringup.errors import InputError
 def test_ti_mcf8329a_worked_example():
     # TI MCF8329A-Q1 datasheet (SLLSFV1), application section [read; REFERENCES §3 (a)]:
     # Q_G 54 nC, I_BST 115 uA, 20 kHz -> Q_TOT 59.75 nC; at dV = 1 V, C_min = 59.8 nF; and
-    # dV_max = GVDD 12 V - diode 0.85 V - BST UVLO 4.45 V = 6.7 V. TI's per-period form is the
-    # charge balance over one period t = 1/f_sw.
+    # dV_max = GVDD 12 V - diode 0.85 V - BST UVLO 4.45 V = 6.7 V, TI SLUA887's
+    # dV_max = V_DD - V_F - V_BST,UVLO [read; REFERENCES §3, per-period form]. TI's
+    # per-period form is the charge balance over one period t = 1/f_sw.
     q = design.bootstrap_charge(qg_c=54e-9, t_on_max_s=1 / 20e3, iq_a=115e-6)
     assert q == pytest.approx(59.75e-9, rel=1e-9)
     assert design.bootstrap_c_min(q, 1.0) == pytest.approx(59.8e-9, rel=1e-3)
-    assert 12 - 0.85 - 4.45 == pytest.approx(6.7)
+    assert design.bootstrap_dv_max(12.0, 0.85, 4.45) == pytest.approx(6.7, abs=1e-12)
+    assert bootstrap_dv_max is design.bootstrap_dv_max  # exported by bringup.analysis
     sized = design.size_bootstrap(54e-9, 115e-6, 0.0, 1 / 20e3, 1.0, c_f=100e-9)
     assert sized.c_min_f == pytest.approx(59.75e-9)
     assert sized.droop_v == pytest.approx(0.5975)  # the 100 nF chosen [computed]
@@ -153,6 +155,8 @@ def test_estimate_losses_says_what_is_missing():
         (lambda: design.bootstrap_c_min(40e-9, 0.0), "dv_v must be > 0"),
         (lambda: design.bootstrap_charge(-1e-9, 1e-6), "qg_c must be >= 0"),
         (lambda: design.bootstrap_droop(40e-9, 0.0), "c_f must be > 0"),
+        (lambda: design.bootstrap_dv_max(5.0, 0.85, 4.45), "undervoltage lockout"),
+        (lambda: design.bootstrap_dv_max(12.0, -0.85, 4.45), "v_diode_v must be >= 0"),
         (lambda: design.on_time_at_duty(1.5, 25e3), "duty"),
         (lambda: design.gate_timing(12, 13, 1, 1, 1, 1, 1e-9), "plateau"),
         (lambda: design.rc_rise_time(1e3, 1e-9, 90, 10), "reference levels"),

@@ -4,8 +4,8 @@ import math
 
 import numpy as np
 import pytest
-from analysis_synth import rc_pwm, ringing_pwm, scope, trapezoid
-from hypothesis import HealthCheck, given, settings
+from analysis_synth import damped_ring, rc_pwm, ringing_pwm, scope, trapezoid
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
 from bringup.analysis import AnalysisError, find_transitions, measure_edges, state_levels
@@ -49,23 +49,29 @@ def test_20_80_reference_levels_give_tau_ln4():
 # the overshoot is the textbook 100 exp(-pi zeta / sqrt(1 - zeta^2)) (Nise, Control Systems
 # Engineering, ch. 4 [memory for the section]).
 SECOND_ORDER = [(0.3, 1.3213), (0.5, 1.6376), (0.707, 2.1477), (0.8, 2.4675)]
+# The acquisition for each: an 8-bit record resolves a 37 % or 16 % overshoot, but a 4.3 % or
+# 1.5 % one is 0.5 V or 0.18 V on a 12 V edge, a couple of 8-bit steps; measure those as on
+# the bench, with a high-resolution (12-bit) acquisition and less noise.
+ACQUISITION = {0.3: (8, 0.02), 0.5: (8, 0.02), 0.707: (12, 0.005), 0.8: (12, 0.005)}
 
 
 @pytest.mark.parametrize(("zeta", "wn_tr"), SECOND_ORDER)
 def test_second_order_step_overshoot_and_rise_time(zeta, wn_tr):
     wn = 2 * math.pi * 10e6
     dt = 0.5e-9
+    bits, noise_v = ACQUISITION[zeta]
     clean = ringing_pwm(40_000, dt, period_s=2e-6, duty=0.5, zeta=zeta, wn=wn, phase_s=0.3e-6)
-    y = scope(clean, noise_v=0.02, lo=-6.0, hi=18.0, seed=3)  # a range that does not clip
+    # Noise, quantisation and a range that does not clip.
+    y = scope(clean, noise_v=noise_v, bits=bits, lo=-6.0, hi=18.0, seed=3)
     m = measure_edges(y, dt)
     expected_os = 100 * math.exp(-math.pi * zeta / math.sqrt(1 - zeta**2))
-    # Noise and 8-bit steps (0.5 % of the amplitude) bias a peak by a fraction of a percent.
-    assert m.overshoot_pct == pytest.approx(expected_os, abs=0.8 + 0.02 * expected_os)
-    # The falling edge's undershoot below the low level mirrors the overshoot (8-bit steps
-    # are now 0.9 % of the amplitude).
-    assert m.undershoot_pct == pytest.approx(expected_os, abs=0.8 + 0.02 * expected_os)
-    assert m.rise_time_s == pytest.approx(wn_tr / wn, rel=0.03)
-    assert m.fall_time_s == pytest.approx(wn_tr / wn, rel=0.03)
+    # Within 10 % of the overshoot itself (0.15 points at zeta 0.8): noise on the peak and the
+    # quantisation steps bias it by a few percent of its value.
+    assert m.overshoot_pct == pytest.approx(expected_os, rel=0.10)
+    # The falling edge's undershoot below the low level mirrors the overshoot.
+    assert m.undershoot_pct == pytest.approx(expected_os, rel=0.10)
+    assert m.rise_time_s == pytest.approx(wn_tr / wn, rel=0.015)
+    assert m.fall_time_s == pytest.approx(wn_tr / wn, rel=0.015)
     assert m.edges == 20  # 10 periods of 2 us
 
 
@@ -87,13 +93,29 @@ def test_ringing_switch_node_goes_below_ground():
 
 def test_pwm_mean_is_duty_times_high_level():
     # Common practice, no source: a PWM output's mean is the duty cycle times the high level.
-    dt = 2e-9
+    # The generated waveforms are a 12 V PWM of known duty, through an RC and through a ringing
+    # second-order edge: over a whole period the area an edge loses on the way up it gains
+    # back on the way down, so the mean of the clean waveform is exactly duty x 12 V. The
+    # records carry noise and 8-bit quantisation.
+    dt, period, high = 2e-9, 40e-6, 12.0
+    wn = 2 * math.pi * 5e6
     for duty in (0.05, 0.3, 0.5, 0.95):
-        clean = rc_pwm(400_000, dt, 40e-6, duty, tau_s=30e-9, phase_s=7e-6)
-        y = scope(clean, noise_v=0.05, seed=int(duty * 100))
-        m = measure_edges(y, dt)
-        assert m.duty_cycle == pytest.approx(duty, abs=2e-3)
-        assert m.cycle_mean_v == pytest.approx(m.duty_cycle * m.high_level_v, rel=0.01, abs=0.02)
+        seed = int(duty * 100)
+        rc = scope(rc_pwm(400_000, dt, period, duty, 30e-9, high, 7e-6), noise_v=0.05, seed=seed)
+        ring = scope(
+            ringing_pwm(400_000, dt, period, duty, 0.3, wn, high, phase_s=7e-6),
+            noise_v=0.05,
+            lo=-8.0,
+            hi=20.0,
+            seed=seed + 1,
+        )
+        for y in (rc, ring):
+            m = measure_edges(y, dt)
+            assert m.duty_cycle == pytest.approx(duty, abs=2e-3)
+            # 5 mV is 0.04 % of the swing; an off-by-one-period window or a level-weighted
+            # mean would be far outside it.
+            assert m.cycle_mean_v == pytest.approx(duty * high, abs=5e-3)
+        assert m.overshoot_pct > 30.0  # the second record does ring (37 % at zeta 0.3)
 
 
 @pytest.mark.parametrize(
@@ -118,6 +140,7 @@ def test_rc_pullup_rise_time_scales_with_r(r_ohm, dt, expected_s):
 def test_histogram_levels_are_refined_beyond_the_bin_centre():
     # REFERENCES §1 [computed]: on a 0-1 V trapezoid the raw modal bin centres would read
     # 0.005/0.995 V and an 80 ns ramp 79.2 ns; the refined levels are the states themselves.
+    # A clean record, to pin the method exactly; the noisy, ringing variant follows.
     dt = 1e-9
     y = trapezoid(5000, dt, 1e-6, 80e-9, 2e-6, high_v=1.0)
     m = measure_edges(y, dt)
@@ -127,6 +150,27 @@ def test_histogram_levels_are_refined_beyond_the_bin_centre():
     assert m.high_level_v == pytest.approx(1.0, abs=5e-4)
     assert m.rise_time_s == pytest.approx(0.8 * 80e-9, rel=2e-3)
     assert m.pulse_width_s == pytest.approx(2e-6 + 80e-9, rel=1e-4)
+
+
+def test_histogram_levels_are_refined_on_a_noisy_ringing_record():
+    # The same check on what a scope shows: five 12 V trapezoids with 80 ns ramps, a 0.5 V
+    # ring at 50 MHz (decaying in 40 ns) after every ramp, 50 mV of noise and 8-bit steps of
+    # 62.5 mV. The histogram's bins are now 0.13 V wide, so a bin centre could be off by up to
+    # 66 mV; the refined levels are within 10 mV (0.08 % of the amplitude).
+    dt = 1e-9
+    y = np.tile(trapezoid(4000, dt, 1e-6, 80e-9, 2e-6, high_v=12.0), 5)
+    for k in range(5):
+        t_top = k * 4e-6 + 1e-6 + 80e-9
+        y = y + damped_ring(y.size, dt, t_top, 0.5, 50e6, 40e-9)
+        y = y - damped_ring(y.size, dt, t_top + 2e-6 + 80e-9, 0.5, 50e6, 40e-9)
+    m = measure_edges(scope(y, noise_v=0.05, seed=9), dt)
+    assert m.level_method == "histogram"
+    assert m.edges == 10
+    assert m.low_level_v == pytest.approx(0.0, abs=0.01)
+    assert m.high_level_v == pytest.approx(12.0, abs=0.01)
+    assert m.rise_time_s == pytest.approx(0.8 * 80e-9, rel=0.015)
+    assert m.fall_time_s == pytest.approx(0.8 * 80e-9, rel=0.015)
+    assert m.pulse_width_s == pytest.approx(2e-6 + 80e-9, rel=1e-3)
 
 
 def test_short_record_falls_back_to_min_max():
@@ -219,7 +263,7 @@ def test_float32_and_t0():
 # --- Property tests (hypothesis) -----------------------------------------------------------
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(settings.get_profile("bringup-analysis"), max_examples=60)
 @given(
     ramp_samples=st.floats(20, 300),
     start=st.floats(0.0, 1.0),
@@ -245,29 +289,37 @@ def test_crossings_of_a_linear_ramp_are_exact(ramp_samples, start, low, amplitud
     )
 
 
-@settings(max_examples=40, deadline=None)
+@settings(settings.get_profile("bringup-analysis"), max_examples=40)
 @given(
     gain=st.floats(0.01, 100.0),
     offset=st.floats(-50.0, 50.0),
     seed=st.integers(0, 2**16),
 )
+@example(gain=42.38772266151187, offset=0.0, seed=231)  # moved the 50 % instants by 0.018 dt
 def test_levels_and_times_follow_an_affine_change_of_the_record(gain, offset, seed):
-    # Scaling and shifting the record scales and shifts the levels and leaves every instant.
+    # Scaling and shifting the record scales and shifts the levels and leaves every instant
+    # (common practice, no source: a measurement must not depend on the volts per division).
+    # The histogram is binned on (y - min)/(max - min), so the bins scale with the data and
+    # an 8-bit code on a bin edge stays in its bin: the property holds to rounding, not to a
+    # bin. Each tolerance is about 1e4 times the float64 rounding it allows for.
     dt = 1e-9
     y = scope(rc_pwm(20_000, dt, 4e-6, 0.35, 25e-9, phase_s=0.5e-6), noise_v=0.05, seed=seed)
     a = measure_edges(y, dt)
     b = measure_edges(gain * y + offset, dt)
-    # To within a fine histogram bin (1/3200 of the range): a sample on a bin edge may land in
-    # the neighbouring bin once the record is rescaled in floating point.
-    tol = 1e-3 * gain * a.amplitude_v
+    tol = 1e-9 * gain * a.amplitude_v
+    assert b.level_method == a.level_method == "histogram"
     assert b.low_level_v == pytest.approx(gain * a.low_level_v + offset, abs=tol)
     assert b.high_level_v == pytest.approx(gain * a.high_level_v + offset, abs=tol)
     assert b.edges == a.edges
-    assert np.allclose(b.transitions.t_mid_s, a.transitions.t_mid_s, rtol=0, atol=0.01 * dt)
-    assert b.rise_time_s == pytest.approx(a.rise_time_s, rel=1e-3)
+    assert np.allclose(b.transitions.t_mid_s, a.transitions.t_mid_s, rtol=0, atol=1e-7 * dt)
+    assert np.allclose(b.transitions.t_low_s, a.transitions.t_low_s, rtol=0, atol=1e-7 * dt)
+    assert np.allclose(b.transitions.t_high_s, a.transitions.t_high_s, rtol=0, atol=1e-7 * dt)
+    assert b.rise_time_s == pytest.approx(a.rise_time_s, rel=1e-7)
+    assert b.fall_time_s == pytest.approx(a.fall_time_s, rel=1e-7)
+    assert b.overshoot_pct == pytest.approx(a.overshoot_pct, abs=1e-7)
 
 
-@settings(max_examples=40, deadline=None)
+@settings(settings.get_profile("bringup-analysis"), max_examples=40)
 @given(seed=st.integers(0, 2**16), duty=st.floats(0.1, 0.9))
 def test_inverting_the_record_swaps_rise_and_fall(seed, duty):
     dt = 1e-9
@@ -281,7 +333,7 @@ def test_inverting_the_record_swaps_rise_and_fall(seed, duty):
     assert b.duty_cycle == pytest.approx(1 - a.duty_cycle, abs=1e-3)
 
 
-@settings(max_examples=50, deadline=None)
+@settings(settings.get_profile("bringup-analysis"), max_examples=50)
 @given(
     low=st.floats(-20.0, 20.0),
     amplitude=st.floats(0.01, 50.0),

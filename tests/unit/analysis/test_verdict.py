@@ -21,7 +21,9 @@ def test_ilac_g8_guarded_example(value, outcome):
     assert verdict.margin == pytest.approx(10.00 - value)
 
 
-# ILAC-G8:09/2019 §4.2.1 simple acceptance (w = 0): binary, the limit itself passes [read].
+# ILAC-G8:09/2019 §4.2.1 simple acceptance (w = 0): binary, pass below the limit and fail
+# above it [read; REFERENCES §6]. That a value exactly at the limit passes is [memory],
+# not recorded in REFERENCES: the project's choice for the boundary.
 @pytest.mark.parametrize(
     ("value", "outcome"),
     [(9.70, "pass"), (9.90, "pass"), (10.00, "pass"), (10.10, "fail"), (10.30, "fail")],

@@ -37,8 +37,9 @@ def _running(design, scenario="healthy", duty=0.5, **changes) -> StageModel:
 def test_bootstrap_droop_is_charge_over_capacitance(demo_design, digitise, rng, c_boot, r_pd):
     """Over the on-time Vgs droops by Q/C with Q = (I_QBS + I_diode + I_cap + Vgs/R_pd) t.
 
-    [read] REFERENCES §3 charge balance (gate-driver datasheets' sizing sections): droop for a
-    chosen C = Q_total / C; here the on-time part, the flat top after the gate has charged.
+    [computed] REFERENCES §3: droop for a chosen C = Q_total / C, computed from the charge
+    balance [read: gate-driver datasheets' sizing sections]; here the on-time part, the flat
+    top after the gate has charged.
     ``bringup.analysis.bootstrap_droop`` is that quotient. Within 5 %.
     """
     d = demo_design
