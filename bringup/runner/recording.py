@@ -65,12 +65,12 @@ def store_attempt(
     for net, wf in raw.items():
         waveforms[net] = StoredWaveform(
             codes=np.asarray(wf.codes),
-            # "+ 0.0" turns a -0.0 from the instrument into 0.0: SQLite keeps no negative zero,
-            # and a scale that reads back differently would break the hash chain.
-            x_increment=wf.x_increment + 0.0,
-            x_origin=wf.x_origin + 0.0,
-            y_increment=wf.y_increment + 0.0,
-            y_origin=wf.y_origin + 0.0,
+            # The store maps a -0.0 from the instrument to 0.0 itself (SQLite keeps no negative
+            # zero, and a scale that read back differently would break the hash chain).
+            x_increment=wf.x_increment,
+            x_origin=wf.x_origin,
+            y_increment=wf.y_increment,
+            y_origin=wf.y_origin,
             meta={"net": net, "source": wf.source},
         )
     extra = {
