@@ -2,21 +2,29 @@
 
 ``scripted_server``: a tiny real TCP server on 127.0.0.1 whose replies a test scripts byte by
 byte (for block formats the simulated bench does not send, such as ``#0`` blocks, and for
-exact fault timing). ``fast_profiles``: a user profile folder with copies of the built-in
-profiles whose timeouts are short, so fault tests do not wait for the bench defaults.
+exact fault timing); ``.received`` lists every command line it got, in order.
+
+``short_timeouts``: cuts the timeouts of named operations of one session's profile to
+``SHORT_TIMEOUT_MS``, for the calls that are expected to time out and nothing else::
+
+    short_timeouts(bench.sessions["scope"], "measure_mean")   # only this operation waits 400 ms
+    ...                                                        # the faulty call
+    short_timeouts.restore()          # the profiles' own timeouts again (also at teardown)
+
+With ``block_stall=True`` the profile default is cut too: it is how long a binary block may stop
+flowing before it counts as cut short (and the timeout of bare queries and reconnects, so use it
+only around the one block read). Everything that should succeed keeps the built-in profiles'
+timeouts (2 s and more), so a loaded machine does not turn a slow reply into a failure.
 """
 
 from __future__ import annotations
 
-import re
+import dataclasses
 import socket
 import threading
 from collections.abc import Callable, Iterator
-from pathlib import Path
 
 import pytest
-
-from bringup.instruments.profiles import BUILTIN_DIR
 
 # A responder gets (command line, connection number) and returns the bytes to send, None for
 # no reply, or a list of steps: bytes to send, "close" to drop the connection, "hang" to
@@ -117,16 +125,45 @@ def scripted_server() -> Iterator[Callable[[Responder], ScriptedServer]]:
         server.stop()
 
 
-def write_fast_profiles(folder: Path, default_ms: int = 400) -> Path:
-    """Copy every built-in profile into ``folder`` with every timeout set to ``default_ms``."""
-    folder.mkdir(parents=True, exist_ok=True)
-    for path in BUILTIN_DIR.glob("*.toml"):
-        text = path.read_text()
-        text = re.sub(r"(?m)^(default) = \d+", rf"\1 = {default_ms}", text)
-        (folder / path.name).write_text(text)
-    return folder
+#: The timeout (ms) of calls that are expected to time out; the faults they meet are far longer.
+SHORT_TIMEOUT_MS = 400
+
+
+class ShortTimeouts:
+    """Swaps a session's profile for a copy with some timeouts cut; ``restore`` undoes it.
+
+    The copy lists every operation's own timeout explicitly, so only the named operations (and,
+    with ``block_stall``, the default) change. Drivers read operation timeouts through the
+    session's profile, except the scope's waveform read, which keeps its long deadline: a cut
+    block is then found by the stall (``block_stall=True``)."""
+
+    ms = SHORT_TIMEOUT_MS
+
+    def __init__(self) -> None:
+        self._saved: list[tuple[object, object]] = []
+
+    def __call__(self, session, *operations: str, block_stall: bool = False) -> None:
+        ms = self.ms
+        profile = session.profile
+        unknown = set(operations) - set(profile.commands)
+        assert not unknown, f"not operations of {profile.name}: {sorted(unknown)}"
+        timeouts = {op: profile.timeout_ms(op) for op in profile.commands}
+        timeouts.update({op: ms for op in operations})
+        self._saved.append((session, profile))
+        session.profile = dataclasses.replace(
+            profile,
+            default_timeout_ms=ms if block_stall else profile.default_timeout_ms,
+            timeouts_ms=timeouts,
+        )
+
+    def restore(self) -> None:
+        while self._saved:
+            session, profile = self._saved.pop()
+            session.profile = profile
 
 
 @pytest.fixture
-def fast_profiles(tmp_path: Path) -> Path:
-    return write_fast_profiles(tmp_path / "profiles")
+def short_timeouts() -> Iterator[ShortTimeouts]:
+    cut = ShortTimeouts()
+    yield cut
+    cut.restore()

@@ -34,10 +34,13 @@ def _definite(payload: bytes) -> bytes:
     return b"#" + str(len(digits)).encode() + digits + payload + b"\n"
 
 
-def _session(resource: str, fast: bool, profiles=None) -> InstrumentSession:
-    session = InstrumentSession(
-        "scope", resource, find_profile("sim-scope", profiles), fast_reads=fast
-    )
+#: The timeout (ms) given to the one call of a test that is expected to time out; every other
+#: exchange keeps the sim-scope profile's own timeouts (3 s and more).
+SHORT_MS = 400
+
+
+def _session(resource: str, fast: bool) -> InstrumentSession:
+    session = InstrumentSession("scope", resource, find_profile("sim-scope"), fast_reads=fast)
     session.open()
     return session
 
@@ -79,9 +82,7 @@ def test_indefinite_block_ends_at_the_final_terminator(scripted_server):
 
 
 @pytest.mark.parametrize("fast", [True, False], ids=["socket-wire", "resource-wire"])
-def test_block_cut_short_is_a_truncated_block_and_the_next_query_works(
-    scripted_server, fast_profiles, fast
-):
+def test_block_cut_short_is_a_truncated_block_and_the_next_query_works(scripted_server, fast):
     payload = _codes(1000).astype(">i2").tobytes()
 
     def reply(line, n):
@@ -90,12 +91,12 @@ def test_block_cut_short_is_a_truncated_block_and_the_next_query_works(
         return IDN
 
     server = scripted_server(reply)
-    session = _session(server.resource, fast, fast_profiles)
+    session = _session(server.resource, fast)
     try:
         with pytest.raises(
             faults.TruncatedBlock, match=r"scope after 'TRAC\? CH1': .*cut short"
         ) as info:
-            session.query_block("TRAC? CH1", ">i2", timeout_ms=800)
+            session.query_block("TRAC? CH1", ">i2", timeout_ms=2 * SHORT_MS)
         if fast:
             assert "700 of 2000" in str(info.value)
         assert session.query("*IDN?").startswith("NULLPOINT")
@@ -149,7 +150,7 @@ def test_dropped_reply_to_a_safe_query_is_retried_once_after_reconnect(scripted_
         session.close()
 
 
-def test_state_changing_command_is_never_resent(scripted_server, fast_profiles):
+def test_state_changing_command_is_never_resent(scripted_server):
     # the error query after a command is not repeatable: a drop there is reported, not retried
     def reply(line, n):
         if line == "SYST:ERR?":
@@ -157,7 +158,7 @@ def test_state_changing_command_is_never_resent(scripted_server, fast_profiles):
         return None
 
     server = scripted_server(reply)
-    session = _session(server.resource, True, fast_profiles)
+    session = _session(server.resource, True)
     try:
         with pytest.raises(
             faults.ConnectionLost, match=r"scope after 'INIT; SYST:ERR\?': connection lost"
@@ -169,15 +170,15 @@ def test_state_changing_command_is_never_resent(scripted_server, fast_profiles):
         session.close()
 
 
-def test_silence_is_a_timeout_naming_the_command(scripted_server, fast_profiles):
+def test_silence_is_a_timeout_naming_the_command(scripted_server):
     server = scripted_server(lambda line, n: "hang")
-    session = _session(server.resource, True, fast_profiles)
+    session = _session(server.resource, True)
     try:
         with pytest.raises(
             faults.InstrumentTimeout,
-            match=r"scope after '\*IDN\?': no reply in time: nothing within 400 ms",
+            match=rf"scope after '\*IDN\?': no reply in time: nothing within {SHORT_MS} ms",
         ):
-            session.query("*IDN?")
+            session.query("*IDN?", timeout_ms=SHORT_MS)
         assert session.retries == 1  # *IDN? is safe to repeat: tried on a second connection
     finally:
         session.close()
@@ -198,13 +199,14 @@ def test_refused_connection_is_connection_lost():
         session.query("*IDN?")
 
 
-def test_a_reply_that_stops_midway_says_how_much_came(scripted_server, fast_profiles):
+def test_a_reply_that_stops_midway_says_how_much_came(scripted_server):
     server = scripted_server(lambda line, n: [b"NULLPOINT,SIM", "hang"])
-    session = _session(server.resource, True, fast_profiles)
+    session = _session(server.resource, True)
     try:
         with pytest.raises(
-            faults.InstrumentTimeout, match="13 bytes of a reply, then nothing within 400 ms"
+            faults.InstrumentTimeout,
+            match=f"13 bytes of a reply, then nothing within {SHORT_MS} ms",
         ):
-            session.query("*IDN?")
+            session.query("*IDN?", timeout_ms=SHORT_MS)
     finally:
         session.close()

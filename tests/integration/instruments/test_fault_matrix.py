@@ -1,7 +1,9 @@
 """Every fault the simulated bench can inject, on every instrument, while the supply is ON.
 
-Each case: open the bench (profiles with 400 ms timeouts), turn the output on through the
-safe-state owner, arm one fault on one instrument, run an operation of that instrument. The
+Each case: open the bench (the built-in sim profiles, timeouts of 2 s and more), turn the output
+on through the safe-state owner, arm one fault on one instrument, run an operation of that
+instrument; only the operations expected to time out get a short timeout
+(``short_timeouts``, 400 ms). The
 right ``InstrumentFault`` subclass must come out with a one-line message naming the
 instrument and the command, and afterwards the simulated supply must report output OFF.
 """
@@ -18,12 +20,20 @@ ROLES = ("scope", "supply", "thermometer")
 
 
 @pytest.fixture
-def rig(sim_bench, tmp_path, fast_profiles):
+def rig(sim_bench, tmp_path):
     sim = sim_bench()
     path = tmp_path / "bench.toml"
     path.write_text(sim.bench_file_text())
-    with open_bench(load_bench(path), profiles_dir=fast_profiles) as bench:
+    with open_bench(load_bench(path)) as bench:
         yield sim, bench
+
+
+#: The operation ``measure`` runs on each instrument.
+MEASURE_OPERATION = {
+    "scope": "measure_mean",
+    "supply": "measure_voltage",
+    "thermometer": "read_temperature",
+}
 
 
 def measure(bench, role):
@@ -132,12 +142,18 @@ def test_dropped_reply_to_a_safe_query_is_recovered(rig, role):
 
 
 @pytest.mark.parametrize("role", ROLES)
-def test_late_replies_are_a_timeout_and_switch_the_supply_off(rig, role):
+def test_late_replies_are_a_timeout_and_switch_the_supply_off(rig, role, short_timeouts):
     sim, bench = rig
+    # Only calls that must time out wait 400 ms: the measurement, and for a late supply also
+    # its switch-off (OFF, the error query, the state read back), late under a persistent delay.
+    cut = [MEASURE_OPERATION[role]]
+    if role == "supply":
+        cut += ["output", "error_query", "output_state"]
     with pytest.raises(faults.InstrumentFault) as info:
         with powered(bench):
             prime(bench)
             arm(sim, role, "delay", seconds=1.5)
+            short_timeouts(bench.sessions[role], *cut)
             try:
                 measure(bench, role)
             except faults.InstrumentTimeout:
@@ -151,13 +167,14 @@ def test_late_replies_are_a_timeout_and_switch_the_supply_off(rig, role):
         assert isinstance(info.value.__context__, faults.InstrumentTimeout)
     else:
         assert isinstance(info.value, faults.InstrumentTimeout)
-        assert "no reply in time: nothing within 400 ms" in str(info.value)
+        assert f"no reply in time: nothing within {short_timeouts.ms} ms" in str(info.value)
         check_message(info.value, role)
     assert not sim.supply.output_on
+    short_timeouts.restore()
     getattr(sim, role).faults.clear()  # so that closing the bench can confirm OFF again
 
 
-def test_truncated_waveform_block(rig):
+def test_truncated_waveform_block(rig, short_timeouts):
     sim, bench = rig
     with pytest.raises(
         faults.TruncatedBlock, match=r"cut short: \d+ of \d+ announced bytes"
@@ -165,7 +182,11 @@ def test_truncated_waveform_block(rig):
         with powered(bench):
             prime(bench)
             arm(sim, "scope", "truncate")
-            bench.scope.fetch_waveform(1)
+            short_timeouts(bench.sessions["scope"], block_stall=True)  # the block must stall
+            try:
+                bench.scope.fetch_waveform(1)
+            finally:
+                short_timeouts.restore()
     check_message(info.value, "scope")
     assert not sim.supply.output_on
     # the session recovers: the next fetch is whole

@@ -27,11 +27,12 @@ from bringup.instruments.safety import (
 
 
 @pytest.fixture
-def rig(sim_bench, tmp_path, fast_profiles):
+def rig(sim_bench, tmp_path):
+    # the built-in sim profiles (timeouts of 2 s and more): no case here expects a timeout
     sim = sim_bench()
     path = tmp_path / "bench.toml"
     path.write_text(sim.bench_file_text())
-    with open_bench(load_bench(path), profiles_dir=fast_profiles) as bench:
+    with open_bench(load_bench(path)) as bench:
         yield sim, bench
 
 
