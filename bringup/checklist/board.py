@@ -134,8 +134,14 @@ class Board:
 
 
 def checklists_dir() -> Path:
-    """The shipped ``checklists/`` folder (beside the package in the source tree)."""
-    return Path(__file__).resolve().parents[2] / "checklists"
+    """The shipped checklist and demo board: the top-level ``checklists/`` folder beside the
+    package in a source tree (or an editable install), else the copy a wheel installs as
+    package data in ``bringup/checklist/shipped/`` (in the tree, a link to ``checklists/``)."""
+    here = Path(__file__).resolve().parent
+    tree = here.parents[1] / "checklists"
+    if (tree / "high-side-bootstrap.toml").is_file():
+        return tree
+    return here / "shipped"
 
 
 def demo_board_path() -> Path:
