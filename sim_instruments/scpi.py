@@ -338,7 +338,8 @@ class Instrument:
     Subclasses set ``model_name`` and extend ``build_commands``. ``lock`` guards the
     instrument's state (and, shared across a bench, the physical model). ``received`` logs
     every program message (line) any client sent, in arrival order, as received (stripped),
-    the last ``RECEIVED_LOG_LINES`` of them: tests check what was sent, and in which order.
+    the last ``RECEIVED_LOG_LINES`` of them: tests check what was sent, and in which order
+    (``received_lines()`` copies it safely while clients are still sending).
     """
 
     model_name = "SIMINSTRUMENT"
@@ -349,6 +350,7 @@ class Instrument:
         self.lock = lock
         self.faults = faults
         self.received: deque[str] = deque(maxlen=RECEIVED_LOG_LINES)
+        self._received_lock = threading.Lock()
         self.tree = CommandTree()
         self._add_common()
         self.build_commands(self.tree)
@@ -368,6 +370,16 @@ class Instrument:
     def wait_pending(self, timeout_s: float | None = None) -> bool:
         """Block until no operation is pending; False on timeout."""
         return True
+
+    def log_received(self, line: str) -> None:
+        """Append one program message to ``received`` (the oldest drops out when full)."""
+        with self._received_lock:
+            self.received.append(line)
+
+    def received_lines(self) -> list[str]:
+        """A copy of ``received``, oldest first."""
+        with self._received_lock:
+            return list(self.received)
 
     def new_session(self) -> Session:
         session = Session(self)
@@ -463,7 +475,7 @@ class Session:
     # --- execution -----------------------------------------------------------------------
     def execute(self, line: str) -> list[Reply]:
         """Run one program message (a line) and return the replies of its queries, in order."""
-        self.instrument.received.append(line)
+        self.instrument.log_received(line)
         self.instrument.faults.deliver_pending_errors(self)
         self._path = []  # each program message starts at the root (SCPI-99 6.2.4)
         try:

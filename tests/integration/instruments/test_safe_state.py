@@ -57,7 +57,7 @@ def _units(lines: list[str]) -> list[tuple[str, str]]:
 
 def test_protection_is_set_and_read_back_before_the_output_goes_on(rig):
     sim, bench = rig
-    before = len(sim.supply.received)  # what opening the bench sent is not this test's
+    before = len(sim.supply.received_lines())  # what opening the bench sent is not this test's
     with energised(bench, volts=24.0, current_limit_a=3.0, ovp_v=26.5) as powered:
         assert sim.supply.output_on
         assert (sim.supply.current_limit, sim.supply.ovp_level, sim.supply.voltage_set) == (
@@ -68,7 +68,7 @@ def test_protection_is_set_and_read_back_before_the_output_goes_on(rig):
         assert powered.volts == 24.0 and powered.notice is None
     assert not sim.supply.output_on
     # What the supply received, in order (the sim's command log; sim-supply short forms).
-    units = _units(list(sim.supply.received)[before:])
+    units = _units(sim.supply.received_lines()[before:])
     on = [i for i, u in enumerate(units) if u == ("OUTP", "ON")]
     assert len(on) == 1, units  # turned ON exactly once
     first_on = on[0]

@@ -178,12 +178,12 @@ def test_command_log_keeps_every_line_in_arrival_order_and_is_bounded(bench, con
     from sim_instruments.scpi import RECEIVED_LOG_LINES
 
     a, b = connect(bench, "supply"), connect(bench, "supply")
-    start = len(bench.supply.received)
+    start = len(bench.supply.received_lines())
     a.write("VOLT 5; CURR 2")
     assert a.query("*OPC?") == "1"  # a's lines are handled before b sends
     assert b.query("VOLT?;CURR?") == "5.000000000E+00;2.000000000E+00"
-    assert list(bench.supply.received)[start:] == ["VOLT 5; CURR 2", "*OPC?", "VOLT?;CURR?"]
+    assert bench.supply.received_lines()[start:] == ["VOLT 5; CURR 2", "*OPC?", "VOLT?;CURR?"]
     a.write_raw(b"*CLS\n" * (RECEIVED_LOG_LINES + 50))  # more lines than the log holds
     assert a.query("*OPC?") == "1"
-    log = list(bench.supply.received)
+    log = bench.supply.received_lines()
     assert len(log) == RECEIVED_LOG_LINES and log[-1] == "*OPC?" and log[0] == "*CLS"
