@@ -470,5 +470,8 @@ def analyse(name: str, data: AnalysisInput, board: Board) -> AnalysisOutput:
         else:
             # Off the screen only where no metric looks (a zoomed record's edges): noted, no
             # warning.
-            out.details.setdefault("off_screen", {})[net] = why
+            where = why.split(" of its range", 1)[0].replace(" clipped at the ", " off the ")
+            out.details.setdefault("off_screen", {})[net] = (
+                f"{where} of the screen, outside the samples its metrics use"
+            )
     return out

@@ -46,6 +46,8 @@ def test_the_healthy_droop_is_resolved_and_vbs_is_fitted_over_the_on_time(make_r
     views = {v.name: v for v in result.waveforms}
     vgs_window, vbs_window = views["vgs"].window_s, views["vbs"].window_s
     record = runner.log.attempts(runner.session_id)[-1]
+    # ...and Vgs really was off the screen (its off level), noted with the attempt
+    assert "off the bottom" in record.extra["details"]["off_screen"]["vgs"]
     on_start = record.extra["details"]["vgs_droop"]["on_start_s"]
     on_end = record.extra["details"]["vgs_droop"]["on_end_s"]
     # V_BS is fitted inside the on-time found on V_GS, not over the off-time recharge bump.
