@@ -5,6 +5,12 @@ comments, comma or semicolon), ``.npy`` (N x 2: time, signal) or ``.npz`` (``t``
 Output: a table, or with ``--json`` one JSON object; a value that cannot be computed is
 ``null`` and ``reasons`` says why. Bad input: one line on stderr, exit status 2.
 
+The analyses run under ``numpy.errstate`` (overflow, division by zero and invalid operations
+raise) with Python's RuntimeWarnings raised too: a record whose arithmetic overflows is refused
+with one line ("values too large to measure") rather than printing numpy warnings and an
+infinite level. Samples at or above the SCPI overrange value 9.9E37 are refused when the file
+is read (``bringup.capture_files``).
+
 The module top level imports only the standard library: numpy, the analysis and (for
 ``soak``) scipy are imported inside ``run`` so that ``bringup analyze --help`` starts fast.
 """
@@ -12,13 +18,36 @@ The module top level imports only the standard library: numpy, the analysis and 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import math
+import re
 import sys
+import warnings
+from collections.abc import Iterator
 
 from bringup.errors import InputError
 
-__all__ = ["add_parser", "run", "emit", "to_jsonable"]
+__all__ = [
+    "add_parser",
+    "run",
+    "emit",
+    "to_jsonable",
+    "accept_negative_values",
+    "refuse_overflow",
+    "numeric_guard",
+]
+
+# argparse reads "-1V" (not a plain number) as an unknown option, so "--dv -1V" fails with
+# "expected one argument" before the value check can say "must be > 0". These parsers have
+# no option that starts with a digit, so anything that starts like a negative number is a value.
+_NEGATIVE_VALUE = re.compile(r"^-\.?\d")
+
+
+def accept_negative_values(parser: argparse.ArgumentParser) -> None:
+    """Let ``parser`` take "-1V", "-2.5 mA", "-.5" as option values (argparse's own matcher
+    accepts only plain negative numbers). Safe because no option of ours starts with a digit."""
+    parser._negative_number_matcher = _NEGATIVE_VALUE  # type: ignore[attr-defined]
 
 
 def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParser:
@@ -46,6 +75,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         help="reference levels in %% of amplitude (default %(default)s; 20,80 edges: 20,50,80)",
     )
     _json(edges)
+    accept_negative_values(edges)
     edges.set_defaults(func=run)
 
     droop = sub.add_parser(
@@ -64,6 +94,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         help="time after the rising edge to skip before fitting (default: found from the data)",
     )
     _json(droop)
+    accept_negative_values(droop)
     droop.set_defaults(func=run)
 
     soak = sub.add_parser(
@@ -80,6 +111,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         help="settled when within this of T_final (default %(default)s)",
     )
     _json(soak)
+    accept_negative_values(soak)
     soak.set_defaults(func=run)
     return parser
 
@@ -125,14 +157,60 @@ def emit(result: dict, rows: list[tuple[str, str]], as_json: bool, title: str) -
         print(f"  {label:<{width}}  {text}")
 
 
-def shown(value, unit: str, reasons: dict, key: str, digits: int = 4) -> str:
-    """A table cell: the value in engineering notation, or "n/a (reason)"."""
+def format_value(value: float | None, unit: str, digits: int = 4) -> str:
+    """``format_quantity``, but a magnitude of 1e15 or more in scientific notation ("1e+299 s"):
+    unprefixed units (s above 1 s, °C, %) would otherwise print every digit of a huge value."""
     from bringup.analysis.quantities import format_quantity
 
+    if value is not None and math.isfinite(value) and abs(value) >= 1e15:
+        unit_text = format_quantity(1.0, unit)[1:]  # " s", " °C", " Ω" or ""
+        return f"{value:.{digits}g}{unit_text}"
+    return format_quantity(value, unit, digits)
+
+
+def shown(value, unit: str, reasons: dict, key: str, digits: int = 4) -> str:
+    """A table cell: the value in engineering notation, or "n/a (reason)"."""
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         why = reasons.get(key)
         return f"n/a ({why})" if why else "n/a"
-    return format_quantity(value, unit, digits)
+    return format_value(value, unit, digits)
+
+
+def refuse_overflow(values: dict, what: str, path: str = "") -> None:
+    """InputError naming the first infinite float among ``values`` (nested dicts and lists).
+
+    NaN is left alone: a value that cannot be computed is NaN/None with a reason. An infinity
+    from finite inputs is an overflow, refused as "values too large to measure".
+    """
+    for key, value in values.items():
+        name = f"{path}.{key}" if path else str(key)
+        if isinstance(value, dict):
+            refuse_overflow(value, what, name)
+        elif isinstance(value, list | tuple):
+            refuse_overflow(dict(enumerate(value)), what, name)
+        elif isinstance(value, float) and math.isinf(value):
+            raise InputError(f"{what}: values too large to measure: {name} overflows to {value}")
+
+
+@contextlib.contextmanager
+def numeric_guard(what: str) -> Iterator[None]:
+    """Run numpy arithmetic with every floating-point problem raised, reported in one line.
+
+    Overflow (and Python's OverflowError) -> "values too large to measure"; division by zero
+    or an invalid operation (inf - inf, 0/0) and numpy's RuntimeWarnings ("Mean of empty
+    slice") -> "cannot measure". Underflow to 0 is harmless (a decayed exponential) and ignored.
+    """
+    import numpy as np
+
+    try:
+        with np.errstate(all="raise", under="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("error", RuntimeWarning)
+            yield
+    except (FloatingPointError, OverflowError, RuntimeWarning) as exc:
+        text = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        if isinstance(exc, OverflowError) or "overflow" in text:
+            raise InputError(f"{what}: values too large to measure ({text})") from None
+        raise InputError(f"{what}: cannot measure this record ({text})") from None
 
 
 # --- The analyses --------------------------------------------------------------------------
@@ -161,17 +239,23 @@ def run(args: argparse.Namespace) -> int:
 
     if args.analysis == "edges":
         levels = _parse_levels(args.levels)  # check options before reading a large file
+    elif args.analysis == "droop":
+        floor, settle = _droop_options(args)
+    else:
+        band = _parse_band(args.band)
     capture = read_capture(args.file)
     channel, y = capture.channel(args.channel)
+    where = f"{capture.path}: channel {channel}"
     try:
-        if args.analysis == "edges":
-            _edges(args, capture, channel, y, levels)
-        elif args.analysis == "droop":
-            _droop(args, capture, channel, y)
-        else:
-            _soak(args, capture, channel, y)
+        with numeric_guard(where):
+            if args.analysis == "edges":
+                _edges(args, capture, channel, y, levels)
+            elif args.analysis == "droop":
+                _droop(args, capture, channel, y, floor, settle)
+            else:
+                _soak(args, capture, channel, y, band)
     except AnalysisError as exc:
-        raise InputError(f"{capture.path}: channel {channel}: {exc}") from None
+        raise InputError(f"{where}: {exc}") from None
     sys.stdout.flush()
     return 0
 
@@ -182,12 +266,14 @@ def _header(capture, channel: str, extra: str = "") -> str:
 
 def _edges(args, capture, channel, y, levels) -> None:
     from bringup.analysis.edges import measure_edges
-    from bringup.analysis.quantities import format_quantity
+
+    format_quantity = format_value
 
     t0, dt = capture.sampling()
     m = measure_edges(y, dt, t0, levels)
     r = m.reasons
     result = {"file": capture.path, "channel": channel, **m.to_dict()}
+    refuse_overflow(result, f"{capture.path}: channel {channel}")
 
     def q(key, unit, digits=4):
         return shown(getattr(m, key), unit, r, key, digits)
@@ -239,23 +325,32 @@ def _worst(value) -> str:
     return f"  (worst {value:.2f} %)" if value is not None else ""
 
 
-def _droop(args, capture, channel, y) -> None:
-    from bringup.analysis.droop import measure_droop
+def _droop_options(args) -> tuple[float, float | None]:
+    """``--floor`` (V) and ``--settle`` (s, None for "found from the data")."""
     from bringup.analysis.quantities import parse_quantity
 
     floor = parse_quantity(args.floor, "V", where="--floor")
     settle = None if args.settle is None else parse_quantity(args.settle, "s", where="--settle")
     if settle is not None and settle < 0:
         raise InputError(f"--settle: must be >= 0, got {args.settle!r}")
+    return floor, settle
+
+
+def _droop(args, capture, channel, y, floor: float, settle: float | None) -> None:
+    from bringup.analysis.droop import measure_droop
+
     t0, dt = capture.sampling()
     m = measure_droop(y, dt, floor, t0, settle_s=settle)
     r = m.reasons
     result = {"file": capture.path, "channel": channel, **m.to_dict()}
+    refuse_overflow(result, f"{capture.path}: channel {channel}")
 
     def q(key, unit):
         return shown(getattr(m, key), unit, r, key)
 
-    ext = f"  ({m.extrapolation:.1f}x the observed on-time)" if m.extrapolation else ""
+    x = m.extrapolation
+    # NaN is truthy: only a finite ratio is printed.
+    ext = f"  ({x:.1f}x the observed on-time)" if x is not None and math.isfinite(x) else ""
     rows = [
         ("on-time", f"{q('on_time_s', 's')}  ({m.window})"),
         ("settled after", q("settle_s", "s")),
@@ -278,35 +373,59 @@ def _parse_band(text: str) -> float:
 
     try:
         band = parse_quantity(text, "K", where="--band")
-    except InputError:
-        band = parse_quantity(text, "degC", where="--band")  # a difference in °C is in K
+    except InputError as in_kelvin:
+        try:  # a difference written in °C is the same number of K
+            band = parse_quantity(text, "degC", where="--band")
+        except InputError:
+            raise in_kelvin from None  # the option is in K: say so, not °C
     if not band > 0:
         raise InputError(f"--band: must be > 0 K, got {text!r}")
     return band
 
 
-def _soak(args, capture, channel, y) -> None:
+def _fixed(value: float, decimals: int) -> str:
+    """``value`` with ``decimals`` decimals, or 6 significant digits once it is 1e9 or more
+    (a fixed-point time constant of a log with absurd times would run to dozens of digits)."""
+    return f"{value:.{decimals}f}" if abs(value) < 1e9 else f"{value:.6g}"
+
+
+ABSOLUTE_ZERO_C = -273.15
+
+
+def _soak(args, capture, channel, y, band: float) -> None:
+    import numpy as np
+
     from bringup.analysis.soak import fit_soak
 
-    band = _parse_band(args.band)
+    cold = np.flatnonzero(y < ABSOLUTE_ZERO_C)
+    if cold.size:
+        i = int(cold[0])
+        raise InputError(
+            f"{capture.path}: {capture.where(i)}: channel {channel}: {float(y[i]):.6g} °C is "
+            "below absolute zero (-273.15 °C): not a temperature in °C"
+        )
     f = fit_soak(capture.t_s, y, band_k=band)
     result = {"file": capture.path, "channel": channel, **f.to_dict()}
+    refuse_overflow(result, f"{capture.path}: channel {channel}")
     rows = [
-        ("final temperature", f"{f.final_c:.2f} °C +/- {f.final_c_uncertainty:.2f} K (k = 2)"),
-        ("start temperature", f"{f.start_c:.2f} °C"),
-        ("time constant", f"{f.tau_s:.1f} s +/- {f.tau_uncertainty_s:.1f} s"),
+        (
+            "final temperature",
+            f"{_fixed(f.final_c, 2)} °C +/- {_fixed(f.final_c_uncertainty, 2)} K (k = 2)",
+        ),
+        ("start temperature", f"{_fixed(f.start_c, 2)} °C"),
+        ("time constant", f"{_fixed(f.tau_s, 1)} s +/- {_fixed(f.tau_uncertainty_s, 1)} s"),
         (
             "settled",
-            f"at t = {f.settle_time_s:.0f} s (within {f.band_k:g} K)"
+            f"at t = {_fixed(f.settle_time_s, 0)} s (within {f.band_k:g} K)"
             + (
-                f", {f.settle_in_s:.0f} s after the last sample"
+                f", {_fixed(f.settle_in_s, 0)} s after the last sample"
                 if f.settle_in_s > 0
                 else ", already"
             ),
         ),
         (
             "data",
-            f"{f.samples} samples, {f.taus_covered:.2f} tau, residual {f.residual_rms_c:.3f} K rms",
+            f"{f.samples} samples, {f.taus_covered:.2f} tau, residual {_fixed(f.residual_rms_c, 3)} K rms",
         ),
     ]
     rows += [("warning", w) for w in f.warnings]

@@ -1,14 +1,22 @@
 """``bringup calc bootstrap|gate|losses``: the design equations from the command line.
 
 Every option takes engineering notation with or without its unit ("40n", "40 nC", "4k7",
-"25 kHz"). A unit that does not fit the option ("--qg 40 nF") is an error. Output: a table,
-or with ``--json`` one JSON object; a value that cannot be computed is ``null`` and
-``reasons`` says why. Only the standard library is imported at the top (start-up speed).
+"25 kHz"). A unit that does not fit the option ("--qg 40 nF") is an error, and so is a unit
+on a plain factor ("--margin 2V"). Negative values reach the value check ("--dv -1V": must
+be > 0). Output: a table, or with ``--json`` one JSON object; a value that cannot be computed
+is ``null`` and ``reasons`` says why. Every error names the options as typed: relations
+between options (``--vpl`` below ``--vdrv``) are checked here before the design equations run,
+and a result that leaves the float range (``1e300`` times ``1e300``) is refused in one line,
+"values too large to compute: ...", never printed as ``inf``. Only the standard library is
+imported at the top (start-up speed).
 """
 
 from __future__ import annotations
 
 import argparse
+import math
+import re
+from collections.abc import Callable
 
 from bringup.errors import InputError
 
@@ -26,6 +34,8 @@ BOOTSTRAP_METHOD = (
 
 def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParser:
     """Register ``calc`` and its sub-commands."""
+    from bringup.commands.analyze import accept_negative_values  # standard library only
+
     parser = subparsers.add_parser(
         "calc",
         help="design equations: bootstrap capacitor, gate timing, losses and temperature",
@@ -54,7 +64,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     boot.add_argument(
         "--duty-max",
         metavar="D",
-        help="largest duty cycle (0.95 or 95%%): t_on,max = D / f_sw when --ton-max is not given",
+        help="largest duty cycle (0.95 or 95%%): t_on,max = D / f_sw, instead of --ton-max",
     )
     boot.add_argument("--dv", required=True, metavar="V", help="allowed droop of V_BS (V)")
     boot.add_argument("--qls", default="0", metavar="Q", help="level-shift charge per cycle (C)")
@@ -62,6 +72,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     boot.add_argument("--margin", default="1", metavar="K", help="safety factor K (default 1)")
     _json(boot)
     boot.set_defaults(func=run)
+    accept_negative_values(boot)
 
     gate = sub.add_parser(
         "gate",
@@ -83,6 +94,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     gate.add_argument("--c-gate", metavar="C", help="RC pull-up: the capacitance it charges (F)")
     _json(gate)
     gate.set_defaults(func=run)
+    accept_negative_values(gate)
 
     losses = sub.add_parser(
         "losses",
@@ -105,6 +117,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     losses.add_argument("--tamb", metavar="degC", help="reference (ambient) temperature")
     _json(losses)
     losses.set_defaults(func=run)
+    accept_negative_values(losses)
     return parser
 
 
@@ -127,6 +140,39 @@ def _q(args, attr: str, unit: str | None, *, positive: bool = False):
     value = parse_quantity(text, unit, where=option)
     if value < 0 or (positive and value == 0):
         raise InputError(f"{option}: must be {'> 0' if positive else '>= 0'}, got {text!r}")
+    return value
+
+
+def _factor(args, attr: str) -> float | None:
+    """A plain factor > 0 (no unit: "--margin 2V" is refused, not read as 2)."""
+    from bringup.analysis.quantities import parse_quantity_unit
+
+    text = getattr(args, attr)
+    if text is None:
+        return None
+    option = "--" + attr.replace("_", "-")
+    value, unit = parse_quantity_unit(text, None, where=option)
+    if unit is not None:
+        raise InputError(f"{option}: a factor has no unit, got {text!r}")
+    if not value > 0:
+        raise InputError(f"{option}: must be > 0, got {text!r}")
+    return value
+
+
+ABSOLUTE_ZERO_C = -273.15
+
+
+def _temperature(args, attr: str) -> float | None:
+    """A temperature in °C, at or above absolute zero."""
+    from bringup.analysis.quantities import parse_quantity
+
+    text = getattr(args, attr)
+    if text is None:
+        return None
+    option = "--" + attr.replace("_", "-")
+    value = parse_quantity(text, "degC", where=option)
+    if value < ABSOLUTE_ZERO_C:
+        raise InputError(f"{option}: below absolute zero (-273.15 °C), got {text!r}")
     return value
 
 
@@ -154,34 +200,114 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
+# The design functions' parameter names and the options they come from: a check that fires
+# inside ``bringup.analysis.design`` is reported with the option the user typed.
+_OPTION_OF = {
+    "qg_c": "--qg",
+    "qls_c": "--qls",
+    "iq_a": "--iq",
+    "ileak_a": "--ileak",
+    "t_on_max_s": "--ton-max",
+    "dv_v": "--dv",
+    "margin": "--margin",
+    "fsw_hz": "--fsw",
+    "v_drv_v": "--vdrv",
+    "v_plateau_v": "--vpl",
+    "r_source_ohm": "--r-source",
+    "r_sink_ohm": "--r-sink",
+    "r_gate_ohm": "--rg",
+    "r_gate_int_ohm": "--rg-int",
+    "q_gd_c": "--qgd",
+    "q_gs2_c": "--qgs2",
+    "v_v": "--vbus",
+    "i_a": "--iload",
+    "t_rise_s": "--tr",
+    "t_fall_s": "--tf",
+    "r_ds_on_ohm": "--rdson",
+    "r_th_k_per_w": "--rth",
+    "t_ref_c": "--tamb",
+}
+
+
+def _with_option_names(text: str) -> str:
+    """A design check's message with its parameter names replaced by the options."""
+    return re.sub(r"\b[a-z][a-z0-9_]*\b", lambda m: _OPTION_OF.get(m[0], m[0]), text)
+
+
+def _computed(what: str, fn: Callable[..., float], *args: float, **kwargs: float) -> float:
+    """``fn(*args)``, refused in one line naming ``what`` (the options it is computed from)
+    when it leaves the float range; a design check is reported with option names."""
+    try:
+        value = fn(*args, **kwargs)
+    except (OverflowError, ZeroDivisionError):
+        value = math.inf
+    except InputError as exc:
+        text = str(exc)
+        if "must be finite" in text:  # an intermediate value overflowed
+            value = math.inf
+        else:
+            raise InputError(_with_option_names(text)) from None
+    if not math.isfinite(value):
+        raise InputError(f"values too large to compute: {what} is beyond the float range")
+    return value
+
+
 def _bootstrap(args) -> None:
     from bringup.analysis import design
-    from bringup.analysis.quantities import format_quantity as fq
     from bringup.commands.analyze import emit
+    from bringup.commands.analyze import format_value as fq
 
     qg = _q(args, "qg", "C")
     iq = _q(args, "iq", "A")
     ileak = _q(args, "ileak", "A")
     qls = _q(args, "qls", "C")
     dv = _q(args, "dv", "V", positive=True)
-    margin = _q(args, "margin", None, positive=True)
+    margin = _factor(args, "margin")
     fsw = _q(args, "fsw", "Hz", positive=True)
     c = _q(args, "c", "F", positive=True)
     duty = _fraction(args, "duty_max")
+    if duty == 0:
+        raise InputError(f"--duty-max: must be > 0, got {args.duty_max!r} (no on-time)")
     t_on = _q(args, "ton_max", "s", positive=True)
     source = "--ton-max"
+    if t_on is not None and duty is not None:
+        raise InputError(
+            "give the longest on-time once: --ton-max, or --duty-max with --fsw, not both"
+        )
     if t_on is None:
         if duty is None or fsw is None:
             raise InputError("give --ton-max, or --duty-max with --fsw, for the longest on-time")
-        t_on = design.on_time_at_duty(duty, fsw)
+        t_on = _computed(
+            "the longest on-time --duty-max / --fsw", design.on_time_at_duty, duty, fsw
+        )
         source = "--duty-max / --fsw"
+    q = _computed(
+        f"the charge over the longest on-time, --qg + --qls + (--iq + --ileak) x {source}",
+        design.bootstrap_charge,
+        qg,
+        t_on,
+        iq,
+        ileak,
+        qls,
+    )
+    _computed("C_min = --margin x charge / --dv", design.bootstrap_c_min, q, dv, margin)
+    if c is not None:
+        _computed("the droop with --c, charge / --c", design.bootstrap_droop, q, c)
     s = design.size_bootstrap(qg, iq, ileak, t_on, dv, qls_c=qls, c_f=c, margin=margin)
     reasons = {}
     if s.droop_v is None:
         reasons["droop_v"] = "give --c to predict the droop of a chosen capacitor"
     per_period = None
     if fsw is not None:
-        per_period = design.bootstrap_charge(qg, 1.0 / fsw, iq, ileak, qls)
+        per_period = _computed(
+            "the charge per period, --qg + --qls + (--iq + --ileak) / --fsw",
+            design.bootstrap_charge,
+            qg,
+            _computed("the period 1 / --fsw", lambda f: 1.0 / f, fsw),
+            iq,
+            ileak,
+            qls,
+        )
     else:
         reasons["charge_per_period_c"] = "give --fsw"
     result = {
@@ -224,8 +350,8 @@ def _bootstrap(args) -> None:
 
 def _gate(args) -> None:
     from bringup.analysis import design
-    from bringup.analysis.quantities import format_quantity as fq
     from bringup.commands.analyze import emit
+    from bringup.commands.analyze import format_value as fq
 
     timing_opts = {"vdrv": "V", "vpl": "V", "qgd": "C", "r_source": "ohm", "r_sink": "ohm"}
     given = {k: getattr(args, k) is not None for k in timing_opts}
@@ -242,16 +368,7 @@ def _gate(args) -> None:
         missing = ["--" + k.replace("_", "-") for k, v in given.items() if not v]
         if missing:
             raise InputError(f"gate-charge timing also needs {' '.join(missing)}")
-        g = design.gate_timing(
-            _q(args, "vdrv", "V", positive=True),
-            _q(args, "vpl", "V", positive=True),
-            _q(args, "r_source", "ohm"),
-            _q(args, "r_sink", "ohm"),
-            _q(args, "rg", "ohm"),
-            _q(args, "rg_int", "ohm"),
-            _q(args, "qgd", "C"),
-            _q(args, "qgs2", "C"),
-        )
+        g = _gate_timing(args)
         result.update(g.to_dict())
         if g.t_current_on_s is None:
             reasons["t_current_on_s"] = reasons["t_current_off_s"] = "give --qgs2"
@@ -265,11 +382,13 @@ def _gate(args) -> None:
             ("V_DS rise at turn-off", fq(g.t_vds_off_s, "s")),
             (
                 "current rise (Q_gs2)",
-                fq(g.t_current_on_s, "s") if g.t_current_on_s else "n/a (give --qgs2)",
+                fq(g.t_current_on_s, "s") if g.t_current_on_s is not None else "n/a (give --qgs2)",
             ),
             (
                 "current fall (Q_gs2)",
-                fq(g.t_current_off_s, "s") if g.t_current_off_s else "n/a (give --qgs2)",
+                fq(g.t_current_off_s, "s")
+                if g.t_current_off_s is not None
+                else "n/a (give --qgs2)",
             ),
         ]
     else:
@@ -282,7 +401,9 @@ def _gate(args) -> None:
             raise InputError(f"the RC pull-up rise time also needs {' '.join(missing)}")
         r = _q(args, "r_pullup", "ohm", positive=True)
         c = _q(args, "c_gate", "F", positive=True)
-        result["rc_rise_time_s"] = design.rc_rise_time(r, c)
+        result["rc_rise_time_s"] = _computed(
+            "the RC rise time --r-pullup x --c-gate x ln 9", design.rc_rise_time, r, c
+        )
         rows.append(
             (
                 "RC pull-up 10-90 %",
@@ -296,10 +417,63 @@ def _gate(args) -> None:
     emit(result, rows, args.json, "gate timing")
 
 
+def _gate_timing(args):
+    """``design.gate_timing`` from the options, every relation checked by option name."""
+    from bringup.analysis import design
+    from bringup.commands.analyze import format_value as fq
+
+    vdrv = _q(args, "vdrv", "V", positive=True)
+    vpl = _q(args, "vpl", "V", positive=True)
+    r_source = _q(args, "r_source", "ohm")
+    r_sink = _q(args, "r_sink", "ohm")
+    rg = _q(args, "rg", "ohm")
+    rg_int = _q(args, "rg_int", "ohm")
+    qgd = _q(args, "qgd", "C")
+    qgs2 = _q(args, "qgs2", "C")
+    if vpl >= vdrv:
+        raise InputError(
+            f"--vpl {fq(vpl, 'V')} must be below --vdrv {fq(vdrv, 'V')}: the gate would never "
+            "leave the Miller plateau"
+        )
+    for name, r in (("--r-source", r_source), ("--r-sink", r_sink)):
+        _computed(f"{name} + --rg + --rg-int", lambda a, b, c: a + b + c, r, rg, rg_int)
+        if not r + rg + rg_int > 0:
+            raise InputError(
+                f"{name} + --rg + --rg-int is 0 ohm: the gate loop needs a resistance > 0 "
+                "(the plateau current would be infinite)"
+            )
+    i_on = _computed(
+        "the turn-on plateau current (--vdrv - --vpl) / (--r-source + --rg + --rg-int)",
+        lambda: (vdrv - vpl) / (r_source + rg + rg_int),
+    )
+    i_off = _computed(
+        "the turn-off plateau current --vpl / (--r-sink + --rg + --rg-int)",
+        lambda: vpl / (r_sink + rg + rg_int),
+    )
+    for name, i in (("turn-on", i_on), ("turn-off", i_off)):
+        if i == 0:  # (--vdrv - --vpl) tiny over a huge resistance: 0 A in floating point
+            raise InputError(
+                f"values too small to compute: the {name} plateau current is 0 A in floating "
+                "point (check --vdrv, --vpl and the gate loop resistances)"
+            )
+    for name, q in (("--qgd", qgd), ("--qgs2", qgs2)):
+        if q is not None:
+            _computed(
+                f"the switching time {name} / the plateau current",
+                lambda q_c, i_a: q_c / i_a,
+                q,
+                min(i_on, i_off),
+            )
+    try:
+        return design.gate_timing(vdrv, vpl, r_source, r_sink, rg, rg_int, qgd, qgs2)
+    except InputError as exc:
+        raise InputError(_with_option_names(str(exc))) from None
+
+
 def _losses(args) -> None:
     from bringup.analysis import design
-    from bringup.analysis.quantities import format_quantity as fq
     from bringup.commands.analyze import emit
+    from bringup.commands.analyze import format_value as fq
 
     v = {
         "vbus": _q(args, "vbus", "V"),
@@ -312,12 +486,8 @@ def _losses(args) -> None:
         "qg": _q(args, "qg", "C"),
         "vdrv": _q(args, "vdrv", "V"),
         "rth": _q(args, "rth", "K/W"),
-        "tamb": None,
+        "tamb": _temperature(args, "tamb"),
     }
-    if args.tamb is not None:
-        from bringup.analysis.quantities import parse_quantity
-
-        v["tamb"] = parse_quantity(args.tamb, "degC", where="--tamb")
     reasons: dict[str, str] = {}
 
     def need(key: str, *names: str) -> bool:
@@ -330,18 +500,45 @@ def _losses(args) -> None:
         ("p_switching_w", "p_conduction_w", "p_gate_w", "p_mosfet_w", "t_junction_c")
     )
     if need("p_switching_w", "vbus", "iload", "tr", "tf", "fsw"):
-        out["p_switching_w"] = design.switching_loss(
-            v["vbus"], v["iload"], v["tr"], v["tf"], v["fsw"]
+        out["p_switching_w"] = _computed(
+            "the switching loss 1/2 x --vbus x --iload x (--tr + --tf) x --fsw",
+            design.switching_loss,
+            v["vbus"],
+            v["iload"],
+            v["tr"],
+            v["tf"],
+            v["fsw"],
         )
     if need("p_conduction_w", "iload", "rdson", "duty"):
-        out["p_conduction_w"] = design.conduction_loss(v["iload"], v["rdson"], v["duty"])
+        out["p_conduction_w"] = _computed(
+            "the conduction loss --iload^2 x --rdson x --duty",
+            design.conduction_loss,
+            v["iload"],
+            v["rdson"],
+            v["duty"],
+        )
     if need("p_gate_w", "qg", "vdrv", "fsw"):
-        out["p_gate_w"] = design.gate_drive_loss(v["qg"], v["vdrv"], v["fsw"])
+        out["p_gate_w"] = _computed(
+            "the gate-drive loss --qg x --vdrv x --fsw",
+            design.gate_drive_loss,
+            v["qg"],
+            v["vdrv"],
+            v["fsw"],
+        )
     if out["p_switching_w"] is not None and out["p_conduction_w"] is not None:
-        out["p_mosfet_w"] = out["p_switching_w"] + out["p_conduction_w"]
+        out["p_mosfet_w"] = _computed(
+            "the MOSFET loss (switching + conduction)",
+            lambda a, b: a + b,
+            out["p_switching_w"],
+            out["p_conduction_w"],
+        )
         if need("t_junction_c", "rth", "tamb"):
-            out["t_junction_c"] = design.junction_temperature(
-                out["p_mosfet_w"], v["rth"], v["tamb"]
+            out["t_junction_c"] = _computed(
+                "the junction temperature --tamb + MOSFET loss x --rth",
+                design.junction_temperature,
+                out["p_mosfet_w"],
+                v["rth"],
+                v["tamb"],
             )
     else:
         reasons["p_mosfet_w"] = "needs the switching and the conduction loss"
