@@ -101,3 +101,19 @@ def test_a_simulated_bench_is_logged_with_scenario_seed_and_resources(tmp_path):
     assert bench["thermometer"]["profile"] == "sim-thermometer"
     # resume still finds the bench it was started with
     assert BenchSource.from_description(bench) == BenchSource.simulated("slow-gate", seed=4)
+
+
+def test_the_offset_is_the_local_zone_s_in_iso_8601_form():
+    import os
+    import subprocess
+    import sys
+
+    # POSIX TZ strings: the number is what is added to local time to reach UTC, so "-5:30" is
+    # five and a half hours east [memory: POSIX.1, the TZ environment variable]; written as
+    # ISO 8601's time shift ±hh:mm [memory: ISO 8601].
+    cases = {"IST-5:30": "+05:30", "EST5": "-05:00", "UTC0": "+00:00", "NPT-5:45": "+05:45"}
+    code = "from bringup.runner.bench_link import local_utc_offset; print(local_utc_offset())"
+    for tz, expected in cases.items():
+        out = subprocess.run([sys.executable, "-c", code], env={**os.environ, "TZ": tz},
+                             capture_output=True, text=True, check=True, timeout=60)  # fmt: skip
+        assert out.stdout.strip() == expected, tz
