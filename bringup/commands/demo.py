@@ -38,10 +38,10 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     )
     parser.add_argument(
         "--scenario",
-        default="healthy",
+        default=None,
         metavar="NAME",
         help="what the simulated board does (healthy, weak-bootstrap, no-overdrive, slow-gate, "
-        "hot-switch, sagging-rail; default healthy)",
+        "hot-switch, sagging-rail; default healthy); not with --bench",
     )
     parser.add_argument(
         "--serial", default="DHS24-0001", help="serial number (default %(default)s)"
@@ -58,11 +58,67 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     return parser
 
 
+def check_options(args: argparse.Namespace) -> None:
+    """Refuse a bad option before the notebook takes the terminal: one ``InputError`` line.
+
+    Checks the scenario name against the simulator's scenarios, ``--bench`` (the file and the
+    profile each instrument names, without opening any instrument), ``--db`` (a file in an
+    existing folder), the serial against the demo board's pattern and the operator's name.
+    """
+    from pathlib import Path
+
+    from bringup.errors import InputError
+
+    if args.scenario is not None:
+        from sim_instruments.scenarios import SCENARIOS
+
+        if args.bench:
+            raise InputError(
+                f"--scenario {args.scenario}: only for the simulated bench, not with --bench"
+            )
+        if args.scenario not in SCENARIOS:
+            raise InputError(f"--scenario {args.scenario}: unknown (one of {', '.join(SCENARIOS)})")
+    if args.bench:
+        from bringup.commands.instruments import check_profiles_option
+        from bringup.instruments.bench import ROLES, load_bench, profile_for_role
+
+        bench = Path(args.bench).expanduser()
+        if not bench.is_file():
+            what = "not a file" if bench.exists() else "no such file"
+            raise InputError(f"--bench {args.bench}: {what}")
+        check_profiles_option(None)  # $BRINGUP_PROFILES, which the bench's profiles come from
+        config = load_bench(bench)
+        for role in ROLES:
+            profile_for_role(config, role, None)
+    if args.db:
+        db = Path(args.db).expanduser()
+        if db.is_dir():
+            raise InputError(f"--db {args.db}: is a directory; give the log file's name")
+        if not db.parent.is_dir():
+            raise InputError(f"--db {args.db}: no such folder {db.parent} for the log")
+    if args.operator is not None and (
+        not args.operator.strip() or len(args.operator.strip().splitlines()) != 1
+    ):
+        raise InputError(f"--operator {args.operator!r}: a one-line, non-empty name is needed")
+    from bringup.checklist.board import load_board
+
+    try:
+        load_board("demo").check_serial(args.serial)
+    except InputError as exc:
+        raise InputError(f"--serial: {exc}") from None
+
+
 def run(args: argparse.Namespace) -> int:
-    """Run the demo until the operator quits; prints where the log was kept."""
+    """Run the demo until the operator quits; prints where the log was kept.
+
+    Every option is checked first (``check_options``): a bad one is one line on stderr and
+    exit status 2, and the notebook never starts.
+    """
     import sys
     import tempfile
     from pathlib import Path
+
+    check_options(args)
 
     from bringup.tui.launch import Launcher
     from bringup.tui.run_app import run_app
@@ -79,7 +135,7 @@ def run(args: argparse.Namespace) -> int:
             "board": "demo",
             "checklist": None,
             "bench_file": args.bench,
-            "scenario": args.scenario,
+            "scenario": args.scenario or "healthy",
             "serial": args.serial,
             "operator": args.operator or demo_operator(),
         },

@@ -19,7 +19,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         help="write a session's bring-up record (JSON, HTML or PDF)",
         description="Write the bring-up record of SESSION: JSON (canonical, versioned, what "
         "is signed and verified), HTML (one self-contained, printable file) or PDF. "
-        "Exporting the same session twice gives the same bytes.",
+        "Exporting the same session twice gives the same bytes. The log's hash chain is "
+        "checked first: when an entry was changed after logging, the export is refused "
+        "(exit 2, one line naming the entry and field; `bringup verify --db` shows the rest).",
     )
     parser.add_argument("session", metavar="SESSION", help="session id (or a unique prefix)")
     parser.add_argument("--format", choices=FORMATS, default="json", help="default: json")

@@ -20,6 +20,7 @@ if TYPE_CHECKING:
 
 
 def add_parser(subparsers: argparse._SubParsersAction) -> None:
+    """Register ``instruments``."""
     parser = subparsers.add_parser(
         "instruments",
         help="check that each instrument of a bench file answers",
@@ -91,27 +92,48 @@ def _check_one(
     return lines, ok
 
 
+def check_profiles_option(profiles: Path | None) -> None:
+    """Refuse a ``--profiles`` (or ``$BRINGUP_PROFILES``) that is not a folder, in one line."""
+    import os
+
+    from bringup.instruments.profiles import PROFILES_ENV
+
+    if profiles is not None:
+        where, folder = f"--profiles {profiles}", Path(profiles)
+    elif os.environ.get(PROFILES_ENV):
+        where, folder = f"{PROFILES_ENV}={os.environ[PROFILES_ENV]}", Path(os.environ[PROFILES_ENV])
+    else:
+        return
+    if folder.is_dir():
+        return
+    if folder.exists():
+        raise InputError(f"{where}: not a folder (a folder of profile .toml files is expected)")
+    raise InputError(f"{where}: no such folder of profiles")
+
+
 def run(args: argparse.Namespace) -> int:
+    """Check every instrument of the bench file; 0 when all answer as their profiles expect.
+
+    Every option and file (``--profiles``, the bench file, each instrument's profile) is
+    checked before any instrument is opened: a bad one is one line and exit status 2.
+    """
     from bringup.instruments.bench import ROLES, load_bench, profile_for_role
     from bringup.instruments.profiles import all_profiles
 
+    check_profiles_option(args.profiles)
     bench_path = args.bench or Path("bench.toml")
     if args.bench is None and not bench_path.is_file():
         raise InputError("no bench file: pass --bench FILE (or put bench.toml here)")
     config = load_bench(bench_path)
     profiles = all_profiles(args.profiles)
+    # A profile the bench file names but no folder holds is a configuration error (the file's
+    # line and key), not an instrument that failed to answer.
+    chosen = {role: profile_for_role(config, role, args.profiles) for role in ROLES}
     healthy = True
     if config.simulated:
         print(f"{config.path}: simulated bench ([simulation] enabled)")
     for role in ROLES:
-        entry = config.instruments[role]
-        try:
-            profile = profile_for_role(config, role, args.profiles)
-        except BringupError as exc:
-            print(f"{role}: {entry.resource}\n  problem   {exc}")
-            healthy = False
-            continue
-        lines, ok = _check_one(role, entry, profile, profiles)
+        lines, ok = _check_one(role, config.instruments[role], chosen[role], profiles)
         healthy &= ok
         print("\n".join(lines))
     if config.channels:

@@ -13,7 +13,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         help="sign off a session's record as operator or reviewer",
         description="Sign the canonical content of SESSION's record with your Ed25519 key "
         "and store the signature in the log. Refused while a step is unfinished or failed "
-        "without a waiver; the refusal lists what is open.",
+        "without a waiver (the refusal lists what is open), when the log's hash chain is "
+        "broken, when this key already signed in this role, and when this key (or this "
+        "signer's name) signed in the other role: a review needs a second person.",
     )
     parser.add_argument("session", metavar="SESSION", help="session id (or a unique prefix)")
     parser.add_argument("--key", required=True, type=Path, metavar="PATH", help="private key")

@@ -85,38 +85,74 @@ def _check_name(name: str) -> str:
     return clean
 
 
+def _check_target(path: Path, pub_path: Path) -> None:
+    """Refuse a key path that cannot take a new key: one line naming the path and why."""
+    for target in (path, pub_path):
+        if target.is_dir():
+            raise InputError(f"--out {target}: is a directory; give a file name for the key")
+        if target.exists() or target.is_symlink():
+            raise InputError(f"--out {target}: already exists; a key is never overwritten")
+    parent = path.parent
+    if parent.exists() and not parent.is_dir():
+        raise InputError(f"--out {path}: {parent} is not a directory")
+    if not parent.is_dir():
+        raise InputError(f"--out {path}: no such directory {parent} for the key")
+
+
+def _write_new(path: Path, data: bytes, mode: int) -> None:
+    """Write ``data`` to a new file at ``path`` with ``mode``; refuses an existing file.
+
+    O_EXCL refuses a file that appeared since the check; the mode is set at creation, not by
+    a chmod after the key bytes are already on disk.
+    """
+    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, mode)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+    except BaseException:
+        path.unlink(missing_ok=True)  # a half-written key file is no key
+        raise
+
+
 def generate_key_pair(name: str, path: Path) -> KeyPair:
     """Make a key pair for ``name``: private key at ``path`` (mode 0600), public at ``path.pub``.
 
-    Refuses to overwrite either file.
+    Refuses to overwrite either file. Any failure to write (a directory given, a read-only
+    file system, no permission, a full disk) is one ``InputError`` line naming the path, and
+    leaves neither file behind.
     """
     name = _check_name(name)
     path = Path(path)
     pub_path = path.with_name(path.name + ".pub")
-    for target in (path, pub_path):
-        if target.exists():
-            raise InputError(f"{target}: already exists; a key is never overwritten")
-    if not path.parent.is_dir():
-        raise InputError(f"{path.parent}: no such directory for the key")
     private = Ed25519PrivateKey.generate()
     pair = KeyPair(name, private)
     pem = private.private_bytes(
         serialization.Encoding.PEM, serialization.PrivateFormat.PKCS8, serialization.NoEncryption()
     )
     header = f"bringup signing key (keep private)\nname: {name}\n".encode()
-    # O_EXCL: refuse a file that appeared since the check; 0600 from the start, not chmod after.
-    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
-    with os.fdopen(fd, "wb") as fh:
-        fh.write(header + pem)
     pub_pem = private.public_key().public_bytes(
         serialization.Encoding.PEM, serialization.PublicFormat.SubjectPublicKeyInfo
     )
     pub_header = (
         f"bringup public key\nname: {name}\nfingerprint: {pair.public.fingerprint}\n".encode()
     )
-    fd = os.open(pub_path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o644)
-    with os.fdopen(fd, "wb") as fh:
-        fh.write(pub_header + pub_pem)
+    target = path
+    try:
+        _check_target(path, pub_path)
+        _write_new(path, header + pem, 0o600)
+        target = pub_path
+        try:
+            _write_new(pub_path, pub_header + pub_pem, 0o644)
+        except BaseException:
+            path.unlink(missing_ok=True)  # a private key without its public half is no use
+            raise
+    except FileExistsError:
+        raise InputError(f"--out {target}: already exists; a key is never overwritten") from None
+    except IsADirectoryError:
+        raise InputError(f"--out {target}: is a directory; give a file name for the key") from None
+    except OSError as exc:
+        why = exc.strerror or str(exc)
+        raise InputError(f"--out {target}: cannot write the key ({why})") from None
     return pair
 
 

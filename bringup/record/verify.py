@@ -11,6 +11,7 @@ exactly the content and the sign-offs the record shows.
 from __future__ import annotations
 
 import json
+import math
 from pathlib import Path
 from typing import Any
 
@@ -29,8 +30,74 @@ def record_bytes(record: dict) -> bytes:
     return canonical_bytes(record) + b"\n"
 
 
+#: Deeper than any record bringup writes (about a dozen levels), shallow enough that every
+#: recursive walk over the record (canonical form, seal, diff) stays far inside Python's stack.
+MAX_DEPTH = 200
+
+#: Digits of the longest integer a record may hold: integers beyond 2**53 have no canonical
+#: form anyway (RFC 8785 §3.2.2.3), and Python refuses to parse more than 4300 digits.
+_MAX_INT_DIGITS = 16
+
+
+class _NotJson(ValueError):
+    """A number the record format does not allow; ``token`` is its text in the file."""
+
+    def __init__(self, token: str, problem: str) -> None:
+        super().__init__(problem)
+        self.token = token
+
+
+def _no_constant(token: str) -> Any:
+    # Python's json reads NaN and Infinity, which RFC 8259 JSON (and a record) never holds.
+    raise _NotJson(token, f"{token} is not a JSON value; a record writes null with a reason")
+
+
+def _int(token: str) -> int:
+    if len(token.lstrip("-")) > _MAX_INT_DIGITS:
+        raise _NotJson(
+            token[:24],
+            f"an integer of {len(token.lstrip('-'))} digits; a record holds none beyond 2**53",
+        )
+    return int(token)
+
+
+def _float(token: str) -> float:
+    value = float(token)
+    if not math.isfinite(value):
+        raise _NotJson(
+            token[:24], f"{token[:24]} is beyond the range of a double; a record cannot hold it"
+        )
+    return value
+
+
+def _line_of(text: str, token: str) -> int:
+    """The line of ``token``'s first appearance in ``text`` (1 when it cannot be found)."""
+    at = text.find(token)
+    return text.count("\n", 0, at) + 1 if at >= 0 else 1
+
+
+def _depth(value: Any) -> int:
+    """How deeply lists and objects nest in ``value`` (a scalar is 0), without recursion."""
+    deepest, stack = 0, [(value, 1)]
+    while stack:
+        node, level = stack.pop()
+        if not isinstance(node, dict | list):
+            continue
+        deepest = max(deepest, level)
+        if deepest > MAX_DEPTH:
+            return deepest
+        children = node.values() if isinstance(node, dict) else node
+        stack.extend((child, level + 1) for child in children)
+    return deepest
+
+
 def read_record(path: str | Path) -> tuple[dict, bytes]:
-    """Read a record file; one-line ``InputError`` when it is missing or not a record."""
+    """Read a record file; one-line ``InputError`` when it is missing or not a record.
+
+    Refused as not a record (naming the file and, where it can be told, the line): text that
+    is not JSON, NaN or Infinity (which Python's reader would accept), integers beyond what
+    a record can hold, numbers beyond a double's range, and nesting deeper than ``MAX_DEPTH``.
+    """
     path = Path(path)
     try:
         data = path.read_bytes()
@@ -39,13 +106,28 @@ def read_record(path: str | Path) -> tuple[dict, bytes]:
     except OSError as exc:
         raise InputError(f"{path}: cannot read the record ({exc.strerror})") from None
     try:
-        record = json.loads(data.decode("utf-8"))
+        text = data.decode("utf-8")
     except UnicodeDecodeError:
         raise InputError(f"{path}: not UTF-8 text, not a record") from None
+    try:
+        record = json.loads(text, parse_constant=_no_constant, parse_int=_int, parse_float=_float)
     except json.JSONDecodeError as exc:
         raise InputError(f"{path}:{exc.lineno}: not valid JSON ({exc.msg})") from None
+    except _NotJson as exc:
+        raise InputError(f"{path}:{_line_of(text, exc.token)}: not a record ({exc})") from None
+    except RecursionError:
+        raise InputError(f"{path}: nested too deeply to be a record") from None
+    if _depth(record) > MAX_DEPTH:
+        raise InputError(
+            f"{path}: nested more than {MAX_DEPTH} levels deep, too deep to be a record"
+        )
     if not isinstance(record, dict) or not isinstance(record.get("content"), dict):
         raise InputError(f"{path}: not a bringup record (no 'content' object)")
+    try:
+        canonical_bytes(record)
+    except NotCanonicalError as exc:
+        # bringup never writes such a value (an integer beyond 2**53, say): not a record.
+        raise InputError(f"{path}: not a record ({exc})") from None
     if record.get("schema") != RECORD_SCHEMA:
         raise InputError(
             f"{path}: schema {record.get('schema')!r} is not {RECORD_SCHEMA!r}; "
@@ -69,6 +151,7 @@ def _check_signatures(content: dict, signatures: Any, trusted: list[PublicKey]) 
         return ["signatures: the record carries no signature (sign it with `bringup sign`)"]
     findings = []
     trusted_raw = {k.raw: k for k in trusted}
+    seen: dict[bytes, tuple[int, str]] = {}  # raw key -> (first signature number, its role)
     for i, entry in enumerate(signatures):
         result = check_signature(content, entry, i)
         findings += [f"{result.label}: {p}" for p in result.problems]
@@ -83,6 +166,20 @@ def _check_signatures(content: dict, signatures: Any, trusted: list[PublicKey]) 
                     f"{result.label}: the key belongs to {known.name!r}, "
                     f"not to {entry.get('name')!r} as written"
                 )
+        if result.problems or result.raw_public_key is None:
+            continue  # a signature that does not verify was not made by the key it carries
+        role = str(entry.get("role"))
+        if result.raw_public_key not in seen:
+            seen[result.raw_public_key] = (i + 1, role)
+            continue
+        # One key, one role, once; and a review is a second person's (see SCHEMA.md).
+        first, first_role = seen[result.raw_public_key]
+        how = (
+            f"in the same role {role}"
+            if first_role == role
+            else f"as {first_role}: the {role} sign-off is not another person's"
+        )
+        findings.append(f"{result.label}: signature {first} is by the same key {how}")
     return findings
 
 
