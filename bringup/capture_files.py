@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import math
 import re
+import tokenize
 import zipfile
 import zlib
 from collections.abc import Callable
@@ -47,6 +48,25 @@ OVERRANGE = 9.9e37
 # analyses read decimal numbers only).
 _HEX = re.compile(r"^[+-]?0[xX][0-9a-fA-F]+$")
 _NPY_MAGIC = b"\x93NUMPY"
+# What numpy and zipfile raise on a damaged or foreign file, when it is opened or when an
+# archive member is read (lazily): besides the usual ValueError/OSError, a damaged header
+# raises tokenize's TokenError or SyntaxError, a damaged archive BadZipFile, zlib.error,
+# NotImplementedError (unknown compression) or RuntimeError (encrypted member), and a header
+# claiming a huge shape MemoryError.
+_LOAD_ERRORS = (
+    ValueError,
+    OSError,
+    EOFError,
+    KeyError,
+    SyntaxError,
+    tokenize.TokenError,
+    MemoryError,
+    OverflowError,
+    NotImplementedError,
+    RuntimeError,
+    zipfile.BadZipFile,
+    zlib.error,
+)
 _ZIP_MAGIC = (b"PK\x03\x04", b"PK\x05\x06")  # a member first, or an empty archive
 # Uniform sampling tolerance: each instant within this fraction of dt of the ideal grid
 # (times printed with few digits are still read as a uniform record).
@@ -185,12 +205,14 @@ def _load_npy(p: Path, name: str) -> np.ndarray:
         )
     try:
         return np.load(p, allow_pickle=False)
-    except (ValueError, OSError, EOFError) as exc:
+    except _LOAD_ERRORS as exc:
         raise InputError(f"{name}: not a readable NumPy file ({_why(exc)})") from None
 
 
 def _why(exc: BaseException) -> str:
     """The first line of an exception's message, "object arrays" said plainly."""
+    if isinstance(exc, SyntaxError | tokenize.TokenError):
+        return "its header is damaged"
     text = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
     if "allow_pickle" in text or "pickled" in text:
         return "it holds Python objects (an object array), not numbers"
@@ -216,15 +238,11 @@ def _read_npy(p: Path, name: str):
     return t, channels
 
 
-# What a damaged or foreign archive raises, at opening or when a member is read (lazily).
-_ARCHIVE_ERRORS = (ValueError, OSError, EOFError, KeyError, zipfile.BadZipFile, zlib.error)
-
-
 def _member(z, name: str, key: str) -> np.ndarray:
     """Array ``key`` of the open archive ``z`` (read here: NpzFile loads members lazily)."""
     try:
         arr = z[key]
-    except _ARCHIVE_ERRORS as exc:
+    except _LOAD_ERRORS as exc:
         raise InputError(f"{name}: array {key!r} cannot be read ({_why(exc)})") from None
     return _numeric(name, arr, f"array {key!r}")
 
@@ -239,31 +257,42 @@ def _read_npz(p: Path, name: str):
         raise InputError(
             f"{name}: not a readable NumPy file (not an .npz archive: no zip signature)"
         )
-    try:
-        z = np.load(p, allow_pickle=False)
-    except _ARCHIVE_ERRORS as exc:
-        raise InputError(f"{name}: not a readable NumPy file (.npz archive: {_why(exc)})") from None
-    if not hasattr(z, "files"):
-        raise InputError(f"{name}: not an .npz archive")
-    with z:
-        if "t" not in z.files:
-            raise InputError(f"{name}: no array named 't' (arrays: {', '.join(z.files) or 'none'})")
-        t = np.asarray(_member(z, name, "t"), dtype=np.float64).ravel()
-        channels = {}
-        for key in z.files:
-            if key == "t":
-                continue
-            arr = _member(z, name, key)
-            if arr.ndim != 1 or arr.size != t.size:
-                raise InputError(
-                    f"{name}: array {key!r} has shape {arr.shape}, expected ({t.size},) like 't'"
-                )
-            _check_finite(f"{name}: array {key!r}", arr, _sample)
-            channels[key] = arr
+    # Our own file object, closed on every way out (numpy leaves its own open when the
+    # archive's directory is damaged).
+    with open(p, "rb") as f:
+        try:
+            z = np.load(f, allow_pickle=False)
+        except _LOAD_ERRORS as exc:
+            raise InputError(
+                f"{name}: not a readable NumPy file (.npz archive: {_why(exc)})"
+            ) from None
+        if not hasattr(z, "files"):
+            raise InputError(f"{name}: not an .npz archive")
+        with z:
+            t, channels = _npz_arrays(z, name)
     if not channels:
         raise InputError(f"{name}: no channel arrays beside 't'")
     _check_finite(f"{name}: array 't'", t, _sample)
     _check_time(name, t, _sample)
+    return t, channels
+
+
+def _npz_arrays(z, name: str) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    """``t`` and the channel arrays of the open archive ``z``, each checked."""
+    if "t" not in z.files:
+        raise InputError(f"{name}: no array named 't' (arrays: {', '.join(z.files) or 'none'})")
+    t = np.asarray(_member(z, name, "t"), dtype=np.float64).ravel()
+    channels = {}
+    for key in z.files:
+        if key == "t":
+            continue
+        arr = _member(z, name, key)
+        if arr.ndim != 1 or arr.size != t.size:
+            raise InputError(
+                f"{name}: array {key!r} has shape {arr.shape}, expected ({t.size},) like 't'"
+            )
+        _check_finite(f"{name}: array {key!r}", arr, _sample)
+        channels[key] = arr
     return t, channels
 
 

@@ -143,7 +143,10 @@ def to_jsonable(obj):
 
 def emit(result: dict, rows: list[tuple[str, str]], as_json: bool, title: str) -> None:
     """Print ``result`` as one JSON object, or ``rows`` (label, text) as a table."""
-    if getattr(sys.stdout, "encoding", "utf-8").lower().replace("-", "") not in ("utf8", "utf16"):
+    if (getattr(sys.stdout, "encoding", None) or "utf-8").lower().replace("-", "") not in (
+        "utf8",
+        "utf16",
+    ):
         try:  # an ASCII terminal: print "?" for µ, Ω, ° rather than fail
             sys.stdout.reconfigure(errors="replace")  # type: ignore[union-attr]
         except (AttributeError, ValueError):

@@ -104,6 +104,17 @@ def test_npy_with_an_object_array(tmp_path):
     assert "obj.npy" in line and "object" in line
 
 
+def test_npy_with_a_damaged_header(tmp_path):
+    t, y = scope_pwm()
+    path = tmp_path / "damaged.npy"
+    np.save(path, np.column_stack([t, y]))
+    data = bytearray(path.read_bytes())
+    data[data.index(b"}")] = ord(" ")  # the header's dict never closes
+    path.write_bytes(bytes(data))
+    line = refused("analyze", "edges", path)
+    assert "damaged.npy: not a readable NumPy file (its header is damaged)" in line
+
+
 # --- Finding 5: huge values --------------------------------------------------------------------
 
 
