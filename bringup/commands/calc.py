@@ -17,8 +17,12 @@ import argparse
 import math
 import re
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 
 from bringup.errors import InputError
+
+if TYPE_CHECKING:
+    from bringup.analysis.design import GateTiming
 
 __all__ = ["add_parser", "run"]
 
@@ -417,7 +421,7 @@ def _gate(args) -> None:
     emit(result, rows, args.json, "gate timing")
 
 
-def _gate_timing(args):
+def _gate_timing(args: argparse.Namespace) -> GateTiming:
     """``design.gate_timing`` from the options, every relation checked by option name."""
     from bringup.analysis import design
     from bringup.commands.analyze import format_value as fq
@@ -439,7 +443,7 @@ def _gate_timing(args):
         _computed(f"{name} + --rg + --rg-int", lambda a, b, c: a + b + c, r, rg, rg_int)
         if not r + rg + rg_int > 0:
             raise InputError(
-                f"{name} + --rg + --rg-int is 0 ohm: the gate loop needs a resistance > 0 "
+                f"{name} + --rg + --rg-int is 0 Ω: the gate loop needs a resistance > 0 "
                 "(the plateau current would be infinite)"
             )
     i_on = _computed(

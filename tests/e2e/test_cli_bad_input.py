@@ -349,6 +349,12 @@ def test_one_data_row_names_the_line_and_the_header(tmp_path):
             ["losses", "--iload", "1e300", "--rdson", "1", "--duty", "1"],
             ["values too large to compute", "--iload"],
         ),
+        (
+            # 1.1e-16 V over 1e308 ohm is below the smallest float: 0 A, an infinite time.
+            ["gate", "--vdrv", "1", "--vpl", "0.9999999999999999", "--qgd", "1n"]
+            + ["--r-source", "1e308", "--r-sink", "1"],
+            ["values too small to compute", "turn-on plateau current", "--vpl"],
+        ),
     ],
 )
 def test_calc_errors_name_the_options(argv, fragments):
