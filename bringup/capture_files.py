@@ -347,16 +347,18 @@ def _read_csv_as(p: Path, name: str, encoding: str):
             if delimiter is None:
                 delimiter = _sniff([line])
             fields = _split(line, delimiter)
-            if delimiter and len(fields) > 1 and fields[-1] == "":
-                trailing = True
-                fields = fields[:-1]
             hexa = next((k for k, x in enumerate(fields, 1) if _HEX.match(x)), None)
             if hexa is not None:
                 raise InputError(
                     f"{name}: line {line_no}, column {hexa}: hexadecimal number "
                     f"{fields[hexa - 1]!r} (write the values in decimal)"
                 )
-            if all(_NUMBER.match(x) for x in fields):
+            cells = fields
+            if delimiter and len(fields) > 1 and fields[-1] == "":
+                cells = fields[:-1]  # "0,1.5,": the row ends with its delimiter
+            if all(_NUMBER.match(x) for x in cells):
+                trailing = cells is not fields
+                fields = cells
                 data_line = line_no
                 break
             head_lines.append(line_no)
@@ -371,6 +373,10 @@ def _read_csv_as(p: Path, name: str, encoding: str):
         raise InputError(f"{name}: no data rows (only comments or a header)")
 
     ncols = len(fields)
+    # A header written with the same trailing delimiter ("time,gate,") has one empty name
+    # more than the data has columns; an empty name inside the data's width is kept (ch<n>).
+    if header is not None and len(header) == ncols + 1 and header[-1] == "":
+        header = header[:-1]
     if ncols < 2:
         raise InputError(
             f"{name}: line {data_line}: need a time column and at least one signal column"

@@ -257,6 +257,17 @@ def test_a_trailing_comma_on_every_row_is_read(tmp_path):
     assert b["rise_time_s"] == a["rise_time_s"]
 
 
+def test_an_unnamed_last_column_is_still_a_column(tmp_path):
+    t, y = scope_pwm()
+    path = tmp_path / "unnamed.csv"
+    with path.open("w") as f:
+        f.write("time,gate,\n")  # the third column has no name: it is ch2, not a trailing comma
+        np.savetxt(f, np.column_stack([t, y, -y]), delimiter=",", fmt="%.9g")
+    proc = bringup("analyze", "edges", path, "--channel", "ch2", "--json")
+    assert proc.returncode == 0, proc.stderr
+    assert json.loads(proc.stdout)["channel"] == "ch2"
+
+
 def test_a_trailing_comma_file_with_a_ragged_row_names_the_line(tmp_path):
     path = tmp_path / "ragged.csv"
     path.write_text("t,v,\n0,0,\n1,1,\n2,0,5,\n3,1,\n")
