@@ -11,16 +11,23 @@ A board file is TOML (``checklists/demo-board.toml`` is the shipped example)::
 The decision rules are those of ILAC-G8:09/2019 §4.2 (see ``bringup.analysis.verdict``): agreed
 before measuring, so they belong in the board file. Every problem found on load is one
 ``ConfigError`` naming the file, the key and its line; nothing starts on an invalid file.
+
+Each [design] value must lie in its physical range (``DESIGN_RANGES``: positive where zero or a
+negative value means nothing, temperatures above absolute zero, every value within a sane
+magnitude) and the values must agree with each other (threshold < plateau < gate drive, UVLO and
+diode drop below the gate drive, Qgs + Qgd <= Qg, the longest on-time within one period, the
+temperature limit above the ambient).
 """
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
-from bringup.analysis.quantities import canonical_unit, parse_quantity_unit
+from bringup.analysis.quantities import canonical_unit, format_quantity, parse_quantity_unit
 from bringup.analysis.verdict import RULES, Limit
 from bringup.checklist.tomlfile import TomlDocument, read_toml
 from bringup.errors import InputError
@@ -29,6 +36,7 @@ __all__ = [
     "Board",
     "Target",
     "DESIGN_UNITS",
+    "DESIGN_RANGES",
     "BOARD_SCHEMA",
     "load_board",
     "demo_board_path",
@@ -77,6 +85,51 @@ DESIGN_UNITS: dict[str, str] = {
     "thermal_resistance": "K/W",
     "thermal_time_constant": "s",
     "temperature_limit": "degC",
+}
+
+#: Absolute zero in degrees Celsius.
+ABSOLUTE_ZERO_C = -273.15
+
+#: Physical range of each [design] value (the duty cycles are checked on their own, 0 < d < 1):
+#: ``(low, low_allowed, high)`` in the key's SI unit: the value must be above ``low`` (or equal
+#: to it when ``low_allowed``) and at most ``high``. The highs are sane magnitudes for a
+#: bootstrap-driven high-side stage (a 2 kV bus, a 50 V gate-drive rail), far beyond any real
+#: board yet small enough that the predictions and the simulator stay finite (common practice).
+DESIGN_RANGES: dict[str, tuple[float, bool, float]] = {
+    "bus_voltage": (0.0, False, 2000.0),
+    "gate_drive_voltage": (0.0, False, 50.0),
+    "logic_voltage": (0.0, False, 50.0),
+    "switching_frequency": (0.0, False, 100e6),
+    "on_time_max": (0.0, False, 10.0),
+    "bootstrap_capacitance": (0.0, False, 1.0),
+    "bootstrap_diode_drop": (0.0, True, 5.0),
+    "bootstrap_diode_leakage": (0.0, True, 1.0),
+    "bootstrap_cap_leakage": (0.0, True, 1.0),
+    "floating_quiescent_current": (0.0, True, 1.0),
+    "level_shift_charge": (0.0, True, 1e-3),
+    "gate_source_pulldown": (0.0, False, 1e12),
+    "driver_uvlo_falling": (0.0, False, 50.0),
+    "driver_source_resistance": (0.0, False, 1e6),
+    "driver_sink_resistance": (0.0, False, 1e6),
+    "gate_resistor": (0.0, True, 1e6),
+    "gate_resistance_internal": (0.0, True, 1e6),
+    "mosfet_gate_charge": (0.0, False, 1e-3),
+    "mosfet_qgs": (0.0, False, 1e-3),
+    "mosfet_qgd": (0.0, False, 1e-3),
+    "mosfet_threshold": (0.0, False, 50.0),
+    "mosfet_plateau": (0.0, False, 50.0),
+    "mosfet_ciss": (0.0, False, 1e-3),
+    "mosfet_rds_on": (0.0, False, 1e3),
+    "mosfet_rds_on_vgs": (0.0, False, 100.0),
+    "mosfet_vgs_max": (0.0, False, 100.0),
+    "load_resistance": (0.0, False, 1e9),
+    "load_inductance": (0.0, False, 10.0),
+    "stray_inductance": (0.0, False, 1e-3),
+    "switch_node_capacitance": (0.0, False, 1e-3),
+    "ambient_temperature": (ABSOLUTE_ZERO_C, False, 500.0),
+    "thermal_resistance": (0.0, False, 1e4),
+    "thermal_time_constant": (0.0, False, 1e6),
+    "temperature_limit": (ABSOLUTE_ZERO_C, False, 1000.0),
 }
 
 _TOP_KEYS = {"schema": True, "board": True, "design": True, "targets": True}
@@ -215,6 +268,63 @@ def _load_target(doc: TomlDocument, tid: str, raw: object) -> Target:
     return Target(tid, label, unit, Limit(low, high, unit), uncertainty, rule)
 
 
+def _range_text(key: str, unit: str) -> str:
+    low, low_allowed, high = DESIGN_RANGES[key]
+    show = unit or ""
+    if key in ("ambient_temperature", "temperature_limit"):
+        below = "above absolute zero (-273.15 degC)"
+    elif low_allowed:
+        below = f"at least {format_quantity(low, show)}"
+    else:
+        below = "positive" if low == 0 else f"above {format_quantity(low, show)}"
+    return f"must be {below} and at most {format_quantity(high, show)}"
+
+
+def _check_design(doc: TomlDocument, design: dict[str, float]) -> None:
+    """Each [design] value within its physical range, and the values consistent."""
+    for key, (low, low_allowed, high) in DESIGN_RANGES.items():
+        value = design[key]
+        inside = math.isfinite(value) and (value >= low if low_allowed else value > low)
+        if not inside or value > high:
+            shown = format_quantity(value, DESIGN_UNITS[key])
+            raise doc.error(
+                ("design", key), f"{shown} is out of range: {_range_text(key, DESIGN_UNITS[key])}"
+            )
+
+    def v(key: str) -> str:
+        return format_quantity(design[key], DESIGN_UNITS[key])
+
+    d = design
+    if not d["mosfet_threshold"] < d["mosfet_plateau"]:
+        raise doc.error(("design", "mosfet_plateau"),
+                        f"the Miller plateau {v('mosfet_plateau')} must be above the "
+                        f"threshold mosfet_threshold = {v('mosfet_threshold')}")  # fmt: skip
+    if not d["mosfet_plateau"] < d["gate_drive_voltage"]:
+        raise doc.error(("design", "mosfet_plateau"),
+                        f"the Miller plateau {v('mosfet_plateau')} must be below the gate drive "
+                        f"gate_drive_voltage = {v('gate_drive_voltage')} (the gate never gets "
+                        "past it)")  # fmt: skip
+    for key in ("driver_uvlo_falling", "bootstrap_diode_drop"):
+        if not d[key] < d["gate_drive_voltage"]:
+            raise doc.error(("design", key),
+                            f"{v(key)} must be below the gate drive gate_drive_voltage = "
+                            f"{v('gate_drive_voltage')}")  # fmt: skip
+    if d["mosfet_qgs"] + d["mosfet_qgd"] > d["mosfet_gate_charge"] * (1 + 1e-9):
+        raise doc.error(("design", "mosfet_gate_charge"),
+                        f"{v('mosfet_gate_charge')} is less than mosfet_qgs + mosfet_qgd "
+                        f"({v('mosfet_qgs')} + {v('mosfet_qgd')}): the total gate charge "
+                        "includes both")  # fmt: skip
+    period = 1.0 / d["switching_frequency"]
+    if d["on_time_max"] > period * (1 + 1e-9):
+        raise doc.error(("design", "on_time_max"),
+                        f"{v('on_time_max')} is longer than one switching period "
+                        f"({format_quantity(period, 's')} at {v('switching_frequency')})")  # fmt: skip
+    if not d["temperature_limit"] > d["ambient_temperature"]:
+        raise doc.error(("design", "temperature_limit"),
+                        f"{v('temperature_limit')} must be above the ambient "
+                        f"ambient_temperature = {v('ambient_temperature')}")  # fmt: skip
+
+
 def board_from_document(doc: TomlDocument) -> Board:
     """Validate a parsed board file (see the module docstring for the format)."""
     data = check_table(doc, (), doc.data, _TOP_KEYS)
@@ -250,6 +360,7 @@ def board_from_document(doc: TomlDocument) -> Board:
             raise doc.error(("design", key), "a duty cycle must lie between 0 and 1 (0 % - 100 %)")
     if design["duty_min"] > design["duty_max"]:
         raise doc.error(("design", "duty_min"), "duty_min is above duty_max")
+    _check_design(doc, design)
 
     raw_targets = data["targets"]
     if not isinstance(raw_targets, dict) or not raw_targets:

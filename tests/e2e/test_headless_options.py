@@ -80,3 +80,24 @@ def test_a_typed_reading_from_the_answer_file_is_judged(tmp_path):
     assert [(r["id"], r["serial"], r["verdict"], r["finished"]) for r in rows] == [
         (summary["session"], "DHS24-0001", "fail", False)
     ]
+
+
+def test_out_of_range_design_values_are_refused_before_anything_is_powered(tmp_path):
+    """``run`` and ``sim --board`` share the board loader: a negative gate resistor (a math
+    range error three powered steps in, before) is one line naming file:line and key."""
+    text = (checklists_dir() / "demo-board.toml").read_text()
+    board = tmp_path / "board.toml"
+    board.write_text(text.replace('gate_resistor = "10 ohm"', 'gate_resistor = "-10 ohm"'))
+    line = next(i for i, t in enumerate(board.read_text().splitlines(), 1) if "-10 ohm" in t)
+    db = tmp_path / "never.sqlite"
+    for args in (BASE + ["--sim", "--board", str(board), "--auto", "--db", str(db)],
+                 ["sim", "--board", str(board)]):  # fmt: skip
+        done = subprocess.run([sys.executable, "-m", "bringup", *args], capture_output=True,
+                              text=True, timeout=120)  # fmt: skip
+        assert done.returncode == 2, (args, done.stdout, done.stderr)
+        err = done.stderr.strip()
+        assert len(err.splitlines()) == 1 and "Traceback" not in err, err
+        assert err.endswith(f"{board}:{line}: design.gate_resistor: -10 Ω is out of range: "
+                            "must be at least 0 Ω and at most 1 MΩ"), err  # fmt: skip
+        assert done.stdout == ""
+    assert not db.exists()

@@ -151,3 +151,37 @@ def test_design_keys_are_the_ones_the_simulator_reads():
     from sim_instruments.stage_params import DESIGN_KEYS
 
     assert set(DESIGN_UNITS) == set(DESIGN_KEYS)
+
+
+@pytest.mark.parametrize(
+    ("line", "bad", "problem"),
+    [
+        ('gate_resistor = "10 ohm"', 'gate_resistor = "-10 ohm"', "out of range: must be at least 0"),
+        ('bootstrap_capacitance = "1 uF"', 'bootstrap_capacitance = "0 F"', "must be positive"),
+        ('ambient_temperature = "25 degC"', 'ambient_temperature = "-400 degC"', "absolute zero"),
+        ('bus_voltage = "24 V"', 'bus_voltage = "1e300 V"', "at most 2 kV"),
+        ('load_resistance = "4 ohm"', 'load_resistance = "0 ohm"', "must be positive"),
+        ('thermal_time_constant = "240 s"', 'thermal_time_constant = "-240 s"', "positive"),
+        ('mosfet_plateau = "4.6 V"', 'mosfet_plateau = "40 V"', "below the gate drive"),
+        ('mosfet_plateau = "4.6 V"', 'mosfet_plateau = "2 V"', "above the threshold"),
+        ('driver_uvlo_falling = "8.2 V"', 'driver_uvlo_falling = "13 V"', "below the gate drive"),
+        ('mosfet_gate_charge = "40 nC"', 'mosfet_gate_charge = "20 nC"', "mosfet_qgs \\+ mosfet_qgd"),
+        ('on_time_max = "38 us"', 'on_time_max = "50 us"', "longer than one switching period"),
+        ('temperature_limit = "70 degC"', 'temperature_limit = "20 degC"', "above the ambient"),
+    ],
+)  # fmt: skip
+def test_design_values_outside_their_physical_range_are_refused(tmp_path, line, bad, problem):
+    # Each of these loaded before and failed only mid-run (math range error, division by zero)
+    # or never: one line naming file:line and key now, before anything is powered.
+    assert line in DEMO_TEXT
+    key = bad.split(" =")[0]
+    _expect(tmp_path, DEMO_TEXT.replace(line, bad), f"design.{key}", f"{key} =", problem)
+
+
+def test_every_design_key_has_a_range_and_the_demo_board_is_inside():
+    from bringup.checklist.board import DESIGN_RANGES
+
+    assert set(DESIGN_RANGES) | {"duty_min", "duty_max"} == set(DESIGN_UNITS)
+    design = load_board("demo").design
+    for key, (low, _, high) in DESIGN_RANGES.items():
+        assert low < design[key] <= high, key
