@@ -13,6 +13,13 @@ Format (``checklists/high-side-bootstrap.toml`` is the shipped standard checklis
 
 Quantities are strings in engineering notation or ``"design.KEY"`` / ``"1.5 * design.KEY"``.
 Each problem is one ``ConfigError`` naming the file, the key and its line.
+
+Settings are range-checked (``check_step_settings``): a PWM duty in (0, 1]; a supply voltage,
+current limit and ramp steps above 0 and at most ``MAX_SUPPLY_V`` / ``MAX_CURRENT_LIMIT_A``, no
+ramp step above the final voltage, an OVP above the highest voltage set; a soak's
+``min_duration`` not longer than its ``duration``. Values written directly are checked on load;
+settings that refer to the board's design values are checked once resolved for the board, by
+``check_against_board``, before a session is created.
 """
 
 from __future__ import annotations
@@ -45,7 +52,13 @@ from bringup.checklist.model import (
 from bringup.checklist.tomlfile import TomlDocument, read_toml
 from bringup.errors import ConfigError
 
-__all__ = ["CHECKLIST_SCHEMA", "load_checklist", "standard_checklist_path", "check_against_board"]
+__all__ = [
+    "CHECKLIST_SCHEMA",
+    "load_checklist",
+    "standard_checklist_path",
+    "check_against_board",
+    "check_step_settings",
+]
 
 CHECKLIST_SCHEMA = 1
 _ID_RE = re.compile(r"^[a-z0-9][a-z0-9-]*$")
@@ -79,6 +92,12 @@ _READING = {"prompt": True, "unit": True, "metric": True, "net": True}
 _PROBES = ("single-ended", "differential", "math")
 #: Record lengths the simulated and real scopes accept (points).
 MIN_POINTS, MAX_POINTS = 1000, 20_000_000
+#: Sane bounds of a step's supply settings (V, A) and durations (s): far beyond a bench supply
+#: for this kind of board, small enough that nothing downstream overflows (common practice).
+MAX_SUPPLY_V = 2000.0
+MAX_CURRENT_LIMIT_A = 1000.0
+MAX_DWELL_S = 3600.0
+MAX_SOAK_S = 7 * 86400.0
 
 
 def standard_checklist_path() -> Path:
@@ -197,6 +216,8 @@ def _supply(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> SupplySetu
             raise doc.error((*keys, "ramp"), "must be a list of voltages")
         ramp = tuple(_setting(doc, (*keys, "ramp"), v, "V") for v in table["ramp"])
     dwell = read_quantity(doc, (*keys, "dwell"), table.get("dwell", "50 ms"), "s")
+    if not 0 <= dwell <= MAX_DWELL_S:
+        raise doc.error((*keys, "dwell"), f"must lie between 0 and {MAX_DWELL_S:g} s")
     ovp = _setting(doc, (*keys, "ovp"), table["ovp"], "V") if "ovp" in table else None
     return SupplySetup(
         _setting(doc, (*keys, "voltage"), table["voltage"], "V"),
@@ -244,10 +265,17 @@ def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
         s = check_table(doc, sk, t["soak"], _SOAK)
         duration = read_quantity(doc, (*sk, "duration"), s["duration"], "s")
         interval = read_quantity(doc, (*sk, "interval"), s["interval"], "s")
+        if not 0 < duration <= MAX_SOAK_S:
+            raise doc.error((*sk, "duration"), f"must be positive and at most {MAX_SOAK_S:g} s")
         if not 0 < interval < duration:
             raise doc.error((*sk, "interval"), "must be positive and shorter than the duration")
         least = read_quantity(doc, (*sk, "min_duration"), s.get("min_duration", duration), "s")
-        soak = SoakSetup(duration, interval, min(least, duration))
+        if not 0 <= least <= duration:
+            raise doc.error(
+                (*sk, "min_duration"),
+                f"{least:g} s must lie between 0 and the soak's duration ({duration:g} s)",
+            )
+        soak = SoakSetup(duration, interval, least)
 
     for name, present, needed in (
         ("scope", scope is not None, bool(spec.needs_nets)),
@@ -275,7 +303,7 @@ def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
                 raise doc.error(
                     (*keys, field_name), f"analysis {analysis!r} yields no metric {metric!r}"
                 )
-    return Step(
+    step = Step(
         id=f"{stage_id}.{key}",
         key=key,
         stage_id=stage_id,
@@ -292,6 +320,86 @@ def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
         targets=targets,
         report=report,
     )
+    check_step_settings(doc, step, None)
+    return step
+
+
+def _resolved(setting: Setting, design: dict[str, float] | None) -> float | None:
+    """The setting's SI value: given directly, or resolved for ``design`` (None without it)."""
+    if setting.design_key is None:
+        return setting.value
+    if design is None:
+        return None
+    return setting.resolve(design)
+
+
+def _shown(setting: Setting, value: float, unit: str) -> str:
+    from bringup.analysis.quantities import format_quantity
+
+    text = format_quantity(value, unit) if unit else f"{value:g}"
+    if setting.design_key is not None:
+        text += f" ({setting.describe()} for this board)"
+    return text
+
+
+def check_step_settings(doc: TomlDocument, step: Step, design: dict[str, float] | None) -> None:
+    """Range-check ``step``'s PWM and supply settings (see the module docstring).
+
+    With ``design`` None only the values written directly are checked (on load); with a board's
+    design values every setting is resolved and checked, and so are the relations between them
+    (ramp steps against the final voltage, OVP above the highest one). Raises ``ConfigError``
+    naming the checklist file, the key and its line."""
+    from bringup.analysis.quantities import format_quantity
+
+    keys = ("stages", step.stage_id, "steps", step.key)
+    if step.pwm is not None and step.pwm.duty is not None:
+        duty = _resolved(step.pwm.duty, design)
+        if duty is not None and not 0.0 < duty <= 1.0:
+            raise doc.error(
+                (*keys, "pwm", "duty"),
+                f"{_shown(step.pwm.duty, duty, '')} is out of range: a duty cycle is a fraction "
+                "above 0 and at most 1 (100 %)",
+            )
+    supply = step.supply
+    if supply is None:
+        return
+    sk = (*keys, "supply")
+    checks = [("voltage", supply.voltage_v, "V", MAX_SUPPLY_V),
+              ("current_limit", supply.current_limit_a, "A", MAX_CURRENT_LIMIT_A)]  # fmt: skip
+    checks += [("ramp", s, "V", MAX_SUPPLY_V) for s in supply.ramp_v]
+    if supply.ovp_v is not None:
+        checks.append(("ovp", supply.ovp_v, "V", MAX_SUPPLY_V))
+    for name, setting, unit, high in checks:
+        value = _resolved(setting, design)
+        if value is not None and not 0.0 < value <= high:
+            raise doc.error(
+                (*sk, name),
+                f"{_shown(setting, value, unit)} is out of range: must be above 0 and at most "
+                f"{format_quantity(high, unit)}",
+            )
+    final = _resolved(supply.voltage_v, design)
+    if final is None:
+        return
+    top = final
+    for setting in supply.ramp_v:
+        volts = _resolved(setting, design)
+        if volts is None:
+            return
+        if volts > final * (1 + 1e-12):
+            raise doc.error(
+                (*sk, "ramp"),
+                f"ramp step {_shown(setting, volts, 'V')} is above the final voltage "
+                f"{_shown(supply.voltage_v, final, 'V')}",
+            )
+        top = max(top, volts)
+    if supply.ovp_v is not None:
+        ovp = _resolved(supply.ovp_v, design)
+        if ovp is not None and not ovp > top:
+            raise doc.error(
+                (*sk, "ovp"),
+                f"{_shown(supply.ovp_v, ovp, 'V')} must be above the highest voltage set "
+                f"({format_quantity(top, 'V')}): the supply would trip at once",
+            )
 
 
 def checklist_from_document(doc: TomlDocument) -> Checklist:
@@ -378,18 +486,18 @@ def load_checklist(path: str | Path | None = None) -> Checklist:
 
 
 def check_against_board(checklist: Checklist, board: Board) -> None:
-    """Every target a step names must be defined by the board file.
+    """One validation pass of the checklist against the board, before a session is created:
+    every target a step names must be defined by the board file, and every setting resolved for
+    the board's design values must be in range (``check_step_settings``).
 
-    Raises a ``ConfigError`` naming the checklist file, the step's ``targets`` key and its line.
+    Raises a ``ConfigError`` naming the checklist file, the step's key and its line.
     """
-    doc = None
+    from bringup.checklist.tomlfile import parse_toml
+
+    doc = parse_toml(checklist.text, checklist.path)
     for step in checklist.steps():
         for tid in step.targets:
             if tid not in board.targets:
-                if doc is None:
-                    from bringup.checklist.tomlfile import parse_toml
-
-                    doc = parse_toml(checklist.text, checklist.path)
                 keys = ("stages", step.stage_id, "steps", step.key, "targets")
                 raise ConfigError(
                     checklist.path,
@@ -397,3 +505,4 @@ def check_against_board(checklist: Checklist, board: Board) -> None:
                     f"target {tid!r} is not defined in board file {board.path}",
                     doc.line_of(*keys),
                 )
+        check_step_settings(doc, step, board.design)

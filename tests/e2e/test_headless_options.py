@@ -101,3 +101,28 @@ def test_out_of_range_design_values_are_refused_before_anything_is_powered(tmp_p
                             "must be at least 0 Ω and at most 1 MΩ"), err  # fmt: skip
         assert done.stdout == ""
     assert not db.exists()
+
+
+def test_out_of_range_checklist_settings_are_refused_before_a_session_is_created(tmp_path):
+    """A duty written as an expression is checked once resolved for the board, a negative
+    current limit on load: both before the log is created or the board powered."""
+    text = (checklists_dir() / "high-side-bootstrap.toml").read_text()
+    old = 'pwm = { enabled = true, duty = "design.duty_max" }'
+    cases = {
+        "duty": (text.replace(old, old.replace('"design.duty_max"', '"2 * design.duty_max"'), 1),
+                 "2 * design.duty_max", "stages.power-rails.steps.rails-loaded.pwm.duty: 1.9 "),
+        "current": (text.replace('current_limit = "0.2 A"', 'current_limit = "-0.2 A"'),
+                    '"-0.2 A"', "stages.power-rails.steps.first-power.supply.current_limit: -200 mA"),
+    }  # fmt: skip
+    db = tmp_path / "never.sqlite"
+    for name, (body, needle, want) in cases.items():
+        checklist = tmp_path / f"{name}.toml"
+        checklist.write_text(body)
+        line = next(i for i, t in enumerate(body.splitlines(), 1) if needle in t)
+        done = subprocess.run([sys.executable, "-m", "bringup", *BASE, "--sim", "--auto",
+                               "--checklist", str(checklist), "--db", str(db)],
+                              capture_output=True, text=True, timeout=120)  # fmt: skip
+        err = done.stderr.strip()
+        assert done.returncode == 2 and done.stdout == "", (name, done.stdout, err)
+        assert len(err.splitlines()) == 1 and f"{checklist}:{line}: {want}" in err, (name, err)
+    assert not db.exists()

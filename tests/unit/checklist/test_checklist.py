@@ -210,3 +210,67 @@ def test_title_or_name_but_not_both(tmp_path):
     path.write_text(older, encoding="utf-8")
     checklist = load_checklist(path)
     assert (checklist.title, checklist.id, checklist.version) == ("Older file", "older", None)
+
+
+VGS_PWM = "pwm = { enabled = true, duty = 0.5 }"
+VGS_SUPPLY = 'supply = { voltage = "design.bus_voltage", current_limit = "10 A" }'
+FIRST_SUPPLY = 'supply = { voltage = "design.bus_voltage", current_limit = "0.2 A", ramp'
+STEP_KEYS = "stages.gate-overdrive.steps.vgs-on"
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "key", "problem"),
+    [
+        (VGS_PWM, "pwm = { enabled = true, duty = 1.5 }", "pwm.duty", "1.5 is out of range"),
+        (VGS_PWM, "pwm = { enabled = true, duty = -0.5 }", "pwm.duty", "at most 1"),
+        (VGS_SUPPLY, VGS_SUPPLY.replace('"10 A"', '"-0.2 A"'), "supply.current_limit",
+         "-200 mA is out of range: must be above 0"),
+        (VGS_SUPPLY, VGS_SUPPLY.replace('"10 A"', '"0 A"'), "supply.current_limit", "above 0"),
+        (VGS_SUPPLY, VGS_SUPPLY.replace('"design.bus_voltage"', '"-24 V"'), "supply.voltage",
+         "-24 V is out of range"),
+        (VGS_SUPPLY, VGS_SUPPLY.replace('"design.bus_voltage"', '"24 V", ramp = ["12 V", "30 V"]'),
+         "supply.ramp", "ramp step 30 V is above the final voltage 24 V"),
+        (VGS_SUPPLY, VGS_SUPPLY.replace('"design.bus_voltage"', '"24 V"').replace(
+            '"10 A"', '"10 A", ovp = "20 V"'
+        ), "supply.ovp",
+         "must be above the highest voltage set"),
+    ],
+)  # fmt: skip
+def test_settings_written_directly_are_range_checked_on_load(tmp_path, old, new, key, problem):
+    # Each of these loaded before and failed (or ran) with the supply on; now refused on load.
+    head, tail = TEXT.split(f"[{STEP_KEYS}]")
+    assert old in tail
+    text = head + f"[{STEP_KEYS}]" + tail.replace(old, new, 1)
+    line = _line_of(text, new, after=f"[{STEP_KEYS}]")
+    _fails(tmp_path, text, f"{STEP_KEYS}.{key}", line, problem)
+
+
+def test_soak_min_duration_longer_than_the_duration_is_refused(tmp_path):
+    text = TEXT.replace('min_duration = "480 s"', 'min_duration = "2000 s"')
+    _fails(tmp_path, text, "stages.thermal.steps.soak.soak.min_duration",
+           _line_of(text, 'min_duration = "2000 s"'), "between 0 and the soak's duration")  # fmt: skip
+
+
+def test_settings_given_as_design_expressions_are_checked_once_resolved(tmp_path):
+    """ "2 * design.duty_max" loads (the board is not known yet) but resolves to 1.9 on the demo
+    board: refused by the one validation pass before a session is created, naming the checklist
+    file, line and key."""
+    board = load_board("demo")
+    old = 'pwm = { enabled = true, duty = "design.duty_max" }'
+    text = TEXT.replace(old, old.replace('"design.duty_max"', '"2 * design.duty_max"'), 1)
+    path = tmp_path / "checklist.toml"
+    path.write_text(text, encoding="utf-8")
+    checklist = load_checklist(path)
+    with pytest.raises(ConfigError) as info:
+        check_against_board(checklist, board)
+    err = info.value
+    assert err.key == "stages.power-rails.steps.rails-loaded.pwm.duty"
+    assert err.line == _line_of(text, "2 * design.duty_max")
+    assert "1.9 (2 * design.duty_max for this board) is out of range" in str(err)
+    # a ramp step above the final voltage only once both are resolved
+    ramp = '"0.75 * design.bus_voltage", "design.bus_voltage"]'
+    text = TEXT.replace(ramp, '"0.75 * design.bus_voltage", "1.5 * design.bus_voltage"]')
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(ConfigError, match="ramp step 36 V .* is above the final voltage 24 V"):
+        check_against_board(load_checklist(path), board)
+    assert FIRST_SUPPLY in TEXT
