@@ -188,6 +188,8 @@ def diagnose_seal(content: dict, seal: Any) -> list[str]:
     old_order = seal.get("order") if isinstance(seal.get("order"), dict) else {}
     for text in sorted(set(old_order) & set(now["order"])):
         before, after = old_order[text], now["order"][text]
+        if not (isinstance(before, list) and all(isinstance(k, str) for k in before)):
+            continue  # an edited seal: the part digests below still name what changed
         if before != after and sorted(before) == sorted(after):
             findings.append(
                 f"{label_of(_untext(text))}: reordered to {', '.join(after)} "

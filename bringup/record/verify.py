@@ -201,12 +201,18 @@ def verify_record(
     return findings
 
 
+def _session_id(content: dict) -> Any:
+    """The session id the content names (whatever was written there), or None."""
+    session = content.get("session")
+    return session.get("id") if isinstance(session, dict) else None
+
+
 def _check_log_signatures(signatures: Any, content: dict, log: Any) -> list[str]:
     """The record carries exactly the sign-offs the log holds (none dropped, none added)."""
     from bringup.record.from_log import signature_entry
     from bringup.store.errors import StoreError
 
-    session_id = (content.get("session") or {}).get("id")
+    session_id = _session_id(content)
     if not isinstance(session_id, str) or not isinstance(signatures, list):
         return []
     try:
@@ -215,7 +221,8 @@ def _check_log_signatures(signatures: Any, content: dict, log: Any) -> list[str]
         return [f"log: {exc}"]
 
     def key(entry: Any) -> str:
-        return entry.get("signature", "") if isinstance(entry, dict) else ""
+        value = entry.get("signature", "") if isinstance(entry, dict) else ""
+        return value if isinstance(value, str) else ""
 
     in_record = {key(e) for e in signatures}
     findings = [
@@ -237,7 +244,7 @@ def _check_log(content: dict, log: Any) -> list[str]:
     from bringup.record.from_log import content_from_log
     from bringup.store.errors import StoreError
 
-    session_id = (content.get("session") or {}).get("id")
+    session_id = _session_id(content)
     if not isinstance(session_id, str):
         return ["log: the record names no session id"]
     try:
@@ -248,7 +255,8 @@ def _check_log(content: dict, log: Any) -> list[str]:
     findings = []
     if not report.ok:
         findings.append(f"log chain: {report.problem}")
-    head = (content.get("log") or {}).get("chain_head")
+    log_part = content.get("log")
+    head = log_part.get("chain_head") if isinstance(log_part, dict) else None
     if report.head != head:
         findings.append(
             f"log chain: the log ends at {report.head[:16]}... ({report.entries} entries), "
