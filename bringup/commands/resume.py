@@ -55,7 +55,21 @@ def run(args: argparse.Namespace) -> int:
         return run_app(Launcher(args.db), resume=session_id)
     from bringup.runner import SessionRunner
 
+    book = _answers(args) if args.answers else None
     runner = SessionRunner.resume(args.session, db_path=args.db, bench=source,
                                   operator=args.operator)  # fmt: skip
     with runner:
-        return run_headless_cli(runner, args)
+        return run_headless_cli(runner, args, book)
+
+
+def _answers(args: argparse.Namespace):
+    """The ``--answers`` file read and checked against the session's own checklist (from its
+    snapshot) before the session is reopened: a bad answer changes nothing in the log."""
+    from bringup.runner.answers import load_answers
+    from bringup.runner.resuming import pick_session
+    from bringup.runner.snapshots import checklist_from_snapshot
+    from bringup.store import SessionLog
+
+    with SessionLog.open(args.db, create=False) as log:
+        checklist = checklist_from_snapshot(log.session(pick_session(log, args.session)).checklist)
+    return load_answers(args.answers, checklist)

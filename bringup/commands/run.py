@@ -106,15 +106,19 @@ def bench_source(args: argparse.Namespace):
     return None
 
 
-def run_headless_cli(runner, args: argparse.Namespace) -> int:
-    """Run ``runner``'s unfinished steps headless, print progress and verdicts; exit status."""
+def run_headless_cli(runner, args: argparse.Namespace, book=None) -> int:
+    """Run ``runner``'s unfinished steps headless, print progress and verdicts; exit status.
+
+    ``book``: the ``--answers`` file already read and checked (``load_answers``) before the
+    session was created or resumed; read here when not given."""
     import json
 
     from bringup.runner.answers import load_answers
     from bringup.runner.headless import run_headless
     from bringup.runner.reporting import PASSING, attempt_lines, summary_json
 
-    book = load_answers(args.answers, runner.checklist) if args.answers else None
+    if book is None and args.answers:
+        book = load_answers(args.answers, runner.checklist)
     out = sys.stderr if args.json else sys.stdout
     total = len(runner.checklist.steps())
     index = {s.id: i for i, s in enumerate(runner.checklist.steps(), start=1)}
@@ -157,14 +161,15 @@ def run(args: argparse.Namespace) -> int:
 
     board_file = load_board(board)
     checklist = load_checklist(args.checklist)
-    if args.answers:  # validate before anything is created
+    book = None
+    if args.answers:  # every answer read and checked against its step before anything is created
         from bringup.runner.answers import load_answers
 
-        load_answers(args.answers, checklist)
+        book = load_answers(args.answers, checklist)
     runner = SessionRunner.create(board=board_file, checklist=checklist, serial=args.serial,
                                   operator=operator, bench=source, db_path=args.db)  # fmt: skip
     with runner:
-        return run_headless_cli(runner, args)
+        return run_headless_cli(runner, args, book)
 
 
 def _notebook(args: argparse.Namespace, board: str, operator: str) -> int:

@@ -10,7 +10,10 @@ Format (``checklists/answers-demo.toml`` is a sample)::
     reading = "3.31 V"                # a value read off a meter, in the step's unit
     hazard_acknowledged = false       # only for a supply above 60 V DC
 
-Unknown steps or keys are refused with the file, key and line, like every other file.
+Unknown steps or keys are refused with the file, key and line, like every other file. Every
+typed reading is read on load against the step it answers (a finite quantity in the step's
+unit; a step that asks for no reading takes none), so a bad one is refused before a session is
+created or anything is powered.
 """
 
 from __future__ import annotations
@@ -18,9 +21,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
+from bringup.analysis.quantities import parse_quantity
 from bringup.checklist.board import check_table
 from bringup.checklist.model import Checklist
 from bringup.checklist.tomlfile import read_toml
+from bringup.errors import InputError
 from bringup.runner.results import StepAnswers
 
 __all__ = ["AnswerBook", "load_answers"]
@@ -42,7 +47,8 @@ class AnswerBook:
 
 
 def load_answers(path: str | Path, checklist: Checklist) -> AnswerBook:
-    """Read and validate an answer file against ``checklist`` (step ids must exist)."""
+    """Read and validate an answer file against ``checklist``: step ids must exist, and each
+    typed reading must read as a finite quantity in the unit of the step it answers."""
     doc = read_toml(path)
     data = check_table(doc, (), doc.data, _TOP)
     if data["schema"] != 1:
@@ -65,6 +71,14 @@ def load_answers(path: str | Path, checklist: Checklist) -> AnswerBook:
         reading = table.get("reading")
         if reading is not None and not isinstance(reading, str | int | float):
             raise doc.error((*keys, "reading"), 'must be a quantity such as "3.31 V"')
+        if reading is not None:
+            spec = checklist.step(step_id).reading
+            if spec is None:
+                raise doc.error((*keys, "reading"), f"step {step_id} asks for no reading")
+            try:
+                parse_quantity(reading, spec.unit)  # finite, in the step's unit
+            except InputError as exc:
+                raise doc.error((*keys, "reading"), f"{exc} ({spec.prompt})") from None
         answers[step_id] = StepAnswers(
             confirmed=table.get("confirmed"),
             reading=None if reading is None else str(reading),
