@@ -61,9 +61,10 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
 def check_options(args: argparse.Namespace) -> None:
     """Refuse a bad option before the notebook takes the terminal: one ``InputError`` line.
 
-    Checks the scenario name against the simulator's scenarios, ``--bench`` (the file and the
-    profile each instrument names, without opening any instrument), ``--db`` (a file in an
-    existing folder), the serial against the demo board's pattern and the operator's name.
+    Checks the scenario name against the simulator's scenarios, ``$BRINGUP_PROFILES`` (a
+    folder, when set), ``--bench`` (the file and the profile each instrument names, without
+    opening any instrument), ``--db`` (a file in an existing folder), the serial against the
+    demo board's pattern and the operator's name.
     """
     from pathlib import Path
 
@@ -78,15 +79,17 @@ def check_options(args: argparse.Namespace) -> None:
             )
         if args.scenario not in SCENARIOS:
             raise InputError(f"--scenario {args.scenario}: unknown (one of {', '.join(SCENARIOS)})")
+    from bringup.commands.instruments import check_profiles_option
+
+    # $BRINGUP_PROFILES: where every bench's profiles are looked up, the simulated one's too
+    check_profiles_option(None)
     if args.bench:
-        from bringup.commands.instruments import check_profiles_option
         from bringup.instruments.bench import ROLES, load_bench, profile_for_role
 
         bench = Path(args.bench).expanduser()
         if not bench.is_file():
             what = "not a file" if bench.exists() else "no such file"
             raise InputError(f"--bench {args.bench}: {what}")
-        check_profiles_option(None)  # $BRINGUP_PROFILES, which the bench's profiles come from
         config = load_bench(bench)
         for role in ROLES:
             profile_for_role(config, role, None)

@@ -122,6 +122,14 @@ def test_demo_bad_option_is_one_line_before_the_app(
     assert sorted(p.name for p in tmp_path.iterdir()) == ["tmp"]  # no log made anywhere
 
 
+def test_demo_bad_profiles_variable_is_one_line_before_the_app(tmp_path: Path) -> None:
+    # the simulated bench's profiles are looked up there too
+    missing = str(tmp_path / "gone")
+    result = _bringup(tmp_path, "demo", BRINGUP_PROFILES=missing)
+    _one_line_error(result, f"BRINGUP_PROFILES={missing}", "no such folder")
+    assert list((tmp_path / "tmp").iterdir()) == []
+
+
 def test_demo_scenario_with_a_bench_file_is_refused(
     tmp_path: Path, listeners: list[socket.socket]
 ) -> None:
