@@ -79,3 +79,15 @@ def test_resume_checks_the_answers_before_the_session_is_reopened(tmp_path):
     _refused(done, f"{bad}:{line}: steps.power-rails.logic-meter.reading: ")
     with SessionLog.open(db, create=False) as log:
         assert (len(log.events(session)), len(log.attempts(session))) == before
+
+
+def test_time_scale_out_of_bounds_is_refused_naming_the_option(tmp_path):
+    """inf ran a soak into 9.9E37 and 1e-300 hung with the session left in progress."""
+    db = tmp_path / "never.sqlite"
+    for value in ("inf", "1e-300", "0.5", "2e4", "nan"):
+        done = _bringup([*BASE, "--sim", "--auto", "--time-scale", value, "--db", str(db)])
+        _refused(done, "--time-scale ")
+        assert "must lie between 1 (real time) and 10000" in done.stderr, done.stderr
+    done = _bringup(["resume", "--sim", "--auto", "--time-scale", "inf", "--db", str(db)])
+    _refused(done, "--time-scale inf: must lie between 1")
+    assert not db.exists()
