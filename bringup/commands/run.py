@@ -93,6 +93,8 @@ def check_headless_options(args: argparse.Namespace) -> None:
             f"--time-scale {args.time_scale:g}: must lie between {MIN_TIME_SCALE:g} (real time) "
             f"and {MAX_TIME_SCALE:g} simulated seconds per real second"
         )
+    if args.seed < 0:
+        raise InputError(f"--seed {args.seed}: must be a non-negative integer")
     if args.scenario is not None and args.scenario not in SCENARIOS:
         raise InputError(f"--scenario {args.scenario}: unknown (one of {', '.join(SCENARIOS)})")
 

@@ -58,6 +58,8 @@ def run(args: argparse.Namespace) -> int:
 
     if not 0 <= args.port_base <= 65533:
         raise InputError(f"--port-base {args.port_base}: a TCP port 1-65533, or 0 for free ports")
+    if args.seed < 0:
+        raise InputError(f"--seed {args.seed}: must be a non-negative integer")
     design = load_design(args.board)
     try:
         bench = start_bench(

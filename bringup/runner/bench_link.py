@@ -60,15 +60,17 @@ class BenchLink:
 
         if not source.is_simulated:
             return cls(open_bench_file(source.path))
+        from bringup.errors import InputError
         from sim_instruments.bench import start_bench
 
+        if source.seed < 0:  # refused here too, before any server is started
+            raise InputError(f"--seed {source.seed}: must be a non-negative integer")
+        scenario = source.scenario or "healthy"
         try:
-            running = start_bench(board.design, source.scenario or "healthy", source.seed,
+            running = start_bench(board.design, scenario, source.seed,
                                   time_scale=source.time_scale)  # fmt: skip
         except ValueError as exc:
-            from bringup.errors import InputError
-
-            raise InputError(f"--scenario: {exc}") from None
+            raise InputError(f"--scenario {scenario!r}: {exc}") from None
         tmpdir = tempfile.TemporaryDirectory(prefix="bringup-bench-")
         try:
             path = Path(tmpdir.name) / "sim-bench.toml"

@@ -91,3 +91,14 @@ def test_time_scale_out_of_bounds_is_refused_naming_the_option(tmp_path):
     done = _bringup(["resume", "--sim", "--auto", "--time-scale", "inf", "--db", str(db)])
     _refused(done, "--time-scale inf: must lie between 1")
     assert not db.exists()
+
+
+def test_a_negative_seed_is_refused_naming_seed(tmp_path):
+    db = tmp_path / "never.sqlite"
+    done = _bringup([*BASE, "--sim", "--auto", "--seed", "-5", "--db", str(db)])
+    err = _refused(done, "--seed -5: must be a non-negative integer")
+    assert "--scenario" not in err
+    assert not db.exists()  # no orphan not-started session
+    done = _bringup(["sim", "--seed", "-1"])
+    err = _refused(done, "--seed -1: must be a non-negative integer")
+    assert "--scenario" not in err
