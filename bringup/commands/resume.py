@@ -9,6 +9,8 @@ from __future__ import annotations
 import argparse
 import sys
 
+from bringup.errors import InputError
+
 __all__ = ["add_parser", "run"]
 
 
@@ -38,6 +40,11 @@ def run(args: argparse.Namespace) -> int:
     from bringup.commands.run import bench_source, check_headless_options, run_headless_cli
 
     check_headless_options(args)
+    if args.session is not None and not args.session.strip():
+        raise InputError(
+            f"SESSION {args.session!r}: an empty session id "
+            "(leave it out to resume the most recent unfinished session)"
+        )
     source = bench_source(args)
     if not args.auto:
         try:

@@ -14,7 +14,14 @@ import sys
 
 from bringup.errors import InputError
 
-__all__ = ["add_parser", "run", "add_bench_options", "add_headless_options", "run_headless_cli"]
+__all__ = [
+    "add_parser",
+    "run",
+    "add_bench_options",
+    "add_headless_options",
+    "run_headless_cli",
+    "check_db_option",
+]
 
 #: Bounds of ``--time-scale`` (simulated seconds per real second): 1 is real time (slower would
 #: make a soak longer than on a real bench); above 1e4 (a 20-minute soak in 0.12 s) the thermal
@@ -78,8 +85,16 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     return parser
 
 
+def check_db_option(args: argparse.Namespace) -> None:
+    """``--db ""`` is refused: an empty path must not quietly mean the default log."""
+    if args.db is not None and not args.db.strip():
+        raise InputError(f"--db {args.db!r}: an empty path (leave --db out for the default log)")
+
+
 def check_headless_options(args: argparse.Namespace) -> None:
-    """``--json`` and ``--answers`` only make sense with ``--auto``."""
+    """``--json`` and ``--answers`` only make sense with ``--auto``; the bench options are in
+    range; ``--db`` is not empty."""
+    check_db_option(args)
     if args.json and not args.auto:
         raise InputError("--json: only with --auto (the notebook screen shows the verdicts)")
     if args.answers and not args.auto:

@@ -46,8 +46,10 @@ def run(args: argparse.Namespace) -> int:
     import json
     from pathlib import Path
 
+    from bringup.commands.run import check_db_option
     from bringup.store import SessionLog, default_db_path
 
+    check_db_option(args)
     path = Path(args.db).expanduser() if args.db else default_db_path()
     if not path.exists():
         rows: list[dict] = []

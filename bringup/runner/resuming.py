@@ -20,7 +20,11 @@ def pick_session(log, session_id: str | None) -> str:
     recently active one that is not finished."""
     from bringup.runner.session import RunnerError
 
-    if session_id:
+    if session_id is not None:
+        if not session_id.strip():
+            raise RunnerError(
+                "an empty session id (give none to resume the most recent unfinished session)"
+            )
         return log.resolve_session(session_id)
     for summary in log.sessions():  # most recent activity first
         if not summary.finished:

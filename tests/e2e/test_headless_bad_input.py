@@ -102,3 +102,29 @@ def test_a_negative_seed_is_refused_naming_seed(tmp_path):
     done = _bringup(["sim", "--seed", "-1"])
     err = _refused(done, "--seed -1: must be a non-negative integer")
     assert "--scenario" not in err
+
+
+def _unfinished_session(tmp_path, db) -> str:
+    failing, _ = _answers(tmp_path, '"3.45 V"', "failing.toml")  # above the 3.4 V maximum
+    first = _bringup(
+        [*BASE, "--sim", "--auto", "--json", "--answers", str(failing), "--db", str(db)]
+    )
+    assert first.returncode == 1, first.stderr
+    return json.loads(first.stdout)["session"]
+
+
+def test_an_empty_session_id_or_db_path_is_refused(tmp_path):
+    db = tmp_path / "log.sqlite"
+    session = _unfinished_session(tmp_path, db)
+    with SessionLog.open(db, create=False) as log:
+        before = (len(log.events(session)), len(log.attempts(session)))
+    for args in (
+        ["resume", "", "--sim", "--auto", "--db", str(db)],
+        ["resume", " ", "--db", str(db)],
+    ):
+        _refused(_bringup(args), "an empty session id")
+    with SessionLog.open(db, create=False) as log:
+        assert (len(log.events(session)), len(log.attempts(session))) == before
+    for args in ([*BASE, "--sim", "--auto", "--db", ""], ["resume", "--auto", "--db", ""],
+                 ["sessions", "--db", ""], ["sessions", "--json", "--db", " "]):  # fmt: skip
+        _refused(_bringup(args), "an empty path (leave --db out for the default log)")
