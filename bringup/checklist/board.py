@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import math
 import re
+import unicodedata
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -37,6 +38,7 @@ __all__ = [
     "Target",
     "DESIGN_UNITS",
     "DESIGN_RANGES",
+    "control_character",
     "BOARD_SCHEMA",
     "load_board",
     "demo_board_path",
@@ -178,12 +180,30 @@ class Board:
     text: str
 
     def check_serial(self, serial: str) -> None:
-        """Raise ``InputError`` unless ``serial`` matches the board's serial pattern (fully)."""
+        """Raise ``InputError`` unless ``serial`` matches the board's serial pattern (fully).
+
+        A serial with a control character is refused before the pattern is tried."""
+        bad = control_character(serial)
+        if bad is not None:
+            raise InputError(
+                f"--serial {serial!r}: contains the control character {bad} (one line of text)"
+            )
         if not re.fullmatch(self.serial_pattern, serial):
             raise InputError(
                 f"serial {serial!r} does not match the pattern {self.serial_pattern!r} "
                 f"of board file {self.path}"
             )
+
+
+def control_character(text: str) -> str | None:
+    """The first control character in ``text`` as "U+000A", or None when there is none.
+
+    Control characters (newlines, tabs, escapes; line and paragraph separators) would break the
+    one-line session header and the record's fields."""
+    for char in text:
+        if unicodedata.category(char) in ("Cc", "Zl", "Zp"):
+            return f"U+{ord(char):04X}"
+    return None
 
 
 def checklists_dir() -> Path:
@@ -325,6 +345,14 @@ def _check_design(doc: TomlDocument, design: dict[str, float]) -> None:
                         f"ambient_temperature = {v('ambient_temperature')}")  # fmt: skip
 
 
+def _plain_text(doc: TomlDocument, keys: tuple[str, ...], value: str) -> str:
+    """``value`` unless it holds a control character (a newline breaks the session header)."""
+    bad = control_character(value)
+    if bad is not None:
+        raise doc.error(keys, f"contains the control character {bad} (one line of text)")
+    return value
+
+
 def board_from_document(doc: TomlDocument) -> Board:
     """Validate a parsed board file (see the module docstring for the format)."""
     data = check_table(doc, (), doc.data, _TOP_KEYS)
@@ -336,11 +364,13 @@ def board_from_document(doc: TomlDocument) -> Board:
             ("schema",), f"format {schema} is newer than this bringup reads ({BOARD_SCHEMA})"
         )
     board = check_table(doc, ("board",), data["board"], _BOARD_KEYS)
-    name = expect_str(doc, ("board", "name"), board["name"])
+    name = _plain_text(doc, ("board", "name"), expect_str(doc, ("board", "name"), board["name"]))
     revision = board["revision"]
     if isinstance(revision, int) and not isinstance(revision, bool):
         revision = str(revision)
-    revision = expect_str(doc, ("board", "revision"), revision)
+    revision = _plain_text(
+        doc, ("board", "revision"), expect_str(doc, ("board", "revision"), revision)
+    )
     pattern = expect_str(doc, ("board", "serial_pattern"), board["serial_pattern"])
     try:
         re.compile(pattern)

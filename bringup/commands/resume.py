@@ -37,9 +37,16 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
 
 def run(args: argparse.Namespace) -> int:
     """Resume headless (``--auto``) or in the notebook."""
-    from bringup.commands.run import bench_source, check_headless_options, run_headless_cli
+    from bringup.commands.run import (
+        bench_source,
+        check_headless_options,
+        check_one_line,
+        run_headless_cli,
+    )
 
     check_headless_options(args)
+    if args.operator is not None:
+        check_one_line("--operator", args.operator)
     if args.session is not None and not args.session.strip():
         raise InputError(
             f"SESSION {args.session!r}: an empty session id "

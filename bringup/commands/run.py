@@ -21,6 +21,7 @@ __all__ = [
     "add_headless_options",
     "run_headless_cli",
     "check_db_option",
+    "check_one_line",
 ]
 
 #: Bounds of ``--time-scale`` (simulated seconds per real second): 1 is real time (slower would
@@ -83,6 +84,18 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     add_headless_options(parser)
     parser.set_defaults(func=run)
     return parser
+
+
+def check_one_line(option: str, value: str) -> None:
+    """Refuse a name or serial number with a control character (a newline breaks the session
+    header and the record): one line naming ``option``."""
+    from bringup.checklist.board import control_character
+
+    bad = control_character(value)
+    if bad is not None:
+        raise InputError(
+            f"{option} {value!r}: contains the control character {bad} (one line of text)"
+        )
 
 
 def check_db_option(args: argparse.Namespace) -> None:
@@ -179,6 +192,8 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--operator NAME: who runs the session (or set $BRINGUP_OPERATOR)")
     if not args.serial:
         raise InputError("--serial SN: the board's serial number")
+    check_one_line("--operator", operator)
+    check_one_line("--serial", args.serial)
     if not args.auto:
         return _notebook(args, board, operator)
     from bringup.checklist.board import load_board

@@ -53,6 +53,17 @@ __all__ = ["SessionRunner", "RunnerError"]
 ProgressCallback = Callable[[Progress], None]
 
 
+def _check_operator(operator: str) -> None:
+    """Refuse an operator name with a control character (it would break the session header)."""
+    from bringup.checklist.board import control_character
+
+    bad = control_character(operator)
+    if bad is not None:
+        raise InputError(
+            f"--operator {operator!r}: contains the control character {bad} (one line of text)"
+        )
+
+
 class RunnerError(BringupError):
     """A request the runner refuses (out of order, a skip without a reason, ...): one line."""
 
@@ -110,6 +121,7 @@ class SessionRunner:
 
         if not operator or not operator.strip():
             raise InputError("--operator: a session needs the operator's name")
+        _check_operator(operator)
         board.check_serial(serial)
         check_against_board(checklist, board)
         from bringup.runner.bench_link import BenchLink
@@ -155,6 +167,8 @@ class SessionRunner:
         """
         from bringup.runner.resuming import reopen
 
+        if operator is not None:
+            _check_operator(operator)
         return reopen(cls, session_id, db_path=db_path, bench=bench, operator=operator)
 
     # ------------------------------------------------------------------ reading

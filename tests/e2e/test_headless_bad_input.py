@@ -128,3 +128,29 @@ def test_an_empty_session_id_or_db_path_is_refused(tmp_path):
     for args in ([*BASE, "--sim", "--auto", "--db", ""], ["resume", "--auto", "--db", ""],
                  ["sessions", "--db", ""], ["sessions", "--json", "--db", " "]):  # fmt: skip
         _refused(_bringup(args), "an empty path (leave --db out for the default log)")
+
+
+def test_names_and_serials_with_control_characters_are_refused(tmp_path):
+    db = tmp_path / "never.sqlite"
+    cases = {
+        "operator": (["run", "--serial", "DHS24-0001", "--operator", "ana\nSERIAL X"],
+                     "--operator 'ana\\nSERIAL X': contains the control character U+000A"),
+        "serial": (["run", "--serial", "DHS24-0001\n", "--operator", "ana"],
+                   "--serial 'DHS24-0001\\n': contains the control character U+000A"),
+        "escape": (["run", "--serial", "DHS24-0001", "--operator", "ana\x1b[2J"],
+                   "contains the control character U+001B"),
+    }  # fmt: skip
+    for args, want in cases.values():
+        _refused(_bringup([*args, "--sim", "--auto", "--db", str(db)]), want)
+    text = (checklists_dir() / "demo-board.toml").read_text()
+    for key, old in (
+        ("name", 'name = "DHS-24 demo heater switch"'),
+        ("revision", 'revision = "B"'),
+    ):
+        board = tmp_path / f"{key}.toml"
+        assert old in text
+        board.write_text(text.replace(old, old[:-1] + '\\nline two"'))
+        line = next(i for i, t in enumerate(board.read_text().splitlines(), 1) if "line two" in t)
+        done = _bringup([*BASE, "--sim", "--auto", "--board", str(board), "--db", str(db)])
+        _refused(done, f"{board}:{line}: board.{key}: contains the control character U+000A")
+    assert not db.exists()
