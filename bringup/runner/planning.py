@@ -10,7 +10,7 @@ from bringup.checklist.board import Board
 from bringup.checklist.model import Step
 from bringup.errors import InputError
 from bringup.runner.bench_source import BenchSource
-from bringup.runner.results import HAZARD_VOLTAGE_V, ChannelPlan, EnergisePlan, StepPlan
+from bringup.runner.results import ChannelPlan, EnergisePlan, StepPlan
 
 __all__ = ["plan_step", "MATH_COMMON_MODE_WARN_V"]
 
@@ -99,13 +99,15 @@ def _energise(step: Step, design: dict[str, float]) -> EnergisePlan | None:
     if ramp:
         prompt += ", raised in steps of " + ", ".join(_v(v) for v in ramp)
     prompt += "; the output goes off when the step ends."
-    hazard = None
-    if top > HAZARD_VOLTAGE_V:
-        hazard = (
-            f"Hazardous voltage: {_v(top)} DC is above 60 V. Follow your local electrical codes "
-            "and the lab's licensed practice; discharge the bus capacitors before touching."
-        )
-    return EnergisePlan(volts, amps, ramp, prompt, hazard)
+    # One wording and one set of levels: the instrument layer's, which also decides what the
+    # operator must acknowledge before the output goes on (CAUTION above 60 V DC, DANGER above
+    # 120 V DC).
+    from bringup.instruments.safety import hazard_for
+
+    notice = hazard_for(top)
+    if notice is None:
+        return EnergisePlan(volts, amps, ramp, prompt, None)
+    return EnergisePlan(volts, amps, ramp, prompt, notice.text, notice.level.name)
 
 
 def plan_step(

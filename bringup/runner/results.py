@@ -128,7 +128,10 @@ class EnergisePlan:
     """What the supply will be set to before the board is powered, and the prompt to show.
 
     Volts and amperes. ``ramp_v`` lists the voltage steps of a first-power ramp (empty = straight
-    to ``voltage_v``). ``hazard`` is a notice when ``voltage_v`` is above 60 V DC, else None.
+    to ``voltage_v``). ``hazard`` is the instrument layer's notice
+    (``bringup.instruments.safety.hazard_for``) when the highest voltage the step sets is above
+    60 V DC, else None; ``hazard_level`` its level, "CAUTION" (above 60 V DC) or "DANGER"
+    (above 120 V DC), else None.
     """
 
     voltage_v: float
@@ -136,6 +139,7 @@ class EnergisePlan:
     ramp_v: tuple[float, ...]
     prompt: str
     hazard: str | None
+    hazard_level: str | None = None
 
 
 @dataclass(frozen=True)

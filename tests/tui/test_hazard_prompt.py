@@ -36,9 +36,9 @@ async def test_an_80_volt_bus_shows_the_hazard_notice_and_no_keeps_it_off(log_pa
         assert "80 V" in str(prompt.query_one("#energise-text").render())
         notice = str(prompt.query_one("#hazard-notice").render())
         # the notice names the set voltage, the 60 V DC limit it is above (IEC 62368-1 ES1,
-        # [memory]) and what the hazard is
-        assert "80 V DC" in notice and "above 60 V" in notice, notice
-        assert "hazardous voltage" in notice.lower(), notice
+        # [memory]) and what the hazard is, in the instrument layer's wording and level
+        assert "80 V DC" in notice and "above the usual 60 V DC" in notice, notice
+        assert "caution" in notice.lower() and "shock hazard" in notice.lower(), notice
         await pilot.press("n")
         await wait_until(pilot, lambda: isinstance(app.screen, SessionScreen))
         assert "Not" in str(screen.query_one("#status").render())

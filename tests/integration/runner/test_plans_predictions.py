@@ -111,3 +111,19 @@ def test_vgs_from_a_math_difference_is_planned_on_two_probes_with_a_warning(tmp_
     assert len(plan.warnings) == 1 and "240 mV" in plan.warnings[0]
     # the switch node keeps the range the step gave it (50 V), not the math's
     assert next(c for c in plan.channels if c.net == "switch").range_v == 50.0
+
+
+def test_the_energising_notice_is_the_instrument_layers_with_both_levels():
+    """One wording: the plan shows what ``hazard_for`` says and the level the supply owner will
+    ask to be acknowledged: CAUTION above 60 V DC, DANGER above 120 V DC (IEC 62368-1 ES1 and
+    ES2 limits [memory])."""
+    from bringup.instruments.safety import hazard_for
+
+    step = CHECKLIST.step("power-rails.first-power")
+    for bus, level in (("80 V", "CAUTION"), ("120 V", "CAUTION"), ("150 V", "DANGER")):
+        energise = plan_step(step, _board(bus), SIM).energise
+        volts = float(bus.split()[0])
+        assert energise.hazard == hazard_for(volts).text and energise.hazard_level == level, bus
+        assert f"{bus} DC" in energise.hazard
+    assert "above 120 V DC" in plan_step(step, _board("150 V"), SIM).energise.hazard
+    assert plan_step(step, _board("60 V"), SIM).energise.hazard_level is None
