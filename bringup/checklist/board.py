@@ -16,7 +16,10 @@ Each [design] value must lie in its physical range (``DESIGN_RANGES``: positive 
 negative value means nothing, temperatures above absolute zero, every value within a sane
 magnitude) and the values must agree with each other (threshold < plateau < gate drive, UVLO and
 diode drop below the gate drive, Qgs + Qgd <= Qg, the longest on-time within one period, the
-temperature limit above the ambient).
+temperature limit above the ambient). Keep ``serial_pattern`` simple (a fixed prefix and a few
+character classes such as ``^DHS24-[0-9]{4}$``): nested repetitions like ``(a+)+`` can take
+exponential time on a serial that almost matches, so serials longer than ``MAX_SERIAL_LENGTH``
+characters are refused before the pattern is tried.
 """
 
 from __future__ import annotations
@@ -39,6 +42,7 @@ __all__ = [
     "DESIGN_UNITS",
     "DESIGN_RANGES",
     "control_character",
+    "MAX_SERIAL_LENGTH",
     "BOARD_SCHEMA",
     "load_board",
     "demo_board_path",
@@ -134,6 +138,10 @@ DESIGN_RANGES: dict[str, tuple[float, bool, float]] = {
     "temperature_limit": (ABSOLUTE_ZERO_C, False, 1000.0),
 }
 
+#: Longest serial number read (characters): a longer one is refused before the board's
+#: pattern is tried, which bounds the time a badly written pattern can take.
+MAX_SERIAL_LENGTH = 64
+
 _TOP_KEYS = {"schema": True, "board": True, "design": True, "targets": True}
 _BOARD_KEYS = {"name": True, "revision": True, "serial_pattern": True, "description": False}
 _TARGET_KEYS = {
@@ -182,11 +190,17 @@ class Board:
     def check_serial(self, serial: str) -> None:
         """Raise ``InputError`` unless ``serial`` matches the board's serial pattern (fully).
 
-        A serial with a control character is refused before the pattern is tried."""
+        A serial with a control character or longer than ``MAX_SERIAL_LENGTH`` is refused
+        before the pattern is tried."""
         bad = control_character(serial)
         if bad is not None:
             raise InputError(
                 f"--serial {serial!r}: contains the control character {bad} (one line of text)"
+            )
+        if len(serial) > MAX_SERIAL_LENGTH:
+            raise InputError(
+                f"--serial: {len(serial)} characters, longer than {MAX_SERIAL_LENGTH} "
+                "(a serial number is short)"
             )
         if not re.fullmatch(self.serial_pattern, serial):
             raise InputError(
@@ -345,6 +359,38 @@ def _check_design(doc: TomlDocument, design: dict[str, float]) -> None:
                         f"ambient_temperature = {v('ambient_temperature')}")  # fmt: skip
 
 
+def _nested_repetition(pattern: str) -> bool:
+    """True when ``pattern`` repeats a part that itself repeats, one of the two without bound
+    (``(a+)+``, ``(\\w*-?)*``): the shape that backtracks exponentially on a near match.
+    Bounded nesting such as ``([0-9]{2}-){3}`` is fine. Read from Python's own regex parser;
+    where that is not available the check is skipped (the length cap still holds)."""
+    try:
+        from re import _constants as c
+        from re import _parser as parser
+    except ImportError:  # pragma: no cover - another Python
+        return False
+    repeats = {c.MAX_REPEAT, c.MIN_REPEAT, getattr(c, "POSSESSIVE_REPEAT", c.MAX_REPEAT)}
+
+    def walk(items, outer_max: int | None) -> bool:
+        for op, arg in items:
+            if op in repeats:
+                _, high, body = arg
+                if outer_max is not None and high > 1:
+                    if outer_max == c.MAXREPEAT or high == c.MAXREPEAT:
+                        return True
+                if walk(body, high if high > 1 else outer_max):
+                    return True
+            elif op is c.SUBPATTERN and walk(arg[-1], outer_max):
+                return True
+            elif op is c.BRANCH and any(walk(b, outer_max) for b in arg[1]):
+                return True
+            elif op in (c.ASSERT, c.ASSERT_NOT) and walk(arg[1], outer_max):
+                return True
+        return False
+
+    return walk(parser.parse(pattern), None)
+
+
 def _plain_text(doc: TomlDocument, keys: tuple[str, ...], value: str) -> str:
     """``value`` unless it holds a control character (a newline breaks the session header)."""
     bad = control_character(value)
@@ -376,6 +422,12 @@ def board_from_document(doc: TomlDocument) -> Board:
         re.compile(pattern)
     except re.error as exc:
         raise doc.error(("board", "serial_pattern"), f"not a regular expression: {exc}") from None
+    if _nested_repetition(pattern):
+        raise doc.error(
+            ("board", "serial_pattern"),
+            "a repeated group that itself repeats (such as '(a+)+') can take exponential time "
+            "on a serial that almost matches: keep the pattern simple ('^DHS24-[0-9]{4}$')",
+        )
     description = board.get("description", "")
     if not isinstance(description, str):
         raise doc.error(("board", "description"), "must be a string")

@@ -185,3 +185,34 @@ def test_every_design_key_has_a_range_and_the_demo_board_is_inside():
     design = load_board("demo").design
     for key, (low, _, high) in DESIGN_RANGES.items():
         assert low < design[key] <= high, key
+
+
+def test_a_long_serial_is_refused_before_the_pattern_is_tried():
+    """``^(a+)+$`` on 'aaa…a!' backtracks exponentially (over 40 s at 30 characters): the length
+    cap refuses a long serial at once, before the user's pattern runs."""
+    import dataclasses
+    import time
+
+    board = dataclasses.replace(load_board("demo"), serial_pattern="^(a+)+$")
+    start = time.monotonic()
+    with pytest.raises(InputError, match="longer than 64"):
+        board.check_serial("a" * 200 + "!")
+    assert time.monotonic() - start < 1.0
+    load_board("demo").check_serial("DHS24-0001")
+
+
+@pytest.mark.parametrize("pattern", ["^(a+)+$", "^([A-Z]*-?)*$", "^(?:x|(y+))+$"])
+def test_a_serial_pattern_with_nested_unbounded_repetition_is_refused(tmp_path, pattern):
+    old = 'serial_pattern = "^DHS24-[0-9]{4}$"'
+    assert old in DEMO_TEXT
+    text = DEMO_TEXT.replace(old, f"serial_pattern = '{pattern}'")
+    _expect(tmp_path, text, "board.serial_pattern", "serial_pattern =", "exponential time")
+
+
+def test_simple_serial_patterns_load(tmp_path):
+    old = 'serial_pattern = "^DHS24-[0-9]{4}$"'
+    for pattern in ("^([0-9]{2}-){3}[A-Z]+$", "^DHS24-(A|B)?[0-9]+$"):
+        board = load_board(
+            _write(tmp_path, DEMO_TEXT.replace(old, f"serial_pattern = '{pattern}'"))
+        )
+        assert board.serial_pattern == pattern
