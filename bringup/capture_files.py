@@ -35,6 +35,7 @@ from pathlib import Path
 
 import numpy as np
 
+from bringup.analysis.verdict import SCPI_OVERRANGE as OVERRANGE  # a sample this large: overrange
 from bringup.errors import InputError
 
 __all__ = ["Capture", "read_capture"]
@@ -42,8 +43,6 @@ __all__ = ["Capture", "read_capture"]
 _NUMBER = re.compile(
     r"^[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?$|^[+-]?(?:nan|inf)$", re.I
 )
-# SCPI-99 "no value" (+INF 9.9E37, NaN 9.91E37): a sample this large is an overrange reading.
-OVERRANGE = 9.9e37
 # A hexadecimal cell ("0x1F"): refused by name rather than taken as a header (numpy and the
 # analyses read decimal numbers only).
 _HEX = re.compile(r"^[+-]?0[xX][0-9a-fA-F]+$")

@@ -22,6 +22,7 @@ from typing import Any
 
 import numpy as np
 
+from bringup.analysis.verdict import SCPI_OVERRANGE as SCPI_NO_VALUE  # SCPI-99 +INF
 from bringup.instruments import faults
 from bringup.instruments.profiles import Profile
 from bringup.instruments.wire import (
@@ -35,8 +36,6 @@ from bringup.instruments.wire import (
 
 _RM: Any = None
 _RM_LOCK = threading.Lock()
-# SCPI-99: +INF is 9.9E37, NaN 9.91E37; instruments answer them when they cannot measure.
-SCPI_NO_VALUE = 9.9e37
 MAX_ERRORS_DRAINED = 64
 
 
