@@ -20,12 +20,18 @@ import socket
 import threading
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
-from sim_instruments.scpi import Block
-
-if TYPE_CHECKING:
-    from sim_instruments.scpi import Reply, Session
+from sim_instruments.scpi import (
+    Block,
+    CommandTree,
+    Reply,
+    ScpiError,
+    Session,
+    one_param,
+    parse_bool,
+    parse_choice,
+    parse_number,
+)
 
 __all__ = ["FaultInjector", "FAULT_KINDS", "OVERRANGE", "GARBAGE_REPLY"]
 
@@ -193,9 +199,8 @@ def _send_parts(sock: socket.socket, parts: list[bytes | memoryview]) -> None:
         sock.sendall(b"".join(small))
 
 
-def add_fault_commands(tree, faults: FaultInjector) -> None:
+def add_fault_commands(tree: CommandTree, faults: FaultInjector) -> None:
     """The ``SIMulation:FAULt`` commands (see ``sim_instruments/README.md``)."""
-    from sim_instruments.scpi import ScpiError, one_param, parse_bool, parse_choice, parse_number
 
     def once_param(params: list[str]) -> None:
         parse_choice(one_param(params), ["ONCE"])

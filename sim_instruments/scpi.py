@@ -16,18 +16,17 @@ and every handler runs under the instrument's lock.
 from __future__ import annotations
 
 import re
+import socket
 import threading
 from collections import deque
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING
-
-if TYPE_CHECKING:
-    from sim_instruments.faults import FaultInjector
+from typing import Protocol
 
 __all__ = [
     "ERROR_TEXTS",
     "Block",
+    "CommandFaults",
     "CommandTree",
     "Instrument",
     "ScpiError",
@@ -332,6 +331,30 @@ _HEADER_RE = re.compile(r"^(:?[A-Za-z*][A-Za-z0-9_:]*)(\?)?(?:\s+(.*))?$", re.DO
 # --- instruments and sessions -------------------------------------------------------------------
 
 
+class CommandFaults(Protocol):
+    """What the engine and the server ask of an instrument's fault injector
+    (``faults.FaultInjector`` is one).
+
+    Declared here, beside its one caller, so that the engine depends on no fault module: the
+    fault injector builds on the engine (``Block``, ``Session``), never the other way round.
+    """
+
+    @property
+    def overrange(self) -> bool:
+        """True while measurements must answer the SCPI overrange value."""
+        ...
+
+    def deliver_pending_errors(self, session: Session) -> None:
+        """Push errors armed from outside into ``session`` before it runs a command."""
+        ...
+
+    def send_reply(
+        self, sock: socket.socket, replies: Sequence[Reply], stop: threading.Event
+    ) -> bool:
+        """Send one program message's replies (the faults armed act on them); False = close."""
+        ...
+
+
 class Instrument:
     """Base of the simulated instruments: identity, lock, faults, the 488.2 common commands.
 
@@ -345,7 +368,7 @@ class Instrument:
     model_name = "SIMINSTRUMENT"
     firmware = "0.1.0-sim"
 
-    def __init__(self, serial: str, lock: threading.RLock, faults: FaultInjector) -> None:
+    def __init__(self, serial: str, lock: threading.RLock, faults: CommandFaults) -> None:
         self.serial = serial
         self.lock = lock
         self.faults = faults

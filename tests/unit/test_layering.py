@@ -67,3 +67,44 @@ def test_package_respects_its_layer(package):
                 if name == bad or name.startswith(bad + "."):
                     offenders.append(f"{path.relative_to(ROOT)} imports {name}")
     assert not offenders, "\n".join(offenders)
+
+
+def _sim_module_imports(path: Path) -> set[str]:
+    """The sim_instruments modules ``path`` imports anywhere (top level, inside functions or
+    under ``TYPE_CHECKING``): a cycle through any of them is a cycle a reader has to untangle."""
+    tree = ast.parse(path.read_text(), filename=str(path))
+    found: set[str] = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            if node.module.startswith("sim_instruments."):
+                found.add(node.module.split(".")[1])
+        elif isinstance(node, ast.Import):
+            for alias in node.names:
+                if alias.name.startswith("sim_instruments."):
+                    found.add(alias.name.split(".")[1])
+    return found
+
+
+def test_sim_instruments_import_graph_has_no_cycle():
+    # the SCPI engine (scpi.py) sits on the ground floor: the fault injector builds on it
+    graph = {
+        path.stem: _sim_module_imports(path) - {path.stem}
+        for path in sorted((ROOT / "sim_instruments").glob("*.py"))
+    }
+    state: dict[str, int] = {}
+    cycles: list[str] = []
+
+    def visit(node: str, trail: list[str]) -> None:
+        state[node] = 1
+        for nxt in sorted(graph.get(node, ())):
+            if state.get(nxt) == 1:
+                cycles.append(" -> ".join([*trail[trail.index(nxt) :], nxt]))
+            elif nxt not in state:
+                visit(nxt, [*trail, nxt])
+        state[node] = 2
+
+    for module in sorted(graph):
+        if module not in state:
+            visit(module, [module])
+    assert not cycles, "import cycles in sim_instruments: " + "; ".join(cycles)
+    assert graph["scpi"] == set(), f"scpi.py imports {sorted(graph['scpi'])}"
