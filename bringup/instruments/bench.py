@@ -39,7 +39,7 @@ from bringup.instruments.toml_lines import TomlSource
 if TYPE_CHECKING:
     from bringup.instruments.profiles import Profile
     from bringup.instruments.scope import Scope
-    from bringup.instruments.simulation import SimulationControl
+    from bringup.instruments.simulator_client import SimulationControl
     from bringup.instruments.supply import Supply
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
@@ -328,9 +328,11 @@ def open_bench(
         for wiring in config.channels.values():
             bench.scope.set_probe_ratio(wiring.channel, wiring.probe_ratio)
         if config.simulated:
-            from bringup.instruments.simulation import SimulationControl
+            from bringup.instruments.simulator_client import SimulationControl
 
-            bench.simulation = SimulationControl(bench)
+            bench.simulation = SimulationControl(
+                sessions["scope"], sessions["thermometer"], NETS, bench.note_probe_moved
+            )
             for wiring in config.channels.values():
                 bench.simulation.move_probe(wiring.channel, wiring.net)
         return bench

@@ -79,6 +79,12 @@ class InstrumentError(InstrumentFault):
         super().__init__(instrument, command, f"{code},{text!r}")
 
 
+class NotOffered(InstrumentFault):
+    """The profile declares the operation absent: this instrument does not offer it."""
+
+    what = "operation not offered"
+
+
 class ProtectionFault(InstrumentFault):
     """The supply's protection is not what was asked (read-back mismatch, OVP tripped),
     or the output could not be confirmed OFF."""

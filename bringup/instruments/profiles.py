@@ -119,6 +119,14 @@ WORDS: dict[str, dict[str, frozenset[str]]] = {
     "thermometer": {"unit_celsius": frozenset()},
 }
 
+# Operations an instrument may lack: a profile either gives a template or lists the operation
+# in ``[profile] absent``; the driver then refuses it with ``faults.NotOffered``.
+OPTIONAL: dict[str, frozenset[str]] = {
+    "scope": frozenset({"stop", "measure_mean", "measure_peak_to_peak"}),
+    "supply": frozenset(),
+    "thermometer": frozenset(),
+}
+
 STATUS_BITS = {"supply": ("ovp_tripped_bit", "current_limit_bit")}
 DATATYPES = {"int8": "i1", "int16": "i2", "float32": "f4"}
 PREAMBLE_NAMES = ("points", "x_increment", "x_origin", "y_increment", "y_origin")
@@ -172,6 +180,11 @@ class Profile:
     timeouts_ms: Mapping[str, int]
     block: BlockFormat | None
     status_bits: Mapping[str, int]
+    absent: frozenset[str] = frozenset()
+
+    def has(self, operation: str) -> bool:
+        """Whether the instrument offers ``operation`` (optional ones may be declared absent)."""
+        return operation in self.commands
 
     def command(self, operation: str, **fields: Any) -> str:
         """The SCPI text of ``operation`` with its placeholders filled."""
@@ -249,7 +262,7 @@ def load_profile(path: Path) -> Profile:
             )
     head = _table(src, "profile")
     for key in head:
-        if key not in ("name", "kind", "description", "identity"):
+        if key not in ("name", "kind", "description", "identity", "absent"):
             raise src.error(("profile",), key, "unknown key")
     name = _string(src, "profile", head, "name")
     if name != src.path.stem:
@@ -277,10 +290,13 @@ def load_profile(path: Path) -> Profile:
             raise src.error(("termination",), key, f"must be one character, not {value!r}")
 
     specs = OPERATIONS[kind]
+    absent = _absent(src, head, kind)
     commands = _table(src, "commands")
     for key, template in commands.items():
         if key not in specs:
             raise src.error(("commands",), key, f"unknown operation for a {kind}")
+        if key in absent:
+            raise src.error(("commands",), key, "is declared absent in [profile] absent")
         if not isinstance(template, str):
             raise src.error(("commands",), key, f"must be a string, not {template!r}")
         spec = specs[key]
@@ -290,8 +306,9 @@ def load_profile(path: Path) -> Profile:
         if not spec.query and "?" in template:
             raise src.error(("commands",), key, f"is a command, not a query: {template!r}")
     for key in specs:
-        if key not in commands:
-            raise src.error(("commands",), key, "missing operation")
+        if key not in commands and key not in absent:
+            hint = " (or list it in [profile] absent)" if key in OPTIONAL[kind] else ""
+            raise src.error(("commands",), key, f"missing operation{hint}")
 
     word_specs = WORDS[kind]
     words = _table(src, "words")
@@ -333,7 +350,24 @@ def load_profile(path: Path) -> Profile:
         timeouts_ms={k: v for k, v in timeouts.items() if k != "default"},
         block=block,
         status_bits=bits,
+        absent=absent,
     )
+
+
+def _absent(src: TomlSource, head: dict[str, Any], kind: str) -> frozenset[str]:
+    """``[profile] absent``: the optional operations this instrument does not offer."""
+    value = head.get("absent", [])
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise src.error(("profile",), "absent", "must be a list of operation names")
+    for name in value:
+        if name not in OPTIONAL[kind]:
+            allowed = ", ".join(sorted(OPTIONAL[kind])) or "none"
+            raise src.error(
+                ("profile",),
+                "absent",
+                f"{name!r} is not an optional operation (allowed: {allowed})",
+            )
+    return frozenset(value)
 
 
 def _block(src: TomlSource, kind: str) -> BlockFormat | None:

@@ -20,17 +20,16 @@ import enum
 import logging
 import signal
 import threading
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from types import FrameType
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Protocol
 
 from bringup.errors import BringupError, InputError
 from bringup.instruments import faults
 from bringup.instruments.supply import Regulation, Supply
 
 if TYPE_CHECKING:
-    from bringup.instruments.bench import Bench
     from bringup.instruments.visa import InstrumentSession
 
 LOG = logging.getLogger(__name__)
@@ -313,8 +312,17 @@ class Energised:
             session.remove_fault_listener(self._on_fault)
 
 
+class SupplyWithCompany(Protocol):
+    """What ``energised`` needs of an open bench: its supply and every instrument's session
+    (``bringup.instruments.bench.Bench`` is one). Declared here so that the safe-state owner
+    does not import the bench module that imports it."""
+
+    supply: Supply
+    sessions: Mapping[str, InstrumentSession]
+
+
 def energised(
-    target: Bench | Supply,
+    target: SupplyWithCompany | Supply,
     *,
     volts: float,
     current_limit_a: float,

@@ -117,8 +117,17 @@ class Scope:
         """Arm one acquisition (single shot)."""
         self.session.configure("arm")
 
+    def _offered(self, operation: str) -> None:
+        if not self.profile.has(operation):
+            raise faults.NotOffered(
+                self.session.role,
+                None,
+                f"{operation!r} is declared absent in profile {self.profile.name!r}",
+            )
+
     def stop(self) -> None:
-        """Stop acquiring."""
+        """Stop acquiring (optional: ``NotOffered`` when the profile declares it absent)."""
+        self._offered("stop")
         self.session.configure("stop")
 
     def wait_for_acquisition(self) -> None:
@@ -189,9 +198,11 @@ class Scope:
 
     # -- scalar measurements -------------------------------------------------------------
     def measure_mean(self, source: Source) -> float:
-        """Mean of the last record of ``source``, volts."""
+        """Mean of the last record of ``source``, volts (optional operation)."""
+        self._offered("measure_mean")
         return self.session.ask_number("measure_mean", source=self.source_word(source))
 
     def measure_peak_to_peak(self, source: Source) -> float:
-        """Peak-to-peak of the last record of ``source``, volts."""
+        """Peak-to-peak of the last record of ``source``, volts (optional operation)."""
+        self._offered("measure_peak_to_peak")
         return self.session.ask_number("measure_peak_to_peak", source=self.source_word(source))

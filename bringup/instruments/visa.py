@@ -1,6 +1,7 @@
 """The session layer: one PyVISA connection per instrument, its lock, and its faults.
 
-- One ``pyvisa.ResourceManager("@py")`` per process (``resource_manager()``), closed last.
+- One ``pyvisa.ResourceManager("@py")`` per process (``resource_manager()``), kept open for
+  the life of the process (each session closes its own resource).
 - Resources are opened by their explicit resource string with the profile's read and write
   termination and timeouts in milliseconds. Resource listing (which broadcasts on the LAN)
   lives only in ``discover_resources`` and runs only when a user asks for it.
@@ -48,15 +49,6 @@ def resource_manager() -> Any:
 
             _RM = pyvisa.ResourceManager("@py")
         return _RM
-
-
-def close_resource_manager() -> None:
-    """Close the process's resource manager (after every session is closed)."""
-    global _RM
-    with _RM_LOCK:
-        if _RM is not None:
-            _RM.close()
-            _RM = None
 
 
 def discover_resources() -> tuple[str, ...]:

@@ -110,10 +110,6 @@ class SocketWire:
             raise WireClosed(received)
         return data
 
-    def discard_pending(self) -> None:
-        """Drop anything already received (after a fault, before a new exchange)."""
-        self._pending.clear()
-
     def read_line(self, term: bytes, deadline: float) -> bytes:
         """One reply up to ``term`` (terminator removed); ``deadline`` from ``time.monotonic``."""
         buf = self._pending
@@ -201,9 +197,6 @@ class ResourceWire:
             raise WireClosed(0) from None
         except OSError:
             raise WireClosed(0) from None
-
-    def discard_pending(self) -> None:
-        self._res.clear()
 
     def read_line(self, term: bytes, deadline: float) -> bytes:
         return self._run(deadline, lambda: self._res.read_raw()).rstrip(term)
