@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import math
 import re
-import unicodedata
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -35,6 +34,7 @@ from bringup.analysis.quantities import canonical_unit, format_quantity, parse_q
 from bringup.analysis.verdict import RULES, Limit
 from bringup.checklist.tomlfile import TomlDocument, read_toml
 from bringup.errors import InputError
+from bringup.names import control_character
 
 __all__ = [
     "Board",
@@ -207,17 +207,6 @@ class Board:
                 f"serial {serial!r} does not match the pattern {self.serial_pattern!r} "
                 f"of board file {self.path}"
             )
-
-
-def control_character(text: str) -> str | None:
-    """The first control character in ``text`` as "U+000A", or None when there is none.
-
-    Control characters (newlines, tabs, escapes; line and paragraph separators) would break the
-    one-line session header and the record's fields."""
-    for char in text:
-        if unicodedata.category(char) in ("Cc", "Zl", "Zp"):
-            return f"U+{ord(char):04X}"
-    return None
 
 
 def checklists_dir() -> Path:

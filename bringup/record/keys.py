@@ -20,6 +20,7 @@ from cryptography.hazmat.primitives import serialization
 from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey, Ed25519PublicKey
 
 from bringup.errors import InputError
+from bringup.names import control_character
 
 __all__ = [
     "KeyPair",
@@ -82,6 +83,11 @@ def _check_name(name: str) -> str:
     clean = name.strip()
     if not clean or "\n" in clean or "\r" in clean:
         raise InputError(f"--name: a key needs a one-line, non-empty name, got {name!r}")
+    bad = control_character(clean)
+    if bad is not None:
+        raise InputError(
+            f"--name {clean!r}: contains the control character {bad} (one line of text)"
+        )
     return clean
 
 
@@ -170,7 +176,13 @@ def _name_in(data: bytes, path: Path) -> str:
     match = _NAME_RE.search(head)
     if not match:
         raise InputError(f"{path}: no 'name:' line before the key")
-    return match.group(1).strip()
+    name = match.group(1).strip()
+    bad = control_character(name)
+    if bad is not None:
+        # A name that displays in another order than it is stored (U+202E) would sign as
+        # someone else on screen: the key file is refused, not shown.
+        raise InputError(f"{path}: the key's name {name!r} contains the control character {bad}")
+    return name
 
 
 def load_private_key(path: Path) -> KeyPair:

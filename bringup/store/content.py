@@ -10,12 +10,14 @@ import datetime as _dt
 import math
 from typing import Any
 
+from bringup.names import control_character
 from bringup.store.canonical import loads, utc_text
 from bringup.store.entries import AttemptRecord, EventRecord, SignatureRecord
 from bringup.store.errors import StoreError
 
 __all__ = [
     "required",
+    "name_text",
     "time_text",
     "metric_rows",
     "attempt_content",
@@ -44,6 +46,18 @@ def required(value: object, what: str) -> str:
     text = "" if value is None else str(value).strip()
     if not text:
         raise StoreError(f"the {what} is required and was empty")
+    return text
+
+
+def name_text(value: object, what: str) -> str:
+    """``value`` as stripped, non-empty, one-line text (``bringup.names.control_character``):
+    a ``StoreError`` naming ``what`` for a blank name or one with a refused character."""
+    text = required(value, what)
+    bad = control_character(text)
+    if bad is not None:
+        raise StoreError(
+            f"the {what} {text!r} contains the control character {bad} (one line of text)"
+        )
     return text
 
 

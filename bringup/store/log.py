@@ -44,6 +44,7 @@ from bringup.store.canonical import dumps, now_utc, to_plain
 from bringup.store.content import (
     attempt_content,
     metric_rows,
+    name_text,
     required,
     time_text,
 )
@@ -140,8 +141,8 @@ class SessionLog(LogReading):
         ``board["board"]["name"]`` (or ``board["name"]``), the checklist's id from
         ``checklist["id"]`` (or ``checklist["checklist"]["id"]``).
         """
-        serial = required(serial, "serial number")
-        operator = required(operator, "operator")
+        serial = name_text(serial, "serial number")
+        operator = name_text(operator, "operator")
         try:
             board_plain = to_plain(dict(board))
             checklist_plain = to_plain(dict(checklist))
@@ -252,7 +253,7 @@ class SessionLog(LogReading):
         """
         stage_id = required(stage_id, "stage id")
         step_id = required(step_id, "step id")
-        operator = required(operator, "operator")
+        operator = name_text(operator, "operator")
         if outcome not in ATTEMPT_OUTCOMES:
             raise StoreError(
                 f"attempt outcome {outcome!r} is not one of {', '.join(ATTEMPT_OUTCOMES)}"
@@ -382,7 +383,7 @@ class SessionLog(LogReading):
         """
         if kind not in EVENT_KINDS:
             raise StoreError(f"event kind {kind!r} is not one of {', '.join(EVENT_KINDS)}")
-        operator = required(operator, "name" if kind == "waive" else "operator")
+        operator = name_text(operator, "name" if kind == "waive" else "operator")
         reason = str(reason or "").strip()
         try:
             payload_plain = None if payload is None else to_plain(dict(payload))
@@ -476,7 +477,7 @@ class SessionLog(LogReading):
         The log stores it as given (raw key and signature bytes); checking it is the record's
         job. Signatures are append-only and are accepted on finished sessions.
         """
-        name = required(name, "signer's name")
+        name = name_text(name, "signer's name")
         role = required(role, "signer's role")
         if not isinstance(public_key, (bytes, bytearray)) or not isinstance(
             signature, (bytes, bytearray)
