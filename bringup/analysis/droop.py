@@ -9,9 +9,13 @@ for its R_DS(on)) is the longest on-time the hardware supports. A top that bends
 discharge through a pull-down) is extrapolated linearly from its measured part, which is
 conservative only for small droops: the result says how far it extrapolates.
 
-The top runs from the rising edge's entry into the high state band, after the ringing has
-settled, to the start of the falling edge (or the end of the record). A record with no edge
-at all is taken as a capture of the top alone.
+The on-time runs between the 50 % instants of the rising and the falling edge (IEEE 181 pulse
+duration), found with 40/50/60 % reference levels so that a top sagging below the 90 % level is
+still a top, not a slow falling edge. The fitted top runs from where the rising edge's ringing
+has settled (the samples stay on the line) to where the falling edge leaves the line for good.
+The droop is reported over the whole on-time: ``start_v``/``end_v`` are the line at the two
+50 % instants and ``droop_v`` = rate x on-time, whatever part of the top was clean enough to
+fit. A record with no edge at all is taken as a capture of the top alone (with a warning).
 """
 
 from __future__ import annotations
@@ -34,13 +38,16 @@ _CHUNK = 1 << 20
 class DroopMetrics:
     """Droop of one on-pulse. Volts, seconds; ``droop_rate_v_per_s`` > 0 when the top sags.
 
-    ``start_v``/``end_v`` are the fitted line at the settled start and at the end of the top.
-    ``on_time_s`` is the observed on-time, ``on_start_s`` to ``on_end_s`` (50 % rising to 50 %
-    falling, or to the record's end when ``window`` says "edge-to-end"; ``window`` is one of
-    "edge-to-edge", "edge-to-end", "start-to-edge", "whole-record", "given"). ``t_on_max_s`` is the on-time at which the line
-    reaches ``floor_v`` (None with a reason when it never does). ``extrapolation`` is
-    t_on_max_s / on_time_s. ``droop_rate_uncertainty_v_per_s`` is the standard error (k = 1)
-    of the fitted slope.
+    ``start_v``/``end_v`` are the fitted line at the on-pulse's start and end (``on_start_s``,
+    ``on_end_s``), so ``droop_v`` = start_v - end_v = rate x ``on_time_s``: the droop over the
+    whole on-time the record shows. The on-time runs 50 % rising to 50 % falling, or to the
+    record's end when ``window`` says "edge-to-end"; ``window`` is one of "edge-to-edge",
+    "edge-to-end", "start-to-edge", "whole-record", "given". The line is fitted over
+    ``top_start_s`` to ``top_end_s`` (the settled top). ``t_on_max_s`` is the on-time at
+    which the line reaches ``floor_v`` (None with a reason when it never does).
+    ``extrapolation`` is t_on_max_s / on_time_s. ``droop_rate_uncertainty_v_per_s`` is the
+    standard error (k = 1) of the fitted slope. ``warnings``: what the reader should know
+    (no edge in the record, a top that bends, a fit covering little of the on-time).
     """
 
     start_v: float
@@ -60,10 +67,12 @@ class DroopMetrics:
     extrapolation: float | None
     window: str
     reasons: dict[str, str] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict:
         out = {f.name: getattr(self, f.name) for f in fields(self)}
         out["reasons"] = dict(self.reasons)
+        out["warnings"] = list(self.warnings)
         return out
 
 
@@ -110,6 +119,13 @@ def _fit_line(y: np.ndarray, a: int, b: int) -> _Line:
     return _Line(slope, mean, centre, sse, n)
 
 
+def _lsb(y: np.ndarray, a: int, b: int) -> float:
+    """The smallest step between successive samples of y[a:b] (one ADC code when quantised)."""
+    sample = np.abs(np.diff(y[a : min(b, a + 100_000)].astype(np.float64)))
+    steps = sample[sample > 0]
+    return float(steps.min()) if steps.size else 0.0
+
+
 def _settled_index(y: np.ndarray, a: int, b: int, line: _Line) -> int:
     """First index after which the top stays on its line (ringing and overshoot over)."""
     half = a + (b - a) // 2
@@ -121,42 +137,82 @@ def _settled_index(y: np.ndarray, a: int, b: int, line: _Line) -> int:
         resid = (c[width:] - c[:-width]) / width
     # A quantised record (a scope's 8 bits) leaves a staircase about the line that averaging
     # does not remove: never call a residual under 1.5 steps of the ADC "not settled".
-    sample = np.abs(np.diff(y[a : min(b, a + 100_000)].astype(np.float64)))
-    steps = sample[sample > 0]
-    lsb = float(steps.min()) if steps.size else 0.0
-    limit = max(5.0 * line.rms / math.sqrt(width), 1.5 * lsb) + 1e-12
+    limit = max(5.0 * line.rms / math.sqrt(width), 1.5 * _lsb(y, a, b)) + 1e-12
     out = np.flatnonzero(np.abs(resid) > limit)
     return a if out.size == 0 else min(a + int(out[-1]) + width, half)
 
 
+def _departed_index(y: np.ndarray, a: int, b: int, line: _Line) -> int:
+    """End (exclusive) of the top: the last index of the second half still on the line.
+
+    The mirror of ``_settled_index`` for the falling edge: its samples leave the line for good,
+    so everything after the last sample that is on it belongs to the edge."""
+    half = a + (b - a) // 2
+    width = max(1, (b - a) // 1000)
+    idx = np.arange(half, b, dtype=np.float64)
+    resid = y[half:b].astype(np.float64) - (line.mid + line.slope * (idx - line.centre))
+    if width > 1:
+        c = np.concatenate(([0.0], np.cumsum(resid)))
+        resid = (c[width:] - c[:-width]) / width
+    limit = max(5.0 * line.rms / math.sqrt(width), 1.5 * _lsb(y, half, b)) + 1e-12
+    inside = np.flatnonzero(np.abs(resid) <= limit)
+    return b if inside.size == 0 else max(half + int(inside[-1]) + 1, half)
+
+
+# A transition of the droop record is an edge only when its middle (40-60 % of the swing)
+# takes less than this fraction of the record: a top-only capture read by min/max levels
+# "falls" through its middle over about a fifth of the record, a real edge in nanoseconds to
+# microseconds. The 40/60 % levels, not 10/90 %, because a sagging top can lie below the 90 %
+# level (its 90 % crossing is then on the top, not on the edge).
+_EDGE_MAX_FRACTION = 0.05
+
+
+def _bend(y: np.ndarray, a: int, b: int, line: _Line, dt: float) -> str | None:
+    """A warning when the top is not straight: the slopes of its two halves differ by more
+    than 25 % of the whole top's and by more than 4 standard errors (a constant-current sag
+    is a line; an RC discharge through a pull-down or a leakage that grows bends it)."""
+    n = b - a
+    if n < 4 * _MIN_TOP_SAMPLES or line.slope == 0:
+        return None
+    early, late = _fit_line(y, a, a + n // 2), _fit_line(y, a + n // 2, b)
+    diff = late.slope - early.slope
+    se = math.hypot(early.slope_se, late.slope_se)
+    if abs(diff) <= 0.25 * abs(line.slope) or abs(diff) <= 4.0 * se:
+        return None
+    return (
+        f"the top is not a straight sag ({-early.slope / dt:.4g} V/s then "
+        f"{-late.slope / dt:.4g} V/s over its two halves): not a constant current, "
+        "so the longest on-time extrapolated from the line is only a first estimate"
+    )
+
+
 def _find_pulse(y: np.ndarray, dt: float, t0: float, n: int):
     """(on start instant, top start index, top end index, on end instant, window) of the
-    longest high pulse of ``y``."""
+    longest high pulse of ``y``; the on-pulse runs between 50 % instants (IEEE 181 pulse
+    duration), the top between the edges' ends."""
     try:
-        tr, _ = find_transitions(y, dt, t0)
+        tr, _ = find_transitions(y, dt, t0, levels=(40.0, 50.0, 60.0))
     except AnalysisError as exc:
         if not str(exc).startswith("one level only"):
             raise
         tr = None
-    if tr is not None and len(tr) and bool(np.any(tr.duration_s > 0.25 * n * dt)):
-        # A "transition" that takes a quarter of the record is the droop itself (a capture of
-        # the top alone, read by min/max levels), not an edge.
-        tr = None
+    if tr is not None and len(tr) and bool(np.any(tr.duration_s > _EDGE_MAX_FRACTION * n * dt)):
+        tr = None  # the "edge" is the droop itself: a capture of the top alone
     pulses = []
     if tr is not None and len(tr):
         rising = tr.direction > 0
         for k in range(len(tr)):
+            start_idx = int(math.ceil((tr.t_mid_s[k] - t0) / dt))
             if rising[k]:
-                start_idx = int(math.ceil((tr.t_high_s[k] - t0) / dt))
                 if k + 1 < len(tr):
-                    end_idx = int(math.floor((tr.t_high_s[k + 1] - t0) / dt))
+                    end_idx = int(math.floor((tr.t_mid_s[k + 1] - t0) / dt)) + 1
                     pulses.append(
                         (tr.t_mid_s[k], start_idx, end_idx, tr.t_mid_s[k + 1], "edge-to-edge")
                     )
                 else:
                     pulses.append((tr.t_mid_s[k], start_idx, n, t0 + n * dt, "edge-to-end"))
             elif k == 0:
-                end_idx = int(math.floor((tr.t_high_s[k] - t0) / dt))
+                end_idx = int(math.floor((tr.t_mid_s[k] - t0) / dt)) + 1
                 pulses.append((t0, 0, end_idx, tr.t_mid_s[k], "start-to-edge"))
     else:
         pulses.append((t0, 0, n, t0 + n * dt, "whole-record"))
@@ -208,14 +264,14 @@ def measure_droop(
         on_start, a, b, on_end, window = _given_window(on_window_s, dt, t0, n)
     else:
         on_start, a, b, on_end, window = _find_pulse(y, dt, t0, n)
-    # Stop a little before the falling edge so that its first samples do not bend the line.
-    if window in ("edge-to-edge", "start-to-edge", "given"):
-        b = max(a, b - max(1, (b - a) // 200))
     if b - a < _MIN_TOP_SAMPLES:
         raise AnalysisError(
             f"the on-pulse top has only {max(b - a, 0)} samples (need {_MIN_TOP_SAMPLES})"
         )
-
+    # A first line through the middle half of the on-pulse, clear of both edges, against
+    # which the ends of the top are found.
+    quarter = (b - a) // 4
+    first = _fit_line(y, a + quarter, max(b - quarter, a + quarter + 2))
     if settle_s is not None:
         skip = int(math.ceil(max(float(settle_s), 0.0) / dt))
         a_fit = min(a + skip, b - _MIN_TOP_SAMPLES)
@@ -226,15 +282,27 @@ def measure_droop(
     elif window in ("whole-record", "start-to-edge"):
         a_fit = a  # no rising edge in the record: nothing to settle
     else:
-        first = _fit_line(y, a + (b - a) // 2, b)
         a_fit = _settled_index(y, a, b, first)
-    line = _fit_line(y, a_fit, b)
+    # The falling edge's first samples would bend the line: the top ends where the record
+    # leaves the line for good.
+    # (A record that ends on an incomplete falling edge is cut there too.)
+    b_fit = b if window == "whole-record" else _departed_index(y, a, b, first)
+    if b_fit - a_fit < _MIN_TOP_SAMPLES:
+        raise AnalysisError(
+            f"the settled top has only {max(b_fit - a_fit, 0)} samples (need {_MIN_TOP_SAMPLES})"
+        )
+    line = _fit_line(y, a_fit, b_fit)
 
     slope_v_per_s = line.slope / dt
-    start_v = line.at(a_fit)
-    end_v = line.at(b - 1)
+    # The droop over the whole on-time the record shows (50 % to 50 %), not only over the
+    # fitted samples: the line is carried over the settling at the start and over the
+    # falling edge's first half at the end, so that droop_v = rate x on_time.
+    on_time = on_end - on_start
+    start_v = line.at((on_start - t0) / dt)
+    end_v = line.at((on_end - t0) / dt)
     top_start = t0 + a_fit * dt
     reasons: dict[str, str] = {}
+    warnings: list[str] = []
     t_on_max = None
     extrapolation = None
     if start_v <= floor_v:
@@ -244,10 +312,22 @@ def measure_droop(
     elif slope_v_per_s >= 0 or -line.slope <= 2.0 * line.slope_se:
         reasons["t_on_max_s"] = "the top does not droop measurably (slope within its noise)"
     else:
-        t_floor = top_start + (floor_v - start_v) / slope_v_per_s
-        t_on_max = t_floor - on_start
-        on_time = on_end - on_start
+        t_on_max = (floor_v - start_v) / slope_v_per_s
         extrapolation = t_on_max / on_time if on_time > 0 else None
+    if window == "whole-record":
+        warnings.append(
+            "no edge found: the whole record is taken as the top of one on-pulse (a capture of "
+            "the top alone); capture an edge to anchor the on-time"
+        )
+    covered = (b_fit - a_fit) * dt / on_time if on_time > 0 else 1.0
+    if covered < 0.5:
+        warnings.append(
+            f"the fitted top covers only {100 * covered:.0f} % of the {on_time:.3g} s on-time: "
+            "the droop over the rest is carried by the line"
+        )
+    bend = _bend(y, a_fit, b_fit, line, dt)
+    if bend is not None:
+        warnings.append(bend)
     return DroopMetrics(
         start_v=float(start_v),
         end_v=float(end_v),
@@ -260,10 +340,11 @@ def measure_droop(
         t_on_max_s=None if t_on_max is None else float(t_on_max),
         floor_v=float(floor_v),
         top_start_s=float(top_start),
-        top_end_s=float(t0 + (b - 1) * dt),
+        top_end_s=float(t0 + (b_fit - 1) * dt),
         settle_s=float(top_start - on_start),
         residual_rms_v=float(line.rms),
         extrapolation=None if extrapolation is None else float(extrapolation),
         window=window,
         reasons=reasons,
+        warnings=warnings,
     )

@@ -215,9 +215,12 @@ def _state_levels(y: np.ndarray, method: str, ymin: float, ymax: float) -> State
     peaky = True
     levels_u, noise_u = [], []
     for mode, (first, last) in zip(modes, ((0, half), (half, nb)), strict=True):
-        # A state is a peak: the bins within 3 of the mode must hold a quarter of its half
-        # (a ramp, a triangle or a slow ramp's quantisation staircase spread their samples).
-        near = coarse[max(mode - 3, first) : min(mode + 4, last)].sum()
+        # A state is a peak: the 7 bins about the mode must hold a quarter of its half (a
+        # ramp, a triangle or a slow ramp's quantisation staircase spread their samples). The
+        # 7 bins are kept inside the half: a mode in the first or last bin (a clean top at the
+        # record's maximum) is judged on 7 bins like any other, not on the 4 left of them.
+        lo_near = min(max(mode - 3, first), max(last - 7, first))
+        near = coarse[lo_near : lo_near + 7].sum()
         if near < 0.25 * coarse[first:last].sum():
             peaky = False
         # The level: mean of the samples in the modal bin and its two neighbours.

@@ -2,7 +2,7 @@
 
 import numpy as np
 import pytest
-from analysis_synth import scope
+from analysis_synth import damped_ring, scope
 
 from bringup.analysis import AnalysisError, measure_droop
 
@@ -105,3 +105,80 @@ def test_bootstrap_voltage_with_the_on_window_of_vgs():
         measure_droop(vbs, dt, 8.2, t0=t[0], on_window_s=(1.0, 2.0))
     with pytest.raises(AnalysisError, match="forwards"):
         measure_droop(vbs, dt, 8.2, t0=t[0], on_window_s=(2e-6, 1e-6))
+
+
+# --- A sagging top read as it is (issue 12) -------------------------------------------------
+
+
+def sagging_pulse(dt, pre_s, post_s, on_s=1e-3, top_v=12.0, rate=2000.0, edge_tau_s=0.0):
+    """0 V, then a pulse whose top starts at ``top_v`` and sags linearly at ``rate`` V/s for
+    ``on_s``, then back to 0 V; the edges are first-order with ``edge_tau_s`` (0: a jump)."""
+    n = int(round((pre_s + on_s + post_s) / dt))
+    t = np.arange(n) * dt
+    s = t - pre_s
+    top = top_v - rate * s
+    if edge_tau_s > 0:
+        top = top * (1.0 - np.exp(-np.maximum(s, 0.0) / edge_tau_s))
+        after = (top_v - rate * on_s) * np.exp(-np.clip(s - on_s, 0.0, None) / edge_tau_s)
+        return np.where(s < 0, 0.0, np.where(s < on_s, top, after))
+    return np.where((s >= 0) & (s < on_s), top, 0.0)
+
+
+# Truth [computed]: 2000 V/s over the 1 ms on-time is a 2.0 V droop; from 12 V the line reaches
+# the 8.2 V floor after (12 - 8.2)/2000 = 1.90 ms (the linear sag of TI SLUA887's charge
+# balance, dV/dt = -I/C_BOOT).
+SAG_CASES = [
+    # (scope range low, high (V), pre, post (s), noise (V rms), bits)
+    (-2.0, 13.0, 0.1e-3, 0.1e-3, 0.0, 8),  # read whole-record, 9.6 V of "droop" before
+    (-2.0, 13.0, 0.3e-3, 0.05e-3, 0.002, 8),
+    (-1.5, 13.5, 0.05e-3, 0.02e-3, 0.0, 8),
+    (-1.5, 13.5, 0.1e-3, 0.2e-3, 0.002, 8),
+    (-1.5, 13.5, 0.2e-3, 0.05e-3, 0.0, 8),
+    (-1.0, 13.0, 0.05e-3, 0.4e-3, 0.002, 8),  # the 90 % level above the sagged top
+    (-0.5, 12.5, 0.1e-3, 0.1e-3, 0.0, 8),
+    (-2.0, 14.0, 0.4e-3, 0.4e-3, 0.01, 12),
+]
+
+
+@pytest.mark.parametrize(("lo", "hi", "pre", "post", "noise", "bits"), SAG_CASES)
+def test_a_clean_sagging_pulse_reads_its_own_droop(lo, hi, pre, post, noise, bits):
+    dt = 1e-6
+    y = scope(sagging_pulse(dt, pre, post), noise_v=noise, bits=bits, lo=lo, hi=hi, seed=31)
+    m = measure_droop(y, dt, floor_v=8.2)
+    assert m.window == "edge-to-edge"
+    assert m.on_time_s == pytest.approx(1e-3, abs=2 * dt)
+    assert m.droop_rate_v_per_s == pytest.approx(2000.0, rel=0.01)
+    assert m.droop_v == pytest.approx(2.0, abs=0.03)
+    assert m.start_v == pytest.approx(12.0, abs=0.03)
+    assert m.t_on_max_s == pytest.approx(1.90e-3, rel=0.01)
+    # The fitted top runs to the falling edge, not to where the sag crosses the 90 % level.
+    assert m.top_end_s == pytest.approx(pre + 1e-3, abs=5 * dt)
+    assert not m.warnings
+
+
+@pytest.mark.parametrize("seed", [41, 42, 43])
+@pytest.mark.parametrize("noise", [0.02, 0.05])
+def test_a_top_below_the_90_percent_level_is_measured_over_the_whole_on_time(seed, noise):
+    # A 12 V top sagging 2 V with a 1 us RC on both edges and a 0.4 V ring at turn-on, through
+    # 8 bits over 0-16 V: the histogram's high level sits within the sag, the sagged end lies
+    # below its 90 % level. The droop over the whole on-time is 2.0 V [computed].
+    dt = 0.2e-6
+    clean = sagging_pulse(dt, 0.1e-3, 0.2e-3, edge_tau_s=1e-6)
+    clean = clean + damped_ring(clean.size, dt, 0.1e-3 + 3e-6, 0.4, 500e3, 4e-6)
+    y = scope(clean, noise_v=noise, lo=0.0, hi=16.0, seed=seed)
+    m = measure_droop(y, dt, floor_v=8.2)
+    assert m.droop_v == pytest.approx(2.0, abs=0.04)
+    assert m.end_v == pytest.approx(10.0, abs=0.04)
+    assert m.droop_v == pytest.approx(m.droop_rate_v_per_s * m.on_time_s, rel=1e-9)
+    assert m.top_end_s > 0.1e-3 + 1e-3 - 10e-6  # the fit reaches the falling edge
+
+
+def test_a_top_that_bends_says_so():
+    # An RC discharge (tau 1 ms) over a 1 ms on-time: the slope halves from start to end.
+    dt = 1e-6
+    n = 1400
+    t = np.arange(n) * dt
+    s = t - 0.2e-3
+    clean = np.where((s >= 0) & (s < 1e-3), 12.0 * np.exp(-s / 1e-3), 0.0)
+    m = measure_droop(scope(clean, noise_v=0.01, seed=44), dt, floor_v=4.0)
+    assert any("not a straight sag" in w for w in m.warnings)

@@ -181,6 +181,21 @@ def test_short_record_falls_back_to_min_max():
     assert m.overshoot_pct == 0.0  # zero by construction with min/max (REFERENCES §1)
 
 
+def test_a_mode_in_the_last_bin_is_still_a_state():
+    # IEEE 181 histogram method (REFERENCES §1 [read]): the high level is the mode of the upper
+    # half. A clean 8-bit pulse (1 ms top sagging 12 -> 10 V over a 15 V range) puts its mode in
+    # the very last bin; the peak test looked at the 4 bins left of it instead of 7 and fell
+    # back to min/max (12.0 V, the top's first sample: the optimistic end of a sag).
+    dt = 1e-6
+    t = np.arange(1200) * dt - 0.1e-3
+    clean = np.where((t >= 0) & (t < 1e-3), 12.0 - 2000.0 * t, 0.0)
+    y = scope(clean, noise_v=0.0, lo=-2.0, hi=13.0)
+    levels = state_levels(y)
+    assert levels.method == "histogram"
+    assert levels.low_v == pytest.approx(0.0, abs=15.0 / 256)  # within one 8-bit code
+    assert 10.0 < levels.high_v < 12.0 - 0.1
+
+
 def test_triangle_has_no_histogram_states():
     t = np.arange(10_000)
     y = np.abs((t % 1000) - 500.0)
