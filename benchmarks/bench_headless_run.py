@@ -16,7 +16,7 @@ from pathlib import Path
 
 
 def main() -> None:
-    from bringup.checklist.board import load_board
+    from bringup.boards.board_file import load_board
     from bringup.checklist.load import load_checklist
     from bringup.runner import BenchSource, SessionRunner
     from bringup.runner.bench_source import DEFAULT_SIM_TIME_SCALE

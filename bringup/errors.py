@@ -1,8 +1,12 @@
-"""The error family every user-facing failure belongs to.
+"""The error family every user-facing failure belongs to, in one place for every package.
 
-A ``BringupError`` carries a one-line message that names what was wrong and where
-(file and line, option, instrument and command). The command line prints it and exits
-with status 2; the TUI shows it in a message. Nothing else should reach a user.
+``InputError`` and ``ConfigError`` for what the user supplies, ``AnalysisError`` for data the
+measurement core cannot measure, ``StoreError`` for the session log (the instrument faults live
+with the instruments, in ``bringup.instruments.faults``).
+
+A ``BringupError`` carries a one-line message that names what was wrong and where (file and
+line, option, instrument and command). The command line prints it and exits with status 2; the
+TUI shows it in a message. Nothing else should reach a user.
 """
 
 from __future__ import annotations
@@ -35,3 +39,20 @@ class ConfigError(InputError):
         if key:
             where += f": {key}"
         super().__init__(f"{where}: {problem}")
+
+
+class AnalysisError(InputError):
+    """The data cannot be measured: too few samples, one level only, no edge, no fit.
+
+    Raised by the measurement core (``bringup.analysis``). ``str(err)`` is one line saying what
+    is missing. Callers add where the data came from (the CLI prefixes the file name; the runner
+    records it as the step's reason).
+    """
+
+
+class StoreError(BringupError):
+    """The session log cannot do what was asked: locked, corrupt, newer schema, a refused entry.
+
+    Raised by ``bringup.store``. ``str(err)`` is one line naming the database file (or the
+    session) and the problem. When it is raised while opening, the file has not been modified.
+    """

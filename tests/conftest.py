@@ -1,7 +1,7 @@
 """Fixtures shared by every test folder.
 
 ``demo_design`` (session): the demo board's ``[design]`` values as SI floats
-(``checklists/demo-board.toml`` read by ``bringup.checklist.board.load_board``).
+(``checklists/demo-board.toml`` read by ``bringup.boards.board_file.load_board``).
 
 ``sim_bench``: a factory that starts simulated benches in this process on free loopback ports
 and stops every one it started at teardown (supply output OFF, connections closed)::

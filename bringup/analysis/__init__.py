@@ -37,7 +37,6 @@ from bringup.analysis.edges import (
     negative_excursion,
     state_levels,
 )
-from bringup.analysis.errors import AnalysisError
 from bringup.analysis.plateau import PlateauResult, find_miller_plateau
 from bringup.analysis.quantities import (
     canonical_unit,
@@ -48,6 +47,7 @@ from bringup.analysis.quantities import (
 from bringup.analysis.rails import RailMetrics, measure_rail
 from bringup.analysis.soak import SoakFit, fit_soak
 from bringup.analysis.verdict import Limit, Verdict, judge
+from bringup.errors import AnalysisError
 
 __all__ = [
     "AnalysisError",

@@ -26,7 +26,7 @@ from dataclasses import dataclass, field, fields
 import numpy as np
 
 from bringup.analysis.edges import find_transitions
-from bringup.analysis.errors import AnalysisError
+from bringup.errors import AnalysisError
 
 __all__ = ["DroopMetrics", "measure_droop"]
 

@@ -7,7 +7,7 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
-from bringup.analysis.errors import AnalysisError
+from bringup.errors import AnalysisError
 
 __all__ = ["RailMetrics", "measure_rail"]
 

@@ -19,7 +19,7 @@ from dataclasses import dataclass, field, fields
 
 import numpy as np
 
-from bringup.analysis.errors import AnalysisError
+from bringup.errors import AnalysisError
 
 __all__ = ["SoakFit", "fit_soak"]
 

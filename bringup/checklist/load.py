@@ -27,7 +27,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from bringup.checklist.board import (
+from bringup.boards.board_file import (
     DESIGN_UNITS,
     Board,
     check_table,
@@ -49,8 +49,8 @@ from bringup.checklist.model import (
     SupplySetup,
     Trigger,
 )
-from bringup.checklist.tomlfile import TomlDocument, read_toml
 from bringup.errors import ConfigError
+from bringup.tomlfile import TomlDocument, read_toml
 
 __all__ = [
     "CHECKLIST_SCHEMA",
@@ -492,7 +492,7 @@ def check_against_board(checklist: Checklist, board: Board) -> None:
 
     Raises a ``ConfigError`` naming the checklist file, the step's key and its line.
     """
-    from bringup.checklist.tomlfile import parse_toml
+    from bringup.tomlfile import parse_toml
 
     doc = parse_toml(checklist.text, checklist.path)
     for step in checklist.steps():

@@ -9,7 +9,7 @@ The analyses run under ``numpy.errstate`` (overflow, division by zero and invali
 raise) with Python's RuntimeWarnings raised too: a record whose arithmetic overflows is refused
 with one line ("values too large to measure") rather than printing numpy warnings and an
 infinite level. Samples at or above the SCPI overrange value 9.9E37 are refused when the file
-is read (``bringup.capture_files``).
+is read (``bringup.captures.files``).
 
 The module top level imports only the standard library: numpy, the analysis and (for
 ``soak``) scipy are imported inside ``run`` so that ``bringup analyze --help`` starts fast.
@@ -237,8 +237,8 @@ def _parse_levels(text: str) -> tuple[float, float, float]:
 
 def run(args: argparse.Namespace) -> int:
     """Read the file, run the analysis, print."""
-    from bringup.analysis.errors import AnalysisError
-    from bringup.capture_files import read_capture
+    from bringup.captures.files import read_capture
+    from bringup.errors import AnalysisError
 
     if args.analysis == "edges":
         levels = _parse_levels(args.levels)  # check options before reading a large file

@@ -103,7 +103,7 @@ def check_options(args: argparse.Namespace) -> None:
         not args.operator.strip() or len(args.operator.strip().splitlines()) != 1
     ):
         raise InputError(f"--operator {args.operator!r}: a one-line, non-empty name is needed")
-    from bringup.checklist.board import load_board
+    from bringup.boards.board_file import load_board
 
     try:
         load_board("demo").check_serial(args.serial)

@@ -80,8 +80,8 @@ def _answers(args: argparse.Namespace):
     """The ``--answers`` file read and checked against the session's own checklist (from its
     snapshot) before the session is reopened: a bad answer changes nothing in the log."""
     from bringup.runner.answers import load_answers
+    from bringup.runner.file_snapshots import checklist_from_snapshot
     from bringup.runner.resuming import pick_session
-    from bringup.runner.snapshots import checklist_from_snapshot
     from bringup.store import SessionLog
 
     with SessionLog.open(args.db, create=False) as log:

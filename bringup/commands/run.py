@@ -89,7 +89,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
 def check_one_line(option: str, value: str) -> None:
     """Refuse a name or serial number with a control character (a newline breaks the session
     header and the record): one line naming ``option``."""
-    from bringup.checklist.board import control_character
+    from bringup.boards.board_file import control_character
 
     bad = control_character(value)
     if bad is not None:
@@ -196,7 +196,7 @@ def run(args: argparse.Namespace) -> int:
     check_one_line("--serial", args.serial)
     if not args.auto:
         return _notebook(args, board, operator)
-    from bringup.checklist.board import load_board
+    from bringup.boards.board_file import load_board
     from bringup.checklist.load import load_checklist
     from bringup.runner import SessionRunner
 

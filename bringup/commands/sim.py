@@ -45,7 +45,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
 
 def load_design(board: str | Path = "demo") -> dict[str, float]:
     """The board file's ``[design]`` values as SI floats (``"demo"`` = the demo board)."""
-    from bringup.checklist.board import load_board
+    from bringup.boards.board_file import load_board
 
     return dict(load_board(board).design)
 

@@ -34,7 +34,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from bringup.errors import ConfigError, InputError
-from bringup.instruments.toml_lines import TomlSource
+from bringup.tomlfile import TomlDocument, read_toml
 
 if TYPE_CHECKING:
     from bringup.instruments.profiles import Profile
@@ -96,34 +96,32 @@ class BenchConfig:
         )
 
 
-def _entry(src: TomlSource, role: str, simulated: bool) -> InstrumentEntry:
+def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
     table = src.data.get(role)
     if table is None:
-        raise src.error((), role, f"missing table [{role}]")
+        raise src.error((role,), f"missing table [{role}]")
     if not isinstance(table, dict):
-        raise src.error((), role, f"must be a table [{role}]")
+        raise src.error((role,), f"must be a table [{role}]")
     allowed = {"resource", "profile", "calibration_due"} | (
         {"channels"} if role == "scope" else set()
     )
     for key in table:
         if key not in allowed:
-            raise src.error((role,), key, f"unknown key (expected {', '.join(sorted(allowed))})")
+            raise src.error((role, key), f"unknown key (expected {', '.join(sorted(allowed))})")
     for key in ("resource", "profile"):
         if key not in table:
-            raise src.error((role,), key, "missing")
+            raise src.error((role, key), "missing")
         if not isinstance(table[key], str) or not table[key].strip():
-            raise src.error((role,), key, f"must be a non-empty string, not {table[key]!r}")
+            raise src.error((role, key), f"must be a non-empty string, not {table[key]!r}")
     resource = table["resource"].strip()
     if not _RESOURCE.match(resource):
         raise src.error(
-            (role,),
-            "resource",
+            (role, "resource"),
             f"{resource!r} is not an explicit VISA resource string (e.g. TCPIP::host::5025::SOCKET)",
         )
     if simulated and not _LOOPBACK.match(resource):
         raise src.error(
-            (role,),
-            "resource",
+            (role, "resource"),
             f"{resource!r}: a simulated bench is served on TCPIP::127.0.0.1::<port>::SOCKET",
         )
     due = table.get("calibration_due")
@@ -133,17 +131,17 @@ def _entry(src: TomlSource, role: str, simulated: bool) -> InstrumentEntry:
                 due = dt.date.fromisoformat(due)
             except ValueError:
                 raise src.error(
-                    (role,), "calibration_due", f"{due!r} is not a date YYYY-MM-DD"
+                    (role, "calibration_due"), f"{due!r} is not a date YYYY-MM-DD"
                 ) from None
         elif isinstance(due, dt.datetime) or not isinstance(due, dt.date):
-            raise src.error((role,), "calibration_due", f"must be a date YYYY-MM-DD, not {due!r}")
+            raise src.error((role, "calibration_due"), f"must be a date YYYY-MM-DD, not {due!r}")
     return InstrumentEntry(role, resource, table["profile"].strip(), due)
 
 
-def _channels(src: TomlSource) -> dict[int, ChannelWiring]:
+def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
     raw = src.data.get("scope", {}).get("channels", {})
     if not isinstance(raw, dict):
-        raise src.error(("scope",), "channels", "must be tables [scope.channels.<n>]")
+        raise src.error(("scope", "channels"), "must be tables [scope.channels.<n>]")
     out: dict[int, ChannelWiring] = {}
     seen: dict[str, int] = {}
     for key, table in raw.items():
@@ -153,30 +151,30 @@ def _channels(src: TomlSource) -> dict[int, ChannelWiring]:
                 src.path,
                 f"scope.channels.{key}",
                 "channel must be 1, 2, 3 or 4",
-                src.line_of(where),
+                src.line_of(*where),
             )
         if not isinstance(table, dict):
             raise ConfigError(
-                src.path, f"scope.channels.{key}", "must be a table", src.line_of(where)
+                src.path, f"scope.channels.{key}", "must be a table", src.line_of(*where)
             )
         for item in table:
             if item not in ("net", "probe_ratio"):
-                raise src.error(where, item, "unknown key (expected net, probe_ratio)")
+                raise src.error((*where, item), "unknown key (expected net, probe_ratio)")
         net = table.get("net")
         if net is None:
-            raise src.error(where, "net", "missing")
+            raise src.error((*where, "net"), "missing")
         if net not in NETS:
-            raise src.error(where, "net", f"{net!r} is not one of {', '.join(NETS)}")
+            raise src.error((*where, "net"), f"{net!r} is not one of {', '.join(NETS)}")
         if net in seen:
-            raise src.error(where, "net", f"{net!r} is already on channel {seen[net]}")
+            raise src.error((*where, "net"), f"{net!r} is already on channel {seen[net]}")
         ratio = table.get("probe_ratio")
         if ratio is None:
             raise src.error(
-                where, "probe_ratio", "missing (1 for a direct cable, 10 for a 10:1 probe)"
+                (*where, "probe_ratio"), "missing (1 for a direct cable, 10 for a 10:1 probe)"
             )
         if isinstance(ratio, bool) or not isinstance(ratio, int | float) or not 0 < ratio <= 10000:
             raise src.error(
-                where, "probe_ratio", f"must be a number above 0 (up to 10000), not {ratio!r}"
+                (*where, "probe_ratio"), f"must be a number above 0 (up to 10000), not {ratio!r}"
             )
         seen[net] = int(key)
         out[int(key)] = ChannelWiring(int(key), net, float(ratio))
@@ -185,21 +183,21 @@ def _channels(src: TomlSource) -> dict[int, ChannelWiring]:
 
 def load_bench(path: Path | str) -> BenchConfig:
     """Read and validate a bench file; ``ConfigError`` names the file, key and line."""
-    src = TomlSource.read(Path(path))
+    src = read_toml(Path(path))
     for key in src.data:
         if key not in (*ROLES, "simulation"):
             raise src.error(
-                (), key, "unknown table (expected scope, supply, thermometer, simulation)"
+                (key,), "unknown table (expected scope, supply, thermometer, simulation)"
             )
     sim = src.data.get("simulation", {})
     if not isinstance(sim, dict):
-        raise src.error((), "simulation", "must be a table [simulation]")
+        raise src.error(("simulation",), "must be a table [simulation]")
     for key in sim:
         if key != "enabled":
-            raise src.error(("simulation",), key, "unknown key (expected enabled)")
+            raise src.error(("simulation", key), "unknown key (expected enabled)")
     enabled = sim.get("enabled", False)
     if not isinstance(enabled, bool):
-        raise src.error(("simulation",), "enabled", f"must be true or false, not {enabled!r}")
+        raise src.error(("simulation", "enabled"), f"must be true or false, not {enabled!r}")
     instruments = {role: _entry(src, role, enabled) for role in ROLES}
     return BenchConfig(src.path, instruments, _channels(src), enabled)
 
@@ -267,17 +265,16 @@ def profile_for_role(config: BenchConfig, role: str, profiles_dir: Path | None) 
         profile = find_profile(entry.profile, profiles_dir)
     except ConfigError as exc:
         if exc.path == entry.profile:  # not found: say where it was asked for
-            src = TomlSource.read(config.path)
+            src = read_toml(config.path)
             raise src.error(
-                (role,),
-                "profile",
+                (role, "profile"),
                 exc.problem.replace("no profile of that name", f"no profile {entry.profile!r}"),
             ) from None
         raise
     if profile.kind != role:
-        src = TomlSource.read(config.path)
+        src = read_toml(config.path)
         raise src.error(
-            (role,), "profile", f"{entry.profile!r} is a {profile.kind} profile, not a {role} one"
+            (role, "profile"), f"{entry.profile!r} is a {profile.kind} profile, not a {role} one"
         )
     return profile
 

@@ -23,7 +23,7 @@ from pathlib import Path
 from typing import Any
 
 from bringup.errors import ConfigError
-from bringup.instruments.toml_lines import TomlSource
+from bringup.tomlfile import TomlDocument, read_toml
 
 BUILTIN_DIR = Path(__file__).resolve().parent.parent / "profiles"
 KINDS = ("scope", "supply", "thermometer")
@@ -206,132 +206,127 @@ class Profile:
 _TOP_KEYS = {"profile", "termination", "timeouts_ms", "commands", "words", "block", "status"}
 
 
-def _table(src: TomlSource, name: str, required: bool = True) -> dict[str, Any]:
+def _table(src: TomlDocument, name: str, required: bool = True) -> dict[str, Any]:
     value = src.data.get(name)
     if value is None:
         if required:
-            raise src.error((), name, f"missing table [{name}]")
+            raise src.error((name,), f"missing table [{name}]")
         return {}
     if not isinstance(value, dict):
-        raise src.error((), name, f"must be a table [{name}]")
+        raise src.error((name,), f"must be a table [{name}]")
     return value
 
 
-def _string(src: TomlSource, table: str, data: dict[str, Any], key: str) -> str:
+def _string(src: TomlDocument, table: str, data: dict[str, Any], key: str) -> str:
     if key not in data:
-        raise src.error((table,), key, "missing")
+        raise src.error((table, key), "missing")
     value = data[key]
     if not isinstance(value, str):
-        raise src.error((table,), key, f"must be a string, not {value!r}")
+        raise src.error((table, key), f"must be a string, not {value!r}")
     return value
 
 
 def _check_template(
-    src: TomlSource, table: str, key: str, template: str, fields: frozenset[str]
+    src: TomlDocument, table: str, key: str, template: str, fields: frozenset[str]
 ) -> None:
     try:
         used = {f for _, f, _, _ in string.Formatter().parse(template) if f is not None}
     except ValueError as exc:
-        raise src.error((table,), key, f"malformed template {template!r}: {exc}") from None
+        raise src.error((table, key), f"malformed template {template!r}: {exc}") from None
     unknown = used - fields
     if unknown:
         allowed = ", ".join(sorted(f"{{{f}}}" for f in fields)) or "none"
         raise src.error(
-            (table,),
-            key,
+            (table, key),
             f"unknown placeholder {{{sorted(unknown)[0]}}} in {template!r} (allowed: {allowed})",
         )
     missing = fields - used
     if missing:
-        raise src.error((table,), key, f"template {template!r} lacks {{{sorted(missing)[0]}}}")
+        raise src.error((table, key), f"template {template!r} lacks {{{sorted(missing)[0]}}}")
     try:
         template.format(**{f: _SAMPLE.get(f, "x") for f in fields})
     except (ValueError, IndexError, KeyError) as exc:
-        raise src.error((table,), key, f"malformed template {template!r}: {exc}") from None
+        raise src.error((table, key), f"malformed template {template!r}: {exc}") from None
     if not template.strip():
-        raise src.error((table,), key, "empty template")
+        raise src.error((table, key), "empty template")
 
 
 def load_profile(path: Path) -> Profile:
     """Read and validate one profile file; raises ``ConfigError`` naming file, key and line."""
-    src = TomlSource.read(Path(path))
+    src = read_toml(Path(path))
     for key in src.data:
         if key not in _TOP_KEYS:
             raise src.error(
-                (), key, f"unknown table (expected one of {', '.join(sorted(_TOP_KEYS))})"
+                (key,), f"unknown table (expected one of {', '.join(sorted(_TOP_KEYS))})"
             )
     head = _table(src, "profile")
     for key in head:
         if key not in ("name", "kind", "description", "identity", "absent"):
-            raise src.error(("profile",), key, "unknown key")
+            raise src.error(("profile", key), "unknown key")
     name = _string(src, "profile", head, "name")
     if name != src.path.stem:
-        raise src.error(
-            ("profile",), "name", f"{name!r} must equal the file name {src.path.stem!r}"
-        )
+        raise src.error(("profile", "name"), f"{name!r} must equal the file name {src.path.stem!r}")
     kind = _string(src, "profile", head, "kind")
     if kind not in KINDS:
-        raise src.error(("profile",), "kind", f"{kind!r} is not one of {', '.join(KINDS)}")
+        raise src.error(("profile", "kind"), f"{kind!r} is not one of {', '.join(KINDS)}")
     try:
         identity = re.compile(_string(src, "profile", head, "identity"))
     except re.error as exc:
-        raise src.error(
-            ("profile",), "identity", f"not a valid regular expression: {exc}"
-        ) from None
+        raise src.error(("profile", "identity"), f"not a valid regular expression: {exc}") from None
 
     term = _table(src, "termination")
     for key in term:
         if key not in ("read", "write"):
-            raise src.error(("termination",), key, "unknown key (read, write)")
+            raise src.error(("termination", key), "unknown key (read, write)")
     read_term = _string(src, "termination", term, "read")
     write_term = _string(src, "termination", term, "write")
     for key, value in (("read", read_term), ("write", write_term)):
         if len(value) != 1:
-            raise src.error(("termination",), key, f"must be one character, not {value!r}")
+            raise src.error(("termination", key), f"must be one character, not {value!r}")
 
     specs = OPERATIONS[kind]
     absent = _absent(src, head, kind)
     commands = _table(src, "commands")
     for key, template in commands.items():
         if key not in specs:
-            raise src.error(("commands",), key, f"unknown operation for a {kind}")
+            raise src.error(("commands", key), f"unknown operation for a {kind}")
         if key in absent:
-            raise src.error(("commands",), key, "is declared absent in [profile] absent")
+            raise src.error(("commands", key), "is declared absent in [profile] absent")
         if not isinstance(template, str):
-            raise src.error(("commands",), key, f"must be a string, not {template!r}")
+            raise src.error(("commands", key), f"must be a string, not {template!r}")
         spec = specs[key]
         _check_template(src, "commands", key, template, spec.fields)
         if spec.query and "?" not in template:
-            raise src.error(("commands",), key, f"is a query: {template!r} needs a '?'")
+            raise src.error(("commands", key), f"is a query: {template!r} needs a '?'")
         if not spec.query and "?" in template:
-            raise src.error(("commands",), key, f"is a command, not a query: {template!r}")
+            raise src.error(("commands", key), f"is a command, not a query: {template!r}")
     for key in specs:
         if key not in commands and key not in absent:
             hint = " (or list it in [profile] absent)" if key in OPTIONAL[kind] else ""
-            raise src.error(("commands",), key, f"missing operation{hint}")
+            raise src.error(("commands", key), f"missing operation{hint}")
 
     word_specs = WORDS[kind]
     words = _table(src, "words")
     for key, value in words.items():
         if key not in word_specs:
-            raise src.error(("words",), key, f"unknown word for a {kind}")
+            raise src.error(("words", key), f"unknown word for a {kind}")
         if not isinstance(value, str):
-            raise src.error(("words",), key, f"must be a string, not {value!r}")
+            raise src.error(("words", key), f"must be a string, not {value!r}")
         _check_template(src, "words", key, value, word_specs[key])
     for key in word_specs:
         if key not in words:
-            raise src.error(("words",), key, "missing word")
+            raise src.error(("words", key), "missing word")
 
     timeouts = _table(src, "timeouts_ms")
     for key, value in timeouts.items():
         if key != "default" and key not in specs:
-            raise src.error(("timeouts_ms",), key, "not an operation of this profile")
+            raise src.error(("timeouts_ms", key), "not an operation of this profile")
         if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 3_600_000:
             raise src.error(
-                ("timeouts_ms",), key, f"must be whole milliseconds 1..3600000, not {value!r}"
+                ("timeouts_ms", key), f"must be whole milliseconds 1..3600000, not {value!r}"
             )
     if "default" not in timeouts:
-        raise src.error(("timeouts_ms",), "default", "missing")
+        raise src.error(("timeouts_ms", "default"), "missing")
     default_ms = timeouts["default"]
 
     block = _block(src, kind)
@@ -354,69 +349,66 @@ def load_profile(path: Path) -> Profile:
     )
 
 
-def _absent(src: TomlSource, head: dict[str, Any], kind: str) -> frozenset[str]:
+def _absent(src: TomlDocument, head: dict[str, Any], kind: str) -> frozenset[str]:
     """``[profile] absent``: the optional operations this instrument does not offer."""
     value = head.get("absent", [])
     if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
-        raise src.error(("profile",), "absent", "must be a list of operation names")
+        raise src.error(("profile", "absent"), "must be a list of operation names")
     for name in value:
         if name not in OPTIONAL[kind]:
             allowed = ", ".join(sorted(OPTIONAL[kind])) or "none"
             raise src.error(
-                ("profile",),
-                "absent",
+                ("profile", "absent"),
                 f"{name!r} is not an optional operation (allowed: {allowed})",
             )
     return frozenset(value)
 
 
-def _block(src: TomlSource, kind: str) -> BlockFormat | None:
+def _block(src: TomlDocument, kind: str) -> BlockFormat | None:
     block = _table(src, "block", required=kind == "scope")
     if kind != "scope":
         if block:
-            raise src.error((), "block", "only a scope profile has a [block] table")
+            raise src.error(("block",), "only a scope profile has a [block] table")
         return None
     for key in block:
         if key not in ("datatype", "byte_order", "preamble", "chunk_bytes"):
-            raise src.error(("block",), key, "unknown key")
+            raise src.error(("block", key), "unknown key")
     datatype = _string(src, "block", block, "datatype")
     if datatype not in DATATYPES:
-        raise src.error(
-            ("block",), "datatype", f"{datatype!r} is not one of {', '.join(DATATYPES)}"
-        )
+        raise src.error(("block", "datatype"), f"{datatype!r} is not one of {', '.join(DATATYPES)}")
     order = _string(src, "block", block, "byte_order")
     if order not in ("big", "little"):
-        raise src.error(("block",), "byte_order", f"{order!r} must be 'big' or 'little'")
+        raise src.error(("block", "byte_order"), f"{order!r} must be 'big' or 'little'")
     preamble = block.get("preamble")
     if preamble is None:
-        raise src.error(("block",), "preamble", "missing")
+        raise src.error(("block", "preamble"), "missing")
     if not isinstance(preamble, list) or not all(isinstance(p, str) for p in preamble):
-        raise src.error(("block",), "preamble", "must be a list of field names")
+        raise src.error(("block", "preamble"), "must be a list of field names")
     for needed in PREAMBLE_NAMES:
         if preamble.count(needed) != 1:
-            raise src.error(("block",), "preamble", f"must name {needed!r} exactly once")
+            raise src.error(("block", "preamble"), f"must name {needed!r} exactly once")
     for extra in preamble:
         if extra not in PREAMBLE_NAMES and extra != "ignore":
-            raise src.error(("block",), "preamble", f"unknown field {extra!r} (or 'ignore')")
+            raise src.error(("block", "preamble"), f"unknown field {extra!r} (or 'ignore')")
     chunk = block.get("chunk_bytes", 1 << 22)
     if isinstance(chunk, bool) or not isinstance(chunk, int) or not 4096 <= chunk <= 1 << 28:
-        raise src.error(("block",), "chunk_bytes", f"must be bytes 4096..268435456, not {chunk!r}")
+        raise src.error(("block", "chunk_bytes"), f"must be bytes 4096..268435456, not {chunk!r}")
     return BlockFormat(datatype, order == "big", tuple(preamble), chunk)
 
 
-def _status(src: TomlSource, kind: str) -> dict[str, int]:
+def _status(src: TomlDocument, kind: str) -> dict[str, int]:
     status = _table(src, "status", required=kind in STATUS_BITS)
     names = STATUS_BITS.get(kind, ())
     if not names and status:
-        raise src.error((), "status", f"a {kind} profile has no [status] table")
+        raise src.error(("status",), f"a {kind} profile has no [status] table")
     for key, value in status.items():
         if key not in names:
-            raise src.error(("status",), key, "unknown key")
+            raise src.error(("status", key), "unknown key")
         if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 15:
-            raise src.error(("status",), key, f"must be a bit number 0..15, not {value!r}")
+            raise src.error(("status", key), f"must be a bit number 0..15, not {value!r}")
     for key in names:
         if key not in status:
-            raise src.error(("status",), key, "missing")
+            raise src.error(("status", key), "missing")
     return dict(status)
 
 

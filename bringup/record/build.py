@@ -16,7 +16,12 @@ import numpy as np
 
 from bringup.record.compare import content_digest, seal_of
 from bringup.record.signing import open_item
-from bringup.record.snapshots import bench_view, checklist_file, step_definitions, text_digest
+from bringup.record.snapshot_reading import (
+    bench_view,
+    checklist_file,
+    step_definitions,
+    text_digest,
+)
 from bringup.store.content import WAVEFORM_SCALE_COLUMNS
 from bringup.store.entries import AttemptRecord, EventRecord, SessionData
 

@@ -209,8 +209,8 @@ def _session_id(content: dict) -> Any:
 
 def _check_log_signatures(signatures: Any, content: dict, log: Any) -> list[str]:
     """The record carries exactly the sign-offs the log holds (none dropped, none added)."""
+    from bringup.errors import StoreError
     from bringup.record.from_log import signature_entry
-    from bringup.store.errors import StoreError
 
     session_id = _session_id(content)
     if not isinstance(session_id, str) or not isinstance(signatures, list):
@@ -241,8 +241,8 @@ def _check_log_signatures(signatures: Any, content: dict, log: Any) -> list[str]
 
 
 def _check_log(content: dict, log: Any) -> list[str]:
+    from bringup.errors import StoreError
     from bringup.record.from_log import content_from_log
-    from bringup.store.errors import StoreError
 
     session_id = _session_id(content)
     if not isinstance(session_id, str):

@@ -178,7 +178,7 @@ def decode_trace(wave: dict) -> Trace | None:
 
 def design_rows(board: dict) -> list[list[str]]:
     """[name, value with unit] for each design value of the board (units from the board schema)."""
-    from bringup.checklist.board import DESIGN_UNITS
+    from bringup.boards.board_file import DESIGN_UNITS
 
     rows = []
     for key, value in sorted((board.get("design") or {}).items()):

@@ -16,9 +16,9 @@ import numpy as np
 
 from bringup.analysis.design import switching_loss
 from bringup.analysis.edges import EdgeMetrics, measure_edges, state_levels
-from bringup.analysis.errors import AnalysisError
-from bringup.checklist.board import Board
+from bringup.boards.board_file import Board
 from bringup.checklist.catalogue import RAIL_NETS
+from bringup.errors import AnalysisError
 from bringup.runner.results import Crossing, SoakProgress, WaveformView
 
 __all__ = ["Trace", "clipping", "RampStep", "AnalysisInput", "AnalysisOutput", "ANALYSE", "analyse"]

@@ -22,11 +22,11 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from bringup.analysis.quantities import parse_quantity
-from bringup.checklist.board import check_table
+from bringup.boards.board_file import check_table
 from bringup.checklist.model import Checklist
-from bringup.checklist.tomlfile import read_toml
 from bringup.errors import InputError
 from bringup.runner.results import StepAnswers
+from bringup.tomlfile import read_toml
 
 __all__ = ["AnswerBook", "load_answers"]
 

@@ -10,7 +10,7 @@ import tempfile
 import threading
 from pathlib import Path
 
-from bringup.checklist.board import Board
+from bringup.boards.board_file import Board
 from bringup.checklist.model import Step
 from bringup.runner.analyses import Trace, clipping
 from bringup.runner.bench_source import BenchSource

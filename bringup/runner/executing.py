@@ -148,8 +148,8 @@ def _ramp(ctx: _Context, powered, supply: dict) -> None:
 def _soak(ctx: _Context, bench, powered) -> None:
     """Log the heatsink temperature, refit as it comes in, stop once the prediction settles
     (never before the minimum duration) or when the operator says so after that."""
-    from bringup.analysis.errors import AnalysisError
     from bringup.analysis.soak import fit_soak
+    from bringup.errors import AnalysisError
 
     soak = ctx.plan.settings["soak"]
     target = ctx.runner.board.targets.get("heatsink_final")

@@ -6,7 +6,7 @@ Pure: no instrument is touched. The plan is shown before the step runs and logge
 from __future__ import annotations
 
 from bringup.analysis.quantities import format_quantity
-from bringup.checklist.board import Board
+from bringup.boards.board_file import Board
 from bringup.checklist.model import Step
 from bringup.errors import InputError
 from bringup.runner.bench_source import BenchSource

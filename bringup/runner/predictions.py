@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 
 from bringup.analysis import design as eq
-from bringup.checklist.board import Board
+from bringup.boards.board_file import Board
 from bringup.errors import InputError
 
 __all__ = ["predict", "disagreement", "DISAGREE_FRACTION"]

@@ -9,8 +9,8 @@ from __future__ import annotations
 from pathlib import Path
 
 from bringup.runner.bench_source import BenchSource
+from bringup.runner.file_snapshots import board_from_snapshot, checklist_from_snapshot
 from bringup.runner.recording import attempt_from_record, views_from_record
-from bringup.runner.snapshots import board_from_snapshot, checklist_from_snapshot
 
 __all__ = ["reopen", "load_views", "pick_session"]
 

@@ -33,7 +33,7 @@ import threading
 from collections.abc import Callable
 from pathlib import Path
 
-from bringup.checklist.board import Board
+from bringup.boards.board_file import Board
 from bringup.checklist.model import Checklist, Step
 from bringup.errors import BringupError, InputError
 from bringup.runner.bench_source import BenchSource
@@ -55,7 +55,7 @@ ProgressCallback = Callable[[Progress], None]
 
 def _check_operator(operator: str) -> None:
     """Refuse an operator name with a control character (it would break the session header)."""
-    from bringup.checklist.board import control_character
+    from bringup.boards.board_file import control_character
 
     bad = control_character(operator)
     if bad is not None:
@@ -116,7 +116,7 @@ class SessionRunner:
         checklist names a target the board does not define, ``StoreError`` for the log.
         """
         from bringup.checklist.load import check_against_board
-        from bringup.runner.snapshots import board_snapshot, checklist_snapshot
+        from bringup.runner.file_snapshots import board_snapshot, checklist_snapshot
         from bringup.store import SessionLog
 
         if not operator or not operator.strip():

@@ -5,6 +5,7 @@ Public API (see ``log.py`` for the guarantees)::
     from bringup.store import SessionLog, StoredWaveform, StoreError
 """
 
+from bringup.errors import StoreError
 from bringup.store.chain import ChainReport
 from bringup.store.entries import (
     ATTEMPT_OUTCOMES,
@@ -16,7 +17,6 @@ from bringup.store.entries import (
     SessionSummary,
     SignatureRecord,
 )
-from bringup.store.errors import StoreError
 from bringup.store.log import SessionLog
 from bringup.store.opening import default_db_path
 from bringup.store.schema import CURRENT_VERSION

@@ -10,10 +10,10 @@ import datetime as _dt
 import math
 from typing import Any
 
+from bringup.errors import StoreError
 from bringup.names import control_character
 from bringup.store.canonical import loads, utc_text
 from bringup.store.entries import AttemptRecord, EventRecord, SignatureRecord
-from bringup.store.errors import StoreError
 
 __all__ = [
     "required",

@@ -39,6 +39,7 @@ from typing import Any
 
 import sqlite_utils
 
+from bringup.errors import StoreError
 from bringup.store import chain
 from bringup.store.canonical import dumps, now_utc, to_plain
 from bringup.store.content import (
@@ -53,7 +54,6 @@ from bringup.store.entries import (
     EVENT_KINDS,
     FAILED_OUTCOMES,
 )
-from bringup.store.errors import StoreError
 from bringup.store.opening import connect, default_db_path, translate
 from bringup.store.reading import LogReading
 from bringup.store.waveforms import StoredWaveform, encode_waveform

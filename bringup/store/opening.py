@@ -18,7 +18,7 @@ from __future__ import annotations
 import sqlite3
 from pathlib import Path
 
-from bringup.store.errors import StoreError
+from bringup.errors import StoreError
 from bringup.store.schema import APPLICATION_ID, current_version, migrate
 
 __all__ = ["default_db_path", "connect", "translate"]

@@ -15,6 +15,7 @@ from typing import Any
 
 import sqlite_utils
 
+from bringup.errors import StoreError
 from bringup.store import chain
 from bringup.store.canonical import loads
 from bringup.store.chain import ChainReport
@@ -33,7 +34,6 @@ from bringup.store.entries import (
     SessionSummary,
     SignatureRecord,
 )
-from bringup.store.errors import StoreError
 from bringup.store.opening import translate
 from bringup.store.waveforms import StoredWaveform, codes_digest, decode_codes
 

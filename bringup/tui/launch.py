@@ -116,7 +116,7 @@ class Launcher:
         operator: str,
     ):
         """Create a session (validating every file) and return its ``SessionLink``."""
-        from bringup.checklist.board import load_board
+        from bringup.boards.board_file import load_board
         from bringup.checklist.load import load_checklist
         from bringup.runner import SessionRunner
         from bringup.tui.link import SessionLink

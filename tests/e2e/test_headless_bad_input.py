@@ -8,7 +8,7 @@ import json
 import subprocess
 import sys
 
-from bringup.checklist.board import checklists_dir
+from bringup.boards.board_file import checklists_dir
 from bringup.store import SessionLog
 
 BASE = ["run", "--serial", "DHS24-0001", "--operator", "tester"]

@@ -11,7 +11,7 @@ from pathlib import Path
 
 from tui_pilot import sync, wait_for_session, wait_until
 
-from bringup.checklist.board import demo_board_path
+from bringup.boards.board_file import demo_board_path
 from bringup.store import SessionLog
 from bringup.tui.app import BringupApp
 from bringup.tui.launch import Launcher

@@ -46,7 +46,7 @@ async def _take_gate_step(pilot) -> None:
 
 
 def test_start_screen(snap_compare, log_path):
-    from bringup.checklist.board import load_board
+    from bringup.boards.board_file import load_board
     from bringup.checklist.load import load_checklist
     from bringup.runner import BenchSource, SessionRunner
 

@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from bringup.analysis.verdict import Limit, judge
-from bringup.checklist.board import load_board
+from bringup.boards.board_file import load_board
 from bringup.store.log import SessionLog
 from bringup.store.waveforms import StoredWaveform
 

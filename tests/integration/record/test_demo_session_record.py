@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from bringup.checklist.board import load_board
+from bringup.boards.board_file import load_board
 from bringup.checklist.load import load_checklist
 from bringup.cli import main
 from bringup.runner.bench_source import BenchSource

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from bringup.checklist.board import load_board
+from bringup.boards.board_file import load_board
 from bringup.checklist.load import load_checklist
 from bringup.runner import BenchSource, SessionRunner
 

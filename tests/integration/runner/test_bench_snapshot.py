@@ -7,7 +7,7 @@ import datetime as dt
 import json
 import re
 
-from bringup.checklist.board import load_board
+from bringup.boards.board_file import load_board
 from bringup.checklist.load import load_checklist
 from bringup.cli import main
 from bringup.runner import BenchSource, SessionRunner

@@ -4,15 +4,15 @@ from __future__ import annotations
 
 import pytest
 
-from bringup.checklist.board import board_from_document, demo_board_path, load_board
+from bringup.boards.board_file import board_from_document, demo_board_path, load_board
 from bringup.checklist.load import load_checklist
-from bringup.checklist.tomlfile import parse_toml
 from bringup.errors import ConfigError
 from bringup.runner import BenchSource
 from bringup.runner.answers import load_answers
 from bringup.runner.planning import plan_step
 from bringup.runner.predictions import predict
 from bringup.runner.results import worst_state
+from bringup.tomlfile import parse_toml
 
 CHECKLIST = load_checklist()
 SIM = BenchSource.simulated()
@@ -78,7 +78,7 @@ def test_worst_state_orders_failures_first():
 
 
 def test_answer_file_sample_loads_and_bad_ones_name_the_line(tmp_path):
-    from bringup.checklist.board import checklists_dir
+    from bringup.boards.board_file import checklists_dir
 
     book = load_answers(checklists_dir() / "answers-demo.toml", CHECKLIST)
     assert book.get("power-rails.logic-meter").reading == "3.31 V"

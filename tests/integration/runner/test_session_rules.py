@@ -102,7 +102,7 @@ def _bench_file_without_simulation(tmp_path, running):
 
 
 def test_without_answers_a_step_is_refused_and_logged_as_not_run(make_runner, tmp_path):
-    from bringup.checklist.board import load_board
+    from bringup.boards.board_file import load_board
     from bringup.runner import BenchSource
     from sim_instruments.bench import start_bench
 
@@ -148,7 +148,7 @@ def test_a_clipped_trace_is_never_judged(make_runner, tmp_path):
 
 
 def test_the_first_power_ramp_stops_at_the_first_step_over_its_limit(make_runner, tmp_path):
-    from bringup.checklist.board import demo_board_path, load_board
+    from bringup.boards.board_file import demo_board_path, load_board
 
     # A ramp-current limit below what the board draws at its first step plays a short.
     text = demo_board_path().read_text().replace('max = "0.1 A"', 'max = "1 mA"', 1)

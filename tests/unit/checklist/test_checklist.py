@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from bringup.checklist.board import load_board
+from bringup.boards.board_file import load_board
 from bringup.checklist.load import check_against_board, load_checklist, standard_checklist_path
 from bringup.errors import ConfigError
 

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import pytest
 
-from bringup.checklist.board import load_board
+from bringup.boards.board_file import load_board
 from sim_instruments.scenarios import SCENARIOS
 
 STAGES = {

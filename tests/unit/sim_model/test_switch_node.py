@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from bringup.analysis import measure_edges
-from bringup.checklist.board import DESIGN_UNITS
+from bringup.boards.board_file import DESIGN_UNITS
 from sim_instruments.model import StageModel
 from sim_instruments.stage_params import DESIGN_KEYS, StageParameters
 

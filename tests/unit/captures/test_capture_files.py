@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from bringup.capture_files import read_capture
+from bringup.captures.files import read_capture
 from bringup.errors import InputError
 
 

@@ -1,4 +1,8 @@
-"""Read a TOML file and find the line of any key in it, for one-line error messages.
+"""The one TOML reader for every file the user writes (board, checklist, answers, bench, profile),
+able to say on which line any key sits, for one-line error messages.
+
+It sits at the top of ``bringup`` beside ``errors`` so that both ``checklist``/``boards`` and
+``instruments`` may import it without importing each other.
 
 ``tomllib`` parses TOML but keeps no line numbers, so the loader that reports "file:line: key:
 problem" scans the text itself: it tracks the current table header (``[a.b]``) and records the

@@ -6,10 +6,10 @@ and steps it started with, even if the files on disk have changed since.
 
 from __future__ import annotations
 
-from bringup.checklist.board import Board, board_from_document
+from bringup.boards.board_file import Board, board_from_document
 from bringup.checklist.load import checklist_from_document
 from bringup.checklist.model import Checklist
-from bringup.checklist.tomlfile import parse_toml
+from bringup.tomlfile import parse_toml
 
 __all__ = ["board_snapshot", "checklist_snapshot", "board_from_snapshot", "checklist_from_snapshot"]
 

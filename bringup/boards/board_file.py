@@ -32,9 +32,9 @@ from pathlib import Path
 
 from bringup.analysis.quantities import canonical_unit, format_quantity, parse_quantity_unit
 from bringup.analysis.verdict import RULES, Limit
-from bringup.checklist.tomlfile import TomlDocument, read_toml
 from bringup.errors import InputError
 from bringup.names import control_character
+from bringup.tomlfile import TomlDocument, read_toml
 
 __all__ = [
     "Board",
@@ -213,11 +213,11 @@ def checklists_dir() -> Path:
     """The shipped checklist and demo board: the top-level ``checklists/`` folder beside the
     package in a source tree (or an editable install), else the copy a wheel installs as
     package data in ``bringup/checklist/shipped/`` (in the tree, a link to ``checklists/``)."""
-    here = Path(__file__).resolve().parent
-    tree = here.parents[1] / "checklists"
+    package = Path(__file__).resolve().parents[1]  # bringup/
+    tree = package.parent / "checklists"
     if (tree / "high-side-bootstrap.toml").is_file():
         return tree
-    return here / "shipped"
+    return package / "checklist" / "shipped"
 
 
 def demo_board_path() -> Path:

@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from bringup.checklist.board import DESIGN_UNITS, demo_board_path, load_board
+from bringup.boards.board_file import DESIGN_UNITS, demo_board_path, load_board
 from bringup.errors import ConfigError, InputError
 
 DEMO_TEXT = demo_board_path().read_text(encoding="utf-8")
@@ -179,7 +179,7 @@ def test_design_values_outside_their_physical_range_are_refused(tmp_path, line, 
 
 
 def test_every_design_key_has_a_range_and_the_demo_board_is_inside():
-    from bringup.checklist.board import DESIGN_RANGES
+    from bringup.boards.board_file import DESIGN_RANGES
 
     assert set(DESIGN_RANGES) | {"duty_min", "duty_max"} == set(DESIGN_UNITS)
     design = load_board("demo").design

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import tomllib
 
-from bringup.checklist.tomlfile import locate_keys, parse_toml
+from bringup.tomlfile import locate_keys, parse_toml
 
 TEXT = '''schema = 1
 [stages.power-rails]
