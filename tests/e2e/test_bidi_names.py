@@ -18,7 +18,7 @@ from pathlib import Path
 
 import pytest
 
-from bringup.checklist.board import checklists_dir
+from bringup.boards.board_file import checklists_dir
 from bringup.store import SessionLog, StoreError
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "integration" / "record"))
