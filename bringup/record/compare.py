@@ -16,7 +16,7 @@ import hashlib
 from collections.abc import Iterator
 from typing import Any
 
-from bringup.record.canonical import canonical_bytes, canonical_text
+from bringup.record.rfc8785 import canonical_bytes, canonical_text
 
 __all__ = ["seal_of", "diagnose_seal", "diff_content", "label_of", "content_digest"]
 

@@ -22,8 +22,8 @@ from typing import Any
 from cryptography.exceptions import InvalidSignature
 
 from bringup.errors import BringupError
-from bringup.record.canonical import canonical_bytes
 from bringup.record.keys import KeyPair, fingerprint, public_key_from_raw
+from bringup.record.rfc8785 import canonical_bytes
 
 __all__ = [
     "ROLES",

@@ -17,9 +17,9 @@ from typing import Any
 
 from bringup.errors import InputError
 from bringup.record.build import RECORD_SCHEMA
-from bringup.record.canonical import NotCanonicalError, canonical_bytes
 from bringup.record.compare import diagnose_seal, diff_content
 from bringup.record.keys import PublicKey
+from bringup.record.rfc8785 import NotCanonicalError, canonical_bytes
 from bringup.record.signing import check_signature
 
 __all__ = ["read_record", "verify_record", "record_bytes"]

@@ -22,7 +22,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from bringup.store.canonical import canonical_json, sha256_hex
+from bringup.store.chain_json import canonical_json, sha256_hex
 
 __all__ = [
     "ChainReport",

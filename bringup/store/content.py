@@ -12,7 +12,7 @@ from typing import Any
 
 from bringup.errors import StoreError
 from bringup.names import control_character
-from bringup.store.canonical import loads, utc_text
+from bringup.store.chain_json import loads, utc_text
 from bringup.store.entries import AttemptRecord, EventRecord, SignatureRecord
 
 __all__ = [

@@ -41,7 +41,7 @@ import sqlite_utils
 
 from bringup.errors import StoreError
 from bringup.store import chain
-from bringup.store.canonical import dumps, now_utc, to_plain
+from bringup.store.chain_json import dumps, now_utc, to_plain
 from bringup.store.content import (
     attempt_content,
     metric_rows,

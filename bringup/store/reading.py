@@ -17,8 +17,8 @@ import sqlite_utils
 
 from bringup.errors import StoreError
 from bringup.store import chain
-from bringup.store.canonical import loads
 from bringup.store.chain import ChainReport
+from bringup.store.chain_json import loads
 from bringup.store.content import (
     WAVEFORM_SCALE_COLUMNS,
     attempt_content_from_rows,

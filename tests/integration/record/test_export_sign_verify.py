@@ -12,7 +12,7 @@ import pytest
 from record_samples import IDN, Keys, Session, write_session
 
 from bringup.cli import main
-from bringup.record.canonical import canonical_bytes
+from bringup.record.rfc8785 import canonical_bytes
 from bringup.store.log import SessionLog
 
 

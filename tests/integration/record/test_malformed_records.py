@@ -10,7 +10,7 @@ import pytest
 from record_samples import Keys, Session
 
 from bringup.cli import main
-from bringup.record.canonical import canonical_bytes
+from bringup.record.rfc8785 import canonical_bytes
 
 
 def _signed_record(s: Session, keys: Keys, tmp_path: Path) -> dict:

@@ -15,7 +15,7 @@ import pytest
 from store_samples import gate_waveform, record
 
 from bringup.store import StoredWaveform, StoreError
-from bringup.store.canonical import sha256_hex
+from bringup.store.chain_json import sha256_hex
 from bringup.store.waveforms import encode_waveform
 
 

@@ -8,7 +8,7 @@ import struct
 import numpy as np
 import pytest
 
-from bringup.record.canonical import NotCanonicalError, canonical_text, format_number
+from bringup.record.rfc8785 import NotCanonicalError, canonical_text, format_number
 from bringup.record.svg import Marker, envelope, plot_svg
 
 # RFC 8785 Appendix B: IEEE 754 bit patterns and their ECMAScript number text [memory].
@@ -52,6 +52,17 @@ def test_members_sorted_by_utf16_code_units() -> None:
 def test_no_whitespace_and_minimal_escapes() -> None:
     text = canonical_text({"b": [1.5, None, True], "a": 'µ "q"\n\u0001'})
     assert text == '{"a":"µ \\"q\\"\\n\\u0001","b":[1.5,null,true]}'
+
+
+def test_the_log_chain_form_is_not_the_record_form() -> None:
+    """DEVELOPERS.md says why two canonical forms exist; this pins where they differ, so a
+    change to either is seen. RFC 8785 section 3.2.2.3 prints 1.0 as "1" and 1e-7 as "1e-7";
+    the chain keeps Python's repr ("1.0", "1e-07"), over which every logged hash was computed."""
+    from bringup.store.chain_json import canonical_json
+
+    value = {"a": 1.0, "b": 1e-7}
+    assert canonical_text(value) == '{"a":1,"b":1e-7}'
+    assert canonical_json(value) == '{"a":1.0,"b":1e-07}'
 
 
 @pytest.mark.parametrize("bad", [float("nan"), float("inf"), 2**60, b"x"])

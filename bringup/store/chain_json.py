@@ -9,6 +9,11 @@ strict RFC 8259 JSON that SQLite's own ``json_extract`` can read.
 :func:`canonical_json` is the byte string that is hashed: keys sorted, no spaces, UTF-8,
 floats in Python's shortest round-trip form (``repr``), so re-reading a stored document and
 serialising it again gives the same bytes.
+
+This is not the record's canonical form (``bringup.record.rfc8785``, RFC 8785): it prints
+``1.0`` and ``1e-07`` where RFC 8785 prints ``1`` and ``1e-7``. It stays as it is because every
+chain hash already logged was computed over these bytes (DEVELOPERS.md, "Two canonical JSON
+forms").
 """
 
 from __future__ import annotations

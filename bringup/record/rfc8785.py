@@ -8,6 +8,9 @@ that reads back to the same double, in plain notation from 1e-6 up to 1e21 and i
 notation outside. Python's ``repr(float)`` gives the same shortest digits, so only the layout
 of the digits is done here. NaN and infinities have no JSON form: the record writes ``null``
 with a reason beside it, and this module refuses them so that none slips through.
+
+The session log's hash chain uses another form (``bringup.store.chain_json``, Python's
+``repr`` floats): see DEVELOPERS.md, "Two canonical JSON forms", for why both exist.
 """
 
 from __future__ import annotations
