@@ -73,11 +73,23 @@ async def test_failed_step_refused_skip_waiver_and_going_back(log_path):
         await pilot.press("k")
         await wait_until(pilot, lambda: screen.viewed == STEP)
 
-        # the waiver: a reason and a name
+        # the waiver: a reason and the name of someone other than the operator
         await pilot.press("w")
         await wait_until(pilot, lambda: isinstance(app.screen, ReasonPrompt))
+        prompt = app.screen
+        assert prompt.query_one("#who").value == ""  # the name field starts empty
         await _type(pilot, "rework on rev C")
-        await pilot.press("enter")  # to the name field (pre-filled with the operator)
+        await pilot.press("enter")  # to the name field
+        await _type(pilot, "tester")  # the session's own operator: refused in the prompt
+        await pilot.press("enter")
+        problem = str(prompt.query_one("#prompt-problem").render())
+        assert "other than the session's operator" in problem, problem
+        assert app.screen is prompt and runner.step_status(STEP).state == "fail"
+        prompt.query_one("#who").value = "Rui \u202eLead"  # a direction override: refused
+        await pilot.press("enter")
+        assert "U+202E" in str(prompt.query_one("#prompt-problem").render())
+        prompt.query_one("#who").value = ""
+        await _type(pilot, "Rui Lead")
         await pilot.press("enter")
         await wait_until(pilot, lambda: isinstance(app.screen, SessionScreen))
         assert runner.step_status(STEP).state == "waived"
@@ -94,6 +106,6 @@ async def test_failed_step_refused_skip_waiver_and_going_back(log_path):
         gate = [a for a in log.attempts(session_id) if a.step_id == "vgs-on"]
     assert [a.outcome for a in gate] == ["fail"]
     waives = [(e.operator, e.reason) for e in events if e.kind == "waive"]
-    assert waives == [("tester", "rework on rev C")]
+    assert waives == [("Rui Lead", "rework on rev C")]
     assert [e.stage_id for e in events if e.kind == "go-back"] == ["gate-overdrive"]
     assert not [e for e in events if e.kind == "skip" and e.step_id == "vgs-on"]

@@ -4,13 +4,23 @@ from __future__ import annotations
 
 import asyncio
 import functools
+import html
+import re
 import time
 from collections.abc import Callable
 
 from bringup.tui.screens.prompts import ConfirmPrompt, EnergisePrompt, ReasonPrompt
 from bringup.tui.screens.session import SessionScreen
 
-__all__ = ["wait_until", "take_step", "session_screen", "status_text", "sync", "wait_for_session"]
+__all__ = [
+    "wait_until",
+    "take_step",
+    "session_screen",
+    "status_text",
+    "sync",
+    "wait_for_session",
+    "screen_lines",
+]
 
 
 def sync(test):
@@ -109,3 +119,28 @@ async def take_step(pilot, reading: str | None = None, timeout: float = 30.0) ->
     await app.workers.wait_for_complete()
     await pilot.pause()
     return seen
+
+
+_SVG_TEXT = re.compile(
+    r'<text[^>]* x="(?P<x>[0-9.]+)"[^>]*clip-path="url\(#terminal-\d+-line-(?P<line>\d+)\)"[^>]*>'
+    r"(?P<text>[^<]*)</text>"
+)
+
+
+def screen_lines(app) -> list[str]:
+    """What the terminal shows now, one string per row, read from the app's own screenshot
+    (the SVG Textual exports): what a person would read, not a widget's state."""
+    svg = app.export_screenshot()
+    rows: dict[int, dict[int, str]] = {}
+    cell = 12.2  # the exporter's character width, pixels
+    for m in _SVG_TEXT.finditer(svg):
+        text = html.unescape(m["text"]).replace("\xa0", " ").replace("\n", "")
+        column = round(float(m["x"]) / cell)
+        rows.setdefault(int(m["line"]), {})[column] = text
+    lines = []
+    for n in range(max(rows, default=-1) + 1):
+        line = ""
+        for column, text in sorted(rows.get(n, {}).items()):
+            line = line.ljust(column) + text
+        lines.append(line)
+    return lines

@@ -12,6 +12,7 @@ from textual.widgets import Button, Input, Label, Static
 
 from bringup.analysis.quantities import format_quantity
 from bringup.errors import BringupError
+from bringup.tui.literal import literal
 from bringup.tui.views import Energise
 
 __all__ = ["EnergisePrompt", "ReasonPrompt", "ConfirmPrompt"]
@@ -44,21 +45,23 @@ class EnergisePrompt(ModalScreen[bool]):
         with Vertical(id="energise-box", classes="prompt-box"):
             yield Label("⚡ ENERGISE THE BOARD?", classes="prompt-title")
             if self.by_hand:
-                yield Static(f"First, by hand: {self.by_hand}", id="energise-hands")
+                yield Static(literal(f"First, by hand: {self.by_hand}"), id="energise-hands")
             ramp = ""
             if self.energise.ramp_v:
                 steps = ", ".join(format_quantity(v, "V") for v in self.energise.ramp_v)
                 ramp = f"\nIt ramps in steps ({steps}) and stops at once if the current says short."
             yield Static(
-                f"Step: {self.step_title}\n\n"
-                f"The supply output will be switched ON at {volts} "
-                f"with the current limit at {amps}.{ramp}\n"
-                "Check the probes and the load are in place and hands are clear.",
+                literal(
+                    f"Step: {self.step_title}\n\n"
+                    f"The supply output will be switched ON at {volts} "
+                    f"with the current limit at {amps}.{ramp}\n"
+                    "Check the probes and the load are in place and hands are clear."
+                ),
                 id="energise-text",
             )
             if self.energise.hazardous:
                 notice = self.energise.hazard or HAZARD_NOTICE
-                yield Static(f"⚠ {notice}", id="hazard-notice", classes="hazard")
+                yield Static(literal(f"⚠ {notice}"), id="hazard-notice", classes="hazard")
             with Horizontal(classes="prompt-buttons"):
                 yield Button(
                     f"Y  {'done, ' if self.by_hand else ''}switch on at {volts}",
@@ -94,6 +97,7 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         empty_problem: str = "A reason is needed: type one, or Esc to cancel.",
         allow_empty: bool = False,
         validate: Callable[[str], object] | None = None,
+        validate_name: Callable[[str], object] | None = None,
     ) -> None:
         super().__init__()
         self.title_text = title
@@ -104,14 +108,19 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         self.empty_problem = empty_problem
         self.allow_empty = allow_empty
         self.validate = validate
+        self.validate_name = validate_name
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="prompt-box"):
-            yield Label(self.title_text, classes="prompt-title")
-            yield Static(self.explain)
+            yield Label(literal(self.title_text), classes="prompt-title")
+            yield Static(literal(self.explain))
             yield Input(placeholder=self.placeholder, id="reason")
             if self.ask_name:
-                yield Input(value=self.name_default, placeholder="your name", id="who")
+                yield Input(
+                    value=self.name_default,
+                    placeholder="who accepts it (not the operator)",
+                    id="who",
+                )
             yield Static("", id="prompt-problem", classes="problem")
             with Horizontal(classes="prompt-buttons"):
                 yield Button("Enter  record it", id="ok", variant="primary")
@@ -132,13 +141,20 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
             try:
                 self.validate(reason)
             except BringupError as exc:
-                problem.update(str(exc))
+                problem.update(literal(str(exc)))
                 self.query_one("#reason", Input).focus()
                 return
         if self.ask_name and not who:
             problem.update("A name is needed for a waiver.")
             self.query_one("#who", Input).focus()
             return
+        if self.ask_name and self.validate_name is not None:
+            try:
+                self.validate_name(who)
+            except BringupError as exc:
+                problem.update(literal(str(exc)))
+                self.query_one("#who", Input).focus()
+                return
         self.dismiss((reason, who))
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
@@ -174,8 +190,8 @@ class ConfirmPrompt(ModalScreen[bool]):
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="prompt-box"):
-            yield Label(self.title_text, classes="prompt-title")
-            yield Static(self.question)
+            yield Label(literal(self.title_text), classes="prompt-title")
+            yield Static(literal(self.question))
             with Horizontal(classes="prompt-buttons"):
                 yield Button("Y  yes, done", id="yes", variant="primary")
                 yield Button("N  no, stop here", id="no")

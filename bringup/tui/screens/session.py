@@ -28,6 +28,7 @@ from textual.worker import Worker, WorkerState
 
 from bringup.errors import BringupError
 from bringup.runner import RunnerError
+from bringup.tui.literal import literal, visible
 from bringup.tui.messages import StepFaulted, StepFinished, StepProgressed, StepStopped
 from bringup.tui.screens.step_actions import StepActions
 from bringup.tui.states import LEGEND, look_of
@@ -136,11 +137,11 @@ class SessionScreen(StepActions, Screen[None]):
         """Put a one-line message in the status line (faults in their own style)."""
         status = self.query_one("#status", Static)
         status.set_classes(f"status-{kind}")
-        status.update(message)
+        status.update(literal(message))
 
     def refresh_all(self, select: str | None = None) -> None:
         """Redraw the title, the checklist and the viewed step from the link."""
-        self.query_one("#titlebar", Static).update(self.link.header())
+        self.query_one("#titlebar", Static).update(literal(self.link.header(), multiline=False))
         tree = self.query_one("#checklist", ChecklistTree)
         current = self.link.current_step_id()
         tree.show_stages(self.link.stages(), self.running or current)
@@ -164,12 +165,12 @@ class SessionScreen(StepActions, Screen[None]):
         number = self.query_one("#checklist", ChecklistTree).number_of(step_id)
         look = look_of(detail.state)
         title = Text()
-        title.append(f"{number}  {detail.title}", style="bold")
+        title.append(f"{number}  {visible(detail.title)}", style="bold")
         title.append(f"    {look.label()}", style=look.style)
         self.query_one("#step-title", Static).update(title)
-        self.query_one("#step-instructions", Static).update(detail.instructions or "")
+        self.query_one("#step-instructions", Static).update(literal(detail.instructions or ""))
         cautions = self.query_one("#step-cautions", Static)
-        cautions.update("\n".join(f"⚠ {c}" for c in detail.cautions))
+        cautions.update(literal("\n".join(f"⚠ {c}" for c in detail.cautions)))
         cautions.display = bool(detail.cautions)
         settings = self.query_one("#step-settings", Static)
         lines = [f"  {inst:<12} {name:<28} {value}" for inst, name, value in detail.settings]
@@ -181,7 +182,7 @@ class SessionScreen(StepActions, Screen[None]):
                 f"{format_quantity(detail.energise.voltage_v, 'V')}, limit "
                 f"{format_quantity(detail.energise.current_limit_a, 'A')}"
             )
-        settings.update("Will be sent:\n" + "\n".join(lines) if lines else "")
+        settings.update(literal("Will be sent:\n" + "\n".join(lines) if lines else ""))
         settings.display = bool(lines)
         attempts = self.link.attempts(step_id)
         self._show_attempts(attempts)
@@ -195,7 +196,8 @@ class SessionScreen(StepActions, Screen[None]):
         for a in reversed(attempts):
             summary = a.message or ", ".join(f"{m.label} {m.measured}" for m in a.metrics[:2])
             table.add_row(
-                str(a.number), _verdict_text(a.verdict), a.when, a.operator, summary,
+                str(a.number), _verdict_text(a.verdict), literal(a.when),
+                literal(a.operator, multiline=False), literal(summary, multiline=False),
                 key=str(a.number),
             )  # fmt: skip
 
@@ -220,9 +222,11 @@ class SessionScreen(StepActions, Screen[None]):
         else:
             look = look_of(attempt.verdict)
             banner.update(
-                f" {look.symbol} {look.word.upper()}  ·  attempt {attempt.number}  ·  "
-                f"{attempt.when}  ·  {attempt.operator}"
-                + (f"\n {attempt.message}" if attempt.message else "")
+                literal(
+                    f" {look.symbol} {look.word.upper()}  ·  attempt {attempt.number}  ·  "
+                    f"{attempt.when}  ·  {attempt.operator}"
+                    + (f"\n {attempt.message}" if attempt.message else "")
+                )
             )
             banner.set_classes(f"banner-{look.key}")
         if attempt is None:
@@ -232,7 +236,8 @@ class SessionScreen(StepActions, Screen[None]):
             label = m.label if len(m.label) <= 30 else m.label[:29] + "…"
             look = look_of(m.verdict)
             verdict = Text(f"{look.symbol} {look.brief}", style=look.style)
-            table.add_row(label, verdict, m.measured, m.predicted, m.limits, m.margin)
+            cells = (m.measured, m.predicted, m.limits, m.margin)
+            table.add_row(literal(label), verdict, *(literal(c, multiline=False) for c in cells))
         self._show_metric_detail(0)
         self._show_trace()
 
@@ -243,7 +248,7 @@ class SessionScreen(StepActions, Screen[None]):
             detail.update("")
             return
         m = attempt.metrics[row]
-        detail.update(f"{m.label}: {m.reason}" if m.reason else m.label)
+        detail.update(literal(f"{m.label}: {m.reason}" if m.reason else m.label))
 
     @on(DataTable.RowHighlighted, "#results")
     def _metric_highlighted(self, event: DataTable.RowHighlighted) -> None:
@@ -269,7 +274,7 @@ class SessionScreen(StepActions, Screen[None]):
         notes = [f"#{a.number}: {n}" for a in attempts for n in a.notes]
         notes += [f"step: {n}" for n in self.link.step_notes(step_id)]
         self.query_one("#notes-list", Static).update(
-            "\n".join(notes) if notes else "No notes on this step yet."
+            literal("\n".join(notes) if notes else "No notes on this step yet.")
         )
 
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
@@ -394,7 +399,7 @@ class SessionScreen(StepActions, Screen[None]):
                 self._finals.append(float(p.soak_final_c))
             trail = " → ".join(f"{v:.2f}" for v in self._finals[-4:])
             text += f"\npredicted final {p.predicted_final}  ({settled})\n  so far: {trail} °C"
-        self.query_one("#live-text", Static).update(text)
+        self.query_one("#live-text", Static).update(literal(text))
         if p.soak_t:
             import numpy as np
 

@@ -11,6 +11,7 @@ from textual.screen import Screen
 from textual.widgets import Button, DataTable, Footer, Input, Label, Select, Static
 
 from bringup.errors import BringupError
+from bringup.tui.literal import literal
 from bringup.tui.views import SessionRow
 
 __all__ = ["StartScreen", "NewSessionForm"]
@@ -102,7 +103,10 @@ class StartScreen(Screen[None]):
         return self.app.launcher  # type: ignore[attr-defined]
 
     def compose(self) -> ComposeResult:
-        yield Static(f"bringup · bench notebook · log {self.launcher.db_label()}", id="titlebar")
+        yield Static(
+            literal(f"bringup · bench notebook · log {self.launcher.db_label()}", multiline=False),
+            id="titlebar",
+        )
         with Horizontal(id="start-body"):
             with Vertical(id="resume-pane"):
                 yield Static("PICK UP WHERE YOU LEFT OFF", classes="pane-title")
@@ -125,7 +129,7 @@ class StartScreen(Screen[None]):
     def say(self, message: str, kind: str = "info") -> None:
         status = self.query_one("#status", Static)
         status.set_classes(f"status-{kind}")
-        status.update(message)
+        status.update(literal(message))
 
     def action_reload(self) -> None:
         table = self.query_one("#sessions", DataTable)
@@ -136,15 +140,8 @@ class StartScreen(Screen[None]):
             self._rows = []
             self.say(str(exc), "fault")
         for row in self._rows:
-            table.add_row(
-                str(row.id),
-                row.serial,
-                row.progress,
-                row.last_activity,
-                row.operator,
-                row.board,
-                key=str(row.id),
-            )
+            cells = (row.id, row.serial, row.progress, row.last_activity, row.operator, row.board)
+            table.add_row(*(literal(c, multiline=False) for c in cells), key=str(row.id))
         hint = self.query_one("#sessions-hint", Static)
         if self._rows:
             hint.update("Enter or Ctrl+O resumes the highlighted session.")

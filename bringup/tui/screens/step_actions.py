@@ -153,10 +153,27 @@ class StepActions:
                 "Waive this failed step?",
                 "A waiver accepts a failed result: it needs a reason and the name of who accepts it.",
                 ask_name=True,
-                name_default=self.link.operator,
+                validate_name=self._check_waiver_name,
             ),
             answered,
         )
+
+    def _check_waiver_name(self, name: str) -> None:
+        """A waiver is someone else's decision: not the operator's own name, no control or
+        direction-override character in it (``bringup.names``; the runner and the log keep the
+        same rules: this says so in the prompt, before anything is logged)."""
+        from bringup.errors import InputError
+        from bringup.names import control_character
+
+        bad = control_character(name)
+        if bad is not None:
+            raise InputError(
+                f"the name contains {bad}, which would change how it reads: type it without"
+            )
+        if name.casefold() == self.link.operator.strip().casefold():
+            raise InputError(
+                "a waiver is given by someone other than the session's operator: type their name"
+            )
 
     def action_note(self) -> None:
         self.action_tab("tab-notes")

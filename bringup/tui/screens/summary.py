@@ -9,6 +9,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
 from bringup.errors import BringupError
+from bringup.tui.literal import literal
 from bringup.tui.states import look_of
 
 __all__ = ["SummaryScreen"]
@@ -31,29 +32,29 @@ class SummaryScreen(Screen[None]):
 
     def on_mount(self) -> None:
         link = self.app.link  # type: ignore[attr-defined]
-        self.query_one("#titlebar", Static).update(link.header())
+        self.query_one("#titlebar", Static).update(literal(link.header(), multiline=False))
         table = self.query_one("#summary", DataTable)
         table.add_columns("stage / step", "verdict", "attempts", "detail")
         try:
             rows = link.summary()
             overall = link.overall()
         except BringupError as exc:
-            self.query_one("#summary-hint", Static).update(str(exc))
+            self.query_one("#summary-hint", Static).update(literal(str(exc)))
             return
         for row in rows:
             look = look_of(row.verdict)
-            title = Text(row.title, style="bold" if row.level == 0 else "")
+            title = literal(row.title, "bold" if row.level == 0 else "", multiline=False)
             indent = "" if row.level == 0 else "   "
             table.add_row(
                 Text(indent) + title,
                 look.text(),
                 str(row.attempts) if row.level else "",
-                row.detail,
+                literal(row.detail, multiline=False),
             )
         look = look_of(overall)
         verdict = Text("Session verdict: ", style="bold")
         verdict.append(look.label().upper(), style=look.style)
         self.query_one("#summary-verdict", Static).update(verdict)
         self.query_one("#summary-hint", Static).update(
-            f"Export the record: bringup export {link.session_id} --format html|pdf|json"
+            literal(f"Export the record: bringup export {link.session_id} --format html|pdf|json")
         )

@@ -5,6 +5,7 @@ from __future__ import annotations
 from rich.text import Text
 from textual.widgets import Tree
 
+from bringup.tui.literal import visible
 from bringup.tui.states import look_of
 from bringup.tui.views import StageRow
 
@@ -18,7 +19,7 @@ def _label(number: str, title: str, state: str, attempts: int = 0, current: bool
     text.append("➤" if current else " ", style="bold #f2c14e")
     word = look.brief + (f"×{attempts}" if attempts > 1 else "")
     text.append(f"{look.symbol} {word:<8}", style=look.style)
-    text.append(f"{number} {title}", style="bold" if current else "")
+    text.append(f"{number} {visible(title, multiline=False)}", style="bold" if current else "")
     return text
 
 

@@ -28,6 +28,7 @@ from textual.strip import Strip
 from textual.widget import Widget
 
 from bringup.analysis.quantities import format_quantity
+from bringup.tui.literal import visible
 
 __all__ = ["PlotMarks", "WaveformPlot", "braille_envelope"]
 
@@ -164,7 +165,7 @@ class WaveformPlot(Widget):
         finite = np.isfinite(v[:n]) & np.isfinite(t[:n])
         self._t, self._v = t[:n][finite], v[:n][finite]
         self._marks = marks or PlotMarks()
-        self._title = title
+        self._title = visible(title, multiline=False)  # a net or file name: shown as typed
         self._unit = unit
         self.revision += 1
 
