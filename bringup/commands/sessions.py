@@ -38,6 +38,9 @@ def _row(s) -> dict:
         "attempts": s.attempts,
         "created": s.created_utc,
         "last_activity": s.last_activity_utc,
+        # listing columns that disagree with the chain (an edit outside bringup); the values
+        # above are the chain's
+        "altered": list(s.altered),
     }
 
 
@@ -68,6 +71,9 @@ def run(args: argparse.Namespace) -> int:
         total = r["steps_total"] if r["steps_total"] is not None else "?"
         board = f"{r['board']} rev {r['revision']}" if r["revision"] else r["board"]
         state = "" if r["state"] == "open" else f" ({r['state']})"
+        if r["altered"]:
+            names = ", ".join(line.split(":", 1)[0] for line in r["altered"])
+            state += f" [summary columns edited outside bringup: {names}; shown from the chain]"
         print(f"{r['id']:<12} {board[:34]:<34} {r['serial']:<12} {r['steps_done']:>4}/{total:<3}  "
               f"{r['verdict']:<16} {r['last_activity']}{state}")  # fmt: skip
     return 0

@@ -13,7 +13,8 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         help="check a record's signatures, content and (with --db) the log behind it",
         description="Check a JSON record: its canonical form, its content against its seal, "
         "every signature, and with --db that the log's hash chain is intact, ends at the "
-        "record's chain head and holds the same content. Exit 0 only when all of it holds; "
+        "record's chain head and holds the same content, and that the session's stored state "
+        "and verdict agree with its chain. Exit 0 only when all of it holds; "
         "otherwise one line per finding and exit 1.",
     )
     parser.add_argument("record", type=Path, metavar="RECORD.json")
@@ -53,7 +54,7 @@ def run(args: argparse.Namespace) -> int:
     digest = record.get("seal", {}).get("content_sha256", "")
     print(f"{args.record}: holds; content SHA-256 {digest}; signed by {who}")
     if args.db is not None:
-        print(f"log {args.db}: chain intact, head matches, content matches")
+        print(f"log {args.db}: chain intact, head matches, content matches, summary matches")
     if not trusted:
         print("note: no --key given, so the signers' keys were not checked against trusted keys")
     return 0

@@ -5,7 +5,8 @@ A record holds when the list of findings is empty: the file is the canonical JSO
 the content matches its seal, it carries at least one signature, every signature verifies
 with the key it names (and that key is among the trusted keys, when any are given), and,
 with the log at hand, the log's chain is intact, ends at the record's chain head and holds
-exactly the content and the sign-offs the record shows.
+exactly the content and the sign-offs the record shows, and the session's stored state and
+verdict columns (outside the chain) say what the chain says.
 """
 
 from __future__ import annotations
@@ -250,11 +251,15 @@ def _check_log(content: dict, log: Any) -> list[str]:
     try:
         report = log.verify_chain(session_id)
         fresh, _ = content_from_log(log, session_id)
+        # The sessions row's state and verdict columns are outside the chain: an edit there
+        # breaks no link, so it is compared with what the chain says.
+        edited = log.summary_disagreements(session_id)
     except StoreError as exc:
         return [f"log: {exc}"]
     findings = []
     if not report.ok:
         findings.append(f"log chain: {report.problem}")
+    findings += [f"log summary: {line} (edited outside bringup?)" for line in edited]
     log_part = content.get("log")
     head = log_part.get("chain_head") if isinstance(log_part, dict) else None
     if report.head != head:

@@ -35,8 +35,11 @@ class SessionSummary:
 
     ``progress`` counts steps by their latest outcome ("pass", "fail", "skipped", "waived", ...);
     ``steps_total`` is the number of steps in the checklist snapshot (None if it has no
-    ``stages[].steps[]`` list). ``verdict`` is the last overall verdict the runner stored (via
-    ``set_session_state`` or the finish event), or None before it stored one.
+    ``stages[].steps[]`` list). ``state``, ``verdict``, ``stage_verdicts`` and
+    ``last_activity_utc`` are worked out from the session's chained entries on every read
+    (``bringup.store.derived``): a finished session's verdicts are its finish event's, an
+    unfinished one's the worst of its steps' latest entries (None when there is nothing to
+    judge).
     """
 
     id: str
@@ -53,6 +56,9 @@ class SessionSummary:
     steps_total: int | None
     attempts: int
     last_activity_utc: str
+    #: stored listing columns that disagree with the chain (``derived.disagreements``): a
+    #: sign that the ``sessions`` row was edited; empty when they agree
+    altered: tuple[str, ...] = ()
 
     @property
     def finished(self) -> bool:

@@ -17,6 +17,9 @@ Guarantees:
   append-only (SQLite triggers refuse UPDATE and DELETE), a retake is a new row with the next
   ``attempt_no``;
 - each entry carries a hash chain (see ``chain.py``) checked by :meth:`SessionLog.verify_chain`;
+- a session's state (open, aborted, finished) and verdicts are worked out from its chained
+  entries on every read and before every write (``derived.py``): the ``sessions`` row's copies
+  are outside the chain and never believed, and :meth:`summary_disagreements` names an edit;
 - values are converted to plain Python at this boundary (numpy scalars never reach SQLite).
 
 Threads: one ``sqlite3`` connection opened with ``check_same_thread=False``, and every public
@@ -49,6 +52,7 @@ from bringup.store.content import (
     required,
     time_text,
 )
+from bringup.store.derived import Derived
 from bringup.store.entries import (
     ATTEMPT_OUTCOMES,
     EVENT_KINDS,
@@ -208,19 +212,36 @@ class SessionLog(LogReading):
         verdict: str | None = None,
         stage_verdicts: Mapping[str, str] | None = None,
     ) -> None:
-        """Store the runner's current overall and per-stage verdicts for listings.
+        """Rewrite the session's listing columns from its chain (``derived.py``).
 
-        A cache for ``sessions()``, not part of the hash chain: the verdict that counts is the
-        one in the finish event's payload. ``None`` leaves a value as it is.
+        Every ``record_*`` call already does this in its own transaction; the columns are a
+        copy for SQLite tools, never read back. ``verdict`` and ``stage_verdicts`` (the
+        caller's view) are accepted for older callers and not stored: what the chain says is.
         """
+        del verdict, stage_verdicts
         with self._write():
-            self._session_row(session_id)
-            changes: dict[str, Any] = {"last_activity_utc": now_utc()}
-            if verdict is not None:
-                changes["verdict"] = str(verdict)
-            if stage_verdicts is not None:
-                changes["stage_verdicts_json"] = dumps(dict(stage_verdicts))
-            self._db["sessions"].update(session_id, changes)
+            self._refresh_listing(self._session_row(session_id))
+
+    def _refresh_listing(self, row: dict[str, Any]) -> Derived:
+        """Inside a write: store the chain's state, verdicts and times in the listing columns."""
+        derived = self._derived_locked(row)
+        self._db["sessions"].update(
+            row["id"],
+            {
+                "state": derived.state,
+                "verdict": derived.verdict,
+                "stage_verdicts_json": None
+                if derived.stage_verdicts is None
+                else dumps(derived.stage_verdicts),
+                "finished_utc": derived.finished_utc,
+                "last_activity_utc": derived.last_activity_utc,
+            },
+        )
+        return derived
+
+    def _chained_state(self, session: dict[str, Any]) -> str:
+        """The session's state as its chain says (never the editable ``state`` column)."""
+        return self._derived_locked(session).state
 
     # ----------------------------------------------------------------- entries
     def record_attempt(
@@ -282,7 +303,7 @@ class SessionLog(LogReading):
             encoded[str(name)] = (waveform, encode_waveform(waveform))
         with self._write():
             session = self._session_row(session_id)
-            if session["state"] == "finished":
+            if self._chained_state(session) == "finished":
                 raise StoreError(
                     f"session {session_id} is finished: no more attempts can be logged"
                 )
@@ -351,9 +372,7 @@ class SessionLog(LogReading):
                         "data": blob.data,
                     }
                 )
-            self._db["sessions"].update(
-                session_id, {"last_activity_utc": recorded, "state": "open"}
-            )
+            self._refresh_listing(session)
         return int(attempt_id)
 
     def record_event(
@@ -378,8 +397,9 @@ class SessionLog(LogReading):
         - ``note``, ``go-back`` (``stage_id`` = the stage gone back to), ``abort``,
           ``resume``: free; abort marks the session "aborted", resume "open";
         - ``finish``: marks the session finished; ``payload`` should carry the final
-          ``{"verdict": ..., "stages": {stage_id: verdict}}`` (stored in the chain and cached
-          for listings). After finish only notes are accepted.
+          ``{"verdict": ..., "stages": {stage_id: verdict}}`` (chained: the finished session's
+          verdicts are read from it). After finish only notes are accepted (finished as the
+          chain says, whatever the ``state`` column holds).
         """
         if kind not in EVENT_KINDS:
             raise StoreError(f"event kind {kind!r} is not one of {', '.join(EVENT_KINDS)}")
@@ -396,7 +416,7 @@ class SessionLog(LogReading):
                 raise StoreError(f"a {kind} of step {stage_id}/{step_id} needs a reason")
         with self._write():
             session = self._session_row(session_id)
-            if session["state"] == "finished" and kind != "note":
+            if self._chained_state(session) == "finished" and kind != "note":
                 raise StoreError(f"session {session_id} is finished: only notes can be added")
             if kind in ("skip", "waive"):
                 latest = self._latest_outcomes_locked(session_id).get((stage_id, step_id))
@@ -446,18 +466,7 @@ class SessionLog(LogReading):
                 )
                 .last_pk
             )
-            changes: dict[str, Any] = {"last_activity_utc": recorded}
-            if kind == "abort":
-                changes["state"] = "aborted"
-            elif kind == "resume":
-                changes["state"] = "open"
-            elif kind == "finish":
-                changes.update(state="finished", finished_utc=recorded)
-                if payload_plain and payload_plain.get("verdict") is not None:
-                    changes["verdict"] = str(payload_plain["verdict"])
-                if payload_plain and isinstance(payload_plain.get("stages"), dict):
-                    changes["stage_verdicts_json"] = dumps(payload_plain["stages"])
-            self._db["sessions"].update(session_id, changes)
+            self._refresh_listing(session)
         return int(event_id)
 
     def add_signature(

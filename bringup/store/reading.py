@@ -27,6 +27,7 @@ from bringup.store.content import (
     event_record,
     signature_record,
 )
+from bringup.store.derived import ENTRY_ROWS_SQL, Derived, derive, disagreements
 from bringup.store.entries import (
     AttemptRecord,
     EventRecord,
@@ -122,7 +123,23 @@ class LogReading:
             self._session_row(session_id)
             return self._latest_outcomes_locked(session_id)
 
+    def _derived_locked(self, row: dict[str, Any]) -> Derived:
+        """The session's state and verdicts from its chained entries (see ``derived.py``)."""
+        entries = self._rows(ENTRY_ROWS_SQL, [row["id"], row["id"]])
+        return derive(row["created_utc"], loads(row["checklist_json"]), entries)
+
+    def summary_disagreements(self, session_id: str) -> list[str]:
+        """Each stored listing column of the session (state, verdict, stage verdicts, finish
+        time) that says something other than its hash chain, one line each; ``[]`` when
+        they agree. Those columns are outside the chain: a difference means they were edited
+        (what bringup shows and decides is always taken from the chain)."""
+        with self._read():
+            row = self._session_row(session_id)
+            found = disagreements(row, self._derived_locked(row))
+        return [f"session {session_id}: summary column {line}" for line in found]
+
     def _summary(self, row: dict[str, Any]) -> SessionSummary:
+        derived = self._derived_locked(row)
         latest = self._latest_outcomes_locked(row["id"])
         progress: dict[str, int] = {}
         for outcome in latest.values():
@@ -138,20 +155,25 @@ class LogReading:
             serial=row["serial"],
             operator=row["operator"],
             checklist_id=row["checklist_id"],
-            state=row["state"],
-            verdict=row["verdict"],
-            stage_verdicts=loads(row["stage_verdicts_json"]),
+            state=derived.state,
+            verdict=derived.verdict,
+            stage_verdicts=derived.stage_verdicts,
             progress=progress,
             steps_total=_count_steps(loads(row["checklist_json"])),
             attempts=attempts[0]["n"],
-            last_activity_utc=row["last_activity_utc"],
+            last_activity_utc=derived.last_activity_utc,
+            altered=tuple(disagreements(row, derived)),
         )
 
     def sessions(self) -> list[SessionSummary]:
-        """Every session, most recent activity first."""
+        """Every session, most recent activity first (state, verdicts and activity from each
+        session's chain, not from the stored listing columns)."""
         with self._read():
-            rows = self._rows("SELECT * FROM sessions ORDER BY last_activity_utc DESC, id")
-            return [self._summary(row) for row in rows]
+            rows = self._rows("SELECT * FROM sessions ORDER BY id")
+            summaries = [self._summary(row) for row in rows]
+        summaries.sort(key=lambda s: s.id)
+        summaries.sort(key=lambda s: s.last_activity_utc, reverse=True)
+        return summaries
 
     def _waveform_descriptions(self, attempt_id: int) -> dict[str, dict[str, Any]]:
         columns = ", ".join((*WAVEFORM_SCALE_COLUMNS, "raw_sha256", "codec", "stored_bytes"))

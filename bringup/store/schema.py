@@ -9,7 +9,8 @@ Schema 1, in brief (every ``*_json`` column holds strict JSON; ``*_utc`` columns
 
 - ``sessions``: one board serial through one checklist: id, serial, operator, board name and
   revision, checklist id, the board/checklist/bench snapshots as JSON, ``genesis_hash`` (the
-  chain's first link: SHA-256 of the snapshot), and a cache of the state and verdict.
+  chain's first link: SHA-256 of the snapshot), and a copy of the state and verdicts for
+  SQLite tools (outside the chain: never read back, see ``derived.py``).
 - ``attempts``: one try of one step: ``seq`` (position in the session's chain, shared with
   events), ``attempt_no`` (1, 2, ... per step), who, when, instruments (``*IDN?``), settings,
   metrics, predictions, verdicts, outcome, notes, ``field_hashes_json``, ``content_hash``,

@@ -135,10 +135,12 @@ def test_waive_only_a_failed_step_with_a_reason_and_a_name(log, session_id):
 
 def test_finish_seals_the_session_except_for_notes(log, session_id):
     record(log, session_id)
+    # One step passed, the rest not started: begun, not done (the caller's own view, passed
+    # to set_session_state, is not what the listing shows: the chain is).
     log.set_session_state(
         session_id, verdict="conditional-pass", stage_verdicts={"power-rails": "pass"}
     )
-    assert log.sessions()[0].verdict == "conditional-pass"
+    assert log.sessions()[0].verdict == "in-progress"
     log.record_event(
         session_id,
         kind="finish",
