@@ -25,7 +25,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
-from bringup.store.canonical import loads
+from bringup.store.chain_json import loads
 
 __all__ = ["Derived", "SEVERITY", "derive", "disagreements", "worst", "ENTRY_ROWS_SQL"]
 
