@@ -3,7 +3,11 @@
 Public API (for the TUI and the headless run):
 
 - ``SessionRunner`` (``session.py``): ``create``/``resume``, ``stages``, ``current_step``,
-  ``plan``, ``run_step``, ``skip``, ``waive``, ``note``, ``go_back``, ``abort``, ``close``;
+  ``plan``, ``run_step``, ``skip``, ``waive``, ``note``, ``go_back``, ``abort``, ``close``. It
+  owns four collaborators, each importable and testable alone and none importing the runner:
+  ``SessionState`` (``state.py``, the walk), ``Planner`` (``planning.py``), ``StepExecutor``
+  (``executing.py``, the open bench and one attempt at a time) and ``Recorder``
+  (``recording.py``, the session's side of the log); ``resuming.py`` reopens a session;
 - ``BenchSource`` (``bench_source.py``): a bench file or a simulated bench;
 - the records of ``results.py``: ``StepPlan``, ``EnergisePlan``, ``ChannelPlan``, ``StepAnswers``,
   ``Progress``, ``SoakProgress``, ``AttemptResult``, ``MetricResult``, ``WaveformView``,

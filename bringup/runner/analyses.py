@@ -292,6 +292,55 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
             out.set(metric, None, f"vgs: {exc}")
 
 
+def _supported_on_time(d, floor: float, out: AnalysisOutput) -> None:
+    """The longest on-time (s) the droop line ``d`` supports before Vgs reaches ``floor`` (V),
+    with its special cases (below the floor at once, no measurable droop, far extrapolation)."""
+    if d.t_on_max_s is not None:
+        out.set("on_time_supported", d.t_on_max_s)
+    elif d.start_v <= floor:
+        # Vgs is below the floor as soon as the edge settles: no on-time is supported.
+        out.set("on_time_supported", 0.0)
+        out.warnings.append(
+            f"Vgs starts at {d.start_v:.3g} V, already below the {floor:.3g} V floor"
+        )
+    elif d.droop_rate_v_per_s <= 0 and d.end_v > floor:
+        # The top does not sag at all: its line never reaches the floor. Reported as a
+        # large finite value so that the target can judge it.
+        out.set("on_time_supported", 1.0)
+        out.warnings.append("Vgs does not droop measurably: supported on-time shown as 1 s")
+    else:
+        out.set("on_time_supported", None, d.reasons.get("t_on_max_s", "no estimate"))
+    if d.extrapolation is not None and d.extrapolation > 10:
+        out.details["extrapolated"] = ["on_time_supported"]
+        out.warnings.append(
+            f"the supported on-time extrapolates the droop line {d.extrapolation:.0f}x beyond "
+            "the measured on-time"
+        )
+
+
+def _bootstrap_droop(vbs: Trace, uvlo: float, on_window, out: AnalysisOutput) -> None:
+    """V_BS at the end of the on-time found on V_GS (V) and its margin over the driver's
+    falling UVLO ``uvlo`` (V)."""
+    from bringup.analysis.droop import measure_droop
+
+    if on_window is None:
+        why = "vbs: needs the on-time found on vgs, which was not measured"
+        out.set("vbs_end", None, why)
+        out.set("uvlo_margin", None, why)
+        return
+    try:
+        b = measure_droop(vbs.volts, vbs.dt_s, uvlo, vbs.t0_s, on_window_s=on_window)
+        out.set("vbs_end", b.end_v)
+        out.set("uvlo_margin", b.end_v - uvlo)
+        out.spans["vbs_end"] = out.spans["uvlo_margin"] = ((b.top_start_s, b.top_end_s),)
+        out.views.append(_view("vbs", vbs, {"start": b.start_v, "end": b.end_v, "uvlo": uvlo},
+                               window=(b.top_start_s, b.top_end_s)))  # fmt: skip
+        out.details["vbs_droop"] = b.to_dict()
+    except AnalysisError as exc:
+        out.set("vbs_end", None, f"vbs: {exc}")
+        out.set("uvlo_margin", None, f"vbs: {exc}")
+
+
 def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     """Droop of Vgs and of the bootstrap voltage over the on-time (V), by a least-squares line
     over the settled top (``bringup.analysis.droop``); Vgs at the start and end of the on-time;
@@ -330,50 +379,14 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
             out.spans[metric] = top
         # The on-time uses the samples that bracket its two crossings (interpolated between).
         out.spans["on_time"] = tuple((t - vgs.dt_s, t + vgs.dt_s) for t in on_window)
-        if d.t_on_max_s is not None:
-            out.set("on_time_supported", d.t_on_max_s)
-        elif d.start_v <= floor:
-            # Vgs is below the floor as soon as the edge settles: no on-time is supported.
-            out.set("on_time_supported", 0.0)
-            out.warnings.append(
-                f"Vgs starts at {d.start_v:.3g} V, already below the {floor:.3g} V floor"
-            )
-        elif d.droop_rate_v_per_s <= 0 and d.end_v > floor:
-            # The top does not sag at all: its line never reaches the floor. Reported as a
-            # large finite value so that the target can judge it.
-            out.set("on_time_supported", 1.0)
-            out.warnings.append("Vgs does not droop measurably: supported on-time shown as 1 s")
-        else:
-            out.set("on_time_supported", None, d.reasons.get("t_on_max_s", "no estimate"))
-        if d.extrapolation is not None and d.extrapolation > 10:
-            out.details["extrapolated"] = ["on_time_supported"]
-            out.warnings.append(
-                f"the supported on-time extrapolates the droop line {d.extrapolation:.0f}x beyond "
-                "the measured on-time"
-            )
+        _supported_on_time(d, floor, out)
         out.views.append(_view("vgs", vgs, {"start": d.start_v, "end": d.end_v, "floor": floor},
                                window=(d.top_start_s, d.top_end_s)))  # fmt: skip
         out.details["vgs_droop"] = d.to_dict()
     except AnalysisError as exc:
         for metric in ("vgs_droop", "vgs_start", "vgs_end", "on_time", "on_time_supported"):
             out.set(metric, None, f"vgs: {exc}")
-    uvlo = board.design["driver_uvlo_falling"]
-    if on_window is None:
-        why = "vbs: needs the on-time found on vgs, which was not measured"
-        out.set("vbs_end", None, why)
-        out.set("uvlo_margin", None, why)
-        return
-    try:
-        b = measure_droop(vbs.volts, vbs.dt_s, uvlo, vbs.t0_s, on_window_s=on_window)
-        out.set("vbs_end", b.end_v)
-        out.set("uvlo_margin", b.end_v - uvlo)
-        out.spans["vbs_end"] = out.spans["uvlo_margin"] = ((b.top_start_s, b.top_end_s),)
-        out.views.append(_view("vbs", vbs, {"start": b.start_v, "end": b.end_v, "uvlo": uvlo},
-                               window=(b.top_start_s, b.top_end_s)))  # fmt: skip
-        out.details["vbs_droop"] = b.to_dict()
-    except AnalysisError as exc:
-        out.set("vbs_end", None, f"vbs: {exc}")
-        out.set("uvlo_margin", None, f"vbs: {exc}")
+    _bootstrap_droop(vbs, board.design["driver_uvlo_falling"], on_window, out)
 
 
 def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:

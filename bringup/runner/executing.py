@@ -20,8 +20,9 @@ from bringup.checklist.catalogue import metrics_of
 from bringup.checklist.model import Step
 from bringup.errors import BringupError
 from bringup.runner.analyses import AnalysisInput, AnalysisOutput, RampStep, analyse
+from bringup.runner.planning import Planner
 from bringup.runner.predictions import disagreement, predict
-from bringup.runner.recording import store_attempt
+from bringup.runner.recording import Recorder, now_utc
 from bringup.runner.results import (
     AttemptResult,
     MetricResult,
@@ -33,9 +34,9 @@ from bringup.runner.results import (
 )
 
 if TYPE_CHECKING:
-    from bringup.runner.session import SessionRunner
+    from bringup.runner.bench_link import BenchLink
 
-__all__ = ["execute", "StepStopped", "now_utc"]
+__all__ = ["StepExecutor", "StepStopped", "now_utc"]
 
 # How often (readings) the soak's prediction is refitted while it runs, and when it counts as
 # settled: the last fits agree within this (K) and the fit's uncertainty is within the guard band.
@@ -47,23 +48,17 @@ class StepStopped(Exception):
     """The operator cancelled the step or the session was aborted."""
 
 
-def now_utc() -> str:
-    """The time now, ISO 8601 UTC with milliseconds."""
-    import datetime as dt
-
-    return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds").replace("+00:00", "Z")
-
-
 class _Context:
     """What one attempt carries along while it runs."""
 
-    def __init__(self, runner, step, plan, cancel, finish, on_progress):
-        self.runner = runner
+    def __init__(self, executor, step, plan, cancel, finish, on_progress):
+        self.executor: StepExecutor = executor
+        self.board = executor.board
         self.step: Step = step
         self.plan: StepPlan = plan
         self.cancel = cancel or threading.Event()
         self.finish = finish or threading.Event()
-        self.aborted: threading.Event = runner.aborted
+        self.aborted: threading.Event = executor.aborted
         self.on_progress: Callable[[Progress], None] | None = on_progress
         self.data = AnalysisInput()
         self.raw: dict = {}
@@ -122,7 +117,7 @@ def _ramp(ctx: _Context, powered, supply: dict) -> None:
     """The first-power ramp: each step's current read back; a short stops it at once."""
     from bringup.instruments.supply import Regulation
 
-    target = ctx.runner.board.targets.get("ramp_current")
+    target = ctx.board.targets.get("ramp_current")
     ceiling = target.limit.max if target is not None and target.limit.max is not None else None
     steps = supply["ramp_v"]
     for k, volts in enumerate(steps):
@@ -152,7 +147,7 @@ def _soak(ctx: _Context, bench, powered) -> None:
     from bringup.errors import AnalysisError
 
     soak = ctx.plan.settings["soak"]
-    target = ctx.runner.board.targets.get("heatsink_final")
+    target = ctx.board.targets.get("heatsink_final")
     band = target.uncertainty if target is not None else 1.0
     limit = target.limit.max if target is not None else None
     scale = bench.time_scale()
@@ -198,11 +193,11 @@ def _soak(ctx: _Context, bench, powered) -> None:
 
 def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
     """Hands, power, acquisition; returns the instruments' identities. Supply OFF after."""
-    runner, step = ctx.runner, ctx.step
+    step = ctx.step
     ctx.emit("preparing", "opening the bench")
-    bench = runner.bench()
+    bench = ctx.executor.bench()
     # Channels follow the probes the open bench really has.
-    ctx.plan = plan = runner.plan(step.id)
+    ctx.plan = plan = ctx.executor.planner.plan(step)
     identities = bench.identities()
     ctx.check()
     if bench.simulated:
@@ -258,7 +253,7 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
 
 # ------------------------------------------------------------------------- judging
 def _judge(ctx: _Context, out: AnalysisOutput) -> tuple[str, tuple[MetricResult, ...]]:
-    board, step = ctx.runner.board, ctx.step
+    board, step = ctx.board, ctx.step
     predicted = predict(step.analysis, board)
     units = metrics_of(step.analysis)
     results: list[MetricResult] = []
@@ -289,63 +284,119 @@ def _judge(ctx: _Context, out: AnalysisOutput) -> tuple[str, tuple[MetricResult,
     return state, tuple(results)
 
 
-def execute(
-    runner: SessionRunner,
-    step: Step,
-    answers: StepAnswers | None,
-    cancel: threading.Event | None,
-    finish: threading.Event | None,
-    on_progress: Callable[[Progress], None] | None,
-    notes: str = "",
-) -> AttemptResult:
-    """Run one attempt of ``step`` for ``runner`` and log it (see the module docstring)."""
-    plan = runner.plan(step.id)
-    ctx = _Context(runner, step, plan, cancel, finish, on_progress)
-    started = now_utc()
-    identities: dict[str, str] = {}
-    message = ""
-    state = "not-run"
-    metrics: tuple[MetricResult, ...] = ()
-    out = AnalysisOutput()
-    try:
-        refusal = _answers(ctx, answers, runner.bench_source.is_simulated)
-        if refusal is not None:
-            message = f"not run: {refusal}"
-        else:
-            identities = _on_bench(ctx, answers)
-            ctx.emit("analysing", "analysing")
-            out = analyse(step.analysis, ctx.data, runner.board)
-            ctx.warnings.extend(out.warnings)
-            state, metrics = _judge(ctx, out)
-    except StepStopped as exc:
-        message = f"not run: {exc}; supply switched off"
-    except BringupError as exc:
-        message = f"not run: {exc}"
-    finally:
-        bench = runner._bench
+class StepExecutor:
+    """Runs attempts on the bench and logs them: owns the open bench (opened on first use)
+    and the abort flag that every running step checks.
+
+    ``execute`` blocks (call it from a worker thread); ``stop_now`` may be called from any
+    thread meanwhile."""
+
+    def __init__(self, *, board, source, planner: Planner, recorder: Recorder,
+                 operator: str, bench: BenchLink | None = None) -> None:  # fmt: skip
+        self.board = board
+        self.source = source
+        self.planner = planner
+        self.recorder = recorder
+        self.operator = operator
+        self._bench = bench
+        self._bench_lock = threading.Lock()
+        self._abort = threading.Event()
         if bench is not None:
-            problem = bench.make_safe()
+            planner.use_probes(bench.probe_kinds())
+
+    @property
+    def aborted(self) -> threading.Event:
+        """Set by ``stop_now``; a running step checks it between instrument calls."""
+        return self._abort
+
+    @property
+    def is_open(self) -> bool:
+        """True once the bench is open."""
+        return self._bench is not None
+
+    def bench(self) -> BenchLink:
+        """The open bench, opened on first use."""
+        with self._bench_lock:
+            if self._bench is None:
+                from bringup.runner.bench_link import BenchLink
+
+                self._bench = BenchLink.open(self.source, self.board)
+                self.planner.use_probes(self._bench.probe_kinds())
+            return self._bench
+
+    def execute(
+        self,
+        step: Step,
+        attempt_no: int,
+        answers: StepAnswers | None,
+        cancel: threading.Event | None,
+        finish: threading.Event | None,
+        on_progress: Callable[[Progress], None] | None,
+        notes: str = "",
+    ) -> AttemptResult:
+        """Run attempt ``attempt_no`` of ``step`` and log it (see the module docstring)."""
+        self._abort.clear()
+        ctx = _Context(self, step, self.planner.plan(step), cancel, finish, on_progress)
+        started = now_utc()
+        identities: dict[str, str] = {}
+        message = ""
+        state = "not-run"
+        metrics: tuple[MetricResult, ...] = ()
+        out = AnalysisOutput()
+        try:
+            refusal = _answers(ctx, answers, self.source.is_simulated)
+            if refusal is not None:
+                message = f"not run: {refusal}"
+            else:
+                identities = _on_bench(ctx, answers)
+                ctx.emit("analysing", "analysing")
+                out = analyse(step.analysis, ctx.data, self.board)
+                ctx.warnings.extend(out.warnings)
+                state, metrics = _judge(ctx, out)
+        except StepStopped as exc:
+            message = f"not run: {exc}; supply switched off"
+        except BringupError as exc:
+            message = f"not run: {exc}"
+        finally:
+            problem = self.stop_now() if self._bench is not None else None
             if problem:
                 ctx.warnings.append(f"could not confirm the supply off: {problem}")
-    finished = now_utc()
-    ctx.emit("storing", "logging the attempt")
-    result = AttemptResult(
-        step_id=step.id,
-        stage_id=step.stage_id,
-        attempt_no=runner.step_status(step.id).attempts + 1,
-        state=state,
-        metrics=metrics,
-        waveforms=tuple(out.views),
-        instruments=identities,
-        settings=ctx.plan.settings,
-        operator=runner.operator,
-        started_utc=started,
-        finished_utc=finished,
-        message=message,
-        warnings=tuple(dict.fromkeys(ctx.warnings)),
-        soak=ctx.soak,
-        notes=str(notes or "").strip(),
-    )
-    stored = store_attempt(runner, step, result, ctx.raw, out)
-    ctx.emit("done", f"{step.id}: {state}")
-    return stored
+        ctx.emit("storing", "logging the attempt")
+        result = AttemptResult(
+            step_id=step.id,
+            stage_id=step.stage_id,
+            attempt_no=attempt_no,
+            state=state,
+            metrics=metrics,
+            waveforms=tuple(out.views),
+            instruments=identities,
+            settings=ctx.plan.settings,
+            operator=self.operator,
+            started_utc=started,
+            finished_utc=now_utc(),
+            message=message,
+            warnings=tuple(dict.fromkeys(ctx.warnings)),
+            soak=ctx.soak,
+            notes=str(notes or "").strip(),
+        )
+        stored = self.recorder.store(step, result, ctx.raw, out)
+        ctx.emit("done", f"{step.id}: {state}")
+        return stored
+
+    def abort(self) -> str | None:
+        """Make a running step stop at its next check and switch the supply off now."""
+        self._abort.set()
+        return self.stop_now()
+
+    def stop_now(self) -> str | None:
+        """Supply output OFF now, from any thread; a problem text, or None when confirmed
+        (or when the bench was never opened: nothing can be on)."""
+        bench = self._bench
+        return bench.make_safe() if bench is not None else None
+
+    def close(self) -> None:
+        """Supply OFF (confirmed), the bench's connections closed, a simulated bench stopped."""
+        with self._bench_lock:
+            bench, self._bench = self._bench, None
+        if bench is not None:
+            bench.close()

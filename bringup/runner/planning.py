@@ -12,7 +12,7 @@ from bringup.errors import InputError
 from bringup.runner.bench_source import BenchSource
 from bringup.runner.results import ChannelPlan, EnergisePlan, StepPlan
 
-__all__ = ["plan_step", "MATH_COMMON_MODE_WARN_V"]
+__all__ = ["Planner", "plan_step", "MATH_COMMON_MODE_WARN_V"]
 
 #: Above this common mode (volts), Vgs from a math difference of two ground-referenced probes is
 #: flagged: a 1 % gain mismatch at the bus voltage is a sizeable error on a ~10 V difference
@@ -184,3 +184,21 @@ def plan_step(
         settings=settings,
         warnings=tuple(warnings),
     )
+
+
+class Planner:
+    """Plans the steps of one board on one bench: ``plan(step)``. The probes the open bench
+    really has replace the default layout once known (``use_probes``)."""
+
+    def __init__(self, board: Board, bench: BenchSource) -> None:
+        self.board = board
+        self.bench = bench
+        self._kinds: dict[int, str] | None = None
+
+    def use_probes(self, probe_kinds: dict[int, str]) -> None:
+        """The kind of probe on each scope channel of the open bench."""
+        self._kinds = dict(probe_kinds)
+
+    def plan(self, step: Step) -> StepPlan:
+        """``step`` resolved for this board and bench (see ``plan_step``)."""
+        return plan_step(step, self.board, self.bench, self._kinds)

@@ -9,7 +9,7 @@ crossings, windows) and analysis details, so a resumed session shows the same at
 from __future__ import annotations
 
 import dataclasses
-from typing import TYPE_CHECKING
+import threading
 
 import numpy as np
 
@@ -18,10 +18,14 @@ from bringup.checklist.model import Step
 from bringup.runner.analyses import AnalysisOutput
 from bringup.runner.results import AttemptResult, Crossing, MetricResult, SoakProgress, WaveformView
 
-if TYPE_CHECKING:
-    from bringup.runner.session import SessionRunner
+__all__ = ["Recorder", "now_utc", "attempt_from_record", "views_from_record"]
 
-__all__ = ["store_attempt", "attempt_from_record", "views_from_record"]
+
+def now_utc() -> str:
+    """The time now, ISO 8601 UTC with milliseconds."""
+    import datetime as dt
+
+    return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds").replace("+00:00", "Z")
 
 
 def _limit_dict(limit: Limit | None) -> dict | None:
@@ -38,17 +42,9 @@ def _view_note(view: WaveformView) -> dict:
     }
 
 
-def store_attempt(
-    runner: SessionRunner, step: Step, result: AttemptResult, raw: dict, out: AnalysisOutput
-) -> AttemptResult:
-    """Log ``result`` (with the raw records ``raw`` by net) and return it with its row id."""
-    from bringup.store.waveforms import StoredWaveform
-
-    metrics = {
-        m.id: {"value": m.measured, "unit": m.unit, "label": m.label} for m in result.metrics
-    }
-    predictions = {m.id: m.predicted for m in result.metrics if m.predicted is not None}
-    verdicts = {
+def _verdicts(result: AttemptResult) -> dict:
+    """Judged metrics -> outcome, margin, reason, limit, uncertainty, rule, disagreement."""
+    return {
         m.id: {
             "outcome": m.outcome,
             "margin": m.margin,
@@ -61,9 +57,14 @@ def store_attempt(
         for m in result.metrics
         if m.judged
     }
-    waveforms = {}
-    for net, wf in raw.items():
-        waveforms[net] = StoredWaveform(
+
+
+def _stored_waveforms(raw: dict) -> dict:
+    """Raw records by net (the instrument's codes plus scale) as the store keeps them."""
+    from bringup.store.waveforms import StoredWaveform
+
+    return {
+        net: StoredWaveform(
             codes=np.asarray(wf.codes),
             # The store maps a -0.0 from the instrument to 0.0 itself (SQLite keeps no negative
             # zero, and a scale that read back differently would break the hash chain).
@@ -73,6 +74,13 @@ def store_attempt(
             y_origin=wf.y_origin,
             meta={"net": net, "source": wf.source},
         )
+        for net, wf in raw.items()
+    }
+
+
+def _extra(step: Step, result: AttemptResult, out: AnalysisOutput) -> dict:
+    """What a resumed session needs to show the attempt as it ran: message, warnings, plot
+    annotations, reported metrics, analysis details, the soak's log."""
     extra = {
         "state": result.state,
         "message": result.message,
@@ -88,26 +96,76 @@ def store_attempt(
     }
     if result.soak is not None:
         extra["soak"] = dataclasses.asdict(result.soak)
-    outcome = result.state if result.state != "not-run" else "not-run"
-    with runner._lock:
-        attempt_id = runner.log.record_attempt(
-            runner.session_id,
-            stage_id=step.stage_id,
-            step_id=step.key,
-            operator=result.operator,
-            started_utc=result.started_utc,
-            finished_utc=result.finished_utc,
-            instruments=result.instruments,
-            settings=result.settings,
-            metrics=metrics,
-            predictions=predictions,
-            verdicts=verdicts,
-            outcome=outcome,
-            notes=result.notes,
-            waveforms=waveforms,
-            extra=extra,
-        )
-    return dataclasses.replace(result, attempt_id=attempt_id)
+    return extra
+
+
+class Recorder:
+    """One session's side of the log (``bringup.store.SessionLog``): attempts and events in,
+    stored attempts' waveforms out. Safe to use from several threads (one lock)."""
+
+    def __init__(self, log, session_id: str) -> None:
+        self.log = log
+        self.session_id = session_id
+        self._lock = threading.RLock()
+
+    @property
+    def lock(self) -> threading.RLock:
+        """Held around every use of the log."""
+        return self._lock
+
+    def store(
+        self, step: Step, result: AttemptResult, raw: dict, out: AnalysisOutput
+    ) -> AttemptResult:
+        """Log ``result`` (with the raw records ``raw`` by net) in one transaction and return
+        it with its row id."""
+        metrics = {
+            m.id: {"value": m.measured, "unit": m.unit, "label": m.label} for m in result.metrics
+        }
+        predictions = {m.id: m.predicted for m in result.metrics if m.predicted is not None}
+        with self._lock:
+            attempt_id = self.log.record_attempt(
+                self.session_id,
+                stage_id=step.stage_id,
+                step_id=step.key,
+                operator=result.operator,
+                started_utc=result.started_utc,
+                finished_utc=result.finished_utc,
+                instruments=result.instruments,
+                settings=result.settings,
+                metrics=metrics,
+                predictions=predictions,
+                verdicts=_verdicts(result),
+                outcome=result.state,
+                notes=result.notes,
+                waveforms=_stored_waveforms(raw),
+                extra=_extra(step, result, out),
+            )
+        return dataclasses.replace(result, attempt_id=attempt_id)
+
+    def event(self, kind: str, operator: str, **fields) -> int:
+        """Log an event (``SessionLog.record_event``: skip, waive, note, go-back, abort, ...)."""
+        with self._lock:
+            return self.log.record_event(self.session_id, kind=kind, operator=operator, **fields)
+
+    def update_listing(self, verdict: str, stage_verdicts: dict[str, str]) -> None:
+        """The session's cached verdicts, for listings."""
+        with self._lock:
+            self.log.set_session_state(
+                self.session_id, verdict=verdict, stage_verdicts=stage_verdicts
+            )
+
+    def views_of(self, attempt: AttemptResult) -> tuple[WaveformView, ...]:
+        """The plot views of a stored attempt (annotations over the stored raw samples)."""
+        with self._lock:
+            for record in self.log.attempts(self.session_id):
+                if record.id == attempt.attempt_id:
+                    return views_from_record(self.log, record)
+        return ()
+
+    def close(self) -> None:
+        """Close the log."""
+        with self._lock:
+            self.log.close()
 
 
 def attempt_from_record(record, step: Step) -> AttemptResult:

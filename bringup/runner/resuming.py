@@ -6,20 +6,22 @@ attempt that was running is simply absent and its step is run again on resume.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from pathlib import Path
 
+from bringup.boards.board_file import Board
+from bringup.checklist.model import Checklist
 from bringup.runner.bench_source import BenchSource
 from bringup.runner.file_snapshots import board_from_snapshot, checklist_from_snapshot
-from bringup.runner.recording import attempt_from_record, views_from_record
+from bringup.runner.recording import attempt_from_record
+from bringup.runner.state import RunnerError, SessionState
 
-__all__ = ["reopen", "load_views", "pick_session"]
+__all__ = ["Reopened", "reopen", "replay", "pick_session"]
 
 
 def pick_session(log, session_id: str | None) -> str:
     """The session named by ``session_id`` (id or unique prefix), or with None the most
     recently active one that is not finished."""
-    from bringup.runner.session import RunnerError
-
     if session_id is not None:
         if not session_id.strip():
             raise RunnerError(
@@ -32,10 +34,29 @@ def pick_session(log, session_id: str | None) -> str:
     raise RunnerError(f"{log.path}: no unfinished session to resume")
 
 
-def reopen(cls, session_id: str | None, *, db_path: str | Path | None, bench: BenchSource | None,
-           operator: str | None):  # fmt: skip
-    """See ``SessionRunner.resume``."""
-    from bringup.runner.session import RunnerError
+@dataclass
+class Reopened:
+    """A logged session, ready to be carried on: the open log and what the snapshot says."""
+
+    log: object  # bringup.store.SessionLog, open; the caller closes it
+    session_id: str
+    board: Board
+    checklist: Checklist
+    serial: str
+    operator: str
+    bench: BenchSource
+    timeline: tuple
+
+
+def reopen(
+    session_id: str | None,
+    *,
+    db_path: str | Path | None,
+    bench: BenchSource | None,
+    operator: str | None,
+) -> Reopened:
+    """Open the log and read the session to resume (see ``SessionRunner.resume``): refused
+    when it is finished or the log does not say which bench it ran on."""
     from bringup.store import SessionLog
 
     log = SessionLog.open(db_path, create=False)
@@ -46,36 +67,29 @@ def reopen(cls, session_id: str | None, *, db_path: str | Path | None, bench: Be
             raise RunnerError(
                 f"session {sid} is finished ({data.summary.verdict}): nothing to resume"
             )
-        board = board_from_snapshot(data.board)
-        checklist = checklist_from_snapshot(data.checklist)
         source = bench or BenchSource.from_description(data.bench)
         if source is None:
             raise RunnerError(
                 f"session {sid}: the log does not say which bench it ran on; give --bench or --sim"
             )
-        runner = cls(log=log, session_id=sid, board=board, checklist=checklist,
-                     serial=data.summary.serial, operator=(operator or data.summary.operator),
-                     bench=source)  # fmt: skip
-        steps = {(s.stage_id, s.key): s for s in checklist.steps()}
-        for entry in data.timeline:
-            kind = getattr(entry, "kind", "attempt")
-            step = steps.get((entry.stage_id, entry.step_id)) if entry.step_id else None
-            if kind == "attempt" and step is not None:
-                runner._state.add(attempt_from_record(entry, step))
-            elif kind in ("skip", "waive") and step is not None:
-                reason = entry.reason if kind == "skip" else f"{entry.reason} ({entry.operator})"
-                runner._state.decide(step.id, "skipped" if kind == "skip" else "waived", reason)
-        log.record_event(sid, kind="resume", operator=runner.operator,
-                         reason=f"resumed at {runner.current_step() or 'the end'}")  # fmt: skip
-        return runner
+        return Reopened(log, sid, board_from_snapshot(data.board),
+                        checklist_from_snapshot(data.checklist), data.summary.serial,
+                        operator or data.summary.operator, source, tuple(data.timeline))  # fmt: skip
     except BaseException:
         log.close()
         raise
 
 
-def load_views(log, session_id: str, attempt):
-    """The plot views of a stored attempt (annotations over the stored raw samples)."""
-    for record in log.attempts(session_id):
-        if record.id == attempt.attempt_id:
-            return views_from_record(log, record)
-    return ()
+def replay(timeline, checklist: Checklist, state: SessionState) -> None:
+    """Replay the logged attempts, skips and waivers of ``timeline`` into ``state``."""
+    steps = {(s.stage_id, s.key): s for s in checklist.steps()}
+    for entry in timeline:
+        kind = getattr(entry, "kind", "attempt")
+        step = steps.get((entry.stage_id, entry.step_id)) if entry.step_id else None
+        if step is None:
+            continue
+        if kind == "attempt":
+            state.add(attempt_from_record(entry, step))
+        elif kind in ("skip", "waive"):
+            reason = entry.reason if kind == "skip" else f"{entry.reason} ({entry.operator})"
+            state.decide(step.id, "skipped" if kind == "skip" else "waived", reason)

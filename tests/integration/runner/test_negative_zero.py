@@ -8,8 +8,7 @@ import numpy as np
 
 from bringup.instruments.waveform import Waveform
 from bringup.runner.analyses import AnalysisOutput
-from bringup.runner.executing import now_utc
-from bringup.runner.recording import store_attempt
+from bringup.runner.recording import now_utc
 from bringup.runner.results import AttemptResult
 from bringup.store import SessionLog
 
@@ -26,7 +25,7 @@ def test_a_negative_zero_origin_keeps_the_chain_and_reads_back_as_zero(make_runn
     now = now_utc()
     result = AttemptResult(step.id, step.stage_id, 1, "not-run", (), (), {}, {}, "tester", now,
                            now, message="not run: logging test")  # fmt: skip
-    stored = store_attempt(runner, step, result, {"vdrv": wf}, AnalysisOutput())
+    stored = runner.recorder.store(step, result, {"vdrv": wf}, AnalysisOutput())
     with SessionLog.open(runner.log.path, create=False) as log:
         report = log.verify_chain(runner.session_id)
         assert report.ok, report.problem
