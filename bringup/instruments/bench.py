@@ -303,7 +303,6 @@ def open_bench(
     the bench file wires them. ``scpi_log`` records every line each instrument is sent and
     answers. Any failure closes what was opened."""
     from bringup.instruments.scope import Scope
-    from bringup.instruments.scpi_log import ScpiLog
     from bringup.instruments.supply import Supply
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
