@@ -1,4 +1,4 @@
-"""``bringup export SESSION --format html|pdf|json [--out PATH] [--db PATH]``: the record."""
+"""``bringup export SESSION|--last --format html|pdf|json [--out PATH] [--db PATH]``: the record."""
 
 from __future__ import annotations
 
@@ -7,6 +7,7 @@ import os
 import sys
 from pathlib import Path
 
+from bringup.commands.session_choice import add_session_choice, chosen_session
 from bringup.errors import InputError
 
 FORMATS = ("json", "html", "pdf")
@@ -23,7 +24,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         "checked first: when an entry was changed after logging, the export is refused "
         "(exit 2, one line naming the entry and field; `bringup verify --db` shows the rest).",
     )
-    parser.add_argument("session", metavar="SESSION", help="session id (or a unique prefix)")
+    add_session_choice(parser)
     parser.add_argument("--format", choices=FORMATS, default="json", help="default: json")
     parser.add_argument(
         "--out",
@@ -54,7 +55,7 @@ def run(args: argparse.Namespace) -> int:
     from bringup.record.from_log import open_log, record_from_log
 
     with open_log(args.db) as log:
-        record = record_from_log(log, args.session)
+        record = record_from_log(log, chosen_session(log, args))
     data = render(record, args.format)
     session_id = record["content"]["session"]["id"]
     if args.out == "-":

@@ -1,4 +1,4 @@
-"""``bringup sessions [--db PATH] [--json]``: the sessions in the log, most recent first."""
+"""``bringup sessions [--db PATH] [--json] [--last]``: the sessions in the log, most recent first."""
 
 from __future__ import annotations
 
@@ -17,6 +17,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     )
     parser.add_argument("--db", metavar="PATH", help="session log (default: your data directory)")
     parser.add_argument("--json", action="store_true", help="a JSON list of objects")
+    parser.add_argument(
+        "--last", action="store_true", help="only the session started last (what --last names)"
+    )
     parser.set_defaults(func=run)
     return parser
 
@@ -59,6 +62,9 @@ def run(args: argparse.Namespace) -> int:
     else:
         with SessionLog.open(path, create=False) as log:
             rows = [_row(s) for s in log.sessions()]
+            if args.last and rows:
+                latest = log.latest_session()
+                rows = [r for r in rows if r["id"] == latest]
     if args.json:
         print(json.dumps(rows))
         return 0

@@ -1,9 +1,11 @@
-"""``bringup sign SESSION --key PATH --role operator|reviewer [--db PATH]``: sign off a record."""
+"""``bringup sign SESSION|--last --key PATH --role operator|reviewer [--db PATH]``: sign off a record."""
 
 from __future__ import annotations
 
 import argparse
 from pathlib import Path
+
+from bringup.commands.session_choice import add_session_choice, chosen_session
 
 
 def add_parser(subparsers: argparse._SubParsersAction) -> None:
@@ -17,7 +19,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         "broken, when this key already signed in this role, and when this key (or this "
         "signer's name) signed in the other role: a review needs a second person.",
     )
-    parser.add_argument("session", metavar="SESSION", help="session id (or a unique prefix)")
+    add_session_choice(parser)
     parser.add_argument("--key", required=True, type=Path, metavar="PATH", help="private key")
     parser.add_argument("--role", required=True, choices=("operator", "reviewer"))
     parser.add_argument("--db", type=Path, metavar="PATH", help="the session log (SQLite)")
@@ -29,7 +31,7 @@ def run(args: argparse.Namespace) -> int:
     from bringup.record.from_log import open_log, sign_session
 
     with open_log(args.db) as log:
-        entry = sign_session(log, args.session, args.key, args.role)
+        entry = sign_session(log, chosen_session(log, args), args.key, args.role)
     print(
         f"signed as {entry['role']} by {entry['name']} at {entry['signed_at']} "
         f"with key {entry['key_fingerprint']}"

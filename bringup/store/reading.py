@@ -87,6 +87,16 @@ class LogReading:
             f"{self._path}: {text!r} matches {len(found)} sessions; type more of the id"
         )
 
+    def latest_session(self) -> str:
+        """The id of the session started last (newest ``created_utc``, then the last inserted)."""
+        with self._read():
+            rows = self._rows(
+                "SELECT id FROM sessions ORDER BY created_utc DESC, rowid DESC LIMIT 1"
+            )
+        if not rows:
+            raise StoreError(f"{self._path}: no sessions in this log")
+        return rows[0]["id"]
+
     def _session_row(self, session_id: str) -> dict[str, Any]:
         rows = self._rows("SELECT * FROM sessions WHERE id = ?", [session_id])
         if not rows:
