@@ -54,7 +54,7 @@ def run(args: argparse.Namespace) -> int:
     """Build the record from the log and write it."""
     from bringup.record.from_log import open_log, record_from_log
 
-    with open_log(args.db) as log:
+    with open_log(args.db, read_only=True) as log:
         record = record_from_log(log, chosen_session(log, args))
     data = render(record, args.format)
     session_id = record["content"]["session"]["id"]

@@ -60,7 +60,7 @@ def run(args: argparse.Namespace) -> int:
     if not path.exists():
         rows: list[dict] = []
     else:
-        with SessionLog.open(path, create=False) as log:
+        with SessionLog.open(path, create=False, read_only=True) as log:
             rows = [_row(s) for s in log.sessions()]
             if args.last and rows:
                 latest = log.latest_session()

@@ -40,7 +40,7 @@ def run(args: argparse.Namespace) -> int:
     if args.db is not None:
         from bringup.record.from_log import open_log
 
-        with open_log(args.db) as log:
+        with open_log(args.db, read_only=True) as log:
             findings = verify_record(record, data, log=log, trusted=trusted)
     else:
         findings = verify_record(record, data, trusted=trusted)

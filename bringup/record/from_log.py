@@ -41,9 +41,10 @@ class BrokenChain(BringupError):
     """The session's hash chain does not re-hash: the log was changed after logging."""
 
 
-def open_log(db: str | Path | None) -> SessionLog:
-    """Open an existing log (``None`` = the default file); never creates one."""
-    return SessionLog.open(db, create=False)
+def open_log(db: str | Path | None, *, read_only: bool = False) -> SessionLog:
+    """Open an existing log (``None`` = the default file); never creates one. ``read_only``
+    for export and verify: a log on a read-only share is served (``SessionLog.open``)."""
+    return SessionLog.open(db, create=False, read_only=read_only)
 
 
 def signature_entry(sig: SignatureRecord) -> dict:

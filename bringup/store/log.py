@@ -58,7 +58,7 @@ from bringup.store.entries import (
     EVENT_KINDS,
     FAILED_OUTCOMES,
 )
-from bringup.store.opening import connect, default_db_path, translate
+from bringup.store.opening import connect, connect_read_only, default_db_path, translate
 from bringup.store.reading import LogReading
 from bringup.store.waveforms import StoredWaveform, encode_waveform
 
@@ -77,11 +77,17 @@ class SessionLog(LogReading):
         self._db = sqlite_utils.Database(conn, execute_plugins=False)
         self._path = path
         self._lock = threading.RLock()
+        self._read_only = False
 
     # ----------------------------------------------------------------- opening
     @classmethod
     def open(
-        cls, path: str | Path | None = None, *, create: bool = True, busy_timeout_s: float = 5.0
+        cls,
+        path: str | Path | None = None,
+        *,
+        create: bool = True,
+        busy_timeout_s: float = 5.0,
+        read_only: bool = False,
     ) -> SessionLog:
         """Open (or with ``create`` make) the log at ``path``; ``None`` = :func:`default_db_path`.
 
@@ -89,8 +95,17 @@ class SessionLog(LogReading):
         another process for longer than ``busy_timeout_s`` seconds, is not a SQLite database
         or is damaged, is another program's database, or was written by a newer bringup.
         With ``create=False`` a missing file is an error instead of a new empty log.
+
+        ``read_only``: for commands that never write (listing, export, verify): the existing
+        file is opened with SQLite's ``mode=ro`` and nothing is switched or migrated, so a log
+        on a read-only share or without write permission is served (``opening.py``); every
+        write method then raises ``StoreError``.
         """
         resolved = Path(path).expanduser() if path is not None else default_db_path()
+        if read_only:
+            log = cls(connect_read_only(resolved, busy_timeout_s=busy_timeout_s), resolved)
+            log._read_only = True
+            return log
         return cls(connect(resolved, create=create, busy_timeout_s=busy_timeout_s), resolved)
 
     @property
@@ -113,6 +128,8 @@ class SessionLog(LogReading):
     @contextlib.contextmanager
     def _write(self) -> Iterator[None]:
         """One write transaction; any failure rolls it back and becomes a ``StoreError``."""
+        if self._read_only:
+            raise StoreError(f"{self._path}: the log was opened read-only; nothing was written")
         with self._lock:
             try:
                 self._conn.execute("BEGIN IMMEDIATE")

@@ -10,6 +10,13 @@ Order of checks, each before anything is written to an existing file:
    past the busy timeout, the log is reported locked; pending migrations run in that
    transaction.
 
+Read-only (:func:`connect_read_only`, for ``sessions``, ``export`` and ``verify --db``, which
+never write): steps 1 and 2 only, through SQLite's ``mode=ro``; nothing is switched, migrated or
+locked for writing, so a reviewer's copy on a read-only share (or a file and folder without
+write permission) is served. When SQLite cannot even keep its shared-memory index beside the
+file (a read-only folder), the file is read as immutable, unless a ``-wal`` file beside it holds
+entries not yet in the main file: those would be missed, so that is refused in one line.
+
 Every ``sqlite3`` error is turned into a one-line ``StoreError`` by :func:`translate`.
 """
 
@@ -21,7 +28,7 @@ from pathlib import Path
 from bringup.errors import StoreError
 from bringup.store.schema import APPLICATION_ID, current_version, migrate
 
-__all__ = ["default_db_path", "connect", "translate"]
+__all__ = ["default_db_path", "connect", "connect_read_only", "translate"]
 
 _MAGIC = b"SQLite format 3\x00"
 _PAGE_SIZE = 65536
@@ -103,7 +110,65 @@ def connect(path: Path, *, create: bool, busy_timeout_s: float) -> sqlite3.Conne
     return conn
 
 
-def _prepare(conn: sqlite3.Connection, path: Path) -> None:
+def _uri(path: Path, query: str) -> str:
+    """A ``file:`` URI for ``path`` (RFC 8089; ``?`` and ``#`` in names escaped)."""
+    from urllib.parse import quote
+
+    return f"file:{quote(str(path.resolve()))}?{query}"
+
+
+def connect_read_only(path: Path, *, busy_timeout_s: float) -> sqlite3.Connection:
+    """Open the existing log at ``path`` for reading only; see the module docstring.
+
+    Raises ``StoreError`` as :func:`connect` does (missing, not SQLite, another program's,
+    newer schema), and for a log of an older schema (it must be upgraded by a writer first).
+    """
+    if not (path.exists() and path.stat().st_size > 0):
+        raise StoreError(f"{path}: no session log there (give --db the path of an existing log)")
+    _check_magic(path)
+    try:
+        conn = _open_checked(path, _uri(path, "mode=ro"), busy_timeout_s)
+    except sqlite3.OperationalError as error:
+        text = str(error).lower()
+        if "readonly" not in text and "unable to open" not in text:
+            raise translate(error, path) from None
+        wal = path.with_name(path.name + "-wal")
+        if wal.exists() and wal.stat().st_size > 0:
+            raise StoreError(
+                f"{path}: read-only, and {wal.name} beside it holds entries not yet in the main "
+                "file that cannot be read without write access to the folder; copy the log "
+                "with its -wal file to a writable folder, or open it once with write access"
+            ) from None
+        try:
+            conn = _open_checked(path, _uri(path, "mode=ro&immutable=1"), busy_timeout_s)
+        except sqlite3.Error as again:
+            raise translate(again, path) from None
+    except sqlite3.Error as error:
+        raise translate(error, path) from None
+    return conn
+
+
+def _open_checked(path: Path, uri: str, busy_timeout_s: float) -> sqlite3.Connection:
+    conn = sqlite3.connect(
+        uri, uri=True, timeout=busy_timeout_s, isolation_level=None, check_same_thread=False
+    )
+    try:
+        tables, version = _check_schema(conn, path)
+        if tables == 0:
+            raise StoreError(f"{path}: an empty SQLite database, not a bringup log")
+        if version < current_version():
+            raise StoreError(
+                f"{path}: written by an older bringup (log schema {version}); open it once "
+                "with write access to upgrade it, then read it read-only"
+            )
+    except BaseException:
+        conn.close()
+        raise
+    return conn
+
+
+def _check_schema(conn: sqlite3.Connection, path: Path) -> tuple[int, int]:
+    """Refuse another program's database or a newer schema; (tables, schema version)."""
     conn.execute("PRAGMA foreign_keys = ON")
     tables = conn.execute("SELECT count(*) FROM sqlite_master").fetchone()[0]
     version = conn.execute("PRAGMA user_version").fetchone()[0]
@@ -116,6 +181,12 @@ def _prepare(conn: sqlite3.Connection, path: Path) -> None:
             f"{path}: written by a newer bringup (log schema {version}; this one reads up to "
             f"{newest}); it was left untouched: upgrade bringup to open it"
         )
+    return tables, version
+
+
+def _prepare(conn: sqlite3.Connection, path: Path) -> None:
+    tables, _ = _check_schema(conn, path)
+    newest = current_version()
     if tables == 0:
         conn.execute(f"PRAGMA page_size = {_PAGE_SIZE}")
     mode = conn.execute("PRAGMA journal_mode").fetchone()[0]
