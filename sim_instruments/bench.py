@@ -14,18 +14,52 @@ from __future__ import annotations
 
 import threading
 from collections.abc import Mapping
+from dataclasses import dataclass
 
 from sim_instruments.clock import SharedBoard, SimClock
 from sim_instruments.faults import FaultInjector
+from sim_instruments.meter_dialects import HEATSINK_CHANNEL, DmmThermometer, LoggerThermometer
+from sim_instruments.multi_supply import SelectSupply, TripleSupply
 from sim_instruments.scope import Scope
 from sim_instruments.server import ScpiServer
 from sim_instruments.supply import Supply
 from sim_instruments.thermometer import Thermometer
 
-__all__ = ["RunningBench", "start_bench", "PROFILES"]
+__all__ = ["RunningBench", "start_bench", "PROFILES", "DIALECTS"]
 
 #: The command profile each simulated instrument is driven with (bench file ``profile``).
 PROFILES = {"scope": "sim-scope", "supply": "sim-supply", "thermometer": "sim-thermometer"}
+
+
+@dataclass(frozen=True)
+class Dialect:
+    """One way a simulated instrument can be spoken to: the class that speaks it, the shipped
+    profile written for that family of instruments, and the bench file's extra keys (which
+    channel feeds the board or carries the heatsink's thermocouple)."""
+
+    cls: type
+    profile: str
+    bench_keys: tuple[tuple[str, str], ...] = ()
+
+
+#: Dialects per instrument kind; "nullpoint" is the simulator's own.
+DIALECTS: dict[str, dict[str, Dialect]] = {
+    "scope": {"nullpoint": Dialect(Scope, "sim-scope")},
+    "supply": {
+        "nullpoint": Dialect(Supply, "sim-supply"),
+        "triple": Dialect(TripleSupply, "triple-output-argument", (("channel", '"CH2"'),)),
+        "select": Dialect(SelectSupply, "quad-output-select", (("channel", "3"),)),
+    },
+    "thermometer": {
+        "nullpoint": Dialect(Thermometer, "sim-thermometer"),
+        "dmm": Dialect(DmmThermometer, "dmm-thermocouple", (("thermocouple", '"K"'),)),
+        "logger": Dialect(
+            LoggerThermometer,
+            "logger-thermocouple",
+            (("channel", str(HEATSINK_CHANNEL)), ("thermocouple", '"K"')),
+        ),
+    },
+}
 
 
 class RunningBench:
@@ -40,6 +74,7 @@ class RunningBench:
         thermometer: Thermometer,
         servers: dict[str, ScpiServer],
         seed: int,
+        dialects: Mapping[str, str] | None = None,
     ) -> None:
         self.board = board
         self.model = board.model
@@ -49,6 +84,7 @@ class RunningBench:
         self.thermometer = thermometer
         self.servers = servers
         self.seed = seed
+        self.dialects = {kind: "nullpoint" for kind in DIALECTS} | dict(dialects or {})
         self.resources: dict[str, str] = {name: srv.resource for name, srv in servers.items()}
         self._stopped = False
 
@@ -65,8 +101,10 @@ class RunningBench:
             "",
         ]
         for name in ("scope", "supply", "thermometer"):
+            dialect = DIALECTS[name][self.dialects[name]]
             lines += [f"[{name}]", f'resource = "{self.resources[name]}"']
-            lines += [f'profile = "{PROFILES[name]}"', ""]
+            lines += [f'profile = "{dialect.profile}"']
+            lines += [f"{key} = {value}" for key, value in dialect.bench_keys] + [""]
             if name == "scope":
                 for n, probe in sorted(self.scope.probes.items()):
                     lines += [f"[scope.channels.{n}]", f'net = "{probe.net}"']
@@ -97,22 +135,33 @@ def start_bench(
     port_base: int = 0,
     host: str = "127.0.0.1",
     time_scale: float = 600.0,
+    dialects: Mapping[str, str] | None = None,
 ) -> RunningBench:
     """Build the model and serve the three instruments.
 
     ``design``: the board's ``[design]`` values as SI floats. ``port_base`` 0 picks free ports,
     otherwise scope = P, supply = P+1, thermometer = P+2. ``time_scale``: simulated seconds per
-    wall second for the thermal model. Raises ``ValueError`` for an unknown scenario (from the
+    wall second for the thermal model. ``dialects``: kind -> dialect name (``DIALECTS``; the
+    simulator's own, "nullpoint", where not given). Raises ``ValueError`` for an unknown scenario (from the
     model) and ``OSError`` when a port cannot be bound.
     """
     from sim_instruments.model import StageModel
 
+    chosen = {kind: "nullpoint" for kind in DIALECTS} | dict(dialects or {})
+    for kind, name in chosen.items():
+        if kind not in DIALECTS:
+            raise ValueError(f"no instrument kind {kind!r} (one of {', '.join(DIALECTS)})")
+        if name not in DIALECTS[kind]:
+            known = ", ".join(DIALECTS[kind])
+            raise ValueError(f"no {kind} dialect {name!r} (one of {known})")
     model = StageModel(design, scenario=scenario, seed=seed)
     lock = threading.RLock()
     board = SharedBoard(model, design, SimClock(time_scale), lock)
-    scope = Scope(f"SC{seed:05d}", board, FaultInjector(), seed)
-    supply = Supply(f"PS{seed:05d}", board, FaultInjector(), seed)
-    thermometer = Thermometer(f"TH{seed:05d}", board, FaultInjector(), seed)
+    scope = DIALECTS["scope"][chosen["scope"]].cls(f"SC{seed:05d}", board, FaultInjector(), seed)
+    supply = DIALECTS["supply"][chosen["supply"]].cls(f"PS{seed:05d}", board, FaultInjector(), seed)
+    thermometer = DIALECTS["thermometer"][chosen["thermometer"]].cls(
+        f"TH{seed:05d}", board, FaultInjector(), seed
+    )
     servers: dict[str, ScpiServer] = {}
     try:
         for i, (name, inst) in enumerate(
@@ -124,4 +173,4 @@ def start_bench(
         for server in servers.values():
             server.stop()
         raise
-    return RunningBench(board, scope, supply, thermometer, servers, seed)
+    return RunningBench(board, scope, supply, thermometer, servers, seed, chosen)

@@ -128,11 +128,6 @@ class Thermometer(Instrument):
                 return format_nr3(OVERRANGE)
             return format_nr3(self.dc_voltage())
 
-        def probe_net(session, params, n):
-            if n[0] != 1:
-                raise ScpiError(-114, "the DMM has one pair of leads: PROBe1")
-            self.lead_net = parse_choice(one_param(params), NETS).lower()
-
         tree.add("CONFigure:TEMPerature", set=configure)
         tree.add("CONFigure", query=lambda s, p, n: '"TEMP TC,K"')
         tree.add("UNIT:TEMPerature", set=unit, query=lambda s, p, n: self.unit)
@@ -140,6 +135,16 @@ class Thermometer(Instrument):
         tree.add("READ", query=read)
         tree.add("FETCh", query=fetch)
         tree.add("MEASure:VOLTage[:DC]", query=measure_voltage)
+        self.add_shared_commands(tree)
+
+    def add_shared_commands(self, tree: CommandTree) -> None:
+        """The ``SIMulation`` commands of every simulated meter: the leads, board, faults."""
+
+        def probe_net(session, params, n):
+            if n[0] != 1:
+                raise ScpiError(-114, "the DMM has one pair of leads: PROBe1")
+            self.lead_net = parse_choice(one_param(params), NETS).lower()
+
         tree.add(
             "SIMulation:PROBe<n>:NET", set=probe_net, query=lambda s, p, n: self.lead_net.upper()
         )

@@ -40,7 +40,32 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
     parser.add_argument(
         "--bench-out", metavar="PATH", help="write a bench file pointing at the servers"
     )
+    parser.add_argument(
+        "--dialect",
+        action="append",
+        default=[],
+        metavar="KIND=NAME",
+        help="speak another instrument family's dialect, e.g. supply=triple, supply=select, "
+        "thermometer=dmm, thermometer=logger (repeatable; default each kind's own)",
+    )
     parser.set_defaults(func=run)
+
+
+def parse_dialects(options: list[str]) -> dict[str, str]:
+    """``["supply=triple", ...]`` -> ``{"supply": "triple"}``; a bad one is one line naming it."""
+    from sim_instruments.bench import DIALECTS
+
+    chosen: dict[str, str] = {}
+    for option in options:
+        kind, sep, name = option.partition("=")
+        kind, name = kind.strip(), name.strip()
+        if not sep or kind not in DIALECTS or name not in DIALECTS[kind]:
+            known = "; ".join(f"{k}={'|'.join(v)}" for k, v in DIALECTS.items())
+            raise InputError(f"--dialect {option!r}: expected KIND=NAME, one of {known}")
+        if kind in chosen and chosen[kind] != name:
+            raise InputError(f"--dialect {option!r}: {kind} is already {chosen[kind]!r}")
+        chosen[kind] = name
+    return chosen
 
 
 def load_design(board: str | Path = "demo") -> dict[str, float]:
@@ -60,10 +85,15 @@ def run(args: argparse.Namespace) -> int:
         raise InputError(f"--port-base {args.port_base}: a TCP port 1-65533, or 0 for free ports")
     if args.seed < 0:
         raise InputError(f"--seed {args.seed}: must be a non-negative integer")
+    dialects = parse_dialects(args.dialect)
     design = load_design(args.board)
     try:
         bench = start_bench(
-            design, scenario=args.scenario, seed=args.seed, port_base=args.port_base
+            design,
+            scenario=args.scenario,
+            seed=args.seed,
+            port_base=args.port_base,
+            dialects=dialects,
         )
     except ValueError as exc:
         raise InputError(f"--scenario {args.scenario!r}: {exc}") from None

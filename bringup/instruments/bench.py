@@ -14,10 +14,14 @@ probe_ratio = 10
 [supply]
 resource = "TCPIP::192.168.1.21::5025::SOCKET"
 profile = "sim-supply"
+channel = 2                         # the output feeding the board (multi-channel supplies)
+remote_sense = false                # sense leads wired to the board? (where it can be set)
 
 [thermometer]
 resource = "TCPIP::192.168.1.22::5025::SOCKET"
 profile = "sim-thermometer"
+channel = 1                         # the input the heatsink thermocouple is on
+thermocouple = "K"                  # its type (B, E, J, K, N, R, S, T)
 
 [simulation]                        # only for the simulated bench
 enabled = true
@@ -39,20 +43,24 @@ from bringup.tomlfile import TomlDocument, read_toml
 if TYPE_CHECKING:
     from bringup.instruments.profiles import Profile
     from bringup.instruments.scope import Scope
-    from bringup.instruments.scpi_log import ScpiLog
     from bringup.instruments.simulator_client import SimulationControl
     from bringup.instruments.supply import Supply
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
 
 ROLES = ("scope", "supply", "thermometer")
-MAX_CHANNELS = 8  # the most any scope profile declares; each profile says its own count
 NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
 _RESOURCE = re.compile(
     r"^(TCPIP\d*::[^:\s]+::\d{1,5}::SOCKET|TCPIP\d*::[^:\s]+(::[^:\s]+)?::INSTR"
     r"|USB\d*::[^\s]+::INSTR|GPIB\d*::\d+(::\d+)?::INSTR|ASRL[^\s]+::INSTR)$",
     re.IGNORECASE,
 )
+_ROLE_KEYS = {
+    "scope": {"channels"},
+    "supply": {"channel", "remote_sense"},
+    "thermometer": {"channel", "thermocouple"},
+}
+THERMOCOUPLES = ("B", "E", "J", "K", "N", "R", "S", "T")
 _LOOPBACK = re.compile(r"^TCPIP\d*::127\.0\.0\.1::\d{1,5}::SOCKET$", re.IGNORECASE)
 
 
@@ -64,6 +72,9 @@ class InstrumentEntry:
     resource: str
     profile: str
     calibration_due: dt.date | None = None
+    channel: int | str | None = None  # None: the bench file does not name one
+    remote_sense: bool | None = None  # supply only
+    thermocouple: str = "K"  # thermometer only
 
     def calibration_overdue(self, today: dt.date) -> bool:
         """Whether the calibration due date has passed on ``today``."""
@@ -104,9 +115,7 @@ def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
         raise src.error((role,), f"missing table [{role}]")
     if not isinstance(table, dict):
         raise src.error((role,), f"must be a table [{role}]")
-    allowed = {"resource", "profile", "calibration_due"} | (
-        {"channels"} if role == "scope" else set()
-    )
+    allowed = {"resource", "profile", "calibration_due"} | _ROLE_KEYS[role]
     for key in table:
         if key not in allowed:
             raise src.error((role, key), f"unknown key (expected {', '.join(sorted(allowed))})")
@@ -137,7 +146,24 @@ def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
                 ) from None
         elif isinstance(due, dt.datetime) or not isinstance(due, dt.date):
             raise src.error((role, "calibration_due"), f"must be a date YYYY-MM-DD, not {due!r}")
-    return InstrumentEntry(role, resource, table["profile"].strip(), due)
+    channel = table.get("channel")
+    if channel is not None:
+        bad = isinstance(channel, bool) or not isinstance(channel, int | str)
+        if bad or (isinstance(channel, str) and not channel.strip()):
+            raise src.error((role, "channel"), f"must be a channel number or name, not {channel!r}")
+        channel = channel.strip() if isinstance(channel, str) else channel
+    sense = table.get("remote_sense")
+    if sense is not None and not isinstance(sense, bool):
+        raise src.error((role, "remote_sense"), f"must be true or false, not {sense!r}")
+    tc = table.get("thermocouple", "K")
+    if not isinstance(tc, str) or tc.strip().upper() not in THERMOCOUPLES:
+        raise src.error(
+            (role, "thermocouple"),
+            f"{tc!r} is not a thermocouple type ({', '.join(THERMOCOUPLES)})",
+        )
+    return InstrumentEntry(
+        role, resource, table["profile"].strip(), due, channel, sense, tc.strip().upper()
+    )
 
 
 def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
@@ -148,11 +174,11 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
     seen: dict[str, int] = {}
     for key, table in raw.items():
         where = ("scope", "channels", key)
-        if key not in tuple(str(n) for n in range(1, MAX_CHANNELS + 1)):
+        if key not in ("1", "2", "3", "4"):
             raise ConfigError(
                 src.path,
                 f"scope.channels.{key}",
-                f"channel must be 1 to {MAX_CHANNELS}",
+                "channel must be 1, 2, 3 or 4",
                 src.line_of(*where),
             )
         if not isinstance(table, dict):
@@ -278,15 +304,43 @@ def profile_for_role(config: BenchConfig, role: str, profiles_dir: Path | None) 
         raise src.error(
             (role, "profile"), f"{entry.profile!r} is a {profile.kind} profile, not a {role} one"
         )
-    if role == "scope":
-        for n in config.channels:
-            if n > profile.channels:
-                src = read_toml(config.path)
-                raise src.error(
-                    ("scope", "channels", str(n)),
-                    f"profile {entry.profile!r} has {profile.channels} channels",
-                )
+    _check_channel(config, entry, profile)
     return profile
+
+
+def _check_channel(config: BenchConfig, entry: InstrumentEntry, profile: Profile) -> None:
+    """The bench file's ``channel`` must be one the profile knows; a profile with several
+    channels needs it named (feeding the board from a guessed output is not safe)."""
+    channels = profile.channels
+    if entry.role == "scope":
+        return
+    problem = None
+    if entry.channel is None:
+        if channels is not None and channels.count > 1:
+            problem = (
+                f"missing: profile {profile.name!r} has {channels.count} channels "
+                f"({channels.describe()}); name the one {_FEEDS[entry.role]}"
+            )
+    elif channels is None:
+        if entry.channel != 1:
+            problem = f"{entry.channel!r}: profile {profile.name!r} has one channel"
+    elif not channels.accepts(entry.channel):
+        problem = (
+            f"{entry.channel!r} is not a channel of profile {profile.name!r} "
+            f"({channels.describe()})"
+        )
+    if entry.role == "supply" and entry.remote_sense and not profile.has("sense"):
+        src = read_toml(config.path)
+        raise src.error(
+            ("supply", "remote_sense"),
+            f"profile {profile.name!r} cannot switch remote sense (set it on the instrument "
+            "and leave this key out)",
+        )
+    if problem:
+        raise read_toml(config.path).error((entry.role, "channel"), problem)
+
+
+_FEEDS = {"supply": "feeding the board", "thermometer": "the heatsink thermocouple is on"}
 
 
 def open_bench(
@@ -295,15 +349,12 @@ def open_bench(
     profiles_dir: Path | None = None,
     make_safe_on_open: bool = True,
     fast_reads: bool = True,
-    scpi_log: ScpiLog | None = None,
 ) -> Bench:
     """Connect every instrument of ``config``, check each ``*IDN?`` against its profile, clear
     the error queues, set the probe ratios of the wired channels and (by default) make the
     supply safe: output OFF, confirmed. On a simulated bench the sim's probes are placed as
-    the bench file wires them. ``scpi_log`` records every line each instrument is sent and
-    answers. Any failure closes what was opened."""
+    the bench file wires them. Any failure closes what was opened."""
     from bringup.instruments.scope import Scope
-    from bringup.instruments.supply import Supply
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
 
@@ -315,20 +366,20 @@ def open_bench(
             session = InstrumentSession(
                 role, config.instruments[role].resource, profiles[role], fast_reads=fast_reads
             )
-            session.scpi_log = scpi_log
             session.open()
             sessions[role] = session
             identities[role] = session.identify()
-            if profiles[role].has("prepare"):
-                session.configure("prepare")
-            for line in profiles[role].lines("clear_status"):
-                session.write(line)
-                session.check_errors(line)
+            session.write(session.command_text("clear_status"))
+            session.check_errors(session.command_text("clear_status"))
         bench = Bench(
             config=config,
             scope=Scope(sessions["scope"]),
-            supply=Supply(sessions["supply"]),
-            thermometer=Thermometer(sessions["thermometer"]),
+            supply=_supply(sessions["supply"], config),
+            thermometer=Thermometer(
+                sessions["thermometer"],
+                channel=config.instruments["thermometer"].channel or 1,
+                thermocouple=config.instruments["thermometer"].thermocouple,
+            ),
             identities=identities,
             profiles=profiles,
             sessions=sessions,
@@ -353,10 +404,18 @@ def open_bench(
         if "supply" in sessions and make_safe_on_open:
             from bringup.instruments.safety import make_safe_quietly
 
-            make_safe_quietly(Supply(sessions["supply"]))
+            make_safe_quietly(_supply(sessions["supply"], config))
         for session in sessions.values():
             session.close()
         raise
+
+
+def _supply(session: InstrumentSession, config: BenchConfig) -> Supply:
+    """The driver of the bench file's supply channel."""
+    from bringup.instruments.supply import Supply
+
+    entry = config.instruments["supply"]
+    return Supply(session, channel=entry.channel or 1, remote_sense=entry.remote_sense)
 
 
 def open_bench_file(path: Path | str, **options: Any) -> Bench:

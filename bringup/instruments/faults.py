@@ -46,6 +46,14 @@ class GarbageReply(InstrumentFault):
     what = "garbled reply"
 
 
+class ReplyNotDescribed(GarbageReply):
+    """A reply the profile cannot describe (a word no ``[replies]`` entry maps, a unit or header
+    ``[numbers]`` does not declare): the profile, not the instrument, is probably what is
+    wrong, so the message names the profile file and key and quotes the reply."""
+
+    what = "reply not described by the profile"
+
+
 class TruncatedBlock(InstrumentFault):
     """A binary block that ended before the byte count its header announced."""
 
@@ -77,25 +85,6 @@ class InstrumentError(InstrumentFault):
         self.code = code
         self.text = text
         super().__init__(instrument, command, f"{code},{text!r}")
-
-
-class ProfileMismatch(InstrumentFault):
-    """A reply the instrument's profile cannot describe (a preamble with other fields, a
-    word the profile does not list): ``detail`` names the profile file, the key and the reply."""
-
-    what = "reply the profile cannot describe"
-
-
-class RecordMismatch(InstrumentFault):
-    """A fetched record that does not hold together (point count, code range) or disagrees
-    with the instrument's own measurement of it: the scale is wrong, so no volt of it is used.
-    ``key`` is the profile key most likely wrong."""
-
-    what = "record does not agree with the instrument"
-
-    def __init__(self, instrument: str, command: str | None, detail: str, key: str):
-        self.key = key
-        super().__init__(instrument, command, detail)
 
 
 class NotOffered(InstrumentFault):

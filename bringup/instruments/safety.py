@@ -1,8 +1,10 @@
 """The one owner of the supply output: nothing else in ``bringup`` switches it ON or OFF.
 
 ``energised(...)`` is a context manager. On entry it puts the supply in a known state (output
-OFF, confirmed), sets the current limit and the over-voltage protection and reads both back,
-sets the voltage, and only then turns the output ON. It turns the output OFF and confirms it
+OFF, confirmed), sets the over-voltage protection, the over-current protection where the
+supply has one, the sensing where the bench file names it, the current limit and the voltage
+(in one command where the supply sets them together), reads every one back, and only then
+turns the output ON. It turns the output OFF and confirms it
 on every way out: the end of the block, an exception (including ``KeyboardInterrupt``), SIGINT
 and SIGTERM (handlers switch off first, then raise ``KeyboardInterrupt`` / ``SystemExit``), a
 timeout or lost connection of any watched instrument, and interpreter exit. A SIGKILL or a
@@ -27,7 +29,7 @@ from typing import TYPE_CHECKING, Any, Protocol
 
 from bringup.errors import BringupError, InputError
 from bringup.instruments import faults
-from bringup.instruments.supply import Regulation, Supply
+from bringup.instruments.supply import OCP_MARGIN, Regulation, Supply
 
 if TYPE_CHECKING:
     from bringup.instruments.visa import InstrumentSession
@@ -95,7 +97,7 @@ def make_safe(supply: Supply) -> None:
     to repeat). Errors in the instrument's queue do not stop the confirmation. Raises
     ``ProtectionFault`` if the output cannot be confirmed OFF."""
     session = supply.session
-    off = supply.profile.command("output", state=supply.profile.word("off"))
+    off = supply.command_text("output", state=supply.profile.word("off"))
     problems: list[str] = []
     with session.lock:
         for attempt in range(2):
@@ -181,6 +183,7 @@ class Energised:
         volts: float,
         current_limit_a: float,
         ovp_v: float,
+        ocp_a: float | None = None,
         acknowledged: HazardLevel = HazardLevel.NONE,
         watch: Iterable[InstrumentSession] = (),
         readback_tolerance: float = 0.005,
@@ -189,6 +192,8 @@ class Energised:
         self.volts = float(volts)
         self.current_limit_a = float(current_limit_a)
         self.ovp_v = float(ovp_v)
+        # an OCP with a level of its own sits above the limit: CC regulation stays in charge
+        self.ocp_a = float(ocp_a) if ocp_a is not None else OCP_MARGIN * self.current_limit_a
         self.acknowledged = HazardLevel(acknowledged)
         self.watch = [s for s in watch if s is not supply.session]
         self.tolerance = readback_tolerance
@@ -221,41 +226,56 @@ class Energised:
             if s.ovp_tripped():
                 s.clear_ovp_trip()
                 self.cleared_trip = True
-            s.set_current_limit(self.current_limit_a)
+            if s.ocp_tripped():
+                s.clear_ocp_trip()
+                self.cleared_trip = True
             s.set_ovp(self.ovp_v)
-            limit, ovp = s.current_limit(), s.ovp_level()
-            role, cmd = s.session.role, s.profile.command("current_limit")
-            if not _close_enough(limit, self.current_limit_a, self.tolerance):
-                raise faults.ProtectionFault(
-                    role, cmd, f"current limit reads {limit:g} A, set {self.current_limit_a:g} A"
-                )
-            if not _close_enough(ovp, self.ovp_v, self.tolerance):
-                raise faults.ProtectionFault(
-                    role,
-                    s.profile.command("ovp_level"),
-                    f"OVP reads {ovp:g} V, set {self.ovp_v:g} V",
-                )
-            s.set_voltage(self.volts)
-            setpoint = s.voltage_setpoint()
-            if not _close_enough(setpoint, self.volts, self.tolerance):
-                raise faults.ProtectionFault(
-                    role,
-                    s.profile.command("voltage_setpoint"),
-                    f"setpoint reads {setpoint:g} V, set {self.volts:g} V",
-                )
+            if s.has_ocp_level:
+                s.set_ocp(self.ocp_a)
+            if s.has_ocp_switch:
+                s.enable_ocp(True)
+            if s.remote_sense is not None and s.has_sense:
+                s.set_sense(s.remote_sense)
+            s.set_levels(self.volts, self.current_limit_a)  # output OFF (confirmed above)
+            self._read_back(s)
             self._arm_guards()
             if self.notice is not None:  # acknowledged (checked above): still say it, loudly
                 LOG.warning("%s (acknowledged: %s)", self.notice.text, self.acknowledged.name)
             s._switch_output(True)  # never retried: a failure here goes straight to OFF
             if not s.output_is_on():
                 raise faults.ProtectionFault(
-                    role, s.profile.command("output_state"), "output did not turn ON"
+                    s.session.role, s.command_text("output_state"), "output did not turn ON"
                 )
         except BaseException:
             self._disarm_guards()
             make_safe_quietly(s)
             raise
         return PoweredSupply(self)
+
+    def _read_back(self, s: Supply) -> None:
+        """Every protection and level read back before the output may go ON."""
+        role = s.session.role
+        checks = [
+            ("current_limit", s.current_limit(), self.current_limit_a, "current limit", "A"),
+            ("ovp_level", s.ovp_level(), self.ovp_v, "OVP", "V"),
+        ]
+        if s.has_ocp_level:
+            checks.append(("ocp_level", s.ocp_level(), self.ocp_a, "OCP", "A"))
+        checks.append(("voltage_setpoint", s.voltage_setpoint(), self.volts, "setpoint", "V"))
+        for operation, read, wanted, name, unit in checks:
+            if not _close_enough(read, wanted, self.tolerance):
+                raise faults.ProtectionFault(
+                    role,
+                    s.command_text(operation),
+                    f"{name} reads {read:g} {unit}, set {wanted:g} {unit}",
+                )
+        if s.has_ocp_switch and not s.ocp_enabled():
+            raise faults.ProtectionFault(role, s.command_text("ocp_enabled"), "OCP did not turn on")
+        if s.remote_sense is not None and s.has_sense and s.sense_is_remote() != s.remote_sense:
+            wanted_sense = "remote" if s.remote_sense else "local"
+            raise faults.ProtectionFault(
+                role, s.command_text("sense_state"), f"sensing is not {wanted_sense}"
+            )
 
     # -- exit ----------------------------------------------------------------------------
     def __exit__(self, exc_type: object, exc: BaseException | None, tb: object) -> None:
@@ -327,6 +347,7 @@ def energised(
     volts: float,
     current_limit_a: float,
     ovp_v: float,
+    ocp_a: float | None = None,
     acknowledged: HazardLevel = HazardLevel.NONE,
     readback_tolerance: float = 0.005,
 ) -> Energised:
@@ -335,7 +356,11 @@ def energised(
     ``target`` is a ``Bench`` (every other instrument of it is watched: its timeout or lost
     connection switches the output off at once) or a bare ``Supply``. ``volts`` is the
     setpoint (V), ``current_limit_a`` the current limit (A), ``ovp_v`` the over-voltage trip
-    (V, above ``volts``). Above 60 V DC raises ``HazardNotAcknowledged`` (with the notice to
+    (V, above ``volts``). Where the supply has an over-current protection it is armed too:
+    with a level of its own at ``ocp_a`` (A; default 10 % above the current limit, a backstop
+    behind constant-current regulation), with only an on/off switch it is switched on (such a
+    supply then trips at the current limit instead of regulating). Remote sense is set as the
+    bench file says, where the supply can switch it. Above 60 V DC raises ``HazardNotAcknowledged`` (with the notice to
     show) unless ``acknowledged`` is at least the notice's level. Read-backs must agree within
     ``readback_tolerance`` (relative, at least 1 mV / 1 mA)."""
     if isinstance(target, Supply):
@@ -347,6 +372,7 @@ def energised(
         volts=volts,
         current_limit_a=current_limit_a,
         ovp_v=ovp_v,
+        ocp_a=ocp_a,
         acknowledged=acknowledged,
         watch=watch,
         readback_tolerance=readback_tolerance,

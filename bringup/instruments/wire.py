@@ -229,12 +229,8 @@ def read_block(
     itemsize: int,
     deadline: float,
     stall_s: float | None = None,
-    into: np.ndarray | None = None,
 ) -> np.ndarray:
     """The body of one block reply as a uint8 array, with the terminator after it consumed.
-
-    ``into``: a uint8 array to receive the body when it is exactly that long (a page of a
-    larger record, read in place); a body of another length gets a new array.
 
     Leading whitespace before ``#`` is skipped (IEEE 488.2 allows it in responses). A block
     whose terminator is missing after the announced bytes raises ``BlockSyntax`` so that the
@@ -255,8 +251,7 @@ def read_block(
     count_text = wire.read_exact(digits, deadline)
     if not count_text.isdigit():
         raise BlockSyntax(first + digit + count_text)
-    count = int(count_text)
-    out = into if into is not None and len(into) == count else np.empty(count, dtype=np.uint8)
+    out = np.empty(int(count_text), dtype=np.uint8)
     try:
         wire.read_into(out, deadline, stall_s)
     except (WireTimeout, WireClosed) as exc:
