@@ -233,6 +233,7 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
             ctx.check()
             ctx.emit("acquiring", "acquiring")
             traces, raw, clipped = bench.acquire(plan)
+            ctx.check()  # STOP while the scope was busy: what it read is not judged
             ctx.data.supply_v = powered.measure_voltage()
             ctx.emit("acquiring", f"{len(traces)} traces acquired",
                      readings={"supply_voltage_v": ctx.data.supply_v,

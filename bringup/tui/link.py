@@ -156,6 +156,17 @@ class SessionLink:
         self._log_finish_if_complete()
         return view
 
+    def switch_off_now(self) -> str | None:
+        """STOP: switch the supply output OFF now, from the calling thread (never the step's
+        own, which may be blocked in an instrument call for up to its timeout), and read it back.
+
+        Returns None once the supply has answered that its output is OFF, else the problem.
+        The running step is not ended here: its ``cancel`` event does that at its next check,
+        and its attempt is logged as not run. This is the path closing the notebook takes
+        (``runner.abort`` switches off through the open bench's ``make_safe``) without logging
+        an abort of the whole session."""
+        return self.runner.bench().make_safe()
+
     def skip(self, step_id: str, reason: str) -> None:
         """Skip with a reason (the runner refuses a failed step)."""
         self.runner.skip(step_id, reason)

@@ -6,7 +6,7 @@ from textual.message import Message
 
 from bringup.tui.views import AttemptView, Progress
 
-__all__ = ["StepProgressed", "StepFinished", "StepFaulted", "StepStopped"]
+__all__ = ["StepProgressed", "StepFinished", "StepFaulted", "StepStopped", "SupplySwitchedOff"]
 
 
 class StepProgressed(Message):
@@ -43,3 +43,17 @@ class StepStopped(Message):
         super().__init__()
         self.step_id = step_id
         self.message = message
+
+
+class SupplySwitchedOff(Message):
+    """STOP's own thread has switched the supply output off; ``problem`` is None when the
+    supply read back OFF (confirmed), else why it could not be confirmed."""
+
+    def __init__(self, problem: str | None) -> None:
+        super().__init__()
+        self.problem = problem
+
+    @property
+    def confirmed(self) -> bool:
+        """True when the supply answered that its output is OFF."""
+        return self.problem is None

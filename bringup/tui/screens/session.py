@@ -29,11 +29,18 @@ from textual.worker import Worker, WorkerState
 from bringup.errors import BringupError
 from bringup.runner import RunnerError
 from bringup.tui.literal import literal, visible
-from bringup.tui.messages import StepFaulted, StepFinished, StepProgressed, StepStopped
+from bringup.tui.messages import (
+    StepFaulted,
+    StepFinished,
+    StepProgressed,
+    StepStopped,
+    SupplySwitchedOff,
+)
 from bringup.tui.screens.step_actions import StepActions
 from bringup.tui.states import LEGEND, look_of
 from bringup.tui.views import AttemptView, Progress, StepDetail
 from bringup.tui.widgets.checklist_tree import ChecklistTree
+from bringup.tui.widgets.supply_lamp import SupplyLamp
 from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
 
 __all__ = ["SessionScreen"]
@@ -82,6 +89,7 @@ class SessionScreen(StepActions, Screen[None]):
         self._running_kind = ""
         self._finals: list[float] = []  # the soak's successive predictions of its final value
         self._history: dict[str, AttemptView] = {}
+        self._stopping = False  # STOP pressed during the running step
         self._soak_temp: list[float] = []
 
     @property
@@ -124,7 +132,9 @@ class SessionScreen(StepActions, Screen[None]):
                     with TabPane("4 notes", id="tab-notes"):
                         yield Static("", id="notes-list")
                         yield Input(placeholder="type a note, Enter to keep it", id="note-input")
-        yield Static("", id="status")
+        with Horizontal(id="foot"):
+            yield Static("", id="status")
+            yield SupplyLamp(id="supply-lamp")
         yield Footer()
 
     def on_mount(self) -> None:
@@ -329,7 +339,10 @@ class SessionScreen(StepActions, Screen[None]):
     def _start(self, detail: StepDetail, answers: dict[str, object]) -> None:
         self.running = detail.id
         self._running_kind = detail.kind
+        self._stopping = False
         self.refresh_bindings()
+        lamp = self.query_one(SupplyLamp)
+        lamp.set_state("live" if detail.energise is not None else "off")
         self._cancel = threading.Event()
         self._stop_soak = threading.Event()
         self._soak_t, self._soak_temp = [], []
@@ -378,7 +391,8 @@ class SessionScreen(StepActions, Screen[None]):
             )
             return
         if cancel.is_set():
-            self.post_message(StepStopped(step_id, attempt.message))
+            # what the interrupted acquisition saw is in the attempt's history, not the status
+            self.post_message(StepStopped(step_id))
         else:
             self.post_message(StepFinished(step_id, attempt))
 
@@ -418,6 +432,10 @@ class SessionScreen(StepActions, Screen[None]):
 
     def _finish(self, select_next: bool) -> None:
         self.running = None
+        lamp = self.query_one(SupplyLamp)
+        if lamp.state == "live":
+            # every way out of a step switches the output off and reads it back (the runner)
+            lamp.set_state("off")
         self.refresh_bindings()
         self.query_one("#live").display = False
         self.refresh_all(select=self.link.current_step_id() if select_next else self.viewed)
@@ -444,14 +462,52 @@ class SessionScreen(StepActions, Screen[None]):
     def on_step_stopped(self, message: StepStopped) -> None:
         self._finish(select_next=False)
         extra = f" ({message.message})" if message.message else ""
-        self.say(f"Stopped: the supply is off and nothing was judged{extra}.", "warn")
+        lamp = self.query_one(SupplyLamp)
+        supply = (
+            f"supply OFF, confirmed {lamp.detail}" if lamp.state == "confirmed" else "supply OFF"
+        )
+        self.say(f"Stopped: {supply} and nothing was judged{extra}.", "warn")
 
     def action_cancel(self) -> None:
+        """STOP: the supply output OFF at once (from a thread of its own: the step's thread may
+        be blocked in an instrument call), then the step ends at its next check."""
         if self.running is None:
             self.say("Nothing is running.")
             return
         self._cancel.set()
-        self.say("Stopping: putting the bench in its safe state…", "warn")
+        if self._stopping:
+            return
+        self._stopping = True
+        self.query_one(SupplyLamp).set_state("stopping")
+        self.say("STOP: switching the supply output OFF now…", "warn")
+        self._switch_off()
+
+    @work(thread=True, group="stop", exit_on_error=False)
+    def _switch_off(self) -> None:
+        """Switch the supply off and read it back, beside the step's own worker."""
+        try:
+            problem = self.link.switch_off_now()
+        except Exception as exc:  # one line: the operator must know it is not confirmed
+            problem = f"{type(exc).__name__}: {exc}"
+        self.post_message(SupplySwitchedOff(problem))
+
+    def on_supply_switched_off(self, message: SupplySwitchedOff) -> None:
+        lamp = self.query_one(SupplyLamp)
+        if message.confirmed:
+            lamp.set_state("confirmed")
+            if self.running is not None:
+                self.say(
+                    f"STOP: supply output OFF, confirmed {lamp.detail}. The step ends once its "
+                    "instrument answers; nothing will be judged.",
+                    "warn",
+                )
+        else:
+            lamp.set_state("unconfirmed", message.problem or "")
+            self.say(
+                f"STOP: the supply did not confirm OFF ({message.problem}): switch it off at "
+                "the supply now.",
+                "fault",
+            )
 
     def action_stop_soak(self) -> None:
         if self.running is None:
