@@ -163,9 +163,9 @@ class SessionLink:
         Returns None once the supply has answered that its output is OFF, else the problem.
         The running step is not ended here: its ``cancel`` event does that at its next check,
         and its attempt is logged as not run. This is the path closing the notebook takes
-        (``runner.abort`` switches off through the open bench's ``make_safe``) without logging
-        an abort of the whole session."""
-        return self.runner.bench().make_safe()
+        (``runner.abort`` switches off through the step executor's ``stop_now``) without
+        logging an abort of the whole session."""
+        return self.runner.executor.stop_now()
 
     def skip(self, step_id: str, reason: str) -> None:
         """Skip with a reason (the runner refuses a failed step)."""
