@@ -10,13 +10,20 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from html import escape
+from html import escape as _html_escape
 
 import numpy as np
 
 from bringup.analysis.quantities import format_quantity
+from bringup.literal_text import visible
 
 __all__ = ["Marker", "envelope", "plot_svg"]
+
+
+def _shown(text: str) -> str:
+    """Text in the SVG shown literally: escaped, acting characters made visible (titles and
+    labels carry waveform names and units that a checklist or a profile supplied)."""
+    return _html_escape(visible(str(text)))
 
 
 @dataclass(frozen=True)
@@ -95,10 +102,10 @@ def plot_svg(
     pw, ph = width - left - right, height - top - bottom
     parts = [
         f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height}" '
-        f'width="{width}" height="{height}" role="img" aria-label="{escape(title)}">',
-        f"<title>{escape(title)}</title>",
+        f'width="{width}" height="{height}" role="img" aria-label="{_shown(title)}">',
+        f"<title>{_shown(title)}</title>",
         f'<rect x="{left}" y="{top}" width="{pw}" height="{ph}" fill="#fbfaf7" stroke="#888"/>',
-        f'<text x="{left}" y="14" font-size="12" font-weight="bold">{escape(title)}</text>',
+        f'<text x="{left}" y="14" font-size="12" font-weight="bold">{_shown(title)}</text>',
     ]
     if t.size < 2:
         parts.append(
@@ -128,7 +135,7 @@ def plot_svg(
         )
         parts.append(
             f'<text x="{left - 4}" y="{_f(yy + 4)}" font-size="10" text-anchor="end">'
-            f"{escape(format_quantity(tick, unit))}</text>"
+            f"{_shown(format_quantity(tick, unit))}</text>"
         )
     for tick in _nice_ticks(t_lo, t_hi, 6):
         xx = px(tick)
@@ -137,7 +144,7 @@ def plot_svg(
         )
         parts.append(
             f'<text x="{_f(xx)}" y="{top + ph + 14}" font-size="10" text-anchor="middle">'
-            f"{escape(format_quantity(tick, 's'))}</text>"
+            f"{_shown(format_quantity(tick, 's'))}</text>"
         )
     for m in markers:
         if m.kind == "window" and m.t is not None and m.t_end is not None:
@@ -166,11 +173,11 @@ def plot_svg(
         parts.append(f'<polyline points="{pts}" fill="none" {_STYLES["fit"]}/>')
         parts.append(
             f'<text x="{left + pw - 4}" y="{top + ph - 4}" font-size="10" text-anchor="end">'
-            f"dashed: {escape(olabel)}</text>"
+            f"dashed: {_shown(olabel)}</text>"
         )
     placed: list[float] = []
     for i, m in enumerate(markers):
-        label = escape(m.label)
+        label = _shown(m.label)
         if m.kind == "level" and m.y is not None:
             yy = py(m.y)
             parts.append(

@@ -4,7 +4,8 @@ Textual reads square brackets in a plain ``str`` as content markup (``[bold red]
 runs an action, ``[/]`` with nothing open raises), and a terminal obeys escape sequences. Every
 operator name, serial, note, reason, board or checklist text, instrument reply and fault message
 goes through :func:`literal` before a widget shows it: the result is a Rich ``Text`` (never parsed
-as markup) in which characters that would act instead of print are replaced by a visible stand-in:
+as markup) in which characters that would act instead of print are replaced by a visible stand-in
+(``bringup.literal_text.visible``, shared with the HTML and PDF records):
 
 - C0/C1 control characters (ESC of an ANSI sequence, BEL, ...) show as their Unicode control
   pictures (U+2400 block, ESC as ``␛``) or as ``⟨U+0085⟩`` beyond that block;
@@ -17,42 +18,11 @@ as markup) in which characters that would act instead of print are replaced by a
 
 from __future__ import annotations
 
-import unicodedata
-
 from rich.text import Text
 
+from bringup.literal_text import BIDI_CONTROLS, visible
+
 __all__ = ["literal", "visible", "BIDI_CONTROLS"]
-
-#: Unicode bidirectional formatting characters (UAX #9, section 2): embeddings, overrides,
-#: isolates and the implicit marks.
-BIDI_CONTROLS = frozenset(
-    "\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069\u200e\u200f\u061c"
-)
-
-
-def _stand_in(char: str) -> str:
-    code = ord(char)
-    if code < 0x20:
-        return chr(0x2400 + code)  # ␀..␟ (U+2400 block, "Control Pictures")
-    if code == 0x7F:
-        return "\u2421"  # ␡
-    return f"⟨U+{code:04X}⟩"
-
-
-def visible(text: str, *, multiline: bool = False) -> str:
-    """``text`` with every character that would act on the terminal or the text direction
-    replaced by a visible stand-in (see the module doc). Newlines stay when ``multiline``."""
-    out: list[str] = []
-    for char in text:
-        if char == "\n" and multiline:
-            out.append(char)
-        elif char == "\t":
-            out.append("    ")
-        elif char in BIDI_CONTROLS or unicodedata.category(char) in ("Cc", "Zl", "Zp"):
-            out.append(_stand_in(char))
-        else:
-            out.append(char)
-    return "".join(out)
 
 
 def literal(text: object, style: str = "", *, multiline: bool = True) -> Text:

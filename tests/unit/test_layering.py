@@ -57,6 +57,7 @@ FORBIDDEN = {
     },
     # the shared ground floor: the error family and the TOML reader every user file goes through
     "bringup/errors.py": {"textual", "pyvisa", "numpy", "bringup."},
+    "bringup/literal_text.py": {"textual", "pyvisa", "rich", "numpy", "bringup."},
     "bringup/tomlfile.py": {
         "textual",
         "pyvisa",

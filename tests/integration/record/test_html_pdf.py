@@ -162,3 +162,24 @@ def test_exports_are_identical_across_processes(session: Session, tmp_path: Path
     for fmt in ("json", "pdf"):
         here = _export(session, fmt, tmp_path / f"here.{fmt}")
         assert here.read_bytes() == Path(f"{there}.{fmt}").read_bytes(), fmt
+
+
+def test_nested_settings_are_shown_with_their_values(session: Session) -> None:
+    """The runner logs settings as nested tables (supply, pwm, scope channels); each leaf is
+    shown under its dotted name, never as "no value" (what a flat metric reader made of them)."""
+    from bringup.record.export_html import render_html
+    from bringup.record.from_log import open_log, record_from_log
+
+    with open_log(session.db) as log:
+        record = record_from_log(log, session.session_id)
+    attempt = record["content"]["stages"][0]["steps"][0]["attempts"][-1]
+    attempt["settings"] = {
+        "supply": {"ovp_v": 27.400000000000002, "ramp_v": [6, 12]},
+        "scope": {"channels": [{"net": "vgs", "range_v": 30}]},
+        "pwm": {"enabled": False},
+    }
+    html = render_html(record)
+    for name, value in (("supply.ovp_v", "27.4"), ("supply.ramp_v", "6, 12"),
+                        ("scope.channels.1.net", "vgs"), ("pwm.enabled", "off")):  # fmt: skip
+        assert f"<td>{name}</td><td>{value}</td>" in html
+    assert "no value" not in html.split("Settings")[1].split("</details>")[0]

@@ -1,0 +1,430 @@
+"""The record as a document: what the HTML and PDF records show, in order, as plain blocks.
+
+``build_document(record)`` walks the record once and returns a ``Document``: sections of
+headings, paragraphs, tables, lists and figures, all text still as typed or logged. The two
+exporters only lay these blocks out (``export_html`` as HTML elements, ``export_pdf`` as fpdf2
+cells), so both files tell the same story in the same order:
+
+1. the summary (board, serial, outcome, open items, waivers and skips, sign-offs);
+2. the cautions; 3. the bench; 4. the design against the measurement;
+5. each stage on its own page: per step its cautions, the deciding attempt's verdicts, metrics,
+   settings, notes and plots, the history of attempts and events, then earlier attempts;
+6. the record's identity (schema, digests, chain head, the board's design values).
+
+No escaping happens here: each renderer makes every text literal in its own medium (the text a
+person typed or a file supplied may hold markup, escapes or direction overrides).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from bringup.record.view import (
+    GENERAL_CAUTIONS,
+    OUTCOME_WORDS,
+    OVERALL_WORDS,
+    Trace,
+    checklist_label,
+    comparison_rows,
+    decode_trace,
+    design_rows,
+    fmt_time,
+    fmt_value,
+    probe_text,
+    soak_trace,
+    step_cautions,
+    zoom_trace,
+)
+
+__all__ = [
+    "Aside",
+    "Bullets",
+    "Document",
+    "Figure",
+    "Heading",
+    "Paragraph",
+    "Section",
+    "Table",
+    "build_document",
+]
+
+
+@dataclass(frozen=True)
+class Heading:
+    """A heading: level 2 a section, 3 a step or a part of the summary, 4 an earlier attempt.
+    ``status`` (a ``STATUS_WORDS`` key) is shown beside a step's title."""
+
+    text: str
+    level: int
+    status: str | None = None
+
+
+@dataclass(frozen=True)
+class Paragraph:
+    """Running text. ``kind``: "plain", "strong" (a lead-in), "outcome" (the overall verdict)
+    or "caution" (``lead`` names where the caution comes from)."""
+
+    text: str
+    kind: str = "plain"
+    lead: str | None = None
+
+
+@dataclass(frozen=True)
+class Bullets:
+    """A list; ``empty`` is said instead when there are no items."""
+
+    items: tuple[str, ...]
+    empty: str = ""
+
+
+@dataclass(frozen=True)
+class Table:
+    """Rows of text cells under ``head`` (``head`` None: a name/value table without a header).
+    ``widths``: the columns' relative widths in millimetres on an A4 page (they sum to 190).
+    ``fold``: a caption under which the table may be folded away (HTML ``details``), shown
+    open unless ``folded``. ``empty``: said instead of a table without rows."""
+
+    head: tuple[str, ...] | None
+    rows: tuple[tuple[str, ...], ...]
+    widths: tuple[int, ...]
+    fold: str | None = None
+    folded: bool = False
+    empty: str = ""
+
+
+@dataclass(frozen=True)
+class Figure:
+    """A plot of ``trace`` with its caption."""
+
+    trace: Trace
+    caption: str
+
+
+@dataclass(frozen=True)
+class Aside:
+    """Blocks set apart from the flow: an earlier, superseded attempt kept as evidence."""
+
+    blocks: tuple[Any, ...]
+
+
+Block = Heading | Paragraph | Bullets | Table | Figure | Aside
+
+
+@dataclass(frozen=True)
+class Section:
+    """A part of the record. ``key`` names it (an HTML id); ``stage`` sections start a page."""
+
+    key: str
+    title: str
+    blocks: tuple[Block, ...]
+    stage: bool = False
+
+
+@dataclass(frozen=True)
+class Document:
+    """The whole record as blocks, with what every page repeats (``running_head``, ``digest``)."""
+
+    title: str
+    running_head: str
+    digest: str
+    serial: str
+    session: str
+    operators: tuple[str, ...]
+    #: the session's last entry and start times (ISO 8601 UTC), the first that parses dates a PDF
+    times_utc: tuple[str, ...]
+    sections: tuple[Section, ...] = field(default_factory=tuple)
+    closing: str = ""
+
+
+def _text(value: Any, default: str = "") -> str:
+    return default if value is None else str(value)
+
+
+def _summary(content: dict, signatures: list[dict], digest: str) -> Section:
+    session, board = content.get("session", {}), content.get("board", {})
+    summary = content.get("summary", {})
+    counts = summary.get("counts", {})
+    pairs = (
+        ("Board", f"{_text(board.get('name'), '-')} rev {_text(board.get('revision'), '-')}"),
+        ("Serial number", _text(session.get("serial"), "-")),
+        ("Session", _text(session.get("id"), "-")),
+        ("Checklist", checklist_label(content.get("checklist", {}))),
+        ("Operators", ", ".join(map(str, session.get("operators") or [])) or "-"),
+        ("Started", fmt_time(session.get("started"))),
+        ("Last entry", fmt_time(session.get("ended"))),
+        ("Steps", ", ".join(f"{v} {k}" for k, v in sorted(counts.items())) or "-"),
+        ("Content digest (SHA-256)", digest),
+        ("Log chain head", _text((content.get("log") or {}).get("chain_head"), "-")),
+    )
+    overall = summary.get("overall", "incomplete")
+    blocks: list[Block] = [
+        Paragraph(f"Outcome: {OVERALL_WORDS.get(overall, overall)}", "outcome"),
+        Table(None, pairs, (45, 145)),
+        Heading("Open items", 3),
+        Bullets(
+            tuple(map(str, summary.get("open_items") or [])),
+            "None: every step is finished and every failure carries a waiver.",
+        ),
+    ]
+    exceptions = tuple(map(str, summary.get("exceptions") or []))
+    if exceptions:
+        blocks += [Heading("Waivers and skips", 3), Bullets(exceptions)]
+    rows = tuple(
+        tuple(_text(s.get(k)) for k in ("role", "name", "signed_at", "key_fingerprint"))
+        for s in signatures
+    )
+    blocks += [
+        Heading("Sign-off", 3),
+        Table(("Role", "Name", "Signed (UTC)", "Key fingerprint"), rows, (20, 35, 40, 95),
+              empty="Not signed yet."),
+    ]  # fmt: skip
+    return Section("summary", "Summary", tuple(blocks))
+
+
+def _cautions(content: dict) -> Section:
+    blocks: list[Block] = [Paragraph(c, "caution") for c in GENERAL_CAUTIONS]
+    for stage in content.get("stages", []):
+        blocks += [Paragraph(c, "caution", where) for where, c in step_cautions(stage)]
+    return Section("cautions", "Cautions", tuple(blocks))
+
+
+def _bench(content: dict) -> Section:
+    bench = content.get("bench") or {}
+    rows = []
+    for inst in bench.get("instruments", []):
+        probes = "; ".join(probe_text(c) for c in inst.get("channels") or [])
+        rows.append(
+            (
+                _text(inst.get("id")),
+                _text(inst.get("idn") or "-"),
+                _text(inst.get("resource") or "-"),
+                _text(inst.get("profile") or "-"),
+                _text(inst.get("calibration_due") or "not given"),
+                probes or "-",
+            )
+        )
+    kind = "simulated bench (no real instruments)" if bench.get("simulated") else "bench"
+    head = ("Role", "*IDN?", "Resource", "Profile", "Calibration due", "Probes")
+    table = Table(head, tuple(rows), (16, 42, 40, 26, 22, 44))
+    return Section("bench", "Bench", (Paragraph(kind), table))
+
+
+def _comparison(content: dict) -> Section:
+    keys = ("where", "quantity", "predicted", "basis", "measured", "deviation", "note")
+    rows = tuple(tuple(_text(r[k]) for k in keys) for r in comparison_rows(content))
+    head = ("Step", "Quantity", "Design", "Basis", "Measured", "Deviation", "Note")
+    table = Table(head, rows, (30, 26, 22, 24, 22, 18, 48),
+                  empty="No predicted values were recorded.")  # fmt: skip
+    return Section("design", "Design against measurement", (table,))
+
+
+def _limit_text(verdict: dict) -> str:
+    lim, unit = verdict.get("limit") or {}, verdict.get("unit", "")
+    return " .. ".join(
+        fmt_value(lim.get(k), unit) if lim.get(k) is not None else "-" for k in ("min", "max")
+    )
+
+
+def _setting_text(value: Any) -> str:
+    """A logged setting as written: numbers to 6 significant digits, lists comma-separated."""
+    if isinstance(value, bool) or value is None:
+        return {True: "on", False: "off", None: "-"}[value]
+    if isinstance(value, int | float):
+        return f"{value:g}"
+    if isinstance(value, list):
+        return ", ".join(_setting_text(v) for v in value) or "-"
+    return str(value)
+
+
+def _setting_rows(settings: dict, prefix: str = "") -> list[tuple[str, str]]:
+    """(dotted name, value) for every leaf of the attempt's nested settings (``supply.ovp_v``);
+    a list of tables (the scope's channels) is numbered from 1."""
+    rows: list[tuple[str, str]] = []
+    for key, value in sorted(settings.items()):
+        name = f"{prefix}{key}"
+        if isinstance(value, dict):
+            rows += _setting_rows(value, f"{name}.")
+        elif isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
+            for i, item in enumerate(value, start=1):
+                rows += _setting_rows(item, f"{name}.{i}.")
+        else:
+            rows.append((name, _setting_text(value)))
+    return rows
+
+
+def _results(attempt: dict) -> list[Block]:
+    """The attempt's verdicts, its metrics, its settings and its notes."""
+    verdicts = tuple(
+        (
+            _text(v.get("metric") or v.get("target")),
+            fmt_value(v.get("value"), v.get("unit", "")),
+            _limit_text(v),
+            fmt_value(v.get("margin"), v.get("unit", "")),
+            fmt_value(v.get("guard_band"), v.get("unit", "")),
+            _text(OUTCOME_WORDS.get(v.get("outcome"), v.get("outcome"))),
+            _text(v.get("reason")),
+        )
+        for v in attempt.get("verdicts") or []
+    )
+    blocks: list[Block] = []
+    if verdicts:
+        head = ("Quantity", "Measured", "Limits", "Margin", "Guard band", "Verdict", "Why")
+        blocks.append(Table(head, verdicts, (34, 24, 36, 22, 20, 24, 30)))
+    metrics = tuple(
+        (str(name), fmt_value(m)) for name, m in sorted((attempt.get("metrics") or {}).items())
+    )
+    if metrics:
+        blocks.append(Table(("Metric", "Value"), metrics, (95, 95), fold="All metrics"))
+    settings = tuple(_setting_rows(attempt.get("settings") or {}))
+    if settings:
+        blocks.append(Table(("Setting", "Value"), settings, (95, 95), fold="Settings", folded=True))
+    blocks += [Paragraph(f"Note: {note}") for note in attempt.get("notes") or []]
+    return blocks
+
+
+def _plots(attempt: dict) -> list[Block]:
+    """The soak's readings with its fit, then each waveform and its close view of the first edge."""
+    blocks: list[Block] = []
+    soak = soak_trace(attempt)
+    if soak is not None:
+        blocks.append(
+            Figure(
+                soak,
+                f"{soak.t.size} readings of the heatsink temperature; dashed: the first-order "
+                "fit T(t) = T_final - (T_final - T_0) exp(-t/tau).",
+            )
+        )
+    for wave in attempt.get("waveforms") or []:
+        name = _text(wave.get("name"))
+        trace = decode_trace(wave)
+        if trace is None:
+            blocks.append(Paragraph(f"Waveform {name}: cannot be decoded."))
+            continue
+        net = f", net {wave.get('net')}" if wave.get("net") else ""
+        blocks.append(
+            Figure(
+                trace,
+                f"{name}: {int(trace.t.size)} samples{net}; "
+                "drawn as the min/max of each pixel column.",
+            )
+        )
+        zoom = zoom_trace(trace)
+        if zoom is not None:
+            blocks.append(
+                Figure(
+                    zoom,
+                    f"{name}: the first edge, {int(zoom.t.size)} samples around its "
+                    "reference-level crossings.",
+                )
+            )
+    return blocks
+
+
+def _history(step: dict) -> Table:
+    rows = [
+        (
+            _text(a.get("number")),
+            fmt_time(a.get("started")),
+            _text(a.get("operator") or "-"),
+            _text(OUTCOME_WORDS.get(a.get("outcome"), a.get("outcome"))),
+            "; ".join(map(str, a.get("notes") or [])),
+        )
+        for a in step.get("attempts") or []
+    ]
+    rows += [
+        (
+            _text(ev.get("kind"), "note"),
+            fmt_time(ev.get("at")),
+            _text(ev.get("by") or "-"),
+            "",
+            _text(ev.get("text")),
+        )
+        for ev in step.get("events") or []
+    ]
+    head = ("Attempt / event", "When", "Who", "Verdict", "Note")
+    return Table(head, tuple(rows), (22, 48, 27, 33, 60))
+
+
+def _step(step: dict) -> list[Block]:
+    blocks: list[Block] = [
+        Heading(_text(step.get("title") or step.get("id")), 3, _text(step.get("status")))
+    ]
+    blocks += [Paragraph(_text(c), "caution") for c in step.get("cautions") or []]
+    attempts = step.get("attempts") or []
+    if attempts:
+        final = attempts[-1]
+        blocks.append(
+            Paragraph(f"Decided by attempt {_text(final.get('number'))} of {len(attempts)}.")
+        )
+        blocks += _results(final) + _plots(final)
+    else:
+        blocks.append(Paragraph("No attempt recorded."))
+    history = _history(step)
+    if history.rows:
+        blocks.append(history)
+    for earlier in attempts[:-1]:  # superseded tries stay in the record as evidence
+        word = OUTCOME_WORDS.get(earlier.get("outcome"), earlier.get("outcome"))
+        title = Heading(f"Earlier attempt {_text(earlier.get('number'))}: {_text(word)}", 4)
+        blocks.append(Aside((title, *_results(earlier), *_plots(earlier))))
+    return blocks
+
+
+def _stage(stage: dict) -> Section:
+    blocks: list[Block] = [Paragraph(_text(c), "caution") for c in stage.get("cautions") or []]
+    for step in stage.get("steps") or []:
+        blocks += _step(step)
+    title = f"Stage: {_text(stage.get('title') or stage.get('id'))}"
+    return Section(f"stage-{_text(stage.get('id'))}", title, tuple(blocks), stage=True)
+
+
+def _identity(record: dict, content: dict, digest: str) -> Section:
+    log = content.get("log") or {}
+    pairs = (
+        ("Schema", _text(record.get("schema"))),
+        ("Content digest (SHA-256 of the canonical JSON)", digest),
+        ("Log chain head", _text(log.get("chain_head"), "-")),
+        ("Log entries", _text(log.get("entries"), "-")),
+    )
+    design = tuple(tuple(row) for row in design_rows(content.get("board", {})))
+    blocks = (
+        Table(None, pairs, (70, 120)),
+        Heading("Design values of the board", 3),
+        Table(("Design value", "Value"), design, (95, 95)),
+    )
+    return Section("identity", "Identity of this record", blocks)
+
+
+def build_document(record: dict) -> Document:
+    """The ``Document`` of an exported record (``{"schema", "content", "seal", "signatures"}``)."""
+    content = record["content"]
+    digest = _text(record.get("seal", {}).get("content_sha256"))
+    session, board = content.get("session", {}), content.get("board", {})
+    serial, session_id = _text(session.get("serial")), _text(session.get("id"))
+    board_text = f"{_text(board.get('name'), '-')} rev {_text(board.get('revision'), '-')}"
+    times = tuple(
+        str(stamp["utc"])
+        for stamp in (session.get("ended"), session.get("started"))
+        if isinstance(stamp, dict) and stamp.get("utc")
+    )
+    sections = (
+        _summary(content, record.get("signatures") or [], digest),
+        _cautions(content),
+        _bench(content),
+        _comparison(content),
+        *(_stage(s) for s in content.get("stages", [])),
+        _identity(record, content, digest),
+    )
+    return Document(
+        title=f"Bring-up record {serial}, {_text(board.get('name'))}",
+        running_head=f"Bring-up record  |  serial {serial or '-'}  |  {board_text}  |  "
+        f"session {session_id or '-'}",
+        digest=digest,
+        serial=serial,
+        session=session_id,
+        operators=tuple(map(str, session.get("operators") or [])),
+        times_utc=times,
+        sections=sections,
+        closing=f"Record {serial} / session {session_id} / digest {digest}. "
+        "Check it with: bringup verify RECORD.json --key PUBLIC_KEY",
+    )
