@@ -99,6 +99,9 @@ class AnalysisOutput:
     details: dict = field(default_factory=dict)
     soak: SoakProgress | None = None
     spans: dict[str, tuple[tuple[float, float], ...]] = field(default_factory=dict)
+    # Expanded uncertainty (k = 2, the metric's unit) computed from the measurement itself;
+    # the decision uses the larger of it and the target's declared uncertainty.
+    uncertainties: dict[str, float] = field(default_factory=dict)
 
     def set(self, metric: str, value: float | None, reason: str = "") -> None:
         if value is not None and not math.isfinite(value):
@@ -390,8 +393,10 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
 
 
 def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
-    """Final heatsink temperature (degC) predicted by a first-order least-squares fit of the
-    soak (``bringup.analysis.soak.fit_soak``), its time constant (s) and the last reading."""
+    """Final heatsink temperature (degC) predicted from the soak by one or two time constants
+    (``bringup.analysis.soak.fit_soak``), its slowest time constant (s) and the last reading.
+    An "undecided" fit (the log cannot tell where the soak ends) gives no final value: its
+    reason says to keep soaking."""
     from bringup.analysis.soak import fit_soak
 
     t, temp = np.asarray(data.soak_times_s), np.asarray(data.soak_temps_c)
@@ -405,10 +410,16 @@ def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.set("heatsink_final", None, str(exc))
         out.set("soak_time_constant", None, str(exc))
         return
-    out.set("heatsink_final", fit.final_c)
     out.set("soak_time_constant", fit.tau_s)
     out.warnings.extend(fit.warnings)
     out.details["soak_fit"] = fit.to_dict()
+    if not fit.decided:
+        # The log cannot tell where the soak ends: no value to judge (it fails as not
+        # measured, with the reason and how much longer to soak), never a confident guess.
+        out.set("heatsink_final", None, fit.undecided_reason)
+        return
+    out.set("heatsink_final", fit.final_c)
+    out.uncertainties["heatsink_final"] = fit.final_c_uncertainty
     target = board.targets.get("heatsink_final")
     if target is not None and fit.final_c_uncertainty > target.uncertainty:
         out.warnings.append(

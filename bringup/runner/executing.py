@@ -168,6 +168,7 @@ def _soak(ctx: _Context, bench, powered) -> None:
                 fit = None
         settled = (
             fit is not None
+            and fit.decided  # "undecided": the log cannot tell yet, keep soaking
             and elapsed >= soak["min_duration_s"]
             and fit.final_c_uncertainty <= band
             and len(finals) >= 3
@@ -268,14 +269,16 @@ def _judge(ctx: _Context, out: AnalysisOutput) -> tuple[str, tuple[MetricResult,
         p = predicted.get(metric)
         if metric in step.targets:
             t = board.targets[metric]
-            v = judge(value, t.limit, t.uncertainty, t.rule)
+            # The guard band: the larger of the declared and the computed uncertainty.
+            u = max(t.uncertainty, out.uncertainties.get(metric, 0.0))
+            v = judge(value, t.limit, u, t.rule)
             reason = v.reason
             if value is None and metric in out.reasons:
                 reason = f"{out.reasons[metric]}: {v.reason}"
             outcomes.append(v.outcome)
-            results.append(MetricResult(metric, t.label, t.unit, value, p, t.limit, t.uncertainty,
+            results.append(MetricResult(metric, t.label, t.unit, value, p, t.limit, u,
                                         t.rule, v.outcome, v.margin, reason,
-                                        disagreement(value, p, t.unit, t.uncertainty)))  # fmt: skip
+                                        disagreement(value, p, t.unit, u)))  # fmt: skip
         else:
             unit = units[metric]
             results.append(MetricResult(metric, metric.replace("_", " "), unit, value, p,
