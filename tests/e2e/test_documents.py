@@ -103,14 +103,22 @@ def test_the_tour_names_every_sub_command_and_option() -> None:
 
 
 def _documented_headers(text: str) -> list[str]:
-    """The program headers in the first cell of every table row, e.g. ``INPut<n>[:STATe]``."""
+    """The program headers in the first cell of every table row, e.g. ``INPut<n>[:STATe]``.
+
+    ``...:TRIPped?`` after ``[SOURce:]CURRent:PROTection[:LEVel]`` in one cell continues that
+    header (its trailing optional node dropped): ``[SOURce:]CURRent:PROTection:TRIPped``."""
     headers = []
     for line in text.splitlines():
         if not line.startswith("| `"):
             continue
         first = re.split(r"(?<!\\)\|", line)[1]
+        base = ""
         for span in re.findall(r"`([^`]+)`", first):
             head = span.split()[0].rstrip("?")
+            if head.startswith("...") and base:
+                head = re.sub(r"\[[^\]]*\]$", "", base) + head[3:]
+            elif head:
+                base = head
             if head and head != "?":
                 headers.append(head)
     return headers
@@ -118,32 +126,49 @@ def _documented_headers(text: str) -> list[str]:
 
 def _tokens(header: str) -> list[str]:
     """A documented header spelled out in full: optional nodes kept, ``<n>`` as 1."""
-    spelled = header.replace("[", "").replace("]", "").replace("<n>", "1")
+    spelled = header.replace("[...]", "").replace("[", "").replace("]", "").replace("<n>", "1")
     return [t for t in spelled.split(":") if t]
 
 
-def test_the_simulator_readme_lists_every_command_and_no_other(sim_bench) -> None:
-    bench = sim_bench()
-    instruments = {"scope": bench.scope, "supply": bench.supply, "thermometer": bench.thermometer}
+def _instruments_of_every_dialect(design: dict[str, float]) -> list[tuple[str, object]]:
+    """(label, instrument) for every instrument of every dialect ``bringup sim --dialect`` offers:
+    bench i speaks the i-th dialect of each kind (the last one again where a kind has fewer)."""
+    from sim_instruments.bench import DIALECTS, start_bench
+
+    found = []
+    for i in range(max(len(names) for names in DIALECTS.values())):
+        chosen = {kind: list(names)[min(i, len(names) - 1)] for kind, names in DIALECTS.items()}
+        bench = start_bench(design, dialects=chosen)
+        try:
+            found += [(f"{kind}={chosen[kind]}", getattr(bench, kind)) for kind in DIALECTS]
+        finally:
+            bench.stop()
+    return found
+
+
+def test_the_simulator_readme_lists_every_command_and_no_other(demo_design) -> None:
+    instruments = _instruments_of_every_dialect(demo_design)
     headers = _documented_headers(SIM_README.read_text(encoding="utf-8"))
     assert len(headers) > 40  # the parse found the tables
     named: set[tuple[str, str]] = set()
     stale = []
     for header in headers:
         hits = [
-            (kind, hit[0].pattern)
-            for kind, inst in instruments.items()
+            (label, hit[0].pattern)
+            for label, inst in instruments
             if (hit := inst.tree.lookup(_tokens(header))) is not None
         ]
         if not hits:
             stale.append(header)
         named.update(hits)
-    undocumented = [
-        f"{kind}: {entry.pattern}"
-        for kind, inst in instruments.items()
-        for entry in inst.tree.entries
-        if (kind, entry.pattern) not in named
-    ]
+    undocumented = sorted(
+        {
+            f"{label}: {entry.pattern}"
+            for label, inst in instruments
+            for entry in inst.tree.entries
+            if (label, entry.pattern) not in named
+        }
+    )
     assert not undocumented, "in the simulator but not in its README:\n" + "\n".join(undocumented)
     assert not stale, "in the README but not understood by the simulator:\n" + "\n".join(stale)
 
