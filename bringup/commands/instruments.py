@@ -1,8 +1,11 @@
 """``bringup instruments``: check that each instrument of a bench file answers.
 
 Opens each instrument by its explicit resource string, prints its ``*IDN?``, which profiles
-match it, and whether its error queue is empty. ``--discover`` lists VISA resources, which
-sends broadcast traffic beyond this machine: it runs only when asked.
+match it, and whether its error queue is empty. ``--check`` goes further: every operation of
+every profile is tried in a way that cannot energise anything (``bringup.instruments.check``)
+and a table (or ``--json``) says what works, what is declared absent and what failed, with the
+SCPI line sent and the reply. ``--discover`` lists VISA resources, which sends broadcast
+traffic beyond this machine: it runs only when asked.
 """
 
 from __future__ import annotations
@@ -32,6 +35,15 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
     )
     parser.add_argument(
         "--profiles", type=Path, metavar="DIR", help="folder of your own command profiles"
+    )
+    parser.add_argument(
+        "--check",
+        action="store_true",
+        help="try every operation each profile declares, never switching the supply on, and "
+        "print what works, what is declared absent and what failed (with the SCPI line)",
+    )
+    parser.add_argument(
+        "--json", action="store_true", help="with --check: one JSON object instead of the table"
     )
     parser.add_argument(
         "--discover",
@@ -124,11 +136,17 @@ def run(args: argparse.Namespace) -> int:
     bench_path = args.bench or Path("bench.toml")
     if args.bench is None and not bench_path.is_file():
         raise InputError("no bench file: pass --bench FILE (or put bench.toml here)")
+    if args.json and not args.check:
+        raise InputError("--json goes with --check")
+    if args.check and args.discover:
+        raise InputError("--check and --discover: one at a time")
     config = load_bench(bench_path)
     profiles = all_profiles(args.profiles)
     # A profile the bench file names but no folder holds is a configuration error (the file's
     # line and key), not an instrument that failed to answer.
     chosen = {role: profile_for_role(config, role, args.profiles) for role in ROLES}
+    if args.check:
+        return _check_operations(config, chosen, args.json)
     healthy = True
     if config.simulated:
         print(f"{config.path}: simulated bench ([simulation] enabled)")
@@ -148,4 +166,54 @@ def run(args: argparse.Namespace) -> int:
         for name in discover_resources() or ("(none)",):
             print(f"  {name}")
     print("all instruments answer" if healthy else "some instruments need attention")
+    return 0 if healthy else 1
+
+
+def _check_operations(config, chosen: dict[str, Profile], as_json: bool) -> int:
+    """``--check``: a table (or JSON) of every operation of every instrument; 0 when none failed."""
+    import json
+
+    from bringup.instruments.bench import ROLES
+    from bringup.instruments.check import FAILED, check_instrument
+
+    report = {}
+    healthy = True
+    for role in ROLES:
+        rows = check_instrument(config, role, chosen[role])
+        healthy &= not any(row.status == FAILED for row in rows)
+        report[role] = (config.instruments[role], chosen[role], rows)
+    if as_json:
+        out = {
+            "bench": str(config.path),
+            "healthy": healthy,
+            "instruments": {
+                role: {
+                    "resource": entry.resource,
+                    "profile": profile.name,
+                    "profile_file": str(profile.path),
+                    "operations": [row.as_dict() for row in rows],
+                }
+                for role, (entry, profile, rows) in report.items()
+            },
+        }
+        print(json.dumps(out))
+        return 0 if healthy else 1
+    for role, (entry, profile, rows) in report.items():
+        print(f"{role}: {entry.resource} (profile {profile.name}, {profile.path})")
+        width = max(len(row.operation) for row in rows)
+        for row in rows:
+            detail = []
+            if row.sent is not None:
+                detail.append(f"sent {row.sent!r}")
+            if row.reply is not None:
+                detail.append(f"reply {row.reply!r}")
+            if row.note:
+                detail.append(row.note)
+            print(f"  {row.operation:<{width}}  {row.status:<9}  {'; '.join(detail)}")
+    counts = {}
+    for _, _, rows in report.values():
+        for row in rows:
+            counts[row.status] = counts.get(row.status, 0) + 1
+    summary = ", ".join(f"{n} {status}" for status, n in sorted(counts.items()))
+    print(f"{summary}: " + ("every declared operation works" if healthy else "some failed"))
     return 0 if healthy else 1
