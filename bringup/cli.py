@@ -21,7 +21,9 @@ class _Parser(argparse.ArgumentParser):
         self.exit(2, f"{self.prog}: error: {message}\n")
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The whole parser, or with ``only`` a parser that knows just that command (the one on
+    the command line: importing every command module costs more than ``calc`` itself)."""
     parser = _Parser(
         prog="bringup",
         description="Terminal lab notebook for gate-drive bring-up. "
@@ -29,7 +31,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"bringup {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    for name in COMMANDS:
+    for name in COMMANDS if only is None else (only,):
         try:
             module = importlib.import_module(f"bringup.commands.{name}")
         except ModuleNotFoundError as exc:
@@ -41,8 +43,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    parser = build_parser()
     argv = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser(argv[0] if argv and argv[0] in COMMANDS else None)
     # `bringup --db PATH` means the start screen on that log: options before any command
     # belong to `open` unless they are the program's own.
     if argv and argv[0].startswith("-") and argv[0] not in _OWN_OPTIONS:
