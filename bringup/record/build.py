@@ -226,27 +226,35 @@ def step_statuses(data: SessionData) -> dict[tuple[str, str], tuple[str, str | N
     return state
 
 
-def build_content(data: SessionData, load: WaveformLoader) -> dict:
-    """The record's content for ``data`` (see SCHEMA.md); ``load`` reads a waveform's codes."""
-    offset = _offset_of(data)
-    summary = data.summary
-    board_snap = data.board if isinstance(data.board, dict) else {}
-    board_info = board_snap.get("board") if isinstance(board_snap.get("board"), dict) else {}
-    targets = _targets(board_snap)
-    checklist = data.checklist if isinstance(data.checklist, dict) else {}
-    statuses = step_statuses(data)
-    checklist_table = checklist_file(checklist)
+StepKey = tuple[str, str]
 
-    by_step: dict[tuple[str, str], list[AttemptRecord]] = {}
+
+def _entries_by_step(
+    data: SessionData,
+) -> tuple[dict[StepKey, list[AttemptRecord]], dict[StepKey, list[EventRecord]], list[EventRecord]]:
+    """The attempts and events of each (stage, step), and the events of the whole session."""
+    by_step: dict[StepKey, list[AttemptRecord]] = {}
     for a in data.attempts:
         by_step.setdefault((a.stage_id, a.step_id), []).append(a)
-    step_events: dict[tuple[str, str], list[EventRecord]] = {}
+    step_events: dict[StepKey, list[EventRecord]] = {}
     session_events: list[EventRecord] = []
     for e in data.events:
         if e.step_id and e.stage_id:
             step_events.setdefault((e.stage_id, e.step_id), []).append(e)
         else:
             session_events.append(e)
+    return by_step, step_events, session_events
+
+
+def _stages(data: SessionData, checklist: dict, targets: dict, load: WaveformLoader) -> list[dict]:
+    """The stages in checklist order, each step with its attempts and events; entries for steps
+    the checklist snapshot does not list are kept in a last stage, never dropped."""
+    offset = _offset_of(data)
+    statuses = step_statuses(data)
+    by_step, step_events, _ = _entries_by_step(data)
+
+    def step(sid: str, tid: str, tdef: dict) -> dict:
+        return _step(sid, tid, tdef, by_step, step_events, statuses, offset, targets, load)
 
     stages, known = [], set()
     for sdef in step_definitions(checklist):
@@ -257,31 +265,32 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
                 continue
             tid = str(tdef.get("id"))
             known.add((sid, tid))
-            steps.append(
-                _step(sid, tid, tdef, by_step, step_events, statuses, offset, targets, load)
-            )
+            steps.append(step(sid, tid, tdef))
         stage = {"id": sid, "title": sdef.get("title") or sdef.get("name") or sid, "steps": steps}
         cautions = sdef.get("cautions") or sdef.get("caution")
         if cautions:
             stage["cautions"] = [cautions] if isinstance(cautions, str) else list(cautions)
         stages.append(stage)
-    # Entries for steps the checklist snapshot does not list are kept, never dropped.
     strays = sorted({*by_step, *step_events} - known)
     if strays:
-        extra_steps = [
-            _step(s, t, {}, by_step, step_events, statuses, offset, targets, load)
-            for s, t in strays
-        ]
         stages.append({"id": "not-in-checklist", "title": "Entries for steps not in the checklist",
-                       "steps": extra_steps})  # fmt: skip
+                       "steps": [step(s, t, {}) for s, t in strays]})  # fmt: skip
+    return stages
 
+
+def _operators(data: SessionData) -> list[str]:
+    """Who measured: the session's operator and whoever logged attempts, skips and notes, in
+    order of appearance (a waiver's name is a decision-maker's, shown with the waiver)."""
     operators: list[str] = []
-    # Who measured: the session's operator and whoever logged attempts, skips and notes; a
-    # waiver's name is a decision-maker's, shown with the waiver.
     doers = (e.operator for e in data.timeline if getattr(e, "kind", "") != "waive")
-    for name in [summary.operator, *doers]:
+    for name in [data.summary.operator, *doers]:
         if name and name not in operators:
             operators.append(name)
+    return operators
+
+
+def _session_state(data: SessionData) -> tuple[str, str | None]:
+    """("open" | "aborted" | "finished", the UTC time of the finish or None) from the events."""
     state, ended = "open", None
     for e in data.events:
         if e.kind == "abort":
@@ -290,9 +299,12 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
             state = "open"
         elif e.kind == "finish":
             state, ended = "finished", e.recorded_utc
-    timeline = data.timeline
-    last = timeline[-1].recorded_utc if timeline else summary.created_utc
+    return state, ended
 
+
+def _summary(stages: list[dict]) -> dict:
+    """The overall outcome, the count of each step status, the open items and the exceptions
+    (waivers and skips, each with who and why)."""
     counts: dict[str, int] = {}
     open_items, exceptions = [], []
     for stage in stages:
@@ -318,49 +330,67 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
         overall = "accepted-with-exceptions"
     else:
         overall = "accepted"
+    return {"overall": overall, "counts": counts, "open_items": open_items,
+            "exceptions": exceptions}  # fmt: skip
 
+
+def _board(data: SessionData, board_snap: dict, targets: dict) -> dict:
+    """The board part: identity from the session, the rest from the logged board file."""
+    board_info = board_snap.get("board") if isinstance(board_snap.get("board"), dict) else {}
+    design = board_snap.get("design")
+    return {
+        "name": data.summary.board_name,
+        "revision": data.summary.board_revision,
+        "description": board_info.get("description"),
+        "serial_pattern": board_info.get("serial_pattern"),
+        "text_sha256": text_digest(board_snap),
+        "design": design if isinstance(design, dict) else {},
+        "targets": targets,
+        "other": {k: v for k, v in board_snap.items() if k not in ("board", "design", "targets")},
+    }
+
+
+def _checklist(data: SessionData, checklist: dict) -> dict:
+    """The checklist part: its id, name, version and description, and the file's digest."""
+    table = checklist_file(checklist)
+    return {
+        "id": data.summary.checklist_id,
+        "name": checklist.get("name") or checklist.get("title") or data.summary.checklist_id,
+        "version": checklist.get("version") or table.get("version"),
+        "description": table.get("description"),
+        "text_sha256": text_digest(checklist),
+        "snapshot": {k: v for k, v in checklist.items() if k != "stages"},
+    }
+
+
+def build_content(data: SessionData, load: WaveformLoader) -> dict:
+    """The record's content for ``data`` (see SCHEMA.md); ``load`` reads a waveform's codes."""
+    offset = _offset_of(data)
+    summary = data.summary
+    board_snap = data.board if isinstance(data.board, dict) else {}
+    targets = _targets(board_snap)
+    checklist = data.checklist if isinstance(data.checklist, dict) else {}
+    stages = _stages(data, checklist, targets, load)
+    state, ended = _session_state(data)
+    timeline = data.timeline
+    last = timeline[-1].recorded_utc if timeline else summary.created_utc
     return {
         "session": {
             "id": summary.id,
             "serial": summary.serial,
             "operator": summary.operator,
-            "operators": operators,
+            "operators": _operators(data),
             "state": state,
             "started": stamp(summary.created_utc, offset),
             "ended": stamp(ended or last, offset),
             "finished": ended is not None,
         },
-        "board": {
-            "name": summary.board_name,
-            "revision": summary.board_revision,
-            "description": board_info.get("description"),
-            "serial_pattern": board_info.get("serial_pattern"),
-            "text_sha256": text_digest(board_snap),
-            "design": board_snap.get("design")
-            if isinstance(board_snap.get("design"), dict)
-            else {},
-            "targets": targets,
-            "other": {
-                k: v for k, v in board_snap.items() if k not in ("board", "design", "targets")
-            },
-        },
-        "checklist": {
-            "id": summary.checklist_id,
-            "name": checklist.get("name") or checklist.get("title") or summary.checklist_id,
-            "version": checklist.get("version") or checklist_table.get("version"),
-            "description": checklist_table.get("description"),
-            "text_sha256": text_digest(checklist),
-            "snapshot": {k: v for k, v in checklist.items() if k != "stages"},
-        },
+        "board": _board(data, board_snap, targets),
+        "checklist": _checklist(data, checklist),
         "bench": bench_view(data.bench, data.attempts),
         "stages": stages,
-        "events": [_event(e, offset) for e in session_events],
-        "summary": {
-            "overall": overall,
-            "counts": counts,
-            "open_items": open_items,
-            "exceptions": exceptions,
-        },
+        "events": [_event(e, offset) for e in _entries_by_step(data)[2]],
+        "summary": _summary(stages),
         "log": {
             "chain_head": data.chain_head,
             "genesis_hash": data.genesis_hash,

@@ -79,6 +79,144 @@ _STYLES = {
 }
 
 
+@dataclass(frozen=True)
+class _Frame:
+    """The plot area in pixels (``left``, ``top``, width ``pw``, height ``ph``) and the data
+    ranges it shows (seconds across, the trace's unit up)."""
+
+    left: float
+    top: float
+    pw: float
+    ph: float
+    t_lo: float
+    t_hi: float
+    y_lo: float
+    y_hi: float
+
+    def px(self, tv: float) -> float:
+        return self.left + (tv - self.t_lo) / (self.t_hi - self.t_lo) * self.pw
+
+    def py(self, yv: float) -> float:
+        return self.top + (self.y_hi - yv) / (self.y_hi - self.y_lo) * self.ph
+
+
+def _y_range(y: np.ndarray, markers: Sequence[Marker], overlay) -> tuple[float, float]:
+    """The vertical range: the trace, the overlay and every level marker, padded by 6 %."""
+    ys = [float(y.min()), float(y.max())]
+    if overlay is not None:
+        ys += [float(np.nanmin(overlay[1])), float(np.nanmax(overlay[1]))]
+    ys += [m.y for m in markers if m.y is not None and math.isfinite(m.y)]
+    y_lo, y_hi = min(ys), max(ys)
+    pad = (y_hi - y_lo) * 0.06 or abs(y_hi) * 0.05 or 1.0
+    return y_lo - pad, y_hi + pad
+
+
+def _grid(f: _Frame, unit: str) -> list[str]:
+    """Grid lines with their tick labels: the trace's unit up, seconds across."""
+    parts = []
+    for tick in _nice_ticks(f.y_lo, f.y_hi):
+        yy = f.py(tick)
+        parts.append(
+            f'<line x1="{f.left}" x2="{f.left + f.pw}" y1="{_f(yy)}" y2="{_f(yy)}" stroke="#e2e0da"/>'
+        )
+        parts.append(
+            f'<text x="{f.left - 4}" y="{_f(yy + 4)}" font-size="10" text-anchor="end">'
+            f"{_shown(format_quantity(tick, unit))}</text>"
+        )
+    for tick in _nice_ticks(f.t_lo, f.t_hi, 6):
+        xx = f.px(tick)
+        parts.append(
+            f'<line x1="{_f(xx)}" x2="{_f(xx)}" y1="{f.top}" y2="{f.top + f.ph}" stroke="#e2e0da"/>'
+        )
+        parts.append(
+            f'<text x="{_f(xx)}" y="{f.top + f.ph + 14}" font-size="10" text-anchor="middle">'
+            f"{_shown(format_quantity(tick, 's'))}</text>"
+        )
+    return parts
+
+
+def _windows(f: _Frame, markers: Sequence[Marker]) -> list[str]:
+    """The shaded spans of window markers, drawn under the trace."""
+    parts = []
+    for m in markers:
+        if m.kind == "window" and m.t is not None and m.t_end is not None:
+            x0, x1 = f.px(max(m.t, f.t_lo)), f.px(min(m.t_end, f.t_hi))
+            parts.append(
+                f'<rect x="{_f(x0)}" y="{f.top}" width="{_f(max(x1 - x0, 0.5))}" height="{f.ph}" '
+                f'fill="#f3d9a4" fill-opacity="0.45" stroke="#b9892c" stroke-dasharray="4 2"/>'
+            )
+    return parts
+
+
+def _trace(f: _Frame, t: np.ndarray, y: np.ndarray) -> str:
+    """The trace: a line through every sample when there are few, else the min/max envelope of
+    each pixel column (so every spike shows)."""
+    columns = int(f.pw)
+    if t.size <= 2 * columns:
+        pts = " ".join(f"{_f(f.px(a))},{_f(f.py(b))}" for a, b in zip(t, y, strict=True))
+        return f'<polyline points="{pts}" fill="none" stroke="#1f4e79" stroke-width="1.2"/>'
+    col, lo, hi = envelope(t, y, columns, f.t_lo, f.t_hi)
+    xs = f.left + col + 0.5
+    upper = [f"{_f(a)},{_f(f.py(b))}" for a, b in zip(xs, hi, strict=True)]
+    lower = [f"{_f(a)},{_f(f.py(b))}" for a, b in zip(xs[::-1], lo[::-1], strict=True)]
+    return (
+        f'<polygon points="{" ".join(upper + lower)}" fill="#1f4e79" fill-opacity="0.35" '
+        f'stroke="#1f4e79" stroke-width="0.8"/>'
+    )
+
+
+def _overlay(f: _Frame, overlay: tuple[np.ndarray, np.ndarray, str]) -> list[str]:
+    """A fitted model drawn dashed over the trace, labelled in the lower right corner."""
+    ot, oy, olabel = overlay
+    ok = np.isfinite(ot) & np.isfinite(oy) & (ot >= f.t_lo) & (ot <= f.t_hi)
+    pts = " ".join(f"{_f(f.px(a))},{_f(f.py(b))}" for a, b in zip(ot[ok], oy[ok], strict=True))
+    return [
+        f'<polyline points="{pts}" fill="none" {_STYLES["fit"]}/>',
+        f'<text x="{f.left + f.pw - 4}" y="{f.top + f.ph - 4}" font-size="10" text-anchor="end">'
+        f"dashed: {_shown(olabel)}</text>",
+    ]
+
+
+def _markers(f: _Frame, markers: Sequence[Marker]) -> list[str]:
+    """Level and time lines, points and window labels, each with its text label."""
+    parts: list[str] = []
+    placed: list[float] = []
+    left, top, pw, ph = f.left, f.top, f.pw, f.ph
+    for i, m in enumerate(markers):
+        label = _shown(m.label)
+        if m.kind == "level" and m.y is not None:
+            yy = f.py(m.y)
+            parts.append(
+                f'<line x1="{left}" x2="{left + pw}" y1="{_f(yy)}" y2="{_f(yy)}" {_STYLES["level"]}/>'
+            )
+            # Labels of nearby levels (high, 90 %) would overprint: move each one along.
+            slot = sum(1 for y0 in placed if abs(y0 - yy) < 11)
+            placed.append(yy)
+            parts.append(
+                f'<text x="{left + pw - 4 - 56 * slot}" y="{_f(yy - 3)}" font-size="10" '
+                f'text-anchor="end">{label}</text>'
+            )
+        elif m.kind == "time" and m.t is not None:
+            xx = f.px(m.t)
+            parts.append(
+                f'<line x1="{_f(xx)}" x2="{_f(xx)}" y1="{top}" y2="{top + ph}" {_STYLES["time"]}/>'
+            )
+            parts.append(
+                f'<text x="{_f(xx + 3)}" y="{top + 12 + 11 * (i % 3)}" font-size="10">{label}</text>'
+            )
+        elif m.kind == "point" and m.t is not None and m.y is not None:
+            xx, yy = f.px(m.t), f.py(m.y)
+            parts.append(
+                f'<circle cx="{_f(xx)}" cy="{_f(yy)}" r="3.5" fill="none" stroke="#000" stroke-width="1.2"/>'
+            )
+            parts.append(f'<text x="{_f(xx + 5)}" y="{_f(yy - 5)}" font-size="10">{label}</text>')
+        elif m.kind == "window" and m.t is not None:
+            parts.append(
+                f'<text x="{_f(f.px(max(m.t, f.t_lo)) + 3)}" y="{top + ph - 4}" font-size="10">{label}</text>'
+            )
+    return parts
+
+
 def plot_svg(
     t: Sequence[float] | np.ndarray,
     y: Sequence[float] | np.ndarray,
@@ -113,100 +251,12 @@ def plot_svg(
         )
         parts.append("</svg>")
         return "".join(parts)
-    t_lo, t_hi = float(t[0]), float(t[-1])
-    ys = [float(y.min()), float(y.max())]
+    frame = _Frame(left, top, pw, ph, float(t[0]), float(t[-1]), *_y_range(y, markers, overlay))
+    parts += _grid(frame, unit)
+    parts += _windows(frame, markers)
+    parts.append(_trace(frame, t, y))
     if overlay is not None:
-        ys += [float(np.nanmin(overlay[1])), float(np.nanmax(overlay[1]))]
-    ys += [m.y for m in markers if m.y is not None and math.isfinite(m.y)]
-    y_lo, y_hi = min(ys), max(ys)
-    pad = (y_hi - y_lo) * 0.06 or abs(y_hi) * 0.05 or 1.0
-    y_lo, y_hi = y_lo - pad, y_hi + pad
-
-    def px(tv: float) -> float:
-        return left + (tv - t_lo) / (t_hi - t_lo) * pw
-
-    def py(yv: float) -> float:
-        return top + (y_hi - yv) / (y_hi - y_lo) * ph
-
-    for tick in _nice_ticks(y_lo, y_hi):
-        yy = py(tick)
-        parts.append(
-            f'<line x1="{left}" x2="{left + pw}" y1="{_f(yy)}" y2="{_f(yy)}" stroke="#e2e0da"/>'
-        )
-        parts.append(
-            f'<text x="{left - 4}" y="{_f(yy + 4)}" font-size="10" text-anchor="end">'
-            f"{_shown(format_quantity(tick, unit))}</text>"
-        )
-    for tick in _nice_ticks(t_lo, t_hi, 6):
-        xx = px(tick)
-        parts.append(
-            f'<line x1="{_f(xx)}" x2="{_f(xx)}" y1="{top}" y2="{top + ph}" stroke="#e2e0da"/>'
-        )
-        parts.append(
-            f'<text x="{_f(xx)}" y="{top + ph + 14}" font-size="10" text-anchor="middle">'
-            f"{_shown(format_quantity(tick, 's'))}</text>"
-        )
-    for m in markers:
-        if m.kind == "window" and m.t is not None and m.t_end is not None:
-            x0, x1 = px(max(m.t, t_lo)), px(min(m.t_end, t_hi))
-            parts.append(
-                f'<rect x="{_f(x0)}" y="{top}" width="{_f(max(x1 - x0, 0.5))}" height="{ph}" '
-                f'fill="#f3d9a4" fill-opacity="0.45" stroke="#b9892c" stroke-dasharray="4 2"/>'
-            )
-    columns = pw
-    if t.size <= 2 * columns:
-        pts = " ".join(f"{_f(px(a))},{_f(py(b))}" for a, b in zip(t, y, strict=True))
-        parts.append(f'<polyline points="{pts}" fill="none" stroke="#1f4e79" stroke-width="1.2"/>')
-    else:
-        col, lo, hi = envelope(t, y, columns, t_lo, t_hi)
-        xs = left + col + 0.5
-        upper = [f"{_f(a)},{_f(py(b))}" for a, b in zip(xs, hi, strict=True)]
-        lower = [f"{_f(a)},{_f(py(b))}" for a, b in zip(xs[::-1], lo[::-1], strict=True)]
-        parts.append(
-            f'<polygon points="{" ".join(upper + lower)}" fill="#1f4e79" fill-opacity="0.35" '
-            f'stroke="#1f4e79" stroke-width="0.8"/>'
-        )
-    if overlay is not None:
-        ot, oy, olabel = overlay
-        ok = np.isfinite(ot) & np.isfinite(oy) & (ot >= t_lo) & (ot <= t_hi)
-        pts = " ".join(f"{_f(px(a))},{_f(py(b))}" for a, b in zip(ot[ok], oy[ok], strict=True))
-        parts.append(f'<polyline points="{pts}" fill="none" {_STYLES["fit"]}/>')
-        parts.append(
-            f'<text x="{left + pw - 4}" y="{top + ph - 4}" font-size="10" text-anchor="end">'
-            f"dashed: {_shown(olabel)}</text>"
-        )
-    placed: list[float] = []
-    for i, m in enumerate(markers):
-        label = _shown(m.label)
-        if m.kind == "level" and m.y is not None:
-            yy = py(m.y)
-            parts.append(
-                f'<line x1="{left}" x2="{left + pw}" y1="{_f(yy)}" y2="{_f(yy)}" {_STYLES["level"]}/>'
-            )
-            # Labels of nearby levels (high, 90 %) would overprint: move each one along.
-            slot = sum(1 for y0 in placed if abs(y0 - yy) < 11)
-            placed.append(yy)
-            parts.append(
-                f'<text x="{left + pw - 4 - 56 * slot}" y="{_f(yy - 3)}" font-size="10" '
-                f'text-anchor="end">{label}</text>'
-            )
-        elif m.kind == "time" and m.t is not None:
-            xx = px(m.t)
-            parts.append(
-                f'<line x1="{_f(xx)}" x2="{_f(xx)}" y1="{top}" y2="{top + ph}" {_STYLES["time"]}/>'
-            )
-            parts.append(
-                f'<text x="{_f(xx + 3)}" y="{top + 12 + 11 * (i % 3)}" font-size="10">{label}</text>'
-            )
-        elif m.kind == "point" and m.t is not None and m.y is not None:
-            xx, yy = px(m.t), py(m.y)
-            parts.append(
-                f'<circle cx="{_f(xx)}" cy="{_f(yy)}" r="3.5" fill="none" stroke="#000" stroke-width="1.2"/>'
-            )
-            parts.append(f'<text x="{_f(xx + 5)}" y="{_f(yy - 5)}" font-size="10">{label}</text>')
-        elif m.kind == "window" and m.t is not None:
-            parts.append(
-                f'<text x="{_f(px(max(m.t, t_lo)) + 3)}" y="{top + ph - 4}" font-size="10">{label}</text>'
-            )
+        parts += _overlay(frame, overlay)
+    parts += _markers(frame, markers)
     parts.append("</svg>")
     return "".join(parts)
