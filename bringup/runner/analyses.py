@@ -259,6 +259,8 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.set("switch_rise", rise, m.reasons.get("rise_time_s", ""))
         out.set("switch_fall", fall, m.reasons.get("fall_time_s", ""))
         out.set("switch_overshoot", m.overshoot_max_pct, m.reasons.get("overshoot_pct", ""))
+        if m.overshoot_max_uncertainty_pct is not None:
+            out.uncertainties["switch_overshoot"] = m.overshoot_max_uncertainty_pct
         out.set("switch_negative_excursion", m.min_v)
         if rise is not None and fall is not None:
             volts = m.high_level_v
