@@ -148,12 +148,19 @@ def run(args: argparse.Namespace) -> int:
     if args.check:
         return _check_operations(config, chosen, args.json)
     healthy = True
+    from bringup.locks import lock_resources
+
+    # A bench another process is using is not queried (a *CLS here would clear its errors).
+    locks = lock_resources((role, config.instruments[role].resource) for role in ROLES)
     if config.simulated:
         print(f"{config.path}: simulated bench ([simulation] enabled)")
-    for role in ROLES:
-        lines, ok = _check_one(role, config.instruments[role], chosen[role], profiles)
-        healthy &= ok
-        print("\n".join(lines))
+    try:
+        for role in ROLES:
+            lines, ok = _check_one(role, config.instruments[role], chosen[role], profiles)
+            healthy &= ok
+            print("\n".join(lines))
+    finally:
+        locks.release()
     if config.channels:
         wiring = ", ".join(
             f"CH{w.channel}={w.net} ({w.probe_ratio:g}:1)" for w in config.channels.values()

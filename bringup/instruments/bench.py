@@ -247,6 +247,8 @@ class Bench:
     sessions: dict[str, InstrumentSession]
     wiring: dict[int, ChannelWiring] = field(default_factory=dict)
     simulation: SimulationControl | None = None
+    #: this process's locks on the instruments' resources (``bringup.locks``), let go on close
+    resource_locks: Any = None
 
     def channel_for(self, net: str) -> int:
         """The scope channel whose probe sits on ``net`` now (``InputError`` if none)."""
@@ -275,8 +277,12 @@ class Bench:
         try:
             make_safe(self.supply)
         finally:
-            for session in self.sessions.values():
-                session.close()
+            try:
+                for session in self.sessions.values():
+                    session.close()
+            finally:
+                if self.resource_locks is not None:
+                    self.resource_locks.release()
 
     def __enter__(self) -> Bench:
         return self
@@ -357,8 +363,12 @@ def open_bench(
     from bringup.instruments.scope import Scope
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
+    from bringup.locks import lock_resources
 
     profiles = {role: profile_for_role(config, role, profiles_dir) for role in ROLES}
+    # One bench, one process: every resource is locked before a byte is sent (InUse names
+    # the holder); the locks go with the bench's close, or with this process.
+    locks = lock_resources((role, config.instruments[role].resource) for role in ROLES)
     sessions: dict[str, InstrumentSession] = {}
     try:
         identities = {}
@@ -384,6 +394,7 @@ def open_bench(
             profiles=profiles,
             sessions=sessions,
             wiring=dict(config.channels),
+            resource_locks=locks,
         )
         if make_safe_on_open:
             from bringup.instruments.safety import make_safe
@@ -407,6 +418,7 @@ def open_bench(
             make_safe_quietly(_supply(sessions["supply"], config))
         for session in sessions.values():
             session.close()
+        locks.release()
         raise
 
 

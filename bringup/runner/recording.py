@@ -103,10 +103,13 @@ class Recorder:
     """One session's side of the log (``bringup.store.SessionLog``): attempts and events in,
     stored attempts' waveforms out. Safe to use from several threads (one lock)."""
 
-    def __init__(self, log, session_id: str) -> None:
+    def __init__(self, log, session_id: str, session_lock=None) -> None:
+        """``session_lock``: this process's hold on the session (``bringup.locks.Held``): one
+        session, one writer; let go when the log is closed."""
         self.log = log
         self.session_id = session_id
         self._lock = threading.RLock()
+        self._session_lock = session_lock
 
     @property
     def lock(self) -> threading.RLock:
@@ -163,9 +166,13 @@ class Recorder:
         return ()
 
     def close(self) -> None:
-        """Close the log."""
+        """Close the log, then let go of the session."""
         with self._lock:
-            self.log.close()
+            try:
+                self.log.close()
+            finally:
+                if self._session_lock is not None:
+                    self._session_lock.release()
 
 
 def attempt_from_record(record, step: Step) -> AttemptResult:

@@ -46,6 +46,7 @@ class Reopened:
     operator: str
     bench: BenchSource
     timeline: tuple
+    session_lock: object = None  # bringup.locks.Held: this process writes the session
 
 
 def reopen(
@@ -56,12 +57,16 @@ def reopen(
     operator: str | None,
 ) -> Reopened:
     """Open the log and read the session to resume (see ``SessionRunner.resume``): refused
-    when it is finished or the log does not say which bench it ran on."""
+    when another process writes it (``bringup.locks.InUse``, before anything is logged or
+    sent), when it is finished or the log does not say which bench it ran on."""
+    from bringup.locks import lock_session
     from bringup.store import SessionLog
 
     log = SessionLog.open(db_path, create=False)
+    held = None
     try:
         sid = pick_session(log, session_id)
+        held = lock_session(log.path, sid)  # one session, one writer: read it once locked
         data = log.session(sid)
         if data.summary.finished:
             raise RunnerError(
@@ -74,9 +79,12 @@ def reopen(
             )
         return Reopened(log, sid, board_from_snapshot(data.board),
                         checklist_from_snapshot(data.checklist), data.summary.serial,
-                        operator or data.summary.operator, source, tuple(data.timeline))  # fmt: skip
+                        operator or data.summary.operator, source, tuple(data.timeline),
+                        held)  # fmt: skip
     except BaseException:
         log.close()
+        if held is not None:
+            held.release()
         raise
 
 

@@ -84,8 +84,10 @@ class SessionRunner:
     """
 
     def __init__(self, *, log, session_id: str, board: Board, checklist: Checklist,
-                 serial: str, operator: str, bench: BenchSource, link=None) -> None:  # fmt: skip
-        """Use :meth:`create` or :meth:`resume`. ``link``: a bench already open."""
+                 serial: str, operator: str, bench: BenchSource, link=None,
+                 session_lock=None) -> None:  # fmt: skip
+        """Use :meth:`create` or :meth:`resume`. ``link``: a bench already open;
+        ``session_lock``: this process's lock on the session (``bringup.locks``)."""
         self.session_id = session_id
         self.board = board
         self.checklist = checklist
@@ -94,7 +96,7 @@ class SessionRunner:
         self.bench_source = bench
         self.state = SessionState(checklist)
         self.planner = Planner(board, bench)
-        self.recorder = Recorder(log, session_id)
+        self.recorder = Recorder(log, session_id, session_lock)
         self.executor = StepExecutor(board=board, source=bench, planner=self.planner,
                                      recorder=self.recorder, operator=operator, bench=link)  # fmt: skip
         self._lock = threading.RLock()  # the state, and the log through the recorder
@@ -131,11 +133,14 @@ class SessionRunner:
         _check_operator(operator)
         board.check_serial(serial)
         check_against_board(checklist, board)
+        from bringup.locks import lock_session
+
         log = SessionLog.open(db_path)
-        link = None
+        link = held = None
         try:
             # The bench is opened now so that the log holds what it really is: each
             # instrument's *IDN? answer, resources, profiles, probes, calibration dates.
+            # Opening it takes this process's locks on its instruments (bringup.locks).
             link = BenchLink.open(bench, board)
             session_id = log.create_session(
                 board=board_snapshot(board),
@@ -144,6 +149,7 @@ class SessionRunner:
                 serial=serial,
                 operator=operator.strip(),
             )
+            held = lock_session(log.path, session_id)  # one session, one writer
         except BaseException:
             try:
                 if link is not None:
@@ -151,8 +157,24 @@ class SessionRunner:
             finally:
                 log.close()
             raise
-        return cls(log=log, session_id=session_id, board=board, checklist=checklist,
-                   serial=serial, operator=operator.strip(), bench=bench, link=link)  # fmt: skip
+        runner = cls(log=log, session_id=session_id, board=board, checklist=checklist,
+                     serial=serial, operator=operator.strip(), bench=bench, link=link,
+                     session_lock=held)  # fmt: skip
+        runner._note_locks_taken_over(link)
+        return runner
+
+    def _note_locks_taken_over(self, link) -> None:
+        """Log a note when an instrument lock was left by a process that died holding the
+        bench (``bringup.locks``): it did not leave the bench safe itself."""
+        locks = getattr(getattr(link, "bench", None), "resource_locks", None)
+        for what, record in getattr(locks, "took_over", []):
+            self.recorder.event(
+                "note",
+                self.operator,
+                reason=f"lock on {what} taken over from PID {record.get('pid')} "
+                f"({record.get('command')}, since {record.get('since_utc')}), which ended "
+                "without letting go",
+            )
 
     @classmethod
     def resume(
@@ -176,13 +198,15 @@ class SessionRunner:
         try:
             runner = cls(log=found.log, session_id=found.session_id, board=found.board,
                          checklist=found.checklist, serial=found.serial,
-                         operator=found.operator, bench=found.bench)  # fmt: skip
+                         operator=found.operator, bench=found.bench,
+                         session_lock=found.session_lock)  # fmt: skip
             replay(found.timeline, found.checklist, runner.state)
             runner.recorder.event("resume", runner.operator,
                                   reason=f"resumed at {runner.current_step() or 'the end'}")  # fmt: skip
             return runner
         except BaseException:
             found.log.close()
+            found.session_lock.release()
             raise
 
     # ------------------------------------------------------------------ reading
