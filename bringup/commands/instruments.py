@@ -145,16 +145,17 @@ def run(args: argparse.Namespace) -> int:
     # A profile the bench file names but no folder holds is a configuration error (the file's
     # line and key), not an instrument that failed to answer.
     chosen = {role: profile_for_role(config, role, args.profiles) for role in ROLES}
-    if args.check:
-        return _check_operations(config, chosen, args.json)
-    healthy = True
     from bringup.locks import lock_resources
 
-    # A bench another process is using is not queried (a *CLS here would clear its errors).
+    # A bench another process is using is not queried (a *CLS here would clear its errors,
+    # --check writes settings back): its resources are locked first, as a run does.
     locks = lock_resources((role, config.instruments[role].resource) for role in ROLES)
-    if config.simulated:
-        print(f"{config.path}: simulated bench ([simulation] enabled)")
     try:
+        if args.check:
+            return _check_operations(config, chosen, args.json)
+        healthy = True
+        if config.simulated:
+            print(f"{config.path}: simulated bench ([simulation] enabled)")
         for role in ROLES:
             lines, ok = _check_one(role, config.instruments[role], chosen[role], profiles)
             healthy &= ok

@@ -89,6 +89,8 @@ def test_a_second_run_on_a_held_bench_is_refused_before_it_sends_anything(sim_be
             assert log.sessions() == []  # and no session was logged
         checked = _bringup(env, "instruments", "--bench", bench_file)
         _one_line(checked, f"is in use by PID {holder.pid}")
+        checked = _bringup(env, "instruments", "--check", "--bench", bench_file)
+        _one_line(checked, f"is in use by PID {holder.pid}")
         assert bench.supply.output_on
     finally:
         bench.supply.output_on = False
