@@ -47,7 +47,15 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         "published source. Values in engineering notation (4.7u, 40 nC, 25 kHz, 4k7).",
     )
     sub = parser.add_subparsers(dest="calculation", metavar="CALCULATION", required=True)
+    for add in (_add_bootstrap, _add_gate, _add_losses):
+        calculation = add(sub)
+        _json(calculation)
+        calculation.set_defaults(func=run)
+        accept_negative_values(calculation)
+    return parser
 
+
+def _add_bootstrap(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     boot = sub.add_parser(
         "bootstrap",
         help="bootstrap capacitor: minimum C for an allowed droop, droop of a chosen C",
@@ -74,10 +82,10 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     boot.add_argument("--qls", default="0", metavar="Q", help="level-shift charge per cycle (C)")
     boot.add_argument("--c", metavar="C", help="a chosen capacitor: print its droop (F)")
     boot.add_argument("--margin", default="1", metavar="K", help="safety factor K (default 1)")
-    _json(boot)
-    boot.set_defaults(func=run)
-    accept_negative_values(boot)
+    return boot
 
+
+def _add_gate(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     gate = sub.add_parser(
         "gate",
         help="switching times from gate charge and drive current; RC pull-up rise time",
@@ -96,10 +104,10 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     gate.add_argument("--rg-int", default="0", metavar="R", help="MOSFET internal gate resistance")
     gate.add_argument("--r-pullup", metavar="R", help="RC pull-up: the resistor (ohm)")
     gate.add_argument("--c-gate", metavar="C", help="RC pull-up: the capacitance it charges (F)")
-    _json(gate)
-    gate.set_defaults(func=run)
-    accept_negative_values(gate)
+    return gate
 
+
+def _add_losses(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     losses = sub.add_parser(
         "losses",
         help="switching, conduction and gate-drive losses; junction temperature",
@@ -119,10 +127,7 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     losses.add_argument("--vdrv", metavar="V", help="gate drive voltage (V)")
     losses.add_argument("--rth", metavar="K/W", help="thermal resistance junction to reference")
     losses.add_argument("--tamb", metavar="degC", help="reference (ambient) temperature")
-    _json(losses)
-    losses.set_defaults(func=run)
-    accept_negative_values(losses)
-    return parser
+    return losses
 
 
 def _json(p: argparse.ArgumentParser) -> None:
@@ -259,7 +264,6 @@ def _computed(what: str, fn: Callable[..., float], *args: float, **kwargs: float
 def _bootstrap(args) -> None:
     from bringup.analysis import design
     from bringup.commands.analyze import emit
-    from bringup.commands.analyze import format_value as fq
 
     qg = _q(args, "qg", "C")
     iq = _q(args, "iq", "A")
@@ -270,21 +274,7 @@ def _bootstrap(args) -> None:
     fsw = _q(args, "fsw", "Hz", positive=True)
     c = _q(args, "c", "F", positive=True)
     duty = _fraction(args, "duty_max")
-    if duty == 0:
-        raise InputError(f"--duty-max: must be > 0, got {args.duty_max!r} (no on-time)")
-    t_on = _q(args, "ton_max", "s", positive=True)
-    source = "--ton-max"
-    if t_on is not None and duty is not None:
-        raise InputError(
-            "give the longest on-time once: --ton-max, or --duty-max with --fsw, not both"
-        )
-    if t_on is None:
-        if duty is None or fsw is None:
-            raise InputError("give --ton-max, or --duty-max with --fsw, for the longest on-time")
-        t_on = _computed(
-            "the longest on-time --duty-max / --fsw", design.on_time_at_duty, duty, fsw
-        )
-        source = "--duty-max / --fsw"
+    t_on, source = _longest_on_time(args, duty, fsw)
     q = _computed(
         f"the charge over the longest on-time, --qg + --qls + (--iq + --ileak) x {source}",
         design.bootstrap_charge,
@@ -335,6 +325,37 @@ def _bootstrap(args) -> None:
         "method": BOOTSTRAP_METHOD,
         "reasons": reasons,
     }
+    rows = _bootstrap_rows(s, t_on, source, margin, dv, c, per_period, reasons)
+    emit(result, rows, args.json, "bootstrap capacitor (charge balance over the longest on-time)")
+
+
+def _longest_on_time(args, duty: float | None, fsw: float | None) -> tuple[float, str]:
+    """The longest on-time in seconds, from --ton-max or from --duty-max / --fsw (exactly one
+    of the two ways), and which options gave it."""
+    from bringup.analysis import design
+
+    if duty == 0:
+        raise InputError(f"--duty-max: must be > 0, got {args.duty_max!r} (no on-time)")
+    t_on = _q(args, "ton_max", "s", positive=True)
+    if t_on is not None and duty is not None:
+        raise InputError(
+            "give the longest on-time once: --ton-max, or --duty-max with --fsw, not both"
+        )
+    if t_on is not None:
+        return t_on, "--ton-max"
+    if duty is None or fsw is None:
+        raise InputError("give --ton-max, or --duty-max with --fsw, for the longest on-time")
+    t_on = _computed("the longest on-time --duty-max / --fsw", design.on_time_at_duty, duty, fsw)
+    return t_on, "--duty-max / --fsw"
+
+
+def _bootstrap_rows(
+    s, t_on: float, source: str, margin: float, dv: float, c: float | None,
+    per_period: float | None, reasons: dict,
+) -> list[tuple[str, str]]:  # fmt: skip
+    """The printed table of ``calc bootstrap``: on-time, charge and its terms, C_min, droop."""
+    from bringup.commands.analyze import format_value as fq
+
     t = s.terms_c
     rows = [
         ("longest on-time", f"{fq(t_on, 's')}  (from {source})"),
@@ -349,7 +370,7 @@ def _bootstrap(args) -> None:
     ]
     if per_period is not None:
         rows.append(("charge per period", f"{fq(per_period, 'C')}  (TI SLUA887 form, 1/f_sw)"))
-    emit(result, rows, args.json, "bootstrap capacitor (charge balance over the longest on-time)")
+    return rows
 
 
 def _gate(args) -> None:
@@ -475,7 +496,6 @@ def _gate_timing(args: argparse.Namespace) -> GateTiming:
 
 
 def _losses(args) -> None:
-    from bringup.analysis import design
     from bringup.commands.analyze import emit
     from bringup.commands.analyze import format_value as fq
 
@@ -493,6 +513,35 @@ def _losses(args) -> None:
         "tamb": _temperature(args, "tamb"),
     }
     reasons: dict[str, str] = {}
+    out = _loss_terms(v, reasons)
+    if all(out[k] is None for k in ("p_switching_w", "p_conduction_w", "p_gate_w")):
+        raise InputError(
+            "nothing to compute: give --vbus --iload --tr --tf --fsw (switching), "
+            "--iload --rdson --duty (conduction) or --qg --vdrv --fsw (gate drive)"
+        )
+    result = {**out, "inputs": {f"{k}": val for k, val in v.items()}, "reasons": reasons}
+
+    def cell(key: str, unit: str) -> str:
+        return fq(out[key], unit) if out[key] is not None else f"n/a ({reasons[key]})"
+
+    t_j = out["t_junction_c"]
+    rows = [
+        ("switching loss", cell("p_switching_w", "W")),
+        ("conduction loss", cell("p_conduction_w", "W")),
+        ("MOSFET total", cell("p_mosfet_w", "W")),
+        ("gate drive (in the driver)", cell("p_gate_w", "W")),
+        (
+            "junction temperature",
+            f"{t_j:.1f} °C" if t_j is not None else f"n/a ({reasons['t_junction_c']})",
+        ),
+    ]
+    emit(result, rows, args.json, "losses and temperature")
+
+
+def _loss_terms(v: dict[str, float | None], reasons: dict[str, str]) -> dict[str, float | None]:
+    """Each loss (W) and the junction temperature (degC) the given inputs allow; for each one
+    they do not, ``reasons`` says which options are missing."""
+    from bringup.analysis import design
 
     def need(key: str, *names: str) -> bool:
         missing = [f"--{n}" for n in names if v[n] is None]
@@ -547,25 +596,4 @@ def _losses(args) -> None:
     else:
         reasons["p_mosfet_w"] = "needs the switching and the conduction loss"
         reasons["t_junction_c"] = "needs the MOSFET loss (switching + conduction)"
-    if all(out[k] is None for k in ("p_switching_w", "p_conduction_w", "p_gate_w")):
-        raise InputError(
-            "nothing to compute: give --vbus --iload --tr --tf --fsw (switching), "
-            "--iload --rdson --duty (conduction) or --qg --vdrv --fsw (gate drive)"
-        )
-    result = {**out, "inputs": {f"{k}": val for k, val in v.items()}, "reasons": reasons}
-
-    def cell(key: str, unit: str) -> str:
-        return fq(out[key], unit) if out[key] is not None else f"n/a ({reasons[key]})"
-
-    t_j = out["t_junction_c"]
-    rows = [
-        ("switching loss", cell("p_switching_w", "W")),
-        ("conduction loss", cell("p_conduction_w", "W")),
-        ("MOSFET total", cell("p_mosfet_w", "W")),
-        ("gate drive (in the driver)", cell("p_gate_w", "W")),
-        (
-            "junction temperature",
-            f"{t_j:.1f} °C" if t_j is not None else f"n/a ({reasons['t_junction_c']})",
-        ),
-    ]
-    emit(result, rows, args.json, "losses and temperature")
+    return out

@@ -68,6 +68,33 @@ __all__ = ["SessionLog"]
 _ID_ALPHABET = "23456789abcdefghjkmnpqrstuvwxyz"
 
 
+def _attempt_columns(plain: dict[str, Any]) -> dict[str, Any]:
+    """The attempt row's times, JSON columns and notes from its plain values."""
+    return {
+        "started_utc": plain["started_utc"],
+        "finished_utc": plain["finished_utc"],
+        **{f"{k}_json": dumps(plain[k]) for k in ("instruments", "settings", "metrics",
+           "predictions", "verdicts")},
+        "notes": plain["notes"],
+        "extra_json": None if plain["extra"] is None else dumps(plain["extra"]),
+    }  # fmt: skip
+
+
+def _encoded_waveforms(
+    waveforms: Mapping[str, StoredWaveform],
+) -> dict[str, tuple[StoredWaveform, Any]]:
+    """Each waveform with its compressed form, made before the write transaction starts so the
+    lock is held only for the inserts; anything but a ``StoredWaveform`` is refused."""
+    encoded = {}
+    for name, waveform in waveforms.items():
+        if not isinstance(waveform, StoredWaveform):
+            raise StoreError(
+                f"waveform {name!r}: expected a StoredWaveform, got {type(waveform).__name__}"
+            )
+        encoded[str(name)] = (waveform, encode_waveform(waveform))
+    return encoded
+
+
 class SessionLog(LogReading):
     """The bench log in one SQLite file. Create with :meth:`open`; close with :meth:`close`."""
 
@@ -300,24 +327,16 @@ class SessionLog(LogReading):
             plain = {
                 "started_utc": time_text(started_utc, "started_utc"),
                 "finished_utc": time_text(finished_utc, "finished_utc"),
-                "instruments": to_plain(dict(instruments)),
-                "settings": to_plain(dict(settings)),
-                "metrics": to_plain(dict(metrics)),
-                "predictions": to_plain(dict(predictions)),
-                "verdicts": to_plain(dict(verdicts)),
+                **{k: to_plain(dict(v)) for k, v in (("instruments", instruments),
+                   ("settings", settings), ("metrics", metrics), ("predictions", predictions),
+                   ("verdicts", verdicts))},
                 "notes": str(notes or ""),
                 "extra": None if extra is None else to_plain(dict(extra)),
-            }
+            }  # fmt: skip
         except TypeError as error:
             raise StoreError(f"attempt of step {stage_id}/{step_id}: {error}") from None
         table_rows = metric_rows(plain["metrics"])
-        encoded = {}
-        for name, waveform in (waveforms or {}).items():
-            if not isinstance(waveform, StoredWaveform):
-                raise StoreError(
-                    f"waveform {name!r}: expected a StoredWaveform, got {type(waveform).__name__}"
-                )
-            encoded[str(name)] = (waveform, encode_waveform(waveform))
+        encoded = _encoded_waveforms(waveforms or {})
         with self._write():
             session = self._session_row(session_id)
             if self._chained_state(session) == "finished":
@@ -326,13 +345,7 @@ class SessionLog(LogReading):
                 )
             seq, previous = self._chain_tail(session_id, session["genesis_hash"])
             seq += 1
-            attempt_no = (
-                1
-                + self._rows(
-                    "SELECT count(*) AS n FROM attempts WHERE session_id = ? AND stage_id = ? AND step_id = ?",
-                    [session_id, stage_id, step_id],
-                )[0]["n"]
-            )
+            attempt_no = self._next_attempt_no(session_id, stage_id, step_id)
             recorded = now_utc()
             waveform_rows = {
                 name: {**waveform.scale(), "raw_sha256": blob.raw_sha256}
@@ -344,53 +357,59 @@ class SessionLog(LogReading):
             )  # fmt: skip
             hashes = chain.field_hashes(content)
             digest = chain.content_hash(hashes)
-            attempt_id = (
-                self._db["attempts"]
-                .insert(
-                    {
-                        "session_id": session_id,
-                        "seq": seq,
-                        "stage_id": stage_id,
-                        "step_id": step_id,
-                        "attempt_no": attempt_no,
-                        "operator": operator,
-                        "started_utc": plain["started_utc"],
-                        "finished_utc": plain["finished_utc"],
-                        "recorded_utc": recorded,
-                        "outcome": outcome,
-                        "instruments_json": dumps(plain["instruments"]),
-                        "settings_json": dumps(plain["settings"]),
-                        "metrics_json": dumps(plain["metrics"]),
-                        "predictions_json": dumps(plain["predictions"]),
-                        "verdicts_json": dumps(plain["verdicts"]),
-                        "notes": plain["notes"],
-                        "extra_json": None if plain["extra"] is None else dumps(plain["extra"]),
-                        "field_hashes_json": dumps(hashes),
-                        "content_hash": digest,
-                        "chain_hash": chain.link(previous, digest),
-                    }
-                )
-                .last_pk
-            )
-            if table_rows:
-                self._db["metrics"].insert_all(
-                    {"attempt_id": attempt_id, "name": n, "value": v, "unit": u}
-                    for n, v, u in table_rows
-                )
-            for name, (waveform, blob) in encoded.items():
-                self._db["waveforms"].insert(
-                    {
-                        "attempt_id": attempt_id,
-                        "name": name,
-                        **{k: v for k, v in waveform.scale().items()},
-                        "codec": blob.codec,
-                        "stored_bytes": len(blob.data),
-                        "raw_sha256": blob.raw_sha256,
-                        "data": blob.data,
-                    }
-                )
+            row = {
+                "session_id": session_id,
+                "seq": seq,
+                "stage_id": stage_id,
+                "step_id": step_id,
+                "attempt_no": attempt_no,
+                "operator": operator,
+                "recorded_utc": recorded,
+                "outcome": outcome,
+                **_attempt_columns(plain),
+                "field_hashes_json": dumps(hashes),
+                "content_hash": digest,
+                "chain_hash": chain.link(previous, digest),
+            }
+            attempt_id = self._db["attempts"].insert(row).last_pk
+            self._insert_attempt_details(int(attempt_id), table_rows, encoded)
             self._refresh_listing(session)
         return int(attempt_id)
+
+    def _next_attempt_no(self, session_id: str, stage_id: str, step_id: str) -> int:
+        """1 + the attempts already logged for this step (a retake never replaces one)."""
+        done = self._rows(
+            "SELECT count(*) AS n FROM attempts WHERE session_id = ? AND stage_id = ? "
+            "AND step_id = ?",
+            [session_id, stage_id, step_id],
+        )[0]["n"]
+        return 1 + done
+
+    def _insert_attempt_details(
+        self,
+        attempt_id: int,
+        table_rows: list[tuple[str, float | None, str]],
+        encoded: dict[str, tuple[StoredWaveform, Any]],
+    ) -> None:
+        """The attempt's metrics table rows and its compressed waveforms (inside its transaction;
+        the chained attempt row already carries their values and digests)."""
+        if table_rows:
+            self._db["metrics"].insert_all(
+                {"attempt_id": attempt_id, "name": n, "value": v, "unit": u}
+                for n, v, u in table_rows
+            )
+        for name, (waveform, blob) in encoded.items():
+            self._db["waveforms"].insert(
+                {
+                    "attempt_id": attempt_id,
+                    "name": name,
+                    **{k: v for k, v in waveform.scale().items()},
+                    "codec": blob.codec,
+                    "stored_bytes": len(blob.data),
+                    "raw_sha256": blob.raw_sha256,
+                    "data": blob.data,
+                }
+            )
 
     def record_event(
         self,
@@ -436,17 +455,7 @@ class SessionLog(LogReading):
             if self._chained_state(session) == "finished" and kind != "note":
                 raise StoreError(f"session {session_id} is finished: only notes can be added")
             if kind in ("skip", "waive"):
-                latest = self._latest_outcomes_locked(session_id).get((stage_id, step_id))
-                if kind == "waive" and latest not in FAILED_OUTCOMES:
-                    raise StoreError(
-                        f"step {stage_id}/{step_id} cannot be waived: only a failed step can be "
-                        f"(its latest outcome is {latest or 'nothing yet'})"
-                    )
-                if kind == "skip" and latest in FAILED_OUTCOMES:
-                    raise StoreError(
-                        f"step {stage_id}/{step_id} failed ({latest}): waive it with a reason "
-                        "and a name, or retake it; a failed step is not skipped"
-                    )
+                self._check_skip_or_waive_locked(session_id, kind, stage_id, step_id)
             seq, previous = self._chain_tail(session_id, session["genesis_hash"])
             seq += 1
             recorded = now_utc()
@@ -485,6 +494,23 @@ class SessionLog(LogReading):
             )
             self._refresh_listing(session)
         return int(event_id)
+
+    def _check_skip_or_waive_locked(
+        self, session_id: str, kind: str, stage_id: str, step_id: str
+    ) -> None:
+        """Only a failed step is waived; a failed step is never skipped (its failure would be
+        hidden). Called inside the write transaction, so the latest outcome cannot change."""
+        latest = self._latest_outcomes_locked(session_id).get((stage_id, step_id))
+        if kind == "waive" and latest not in FAILED_OUTCOMES:
+            raise StoreError(
+                f"step {stage_id}/{step_id} cannot be waived: only a failed step can be "
+                f"(its latest outcome is {latest or 'nothing yet'})"
+            )
+        if kind == "skip" and latest in FAILED_OUTCOMES:
+            raise StoreError(
+                f"step {stage_id}/{step_id} failed ({latest}): waive it with a reason "
+                "and a name, or retake it; a failed step is not skipped"
+            )
 
     def add_signature(
         self,
