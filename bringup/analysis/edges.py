@@ -63,6 +63,12 @@ _MIN_HISTOGRAM_SAMPLES = 2 * HISTOGRAM_BINS
 STATE_BAND_PCT = 2.0  # IEEE 181 default state boundaries: level +/- 2 % of amplitude
 ABERRATION_DURATIONS = 3.0  # post-transition aberration region, in transition durations
 PEAK_FIT_DURATIONS = 0.25  # the overshoot's local fit: this many durations either side
+#: Fewer samples than this between the low and high reference crossings of an edge and the
+#: linearly interpolated duration reads slow: a first-order edge by +0.5 % at 8 samples,
+#: +1.9 % at 6, +2.9 % at 5, +5 % at 4, +8.7 % at 3, +18 % at 2 [computed on exact
+#: exponential edges, medians over sub-sample phases].
+MIN_EDGE_SAMPLES = 8
+_SLOW_READING_PCT = ((2.0, 18.4), (3.0, 8.7), (4.0, 5.0), (5.0, 2.9), (6.0, 1.9), (8.0, 0.5))
 _MIN_ABERRATION_SAMPLES = 4
 
 
@@ -128,7 +134,9 @@ class EdgeMetrics:
     is None, and ``reasons`` maps its name to why. ``overshoot_uncertainty_pct`` and
     ``overshoot_max_uncertainty_pct`` (and the undershoot's) are the expanded (k = 2)
     uncertainties of the median and of the largest aberration, in % of the amplitude.
-    ``warnings``: what limits the record's own accuracy (too few samples on an edge).
+    ``rise_time_samples``/``fall_time_samples``: samples across the fastest edge's low-to-high
+    reference span (``MIN_EDGE_SAMPLES`` or more for an accurate duration). ``warnings``:
+    what limits the record's own accuracy (too few samples on an edge, with the fix).
     """
 
     low_level_v: float
@@ -167,6 +175,8 @@ class EdgeMetrics:
     record_length_s: float
     reasons: dict[str, str] = field(default_factory=dict)
     transitions: Transitions | None = field(default=None, repr=False, compare=False)
+    rise_time_samples: float | None = None
+    fall_time_samples: float | None = None
     overshoot_uncertainty_pct: float | None = None
     overshoot_max_uncertainty_pct: float | None = None
     undershoot_uncertainty_pct: float | None = None
@@ -645,6 +655,20 @@ def measure_edges(
         duty = None
         reasons["duty_cycle"] = reasons.get("period_s", "no complete pulse in the record")
 
+    rise_samples = None if rise[1] is None else rise[1] / dt
+    fall_samples = None if fall[1] is None else fall[1] / dt
+    for what, count in (("rising", rise_samples), ("falling", fall_samples)):
+        if count is not None and count < MIN_EDGE_SAMPLES:
+            xs, ys = zip(*_SLOW_READING_PCT, strict=True)
+            slow = float(np.interp(count, xs, ys))
+            warnings.append(
+                f"the fastest {what} edge spans only {count:.1f} samples between its "
+                f"{pct[0]:g} % and {pct[2]:g} % levels (fewer than {MIN_EDGE_SAMPLES}): "
+                f"interpolating between so few samples reads a first-order edge about "
+                f"+{slow:.1f} % slow; sample faster: more record points over the same time span, "
+                f"or a shorter time span with the same points (now {dt:.3g} s per sample; aim "
+                f"for {count * dt / MIN_EDGE_SAMPLES:.3g} s or less)"
+            )
     mean_v = float(np.mean(y, dtype=np.float64))
     cycle_mean = None
     same = mids[rising] if rising.sum() >= 2 else mids[falling]
@@ -695,6 +719,8 @@ def measure_edges(
         record_length_s=dt * y.size,
         reasons=reasons,
         transitions=tr,
+        rise_time_samples=rise_samples,
+        fall_time_samples=fall_samples,
         overshoot_uncertainty_pct=u_over[0],
         overshoot_max_uncertainty_pct=u_over[1],
         undershoot_uncertainty_pct=u_under[0],

@@ -409,3 +409,31 @@ def test_second_order_overshoot_is_covered_by_its_stated_uncertainty():
                 covered += abs(m.overshoot_pct - truth) <= m.overshoot_uncertainty_pct
                 assert m.overshoot_uncertainty_pct < 1.0  # and it says something
     assert covered >= 38 and total == 40
+
+
+# --- Few samples on an edge (issue 12) ------------------------------------------------------
+
+
+@pytest.mark.parametrize("samples", [3.0, 4.0, 5.0])
+def test_too_few_samples_on_an_edge_is_said_with_the_fix(samples):
+    # A first-order edge whose 10-90 % span (tau ln 9, REFERENCES §2) is 3 to 5 samples reads
+    # +3 % to +9 % slow [computed]: the result says so and names the record setting.
+    dt = 1e-9
+    tau = samples * dt / LN9
+    y = scope(rc_pwm(60_000, dt, 1e-6, 0.5, tau, phase_s=0.37 * dt), noise_v=0.02, seed=51)
+    m = measure_edges(y, dt)
+    assert m.rise_time_s > LN9 * tau * 1.02  # it does read slow
+    assert m.rise_time_samples == pytest.approx(m.rise_time_min_s / dt)
+    text = " ".join(m.warnings)
+    assert "rising edge spans only" in text and "falling edge spans only" in text
+    assert "more record points over the same time span" in text
+    assert "shorter time span" in text
+
+
+def test_enough_samples_on_an_edge_gives_no_warning():
+    dt = 1e-9
+    tau = 20 * dt / LN9
+    y = scope(rc_pwm(60_000, dt, 1e-6, 0.5, tau, phase_s=0.37 * dt), noise_v=0.02, seed=52)
+    m = measure_edges(y, dt)
+    assert m.rise_time_samples > 15 and not m.warnings
+    assert m.rise_time_s == pytest.approx(LN9 * tau, rel=0.01)
