@@ -7,7 +7,11 @@
   talk to; ``present.py`` formats the runner's records into ``views.py``'s frozen rows.
 - ``screens/``: ``start``, ``session`` (+ ``step_actions``), ``summary``, ``prompts``.
 - ``widgets/``: ``waveform_plot`` (braille, levels, crossings, on-time window),
-  ``checklist_tree``; ``states.py``: each state's symbol, word and colour.
-- Styles: ``bringup.tcss``. Instrument I/O only in thread workers (group "bench"), results
-  back as messages (``messages.py``).
+  ``checklist_tree``, ``status_line`` and ``supply_lamp`` (each with its own ``DEFAULT_CSS``);
+  ``states.py``: each state's symbol, word and colour; ``literal.py``: typed or file-supplied
+  text made safe to show (no markup, escapes or direction overrides acting).
+- Styles: layout in ``bringup.tcss``, reusable widgets and prompts carry their own CSS.
+  Instrument I/O only in thread workers (group "bench"), STOP's switch-off in its own
+  (group "stop"), log writes of notes, skips, waivers and going back in group "log"; results
+  come back as messages (``messages.py``, ``DecisionLogged``). Only Textual's public API.
 """

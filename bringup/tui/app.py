@@ -3,13 +3,15 @@
 The app holds a ``launcher`` (lists and opens sessions, owns any simulated bench it started)
 and, once a session is open, its ``link`` (the one object that talks to the runner). On every
 way out (the quit key, Ctrl+C, a crash) ``shutdown`` puts the bench in its safe state: the
-supply output OFF.
+supply output OFF. Only Textual's public API is used (no private hooks).
 """
 
 from __future__ import annotations
 
+import io
 from typing import Any
 
+from rich.console import Console
 from textual.app import App
 from textual.binding import Binding
 
@@ -40,9 +42,14 @@ class BringupApp(App[int]):
         self._open_new = open_new
         self._resume = resume
         self._shut = False
-        #: one line saying why the app stopped on an unexpected error (None if it did not)
-        self.crash_message: str | None = None
-        self.crash_detail: str = ""
+        # After an unhandled exception Textual exits and prints the traceback on its public
+        # ``error_console``: here that console writes into a buffer, so the bench gets one line
+        # (``crash_message``, printed by ``run_app`` once the supply is off) and the traceback
+        # is kept for a bug report instead of filling the operator's terminal.
+        self._crash_text = io.StringIO()
+        self.error_console = Console(
+            file=self._crash_text, width=1000, color_system=None, markup=False, highlight=False
+        )
 
     def on_mount(self) -> None:
         if self._open_new is not None:
@@ -76,19 +83,15 @@ class BringupApp(App[int]):
     def on_unmount(self) -> None:
         self.shutdown()
 
-    # Textual prints a full traceback after an unhandled exception; the bench gets one line
-    # (``crash_message``) and the supply switched off instead. ``_fatal_error`` is Textual's
-    # hook for it (8.2.8); the traceback text is kept in ``crash_detail`` for a bug report.
-    def _fatal_error(self) -> None:
-        import traceback
+    @property
+    def crash_message(self) -> str | None:
+        """One line saying why the app stopped on an unexpected error (None if it did not)."""
+        lines = [line.strip() for line in self.crash_detail.splitlines() if line.strip()]
+        if not lines:
+            return None
+        return f"unexpected fault: {lines[-1]}"  # Rich's traceback ends with "Type: message"
 
-        error = self._exception
-        self.crash_message = (
-            f"unexpected fault: {type(error).__name__}: {error}" if error else "unexpected fault"
-        )
-        self.crash_detail = traceback.format_exc()
-        try:
-            self.shutdown()
-        finally:
-            self.bell()
-            self._close_messages_no_wait()
+    @property
+    def crash_detail(self) -> str:
+        """The traceback of an unexpected error, as Textual rendered it ('' if none)."""
+        return self._crash_text.getvalue()

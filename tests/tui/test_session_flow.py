@@ -56,9 +56,10 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         # a note on it
         await pilot.press("n")
         await _type(pilot, "ground spring on CH1")
-        await pilot.press("enter")
-        await pilot.pause()
-        assert "ground spring on CH1" in str(screen.query_one("#notes-list").render())
+        await pilot.press("enter")  # logged by a worker thread: wait for it to show
+        await wait_until(
+            pilot, lambda: "ground spring on CH1" in str(screen.query_one("#notes-list").render())
+        )
 
         # a skip needs a reason: an empty one is refused, then one is given
         await pilot.press("j")
@@ -70,9 +71,9 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         await _type(pilot, "scope busy on another bench")
         await pilot.press("enter")
         await wait_until(pilot, lambda: isinstance(app.screen, SessionScreen))
-        # the notebook moves on to the next step by itself
-        assert screen.link.current_step_id() == "power-rails.logic-meter"
+        # the notebook moves on to the next step by itself, once the skip is logged
         await wait_until(pilot, lambda: screen.viewed == "power-rails.logic-meter")
+        assert screen.link.current_step_id() == "power-rails.logic-meter"
         # the typed reading: a unit the step does not use is refused in the prompt itself
         await pilot.press("r")
         await wait_until(pilot, lambda: isinstance(app.screen, ConfirmPrompt))

@@ -157,4 +157,5 @@ def test_a_crash_mid_step_prints_one_line_and_leaves_the_supply_off(bench_file, 
 
     assert "supply was switched off" in screen
     assert not bench.supply.output_on
-    assert (tmp_path / "bringup-fault.txt").read_text().startswith("Traceback")
+    detail = (tmp_path / "bringup-fault.txt").read_text()  # the traceback, for a bug report
+    assert "Traceback" in detail and "RuntimeError: injected fault" in detail, detail[:400]

@@ -82,7 +82,7 @@ async def answer_prompts(pilot, reading: str | None = None) -> list[str]:
             lambda: (
                 isinstance(app.screen, (ConfirmPrompt, EnergisePrompt, ReasonPrompt))
                 or screen.running is not None
-                or not app.workers._workers  # noqa: SLF001  (nothing pending: refused or done)
+                or not list(app.workers)  # nothing pending: refused or done
                 or all(w.group != "prompts" or w.is_finished for w in app.workers)
             ),
             what="a prompt or the step to start",

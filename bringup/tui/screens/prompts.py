@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import TypeVar
 
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -15,7 +16,9 @@ from bringup.errors import BringupError
 from bringup.tui.literal import literal
 from bringup.tui.views import Energise
 
-__all__ = ["EnergisePrompt", "ReasonPrompt", "ConfirmPrompt"]
+__all__ = ["BenchPrompt", "EnergisePrompt", "ReasonPrompt", "ConfirmPrompt"]
+
+_Answer = TypeVar("_Answer")
 
 HAZARD_NOTICE = (
     "HAZARD: above 60 V DC. Touching the bus or the switch node can injure or kill. "
@@ -24,7 +27,38 @@ HAZARD_NOTICE = (
 )
 
 
-class EnergisePrompt(ModalScreen[bool]):
+class BenchPrompt(ModalScreen[_Answer]):
+    """A question in a box over an opaque screen: the operator reads only the question (and the
+    screen below is not re-rendered while it is up)."""
+
+    DEFAULT_CSS = """
+    BenchPrompt {
+        align: center middle;
+        background: #0b0f12;
+    }
+    BenchPrompt .prompt-box {
+        width: 76;
+        height: auto;
+        border: thick #f2c14e;
+        background: #1b2329;
+        padding: 1 2;
+    }
+    BenchPrompt .prompt-title { color: #f2c14e; text-style: bold; margin-bottom: 1; }
+    BenchPrompt .prompt-buttons { height: auto; margin-top: 1; }
+    BenchPrompt .prompt-buttons Button { margin-right: 2; }
+    BenchPrompt .hazard {
+        margin-top: 1;
+        padding: 0 1;
+        background: #7a2418;
+        color: #ffffff;
+        text-style: bold;
+    }
+    BenchPrompt .problem { color: #ff8a65; text-style: bold; height: auto; }
+    BenchPrompt #energise-hands { margin-bottom: 1; color: #ffd27a; }
+    """
+
+
+class EnergisePrompt(BenchPrompt[bool]):
     """Ask before the supply output is switched on; names the voltage and current limit."""
 
     BINDINGS = [
@@ -81,7 +115,7 @@ class EnergisePrompt(ModalScreen[bool]):
         self.dismiss(yes)
 
 
-class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
+class ReasonPrompt(BenchPrompt[tuple[str, str] | None]):
     """Ask for a reason (and, when ``ask_name``, who takes responsibility)."""
 
     BINDINGS = [Binding("escape", "cancel", "cancel")]
@@ -175,7 +209,7 @@ class ReasonPrompt(ModalScreen[tuple[str, str] | None]):
         self.dismiss(None)
 
 
-class ConfirmPrompt(ModalScreen[bool]):
+class ConfirmPrompt(BenchPrompt[bool]):
     """A yes/no question the step asks by hand ("Is the load connected?")."""
 
     BINDINGS = [

@@ -40,6 +40,7 @@ from bringup.tui.screens.step_actions import StepActions
 from bringup.tui.states import LEGEND, look_of
 from bringup.tui.views import AttemptView, Progress, StepDetail
 from bringup.tui.widgets.checklist_tree import ChecklistTree
+from bringup.tui.widgets.status_line import StatusLine
 from bringup.tui.widgets.supply_lamp import SupplyLamp
 from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
 
@@ -90,6 +91,7 @@ class SessionScreen(StepActions, Screen[None]):
         self._finals: list[float] = []  # the soak's successive predictions of its final value
         self._history: dict[str, AttemptView] = {}
         self._stopping = False  # STOP pressed during the running step
+        self._writing = 0  # log writes in flight (StepActions)
         self._soak_temp: list[float] = []
 
     @property
@@ -133,7 +135,7 @@ class SessionScreen(StepActions, Screen[None]):
                         yield Static("", id="notes-list")
                         yield Input(placeholder="type a note, Enter to keep it", id="note-input")
         with Horizontal(id="foot"):
-            yield Static("", id="status")
+            yield StatusLine(id="status")
             yield SupplyLamp(id="supply-lamp")
         yield Footer()
 
@@ -145,9 +147,7 @@ class SessionScreen(StepActions, Screen[None]):
     # -- showing ---------------------------------------------------------------------------
     def say(self, message: str, kind: str = "info") -> None:
         """Put a one-line message in the status line (faults in their own style)."""
-        status = self.query_one("#status", Static)
-        status.set_classes(f"status-{kind}")
-        status.update(literal(message))
+        self.query_one(StatusLine).say(message, kind)
 
     def refresh_all(self, select: str | None = None) -> None:
         """Redraw the title, the checklist and the viewed step from the link."""
@@ -526,12 +526,14 @@ class SessionScreen(StepActions, Screen[None]):
         text = event.value.strip()
         if not text or self.viewed is None:
             return
-        try:
-            self.link.add_note(self.viewed, text)
-        except BringupError as exc:
-            self.say(str(exc), "fault")
-            return
-        event.input.value = ""
-        self.show_step(self.viewed)
-        self.say("Note kept.")
-        self.query_one("#checklist", ChecklistTree).focus()
+        step = self.viewed
+
+        def done(_: object) -> None:
+            if self.query_one("#note-input", Input).value.strip() == text:
+                self.query_one("#note-input", Input).value = ""
+            if self.viewed == step:
+                self.show_step(step)
+            self.say("Note kept.")
+            self.query_one("#checklist", ChecklistTree).focus()
+
+        self._log_decision("note", lambda: self.link.add_note(step, text), done)

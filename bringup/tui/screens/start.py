@@ -13,6 +13,7 @@ from textual.widgets import Button, DataTable, Footer, Input, Label, Select, Sta
 from bringup.errors import BringupError
 from bringup.tui.literal import literal
 from bringup.tui.views import SessionRow
+from bringup.tui.widgets.status_line import StatusLine
 
 __all__ = ["StartScreen", "NewSessionForm"]
 
@@ -21,7 +22,35 @@ BENCH_FILE = "file"
 
 
 class NewSessionForm(Vertical):
-    """Board file, checklist, bench, serial number and operator of a new session."""
+    """Board file, checklist, bench, serial number and operator of a new session.
+
+    Posts ``NewSessionForm.Submitted`` (with ``values()``) when its button is pressed or Enter is
+    pressed in the serial or operator field; the screen decides what to do with it.
+    """
+
+    DEFAULT_CSS = """
+    NewSessionForm {
+        width: 50;
+        height: 1fr;
+        border: tall #3a4a55;
+        padding: 0 1;
+        overflow-y: auto;
+    }
+    NewSessionForm Label { margin-top: 1; color: #9fb3c1; }
+    NewSessionForm Button { margin-top: 1; width: 100%; }
+    """
+
+    class Submitted(Message):
+        """The operator asked to start the session with these ``values`` (see ``values()``)."""
+
+        def __init__(self, form: NewSessionForm, values: dict[str, str | None]) -> None:
+            super().__init__()
+            self.form = form
+            self.values = values
+
+        @property
+        def control(self) -> NewSessionForm:
+            return self.form
 
     def __init__(self, scenarios: tuple[str, ...], operator: str, *, id: str | None = None) -> None:
         super().__init__(id=id)
@@ -57,6 +86,16 @@ class NewSessionForm(Vertical):
 
     def on_mount(self) -> None:
         self.query_one("#bench-file").display = False
+
+    @on(Button.Pressed, "#start-new")
+    def _start_pressed(self, event: Button.Pressed) -> None:
+        event.stop()
+        self.post_message(self.Submitted(self, self.values()))
+
+    @on(Input.Submitted, "#serial, #operator")
+    def _enter_pressed(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.post_message(self.Submitted(self, self.values()))
 
     @on(Select.Changed, "#bench-kind")
     def _bench_kind(self, event: Select.Changed) -> None:
@@ -115,7 +154,7 @@ class StartScreen(Screen[None]):
             yield NewSessionForm(
                 self.launcher.scenarios(), self.launcher.default_operator(), id="new-form"
             )
-        yield Static("", id="status")
+        yield StatusLine(id="status")
         yield Footer()
 
     def on_mount(self) -> None:
@@ -127,9 +166,7 @@ class StartScreen(Screen[None]):
             self._open(self._autostart)
 
     def say(self, message: str, kind: str = "info") -> None:
-        status = self.query_one("#status", Static)
-        status.set_classes(f"status-{kind}")
-        status.update(literal(message))
+        self.query_one(StatusLine).say(message, kind)
 
     def action_reload(self) -> None:
         table = self.query_one("#sessions", DataTable)
@@ -154,14 +191,8 @@ class StartScreen(Screen[None]):
     def _row_selected(self, event: DataTable.RowSelected) -> None:
         self.action_resume()
 
-    @on(Button.Pressed, "#start-new")
-    def _start_pressed(self) -> None:
-        self.action_new_session()
-
-    @on(Input.Submitted)
-    def _submitted(self, event: Input.Submitted) -> None:
-        if event.input.id in ("serial", "operator"):
-            self.action_new_session()
+    def on_new_session_form_submitted(self, message: NewSessionForm.Submitted) -> None:
+        self._start_new(message.values)
 
     def action_resume(self) -> None:
         table = self.query_one("#sessions", DataTable)
@@ -173,7 +204,10 @@ class StartScreen(Screen[None]):
         self._open(("resume", row.id))
 
     def action_new_session(self) -> None:
-        values = self.query_one("#new-form", NewSessionForm).values()
+        """Start a session from the form (Ctrl+N)."""
+        self._start_new(self.query_one(NewSessionForm).values())
+
+    def _start_new(self, values: dict[str, str | None]) -> None:
         if not values["serial"]:
             self.say("Type the board's serial number first.", "warn")
             self.query_one("#serial", Input).focus()

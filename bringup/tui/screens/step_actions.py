@@ -1,19 +1,40 @@
 """What the operator decides on a step: run it (after its prompts), skip, waive, note, go back.
 
 A mixin of ``SessionScreen`` (kept apart so the screen's file stays about layout, showing and
-the worker): every method here runs on the UI thread and talks to the session link only.
+the worker): every method here runs on the UI thread and talks to the session link only. What
+goes into the log (a note, a skip, a waiver, going back) is written by a thread worker (group
+"log"): a slow disk or a log busy with another writer never freezes the keys; the outcome comes
+back as a ``DecisionLogged`` message.
 """
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from textual import work
+from textual.message import Message
 from textual.widgets import Input
 
 from bringup.errors import BringupError
 from bringup.tui.screens.prompts import ConfirmPrompt, EnergisePrompt, ReasonPrompt
 from bringup.tui.views import StepDetail
 
-__all__ = ["StepActions"]
+__all__ = ["StepActions", "DecisionLogged"]
+
+
+class DecisionLogged(Message):
+    """A log write of the operator's (note, skip, waive, go back) is done: ``problem`` is None
+    when it was logged, else the one-line reason it was refused. ``then`` runs on the UI thread
+    with the write's return value once it succeeded."""
+
+    def __init__(
+        self, what: str, result: object, problem: str | None, then: Callable[[object], None]
+    ) -> None:
+        super().__init__()
+        self.what = what
+        self.result = result
+        self.problem = problem
+        self.then = then
 
 
 class StepActions:
@@ -22,12 +43,44 @@ class StepActions:
     # provided by SessionScreen
     running: str | None
     viewed: str | None
+    _writing: int  # log writes in flight
 
     def _busy(self) -> bool:
         if self.running is not None:
             self.say("A step is running: x stops it first.", "warn")
             return True
+        if self._writing:
+            self.say("Still logging the last decision: a moment.", "warn")
+            return True
         return False
+
+    def _log_decision(
+        self, what: str, write: Callable[[], object], then: Callable[[object], None]
+    ) -> None:
+        """Run ``write`` (a SessionLink call that writes the log) off the UI thread, then
+        ``then(result)`` here once it succeeded; a refusal is shown in the status line."""
+        self._writing += 1
+        self._write_worker(what, write, then)
+
+    @work(thread=True, group="log", exit_on_error=False)
+    def _write_worker(
+        self, what: str, write: Callable[[], object], then: Callable[[object], None]
+    ) -> None:
+        try:
+            result = write()
+        except BringupError as exc:
+            self.post_message(DecisionLogged(what, None, str(exc), then))
+        except Exception as exc:  # one line, never a traceback; nothing was logged
+            self.post_message(DecisionLogged(what, None, f"{type(exc).__name__}: {exc}", then))
+        else:
+            self.post_message(DecisionLogged(what, result, None, then))
+
+    def on_decision_logged(self, message: DecisionLogged) -> None:
+        self._writing = max(0, self._writing - 1)
+        if message.problem is not None:
+            self.say(f"{message.what}: {message.problem}", "fault")
+            return
+        message.then(message.result)
 
     def action_take(self) -> None:
         """Run (or retake) the viewed step: ask what it needs, then start the worker."""
@@ -101,13 +154,13 @@ class StepActions:
         """Go back to the first step of the stage before the viewed one."""
         if self._busy():
             return
-        try:
-            step_id = self.link.go_back(self.viewed)
-        except BringupError as exc:
-            self.say(str(exc), "fault")
-            return
-        self.refresh_all(select=step_id)
-        self.say("Back one stage: press r to take the step again.")
+
+        def done(step_id: object) -> None:
+            self.refresh_all(select=str(step_id))
+            self.say("Back one stage: press r to take the step again.")
+
+        viewed = self.viewed
+        self._log_decision("going back", lambda: self.link.go_back(viewed), done)
 
     def action_skip(self) -> None:
         if self._busy() or self.viewed is None:
@@ -117,13 +170,13 @@ class StepActions:
         def answered(result: tuple[str, str] | None) -> None:
             if result is None:
                 return
-            try:
-                self.link.skip(step, result[0])
-            except BringupError as exc:
-                self.say(str(exc), "fault")
-                return
-            self.refresh_all(select=self.link.current_step_id() or step)
-            self.say(f"Skipped, reason kept: {result[0]}")
+            reason = result[0]
+
+            def done(_: object) -> None:
+                self.refresh_all(select=self.link.current_step_id() or step)
+                self.say(f"Skipped, reason kept: {reason}")
+
+            self._log_decision("skip", lambda: self.link.skip(step, reason), done)
 
         self.app.push_screen(
             ReasonPrompt(
@@ -140,13 +193,13 @@ class StepActions:
         def answered(result: tuple[str, str] | None) -> None:
             if result is None:
                 return
-            try:
-                self.link.waive(step, result[0], result[1])
-            except BringupError as exc:
-                self.say(str(exc), "fault")
-                return
-            self.refresh_all(select=self.link.current_step_id() or step)
-            self.say(f"Waived by {result[1]}: {result[0]}")
+            reason, name = result
+
+            def done(_: object) -> None:
+                self.refresh_all(select=self.link.current_step_id() or step)
+                self.say(f"Waived by {name}: {reason}")
+
+            self._log_decision("waiver", lambda: self.link.waive(step, reason, name), done)
 
         self.app.push_screen(
             ReasonPrompt(
