@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import unicodedata
 
-__all__ = ["BIDI_CONTROLS", "control_character"]
+__all__ = ["BIDI_CONTROLS", "control_character", "same_person"]
 
 #: LRE, RLE, PDF, LRO, RLO and LRI, RLI, FSI, PDI (UAX #9 explicit formatting characters).
 BIDI_CONTROLS = frozenset(chr(c) for c in (*range(0x202A, 0x202F), *range(0x2066, 0x206A)))
@@ -34,3 +34,9 @@ def control_character(text: str) -> str | None:
         if char in BIDI_CONTROLS or unicodedata.category(char) in ("Cc", "Zl", "Zp"):
             return f"U+{ord(char):04X}"
     return None
+
+
+def same_person(a: str, b: str) -> bool:
+    """True when names ``a`` and ``b`` name one person as far as text can tell: case and runs
+    of spaces do not make a new person ("Ana  Ortiz" = "ana ortiz"; Unicode case folding)."""
+    return " ".join(a.split()).casefold() == " ".join(b.split()).casefold()

@@ -348,6 +348,13 @@ class SessionRunner:
             raise RunnerError(f"waiving {step_id} needs a reason")
         if not name or not name.strip():
             raise RunnerError(f"waiving {step_id} needs the name of who waives it")
+        from bringup.names import same_person
+
+        if same_person(name, self.operator):
+            raise RunnerError(
+                f"waiving {step_id}: {name.strip()!r} runs this session and cannot waive its "
+                "failures: a waiver is given by someone else (their name)"
+            )
         with self._lock:
             self.state.check_waive(step_id)
             self.recorder.event("waive", name.strip(), stage_id=step.stage_id, step_id=step.key,

@@ -429,7 +429,9 @@ class SessionLog(LogReading):
         - ``skip``: a step, with a ``reason``; refused for a step whose latest outcome is a
           failure (waive it or retake it instead: a failure is never hidden by a skip);
         - ``waive``: a step whose latest outcome is ``fail`` or ``conditional-fail``, with a
-          ``reason``; ``operator`` is the name of the person who waives it;
+          ``reason``; ``operator`` is the name of the person who waives it, who must not be
+          the session's operator nor the ``payload``'s ``recorded_by`` (a waiver is a second
+          person's decision);
         - ``note``, ``go-back`` (``stage_id`` = the stage gone back to), ``abort``,
           ``resume``: free; abort marks the session "aborted", resume "open";
         - ``finish``: marks the session finished; ``payload`` should carry the final
@@ -454,6 +456,8 @@ class SessionLog(LogReading):
             session = self._session_row(session_id)
             if self._chained_state(session) == "finished" and kind != "note":
                 raise StoreError(f"session {session_id} is finished: only notes can be added")
+            if kind == "waive":
+                _check_waiver(session_id, operator, session["operator"], payload_plain)
             if kind in ("skip", "waive"):
                 self._check_skip_or_waive_locked(session_id, kind, stage_id, step_id)
             seq, previous = self._chain_tail(session_id, session["genesis_hash"])
@@ -555,3 +559,16 @@ class SessionLog(LogReading):
                 .last_pk
             )
         return int(row_id)
+
+
+def _check_waiver(session_id: str, name: str, operator: str, payload: Any) -> None:
+    """Refuse a waiver given in the session operator's (or the recording operator's) name."""
+    from bringup.names import same_person
+
+    recorded_by = payload.get("recorded_by") if isinstance(payload, dict) else None
+    for who in (operator, recorded_by):
+        if isinstance(who, str) and same_person(name, who):
+            raise StoreError(
+                f"session {session_id}: {name!r} runs this session and cannot waive its "
+                "failures: a waiver is given by someone else (their name)"
+            )
