@@ -21,6 +21,7 @@ from sim_instruments.faults import FaultInjector
 from sim_instruments.meter_dialects import HEATSINK_CHANNEL, DmmThermometer, LoggerThermometer
 from sim_instruments.multi_supply import SelectSupply, TripleSupply
 from sim_instruments.scope import Scope
+from sim_instruments.scope_dialects import scope_speaking
 from sim_instruments.server import ScpiServer
 from sim_instruments.supply import Supply
 from sim_instruments.thermometer import Thermometer
@@ -44,7 +45,11 @@ class Dialect:
 
 #: Dialects per instrument kind; "nullpoint" is the simulator's own.
 DIALECTS: dict[str, dict[str, Dialect]] = {
-    "scope": {"nullpoint": Dialect(Scope, "sim-scope")},
+    "scope": {
+        "nullpoint": Dialect(Scope, "sim-scope"),
+        "tenfield": Dialect(scope_speaking("tenfield"), "rigol-ds1000z"),
+        "outpre": Dialect(scope_speaking("outpre"), "tektronix-mdo3000"),
+    },
     "supply": {
         "nullpoint": Dialect(Supply, "sim-supply"),
         "triple": Dialect(TripleSupply, "triple-output-argument", (("channel", '"CH2"'),)),

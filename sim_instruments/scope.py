@@ -158,12 +158,34 @@ def _source(text: str, math_ok: bool = True) -> str:
     raise ScpiError(-224, f"expected CH1..CH4{' or MATH' if math_ok else ''}, got {text!r}")
 
 
+class OwnDialect:
+    """The simulator's own command tree (``NULLPOINT,SIMSCOPE-4``); other dialects
+    (``scope_dialects``) subclass it."""
+
+    model_name = "SIMSCOPE-4"
+
+    def __init__(self, scope: Scope) -> None:
+        self.scope = scope
+
+    def build(self, tree: CommandTree) -> None:
+        self.scope.build_native_commands(tree)
+
+
 class Scope(Instrument):
     """Four-channel scope. State for tests: ``channels``, ``probes``, ``record``, ``acquisitions``."""
 
     model_name = "SIMSCOPE-4"
 
-    def __init__(self, serial: str, board: SharedBoard, faults: FaultInjector, seed: int) -> None:
+    def __init__(
+        self,
+        serial: str,
+        board: SharedBoard,
+        faults: FaultInjector,
+        seed: int,
+        dialect: type[OwnDialect] | None = None,
+    ) -> None:
+        self.dialect = (dialect or OwnDialect)(self)
+        self.model_name = self.dialect.model_name
         self.board = board
         self.seed = seed
         gains = np.random.default_rng([seed, 7])
@@ -175,6 +197,7 @@ class Scope(Instrument):
         for n, (net, kind, ratio) in _DEFAULT_PROBES.items():
             self.probes[n] = Probe(net, kind, ratio, self._gain_for(n, kind))
         self.record: Record | None = None
+        self.single_thread: threading.Thread | None = None  # a single shot under way
         self.acquisitions = 0
         self._acquire_lock = threading.Lock()
         super().__init__(serial, board.lock, faults)
@@ -311,7 +334,11 @@ class Scope(Instrument):
         return Trace(codes, None, lsb, ch.offset_v, bits, clipped)
 
     def current_record(self) -> Record:
-        """The record data queries answer from (a running scope refreshes it first)."""
+        """The record data queries answer from (a running scope refreshes it first; a single
+        shot under way is waited for: data handlers run without the instrument lock)."""
+        thread = self.single_thread
+        if thread is not None:
+            thread.join()
         with self.lock:
             record, running = self.record, self.continuous
         if running and (
@@ -369,7 +396,13 @@ class Scope(Instrument):
         return out
 
     # --- commands ---------------------------------------------------------------------------
-    def build_commands(self, tree: CommandTree) -> None:  # noqa: C901 (one table of commands)
+    def build_commands(self, tree: CommandTree) -> None:
+        """The dialect's own commands, then the simulation's (probes, board, faults)."""
+        self.dialect.build(tree)
+        self.build_sim_commands(tree)
+
+    def build_native_commands(self, tree: CommandTree) -> None:  # noqa: C901 (one table)
+        """The native dialect (``NULLPOINT,SIMSCOPE-4``, sim_instruments/README.md)."""
         ch = self.channels_or_reset
 
         def chan_bool(attr):
@@ -450,47 +483,7 @@ class Scope(Instrument):
             return ",".join([str(record.points), *(format_nr3(x) for x in nums)])
 
         def measure(kind):
-            def handler(s, p, n):
-                source = _source(one_param(p))
-                if self.faults.overrange:
-                    return format_nr3(OVERRANGE)
-                trace = self._trace(self.current_record(), source)
-                if trace.clipped:
-                    return format_nr3(OVERRANGE)
-                if trace.codes is not None:
-                    c = trace.codes
-                    if kind == "DC":
-                        return format_nr3(
-                            float(c.mean(dtype=np.float64)) * trace.lsb_v + trace.origin_v
-                        )
-                    return format_nr3(float(int(c.max()) - int(c.min())) * trace.lsb_v)
-                v = trace.volts
-                return format_nr3(
-                    float(v.mean(dtype=np.float64)) if kind == "DC" else float(v.max() - v.min())
-                )
-
-            return handler
-
-        def probe_net(s, p, n):
-            net = parse_choice(one_param(p), NETS).lower()
-            probe = self._probe(n[0])
-            if probe.kind == "SING" and net in FLOATING_NETS:
-                raise ScpiError(
-                    -221, f"{net.upper()} floats: a single-ended probe's ground lead would short it"
-                )
-            probe.net = net
-
-        def probe_type(s, p, n):
-            probe = self._probe(n[0])
-            kind = parse_choice(one_param(p), ["SINGle", "DIFFerential"])
-            if kind == "SING" and probe.net in FLOATING_NETS:
-                raise ScpiError(-221, f"probe {n[0]} sits on floating net {probe.net.upper()}")
-            probe.kind, probe.gain_error = kind, self._gain_for(n[0], kind)
-
-        def probe_ratio(s, p, n):
-            ratio = parse_number(one_param(p), 0.001, 10000.0)
-            self._probe(n[0]).ratio = ratio
-            ch(n[0]).attenuation = ratio  # the probe's ratio is sensed, as by a probe interface
+            return lambda s, p, n: self.measure(_source(one_param(p)), kind)
 
         for attr, pattern in (
             ("enabled", "INPut<n>[:STATe]"),
@@ -554,6 +547,32 @@ class Scope(Instrument):
         tree.add("TRACe:PREamble", query=preamble, locked=False)
         tree.add("MEASure:VOLTage[:DC]", query=measure("DC"), locked=False)
         tree.add("MEASure:VOLTage:PTPeak", query=measure("PTP"), locked=False)
+
+    def build_sim_commands(self, tree: CommandTree) -> None:
+        """``SIMulation:PROBe<n>:...``, the board and the fault commands: every dialect."""
+        ch = self.channels_or_reset
+
+        def probe_net(s, p, n):
+            net = parse_choice(one_param(p), NETS).lower()
+            probe = self._probe(n[0])
+            if probe.kind == "SING" and net in FLOATING_NETS:
+                raise ScpiError(
+                    -221, f"{net.upper()} floats: a single-ended probe's ground lead would short it"
+                )
+            probe.net = net
+
+        def probe_type(s, p, n):
+            probe = self._probe(n[0])
+            kind = parse_choice(one_param(p), ["SINGle", "DIFFerential"])
+            if kind == "SING" and probe.net in FLOATING_NETS:
+                raise ScpiError(-221, f"probe {n[0]} sits on floating net {probe.net.upper()}")
+            probe.kind, probe.gain_error = kind, self._gain_for(n[0], kind)
+
+        def probe_ratio(s, p, n):
+            ratio = parse_number(one_param(p), 0.001, 10000.0)
+            self._probe(n[0]).ratio = ratio
+            ch(n[0]).attenuation = ratio  # the probe's ratio is sensed, as by a probe interface
+
         tree.add(
             "SIMulation:PROBe<n>:NET",
             set=probe_net,
@@ -575,6 +594,24 @@ class Scope(Instrument):
         )
         add_board_commands(tree, self.board)
         add_fault_commands(tree, self.faults)
+
+    def measure(self, source: str, kind: str) -> str:
+        """The scope's own measurement of the last record of ``source`` (``"DC"`` mean or
+        ``"PTP"`` peak-to-peak, volts) as NR3; 9.9E37 when clipped (or the fault is armed)."""
+        if self.faults.overrange:
+            return format_nr3(OVERRANGE)
+        trace = self._trace(self.current_record(), source)
+        if trace.clipped:
+            return format_nr3(OVERRANGE)
+        if trace.codes is not None:
+            c = trace.codes
+            if kind == "DC":
+                return format_nr3(float(c.mean(dtype=np.float64)) * trace.lsb_v + trace.origin_v)
+            return format_nr3(float(int(c.max()) - int(c.min())) * trace.lsb_v)
+        v = trace.volts
+        return format_nr3(
+            float(v.mean(dtype=np.float64)) if kind == "DC" else float(v.max() - v.min())
+        )
 
     def channels_or_reset(self, n: int) -> Channel:
         """Channel ``n`` (1-4); -114 for another suffix."""

@@ -104,6 +104,7 @@ class Block:
     """
 
     payload: bytes | memoryview
+    prefix: bytes = b""  # an echoed response header before the block (``:CURVE ``)
 
     @property
     def nbytes(self) -> int:
@@ -111,7 +112,7 @@ class Block:
 
     def header(self) -> bytes:
         digits = str(self.nbytes)
-        return f"#{len(digits)}{digits}".encode()
+        return self.prefix + f"#{len(digits)}{digits}".encode()
 
 
 #: What a query answers: response text, a binary block, or bytes already formatted as response

@@ -45,7 +45,8 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         action="append",
         default=[],
         metavar="KIND=NAME",
-        help="speak another instrument family's dialect, e.g. supply=triple, supply=select, "
+        help="speak another instrument family's dialect, e.g. scope=tenfield, scope=outpre, "
+        "supply=triple, supply=select, "
         "thermometer=dmm, thermometer=logger (repeatable; default each kind's own)",
     )
     parser.set_defaults(func=run)

@@ -43,12 +43,14 @@ from bringup.tomlfile import TomlDocument, read_toml
 if TYPE_CHECKING:
     from bringup.instruments.profiles import Profile
     from bringup.instruments.scope import Scope
+    from bringup.instruments.scpi_log import ScpiLog
     from bringup.instruments.simulator_client import SimulationControl
     from bringup.instruments.supply import Supply
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
 
 ROLES = ("scope", "supply", "thermometer")
+MAX_CHANNELS = 8  # the most any scope profile declares; each profile says its own count
 NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
 _RESOURCE = re.compile(
     r"^(TCPIP\d*::[^:\s]+::\d{1,5}::SOCKET|TCPIP\d*::[^:\s]+(::[^:\s]+)?::INSTR"
@@ -174,11 +176,11 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
     seen: dict[str, int] = {}
     for key, table in raw.items():
         where = ("scope", "channels", key)
-        if key not in ("1", "2", "3", "4"):
+        if key not in tuple(str(n) for n in range(1, MAX_CHANNELS + 1)):
             raise ConfigError(
                 src.path,
                 f"scope.channels.{key}",
-                "channel must be 1, 2, 3 or 4",
+                f"channel must be 1 to {MAX_CHANNELS}",
                 src.line_of(*where),
             )
         if not isinstance(table, dict):
@@ -319,6 +321,12 @@ def _check_channel(config: BenchConfig, entry: InstrumentEntry, profile: Profile
     channels needs it named (feeding the board from a guessed output is not safe)."""
     channels = profile.channels
     if entry.role == "scope":
+        for n in config.channels:
+            if n > profile.channel_count:
+                raise read_toml(config.path).error(
+                    ("scope", "channels", str(n)),
+                    f"profile {profile.name!r} has {profile.channel_count} channels",
+                )
         return
     problem = None
     if entry.channel is None:
@@ -355,11 +363,13 @@ def open_bench(
     profiles_dir: Path | None = None,
     make_safe_on_open: bool = True,
     fast_reads: bool = True,
+    scpi_log: ScpiLog | None = None,
 ) -> Bench:
     """Connect every instrument of ``config``, check each ``*IDN?`` against its profile, clear
     the error queues, set the probe ratios of the wired channels and (by default) make the
     supply safe: output OFF, confirmed. On a simulated bench the sim's probes are placed as
-    the bench file wires them. Any failure closes what was opened."""
+    the bench file wires them. ``scpi_log`` records every line each instrument is sent and
+    answers. Any failure closes what was opened."""
     from bringup.instruments.scope import Scope
     from bringup.instruments.thermometer import Thermometer
     from bringup.instruments.visa import InstrumentSession
@@ -376,11 +386,15 @@ def open_bench(
             session = InstrumentSession(
                 role, config.instruments[role].resource, profiles[role], fast_reads=fast_reads
             )
+            session.scpi_log = scpi_log
             session.open()
             sessions[role] = session
             identities[role] = session.identify()
-            session.write(session.command_text("clear_status"))
-            session.check_errors(session.command_text("clear_status"))
+            if profiles[role].has("prepare"):
+                session.configure("prepare")
+            for line in profiles[role].lines("clear_status"):
+                session.write(line)
+                session.check_errors(line)
         bench = Bench(
             config=config,
             scope=Scope(sessions["scope"]),

@@ -87,6 +87,18 @@ class InstrumentError(InstrumentFault):
         super().__init__(instrument, command, f"{code},{text!r}")
 
 
+class RecordMismatch(InstrumentFault):
+    """A fetched record that does not hold together (point count, code range) or disagrees
+    with the instrument's own measurement of it: the scale is wrong, so no volt of it is used.
+    ``key`` is the profile key most likely wrong."""
+
+    what = "record does not agree with the instrument"
+
+    def __init__(self, instrument: str, command: str | None, detail: str, key: str):
+        self.key = key
+        super().__init__(instrument, command, detail)
+
+
 class NotOffered(InstrumentFault):
     """The profile declares the operation absent: this instrument does not offer it."""
 

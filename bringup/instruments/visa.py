@@ -16,6 +16,7 @@
 
 from __future__ import annotations
 
+import re
 import threading
 import time
 from collections.abc import Callable
@@ -26,6 +27,7 @@ import numpy as np
 from bringup.analysis.verdict import SCPI_OVERRANGE as SCPI_NO_VALUE  # SCPI-99 +INF
 from bringup.instruments import faults
 from bringup.instruments.profiles import REPLY_MEANINGS, Profile
+from bringup.instruments.scpi_log import ScpiLog
 from bringup.instruments.wire import (
     BlockSyntax,
     ResourceWire,
@@ -85,6 +87,7 @@ class InstrumentSession:
         self._term = profile.read_termination.encode("ascii")
         self._fault_listeners: list[Callable[[faults.InstrumentFault], None]] = []
         self.closed = True
+        self.scpi_log: ScpiLog | None = None  # every line sent and received, when set
 
     @property
     def lock(self) -> threading.RLock:
@@ -178,6 +181,8 @@ class InstrumentSession:
 
     # -- exchanges -----------------------------------------------------------------------
     def _write(self, command: str) -> None:
+        if self.scpi_log is not None:
+            self.scpi_log.sent(self.role, command)
         try:
             self._resource.write(command)
         except Exception as exc:  # OSError from the socket, VisaIOError from the backend
@@ -197,6 +202,8 @@ class InstrumentSession:
                 except (WireTimeout, WireClosed, faults.ConnectionLost) as exc:
                     self._broken = True
                     fault = self._transport_fault(command, exc, timeout_ms)
+                    if self.scpi_log is not None:
+                        self.scpi_log.note(self.role, fault.detail)
                     if isinstance(fault, faults.TruncatedBlock) or attempt + 1 == attempts:
                         if not isinstance(fault, faults.TruncatedBlock):
                             self._tell(fault)
@@ -256,7 +263,10 @@ class InstrumentSession:
         """Send ``command`` and return its one-line reply as text (terminator removed)."""
         ms = timeout_ms or self.profile.default_timeout_ms
         raw = self._exchange(command, ms, lambda w, d: w.read_line(self._term, d), repeatable)
-        return _decode(self.role, command, raw)
+        text = _decode(self.role, command, raw)
+        if self.scpi_log is not None:
+            self.scpi_log.received(self.role, text)
+        return text
 
     def query_number(
         self, command: str, *, timeout_ms: int | None = None, repeatable: bool = True
@@ -288,21 +298,42 @@ class InstrumentSession:
             f"profile {self.profile.path} key {key}: reply {reply[:60]!r} is not {expected}",
         )
 
-    def query_block(self, command: str, dtype: str, *, timeout_ms: int | None = None) -> np.ndarray:
+    def query_block(
+        self,
+        command: str,
+        dtype: str,
+        *,
+        timeout_ms: int | None = None,
+        into: np.ndarray | None = None,
+    ) -> np.ndarray:
         """A binary block reply as a native-byte-order numpy array of ``dtype`` (``>i2``...).
 
-        Safe to repeat (the instrument keeps its last record), so retried once after a
-        reconnect if nothing arrived in time or the connection dropped.
+        ``into``: a contiguous native array (a page of a larger record) to receive the codes
+        without a copy when the block holds exactly that many; otherwise a new array is
+        returned (the caller compares sizes). Safe to repeat (the instrument keeps its last
+        record), so retried once after a reconnect if nothing arrived in time or the
+        connection dropped.
         """
         ms = timeout_ms or self.profile.default_timeout_ms
         kind = np.dtype(dtype)
         # a block that stops flowing for the default timeout is cut short, whatever its total
         stall_s = self.profile.default_timeout_ms / 1000
+        target = into.view(np.uint8) if into is not None else None
 
         def read(wire: Any, deadline: float) -> np.ndarray:
-            return read_block(wire, self._term, kind.itemsize, deadline, stall_s)
+            return read_block(
+                wire,
+                self._term,
+                kind.itemsize,
+                deadline,
+                stall_s,
+                target,
+                skip_header=self.profile.echoes_headers,
+            )
 
         raw = self._exchange(command, ms, read, True)
+        if self.scpi_log is not None:
+            self.scpi_log.received(self.role, f"<binary block of {raw.size} bytes>")
         if raw.size % kind.itemsize:
             raise faults.GarbageReply(
                 self.role,
@@ -319,22 +350,32 @@ class InstrumentSession:
     def command_text(self, operation: str, **fields: Any) -> str:
         return self.profile.command(operation, **fields)
 
+    def _lead_in(self, operation: str, **fields: Any) -> tuple[str, str]:
+        """Send the command lines before a query operation's last line (each checked for
+        errors); returns the query line and the text that names the whole operation."""
+        *before, last = self.profile.lines(operation, **fields)
+        for line in before:
+            self.write(line)
+            self.check_errors(line)
+        return last, self.profile.command(operation, **fields)
+
     def ask(self, operation: str, *, repeatable: bool = True, **fields: Any) -> str:
-        """Run a query operation of the profile and return its reply text."""
-        return self.query(
-            self.command_text(operation, **fields),
-            timeout_ms=self.profile.timeout_ms(operation),
-            repeatable=repeatable,
-        )
+        """Run a query operation of the profile and return its reply text (an echoed header
+        removed when the profile says the instrument echoes them)."""
+        with self._lock:
+            line, _ = self._lead_in(operation, **fields)
+            text = self.query(
+                line, timeout_ms=self.profile.timeout_ms(operation), repeatable=repeatable
+            )
+        return strip_header(text) if self.profile.echoes_headers else text
 
     def ask_number(self, operation: str, *, repeatable: bool = True, **fields: Any) -> float:
-        """Run a numeric query operation of the profile (``Overrange`` on 9.9E37). A header or
-        unit the profile's ``[numbers]`` declares is stripped; anything else around the number
-        is a ``ReplyNotDescribed`` naming the profile file, key and reply."""
+        """Run a numeric query operation of the profile (``Overrange`` on 9.9E37). An echoed
+        header, or a header or unit the profile's ``[numbers]`` declares, is stripped;
+        anything else around the number is a ``ReplyNotDescribed`` naming the profile file,
+        key and reply."""
         command = self.command_text(operation, **fields)
-        reply = self.query(
-            command, timeout_ms=self.profile.timeout_ms(operation), repeatable=repeatable
-        )
+        reply = self.ask(operation, repeatable=repeatable, **fields)
         text = self.profile.numbers.strip(reply)
         return self._number(command, text if text is not None else reply, reply, operation)
 
@@ -342,9 +383,7 @@ class InstrumentSession:
         """Run a query answered in words and return what the word means by the profile
         (``True``/``False``, ``"cv"``...); a word it does not map is ``ReplyNotDescribed``."""
         command = self.command_text(operation, **fields)
-        reply = self.query(
-            command, timeout_ms=self.profile.timeout_ms(operation), repeatable=repeatable
-        )
+        reply = self.ask(operation, repeatable=repeatable, **fields)
         meaning = self.profile.reply_meaning(operation, reply)
         if meaning is None:
             known = list(self.profile.replies.get(operation, {}))
@@ -356,36 +395,37 @@ class InstrumentSession:
         return meaning
 
     def configure(self, operation: str, **fields: Any) -> str:
-        """Send a configuration command, then drain the error queue; returns the text sent."""
-        command = self.command_text(operation, **fields)
+        """Send a configuration command (each line of a sequence), draining the error report
+        after each line; returns the text sent."""
         # a step with its own timeout (an acquisition, say) may hold up the error query's reply
         wait_ms = max(self.profile.timeout_ms(operation), self.profile.timeout_ms("error_query"))
         with self._lock:
-            self.write(command)
-            self.check_errors(command, timeout_ms=wait_ms)
-        return command
+            for line in self.profile.lines(operation, **fields):
+                self.write(line)
+                self.check_errors(line, timeout_ms=wait_ms)
+        return self.command_text(operation, **fields)
 
     def check_errors(self, after: str | None, *, timeout_ms: int | None = None) -> None:
-        """Read ``SYSTem:ERRor?`` until it answers code 0; any entry raises ``InstrumentError``
-        naming the command ``after`` which it followed (the first entry; the rest counted)."""
+        """Read the instrument's error report and raise ``InstrumentError`` naming the command
+        ``after`` which it followed.
+
+        ``[errors] style = "queue"``: ``SYSTem:ERRor?`` until it answers code 0 (the first
+        entry reported, the rest counted). ``"event_register"``: the event status register
+        (``*ESR?``, IEEE 488.2 11.5.1); any bit of the profile's mask set is an error, told
+        by the ``error_detail?`` query when the profile has one."""
+        ms = timeout_ms or self.profile.timeout_ms("error_query")
+        if self.profile.error_style == "event_register":
+            self._check_event_register(after, ms)
+            return
         query = self.command_text("error_query")
         found: list[tuple[int, str]] = []
         with self._lock:
             for _ in range(MAX_ERRORS_DRAINED):
                 # Not repeatable: each read removes the entry it reports.
-                try:
-                    reply = self.query(
-                        query,
-                        timeout_ms=timeout_ms or self.profile.timeout_ms("error_query"),
-                        repeatable=False,
-                    )
-                except faults.InstrumentFault as exc:
-                    # name the configuration step too, not only the error query
-                    sent = f"{after}; {query}" if after else query
-                    raise type(exc)(exc.instrument, sent, exc.detail) from None
+                reply = self._error_reply(query, after, ms)
                 code_text, _, message = reply.partition(",")
                 try:
-                    code = int(code_text.strip().lstrip("+"))
+                    code = int(float(code_text.strip().lstrip("+")))
                 except ValueError:
                     raise faults.GarbageReply(
                         self.role, query, f"not an error-queue entry: {reply[:40]!r}"
@@ -398,10 +438,41 @@ class InstrumentSession:
             more = f" (and {len(found) - 1} more)" if len(found) > 1 else ""
             raise faults.InstrumentError(self.role, after, code, text + more)
 
+    def _error_reply(self, query: str, after: str | None, ms: int) -> str:
+        try:
+            reply = self.query(query, timeout_ms=ms, repeatable=False)
+        except faults.InstrumentFault as exc:
+            # name the configuration step too, not only the error query
+            sent = f"{after}; {query}" if after else query
+            raise type(exc)(exc.instrument, sent, exc.detail) from None
+        return strip_header(reply) if self.profile.echoes_headers else reply
+
+    def _check_event_register(self, after: str | None, ms: int) -> None:
+        query = self.command_text("error_query")
+        with self._lock:
+            reply = self._error_reply(query, after, ms)
+            try:
+                register = int(float(reply.strip().lstrip("+")))
+            except ValueError:
+                raise faults.GarbageReply(
+                    self.role, query, f"not an event status register: {reply[:40]!r}"
+                ) from None
+            flagged = register & self.profile.error_mask
+            if not flagged:
+                return
+            detail = f"event status register {register} (error bits {flagged})"
+            if self.profile.has("error_detail"):
+                try:
+                    detail = self.ask("error_detail", repeatable=False) or detail
+                except faults.InstrumentFault:
+                    pass  # the register already says there was an error
+        raise faults.InstrumentError(self.role, after, register, detail)
+
     def identify(self) -> str:
         """``*IDN?`` of the instrument, checked against the profile's identity pattern."""
         command = self.command_text("identify")
-        identity = self.ask("identify")
+        # never header-stripped: an identity may hold a space ("MAKER NAME,MODEL,...")
+        identity = self.query(command, timeout_ms=self.profile.timeout_ms("identify"))
         if not self.profile.matches(identity):
             raise faults.UnexpectedIdentity(
                 self.role,
@@ -410,3 +481,13 @@ class InstrumentSession:
                 f"(pattern {self.profile.identity.pattern!r})",
             )
         return identity
+
+
+_HEADER = re.compile(r"^:?[A-Za-z*][A-Za-z0-9_*]*(?::[A-Za-z*][A-Za-z0-9_*]*)*\s+(\S.*)$", re.S)
+
+
+def strip_header(text: str) -> str:
+    """A reply without the header an instrument echoes before it (``:CH1:SCALE 1.0E0`` ->
+    ``1.0E0``; IEEE 488.2 8.7.1 response headers). Text without one is returned as it is."""
+    match = _HEADER.match(text.strip())
+    return match.group(1).strip() if match else text

@@ -229,8 +229,15 @@ def read_block(
     itemsize: int,
     deadline: float,
     stall_s: float | None = None,
+    into: np.ndarray | None = None,
+    skip_header: bool = False,
 ) -> np.ndarray:
     """The body of one block reply as a uint8 array, with the terminator after it consumed.
+
+    ``skip_header``: the instrument may echo a response header before the block; skip it.
+
+    ``into``: a uint8 array to receive the body when it is exactly that long (a page of a
+    larger record, read in place); a body of another length gets a new array.
 
     Leading whitespace before ``#`` is skipped (IEEE 488.2 allows it in responses). A block
     whose terminator is missing after the announced bytes raises ``BlockSyntax`` so that the
@@ -239,6 +246,14 @@ def read_block(
     first = wire.read_exact(1, deadline)
     while first in (b" ", b"\t", b"\r"):
         first = wire.read_exact(1, deadline)
+    if skip_header and (first in (b":", b"*") or first.isalpha()):
+        # an echoed response header (``:CURVE #...``, IEEE 488.2 8.7.1), up to its space
+        head = first
+        while first != b" " and len(head) < 64:
+            first = wire.read_exact(1, deadline)
+            head += first
+        while first == b" ":
+            first = wire.read_exact(1, deadline)
     if first != b"#":
         raise BlockSyntax(first)
     digit = wire.read_exact(1, deadline)
@@ -251,7 +266,8 @@ def read_block(
     count_text = wire.read_exact(digits, deadline)
     if not count_text.isdigit():
         raise BlockSyntax(first + digit + count_text)
-    out = np.empty(int(count_text), dtype=np.uint8)
+    count = int(count_text)
+    out = into if into is not None and len(into) == count else np.empty(count, dtype=np.uint8)
     try:
         wire.read_into(out, deadline, stall_s)
     except (WireTimeout, WireClosed) as exc:

@@ -94,9 +94,9 @@ PROFILE_CASES = [
         "sim-scope",
         '"x_origin", ',
         "",
-        "block.preamble",
-        "preamble =",
-        "must name 'x_origin' exactly once",
+        "scale.x_zero",
+        "x_zero =",
+        "'x_origin' is not a field of [preamble] fields",
     ),
     (
         "sim-thermometer",
@@ -141,10 +141,10 @@ PROFILE_CASES = [
     (
         "sim-supply",
         'read = "\\n"',
-        'read = "\\r\\n"',
+        'read = "\\t"',
         "termination.read",
         "read =",
-        "one character",
+        "must be",
     ),
     ("sim-scope", "[words]", "[wording]", "wording", "[wording]", "unknown table"),
 ]
@@ -248,10 +248,10 @@ BENCH_CASES = [
     ),
     (
         "[scope.channels.3]",
-        "[scope.channels.5]",
-        "scope.channels.5",
-        "[scope.channels.5]",
-        "channel must be 1, 2, 3 or 4",
+        "[scope.channels.9]",
+        "scope.channels.9",
+        "[scope.channels.9]",
+        "channel must be 1 to 8",
     ),
     (
         "probe_ratio = 50",
