@@ -26,6 +26,7 @@ from typing import Any
 from bringup.errors import BringupError
 from bringup.instruments import faults
 from bringup.instruments.profiles import OPERATIONS, OPTIONAL, REPLY_MEANINGS, Profile
+from bringup.instruments.scope import Scope
 from bringup.instruments.visa import InstrumentSession
 
 WORKS, ABSENT, FAILED, NOT_TRIED = "works", "absent", "failed", "not tried"
@@ -310,6 +311,17 @@ def check_scope(
         "plus": 1,
         "minus": 2,
         "points": 1000,
+        # the derived values a profile may send instead (see profiles/README.md), for the
+        # settings sent below: 10 x ratio volts full scale centred on 0 V, 100 us from -50 us
+        "gain": 1.0 / ratio,
+        "volts_per_div": 10.0 * ratio / profile.vertical_divisions,
+        "position_div": 0.0,
+        "shift_volts": 0.0,
+        "seconds_per_div": 1e-4 / profile.horizontal_divisions,
+        "centre_seconds": 0.0,
+        "pretrigger_percent": 50.0,
+        "first": 1,
+        "last": 1000,
     }
     if profile.block is not None:
         fields["format"] = w.get(f"format_{profile.block.datatype}")
@@ -335,14 +347,16 @@ def check_scope(
     runner.command("math_state", state=off)
     runner.command("data_format")
     runner.command("byte_order")
+    scope = Scope(session)
     if runner.command("arm"):
         try:  # wait for the acquisition the way a run does
-            session.ask("operation_complete")
+            scope.wait_for_acquisition()
         except BringupError as exc:
             runner.rows[-1].status = FAILED
             runner.rows[-1].reply = str(exc)
-    runner.query("waveform_preamble")
-    _block(runner, block_dtype)
+    runner.command("data_source")
+    runner.command("data_range")
+    _record(runner, scope, channel)
     runner.query("measure_mean")
     runner.query("measure_peak_to_peak")
     runner.command("stop")
@@ -350,18 +364,26 @@ def check_scope(
     return runner.rows
 
 
-def _block(runner: _Runner, dtype: str | None) -> None:
-    operation = "waveform_data"
-    if runner.skip_absent(operation) or dtype is None:
-        return
-    sent = runner.text(operation)
+def _record(runner: _Runner, scope: Scope, channel: int) -> None:
+    """The preamble and the record, fetched as a run fetches them (scale terms evaluated,
+    pages read, the record checked against the instrument's own measurements)."""
+    sent = runner.text("waveform_data")
     try:
-        codes = runner.session.query_block(sent, dtype)
+        wf = scope.fetch_waveform(channel)
         runner.session.check_errors(sent)
     except BringupError as exc:
-        runner.row(operation, FAILED, sent, None, str(exc))
+        runner.row("waveform_data", FAILED, sent, None, str(exc))
+        runner.done.add("waveform_preamble")
         return
-    runner.row(operation, WORKS, sent, f"block of {codes.size} codes")
+    if runner.profile.has("waveform_preamble"):
+        runner.row("waveform_preamble", WORKS, runner.text("waveform_preamble"))
+    runner.row(
+        "waveform_data",
+        WORKS,
+        sent,
+        f"{wf.points} codes, {wf.volts().min():.4g} V to {wf.volts().max():.4g} V, "
+        "checked against the instrument's own measurements where offered",
+    )
 
 
 def _rest(runner: _Runner) -> None:
