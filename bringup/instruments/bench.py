@@ -7,9 +7,12 @@ resource = "TCPIP::192.168.1.20::5025::SOCKET"
 profile = "sim-scope"
 calibration_due = 2027-03-31        # optional, a TOML date
 
+bandwidth_hz = 350e6                # optional: its -3 dB bandwidth (rise times lose 0.35/BW)
+
 [scope.channels.1]
 net = "gate"                        # gate, switch, vgs, vbs, bus, vdrv, logic
 probe_ratio = 10
+probe_bandwidth_hz = 500e6          # optional: the probe's -3 dB bandwidth
 
 [supply]
 resource = "TCPIP::192.168.1.21::5025::SOCKET"
@@ -58,7 +61,7 @@ _RESOURCE = re.compile(
     re.IGNORECASE,
 )
 _ROLE_KEYS = {
-    "scope": {"channels"},
+    "scope": {"channels", "bandwidth_hz"},
     "supply": {"channel", "remote_sense"},
     "thermometer": {"channel", "thermocouple"},
 }
@@ -77,6 +80,7 @@ class InstrumentEntry:
     channel: int | str | None = None  # None: the bench file does not name one
     remote_sense: bool | None = None  # supply only
     thermocouple: str = "K"  # thermometer only
+    bandwidth_hz: float | None = None  # scope only: its -3 dB bandwidth, when given
 
     def calibration_overdue(self, today: dt.date) -> bool:
         """Whether the calibration due date has passed on ``today``."""
@@ -90,6 +94,7 @@ class ChannelWiring:
     channel: int
     net: str
     probe_ratio: float
+    probe_bandwidth_hz: float | None = None  # the probe's -3 dB bandwidth, when given
 
 
 @dataclass(frozen=True)
@@ -163,9 +168,20 @@ def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
             (role, "thermocouple"),
             f"{tc!r} is not a thermocouple type ({', '.join(THERMOCOUPLES)})",
         )
+    bandwidth = _bandwidth(src, (role, "bandwidth_hz"), table.get("bandwidth_hz"))
     return InstrumentEntry(
-        role, resource, table["profile"].strip(), due, channel, sense, tc.strip().upper()
+        role, resource, table["profile"].strip(), due, channel, sense, tc.strip().upper(), bandwidth
     )
+
+
+def _bandwidth(src: TomlDocument, where: tuple[str, ...], value: Any) -> float | None:
+    """An optional -3 dB bandwidth in Hz: a number above 0 up to 1e12 (the measuring chain's
+    own rise time, 0.35/BW, is taken out of measured edges)."""
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, int | float) or not 0 < value <= 1e12:
+        raise src.error(where, f"must be a bandwidth in Hz above 0 (e.g. 350e6), not {value!r}")
+    return float(value)
 
 
 def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
@@ -188,8 +204,10 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
                 src.path, f"scope.channels.{key}", "must be a table", src.line_of(*where)
             )
         for item in table:
-            if item not in ("net", "probe_ratio"):
-                raise src.error((*where, item), "unknown key (expected net, probe_ratio)")
+            if item not in ("net", "probe_ratio", "probe_bandwidth_hz"):
+                raise src.error(
+                    (*where, item), "unknown key (expected net, probe_ratio, probe_bandwidth_hz)"
+                )
         net = table.get("net")
         if net is None:
             raise src.error((*where, "net"), "missing")
@@ -207,7 +225,8 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
                 (*where, "probe_ratio"), f"must be a number above 0 (up to 10000), not {ratio!r}"
             )
         seen[net] = int(key)
-        out[int(key)] = ChannelWiring(int(key), net, float(ratio))
+        probe_bw = _bandwidth(src, (*where, "probe_bandwidth_hz"), table.get("probe_bandwidth_hz"))
+        out[int(key)] = ChannelWiring(int(key), net, float(ratio), probe_bw)
     return dict(sorted(out.items()))
 
 
@@ -267,7 +286,8 @@ class Bench:
         for ch, w in list(self.wiring.items()):
             if w.net == net and ch != channel:
                 del self.wiring[ch]  # a net is on one channel at a time
-        self.wiring[channel] = ChannelWiring(channel, net, old.probe_ratio if old else 1.0)
+        self.wiring[channel] = ChannelWiring(channel, net, old.probe_ratio if old else 1.0,
+                                             old.probe_bandwidth_hz if old else None)  # fmt: skip
 
     def close(self) -> None:
         """Make the supply safe (output OFF, confirmed) and close every connection; a second

@@ -29,13 +29,17 @@ class Trace:
     """One acquired trace in volts: sample ``i`` at ``t0_s + i * dt_s`` seconds.
 
     ``screen_v``: the channel's vertical window as (offset, full-scale range) in volts, when
-    known; what lies within 1 % of its edges is clipped (see ``clipping``)."""
+    known; what lies within 1 % of its edges is clipped (see ``clipping``).
+    ``chain_bandwidths_hz``: the measuring chain's bandwidths, taken out of its edges."""
 
     net: str
     volts: np.ndarray
     dt_s: float
     t0_s: float
     screen_v: tuple[float, float] | None = None
+    # -3 dB bandwidths (Hz) of what the signal went through: the scope, the probe, a
+    # bandwidth limit; empty when the bench file does not say (no correction then).
+    chain_bandwidths_hz: tuple[float, ...] = ()
 
     def span(self, start_s: float, end_s: float) -> np.ndarray:
         """The samples from ``start_s`` to ``end_s`` (s), both included."""
@@ -244,20 +248,49 @@ def gate_overdrive(data: AnalysisInput, board: Board, out: AnalysisOutput) -> No
         out.set("switch_drop", None, f"switch: {exc}")
 
 
+def _chain_corrected(
+    metric: str, measured: float | None, trace: Trace, out: AnalysisOutput
+) -> float | None:
+    """A 10-90 time with the scope and probe's own rise time taken out (root sum of squares,
+    ``bringup.analysis.probing``), or None with the reason when the edge is faster than the
+    chain resolves (below 1.4x its rise time: not judged). Unchanged without bandwidths.
+    The correction is shown in ``details["chain"]`` and, when it is not small, as a warning."""
+    from bringup.analysis.probing import VALID_RATIO, chain_rise_time, correct_rise_time
+
+    if measured is None or not trace.chain_bandwidths_hz:
+        return measured
+    c = correct_rise_time(measured, chain_rise_time(trace.chain_bandwidths_hz))
+    out.details.setdefault("chain", {})[metric] = c.to_dict()
+    if not c.resolved:
+        out.reasons[metric] = f"{trace.net}: {c.note}"
+        return None
+    if c.ratio < VALID_RATIO:
+        out.warnings.append(f"{metric.replace('_', ' ')}: {c.note}")
+    return c.corrected_s
+
+
 def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     """IEEE 181 10-90 % times (s) of the switch node and Vgs, judged on the slowest edge of
     the record; the switch node's worst overshoot (% of amplitude) and its lowest voltage (V);
     the Miller plateau of Vgs (V); and the switching loss the switch-node edges imply,
     P_sw = 1/2 * V * I * (t_r + t_f) * f_sw (ST A5972D datasheet eq. 23), with V the switch
-    node's high level and I = V / R_load from the design's load resistance."""
+    node's high level and I = V / R_load from the design's load resistance. When the bench
+    file gives the scope's and probes' bandwidths, the 10-90 times have the chain's own rise
+    time taken out, and an edge faster than 1.4x it is not judged (``_chain_corrected``)."""
     from bringup.analysis.plateau import find_miller_plateau
 
     sw, vgs = _trace(data, "switch"), _trace(data, "vgs")
     try:
         m = measure_edges(sw.volts, sw.dt_s, sw.t0_s)
-        rise, fall = m.rise_time_max_s, m.fall_time_max_s
-        out.set("switch_rise", rise, m.reasons.get("rise_time_s", ""))
-        out.set("switch_fall", fall, m.reasons.get("fall_time_s", ""))
+        out.warnings.extend(f"switch: {w}" for w in m.warnings)
+        rise = _chain_corrected("switch_rise", m.rise_time_max_s, sw, out)
+        fall = _chain_corrected("switch_fall", m.fall_time_max_s, sw, out)
+        out.set(
+            "switch_rise", rise, out.reasons.get("switch_rise") or m.reasons.get("rise_time_s", "")
+        )
+        out.set(
+            "switch_fall", fall, out.reasons.get("switch_fall") or m.reasons.get("fall_time_s", "")
+        )
         out.set("switch_overshoot", m.overshoot_max_pct, m.reasons.get("overshoot_pct", ""))
         if m.overshoot_max_uncertainty_pct is not None:
             out.uncertainties["switch_overshoot"] = m.overshoot_max_uncertainty_pct
@@ -278,8 +311,11 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.set("switch_negative_excursion", float(np.min(sw.volts)))
     try:
         g = measure_edges(vgs.volts, vgs.dt_s, vgs.t0_s)
-        out.set("vgs_rise", g.rise_time_max_s, g.reasons.get("rise_time_s", ""))
-        out.set("vgs_fall", g.fall_time_max_s, g.reasons.get("fall_time_s", ""))
+        out.warnings.extend(f"vgs: {w}" for w in g.warnings)
+        g_rise = _chain_corrected("vgs_rise", g.rise_time_max_s, vgs, out)
+        g_fall = _chain_corrected("vgs_fall", g.fall_time_max_s, vgs, out)
+        out.set("vgs_rise", g_rise, out.reasons.get("vgs_rise") or g.reasons.get("rise_time_s", ""))
+        out.set("vgs_fall", g_fall, out.reasons.get("vgs_fall") or g.reasons.get("fall_time_s", ""))
         levels = _edge_levels(g)
         try:
             plateau = find_miller_plateau(vgs.volts, vgs.dt_s, vgs.t0_s)

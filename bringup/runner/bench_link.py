@@ -19,6 +19,9 @@ from bringup.runner.results import StepPlan
 __all__ = ["BenchLink", "local_utc_offset"]
 
 _SLOPES = {"positive": "rising", "negative": "falling"}
+#: A scope channel's bandwidth limit when switched on: 20 MHz on most scopes (common practice; the
+#: notebook shows it as "20 MHz limit").
+_LIMIT_HZ = 20e6
 
 
 def _clipping(net: str, source, volts, offset_v: float, range_v: float) -> str | None:
@@ -225,16 +228,37 @@ class BenchLink:
         clipped: dict[str, str] = {}
         wanted = [(ch.net, ch.channel) for ch in plan.channels] + [(n, "math") for n in math_nets]
         windows = {ch.net: (ch.offset_v, ch.range_v) for ch in plan.channels}
+        chains = self._chains(plan, by_net, math_nets)
         for net, source in wanted:
             wf = scope.fetch_waveform(source)
             raw[net] = wf
             volts = wf.volts()
-            traces[net] = Trace(net, volts, wf.x_increment, wf.x_origin, windows.get(net))
+            traces[net] = Trace(net, volts, wf.x_increment, wf.x_origin, windows.get(net),
+                                chains.get(net, ()))  # fmt: skip
             if net in windows:
                 why = _clipping(net, source, volts, *windows[net])
                 if why:
                     clipped[net] = why
         return traces, raw, clipped
+
+    def _chains(self, plan: StepPlan, by_net: dict, math_nets: list) -> dict[str, tuple]:
+        """Each net's measuring chain as -3 dB bandwidths (Hz): the scope's and the probe's
+        as the bench file gives them, and the channel's bandwidth limit when on (20 MHz). A
+        math difference goes through both probes: the slower one counts."""
+        entry = self.bench.config.instruments.get("scope")
+        scope_bw = getattr(entry, "bandwidth_hz", None)
+        probe = {n: w.probe_bandwidth_hz for n, w in self.bench.wiring.items()}
+        limited = {ch.net for ch in plan.channels if ch.bandwidth_limit}
+        out: dict[str, tuple] = {}
+        for ch in plan.channels:
+            parts = (scope_bw, probe.get(ch.channel), _LIMIT_HZ if ch.net in limited else None)
+            out[ch.net] = tuple(bw for bw in parts if bw is not None)
+        for net in math_nets:
+            probes = [probe.get(by_net.get(n)) for n in ("gate", "switch")]
+            known = [bw for bw in probes if bw is not None]
+            parts = (scope_bw, min(known) if known else None)
+            out[net] = tuple(bw for bw in parts if bw is not None)
+        return out
 
     # ---------------------------------------------------------------- meters
     def read_meter_volts(self) -> float:
