@@ -25,7 +25,10 @@ from bringup.store import SessionLog
 from sim_instruments.bench import start_bench
 
 ANSWERS = Path(__file__).resolve().parents[2] / "checklists" / "answers-demo.toml"
-WALL_CLOCK_SAMPLED = {"heatsink_last", "soak_time_constant"}
+# soak metrics sampled on the wall clock (see ``runs``): where the soak stops and the time
+# constant its fit sees move with the machine's load; the verdict's metric, heatsink_final,
+# is held to 2 % like every other
+WALL_CLOCK_SAMPLED = {"heatsink_last": 0.10, "soak_time_constant": 0.25}
 COMBINATIONS = {
     "own": {"supply": "nullpoint", "thermometer": "nullpoint"},
     "triple+dmm": {"supply": "triple", "thermometer": "dmm"},
@@ -46,13 +49,16 @@ def _bench_folder(folder: Path, bench_text: str) -> Path:
 
 @pytest.fixture(scope="module")
 def runs(tmp_path_factory, demo_design):
-    """combination -> (exit status, JSON summary, stderr, db path, the sim's supply lines)."""
-    benches, procs = {}, {}
-    try:
-        for name, dialects in COMBINATIONS.items():
-            folder = tmp_path_factory.mktemp(name.replace("+", "-"))
-            sim = start_bench(dict(demo_design), dialects=dialects, time_scale=1000.0)
-            benches[name] = sim
+    """combination -> (exit status, JSON summary, stderr, db path, the sim's supply lines).
+
+    One run at a time, at 400 simulated seconds per wall second: the runner times the soak's
+    readings on the wall clock, so every millisecond a loaded machine delays a reply moves a
+    reading 0.4 s along the heating curve; runs competing for the processor with each other's
+    simulators (or a faster clock) would measure the machine's load rather than the dialect."""
+    out = {}
+    for name, dialects in COMBINATIONS.items():
+        folder = tmp_path_factory.mktemp(name.replace("+", "-"))
+        with start_bench(dict(demo_design), dialects=dialects, time_scale=400.0) as sim:
             profiles = _bench_folder(folder, sim.bench_file_text())
             db = folder / "log.sqlite"
             env = {**os.environ, "PYTHONUNBUFFERED": "1", "BRINGUP_PROFILES": str(profiles)}
@@ -60,26 +66,11 @@ def runs(tmp_path_factory, demo_design):
                        str(folder / "bench.toml"), "--board", "demo", "--serial", "DHS24-0009",
                        "--operator", "tester", "--db", str(db), "--auto", "--json",
                        "--answers", str(ANSWERS)]  # fmt: skip
-            proc = subprocess.Popen(
-                command, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env
-            )
-            procs[name] = (proc, db)
-        out = {}
-        for name, (proc, db) in procs.items():
-            stdout, stderr = proc.communicate(timeout=240)
-            lines = [line for line in stdout.splitlines() if line.strip()]
+            done = subprocess.run(command, capture_output=True, text=True, env=env, timeout=240)
+            lines = [line for line in done.stdout.splitlines() if line.strip()]
             summary = json.loads(lines[-1]) if lines else {}
-            out[name] = (
-                proc.returncode,
-                summary,
-                stderr,
-                db,
-                benches[name].supply.received_lines(),
-            )
-        yield out
-    finally:
-        for sim in benches.values():
-            sim.stop()
+            out[name] = (done.returncode, summary, done.stderr, db, sim.supply.received_lines())
+    return out
 
 
 def _metrics(db: Path, session: str) -> dict[tuple[str, str], float]:
@@ -118,9 +109,7 @@ def test_same_verdicts_and_metrics_as_through_the_simulators_own_profiles(runs, 
         # near zero (a switch drop of millivolts, a droop of a few mV) 2 % is below the noise:
         # there the 2 % is of the metric's scale in this run, the largest of its readings
         scale = max(abs(expected), 0.05 * max(abs(v) for (_, m), v in ref.items() if m == key[1]))
-        # the soak is sampled on the wall clock (simulated time runs 1000x it), so where it
-        # stops and what its fit sees move with the machine's load, not with the dialect
-        share = 0.10 if key[1] in WALL_CLOCK_SAMPLED else 0.02
+        share = WALL_CLOCK_SAMPLED.get(key[1], 0.02)
         if abs(got[key] - expected) > share * scale:
             off.append((key, got[key], expected))
     assert not off, off
