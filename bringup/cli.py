@@ -58,6 +58,10 @@ def main(argv: Sequence[str] | None = None) -> int:
             parser.print_help()
             return 0
     try:
+        if getattr(args, "scpi_log", None):
+            from bringup.instruments.scpi_log import use_process_log
+
+            use_process_log(args.scpi_log)
         return int(args.func(args) or 0)
     except BringupError as exc:
         print(f"bringup: error: {exc}", file=sys.stderr)

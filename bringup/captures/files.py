@@ -6,7 +6,9 @@
   "0,5" is read too, on every row). Parsed by numpy's C reader (``numpy.loadtxt``); only a
   semicolon file or one with trailing delimiters is fed to it through a per-line generator.
 * ``.npy``: one array of shape (N, 2) or (N, 1 + channels): time, then the channels.
-* ``.npz``: an array named ``t`` and one 1-D array per channel, named as the channel.
+* ``.npz``: an array named ``t`` and one 1-D array per channel, named as the channel; arrays
+  named ``meta_*`` describe the record (``bringup capture`` keeps the raw codes, the scale and
+  the scope's identity there) and are not channels.
 
 A trailing delimiter on every row ("0,1.5,") is read as the end of the row, not as an empty
 column. A ``.npy`` file named ``.npz`` (or the reverse) is refused by its signature, before
@@ -283,8 +285,8 @@ def _npz_arrays(z, name: str) -> tuple[np.ndarray, dict[str, np.ndarray]]:
     t = np.asarray(_member(z, name, "t"), dtype=np.float64).ravel()
     channels = {}
     for key in z.files:
-        if key == "t":
-            continue
+        if key == "t" or key.startswith("meta_"):
+            continue  # meta_* arrays describe the record (``bringup capture``), not channels
         arr = _member(z, name, key)
         if arr.ndim != 1 or arr.size != t.size:
             raise InputError(

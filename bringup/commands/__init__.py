@@ -17,6 +17,7 @@ COMMANDS = (
     "calc",
     "sim",
     "instruments",
+    "capture",
     "export",
     "keygen",
     "sign",

@@ -54,6 +54,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         help="use the instruments of this bench file (e.g. one written by `bringup sim "
         "--bench-out`) instead of starting a simulated bench",
     )
+    from bringup.commands.run import add_scpi_log_option
+
+    add_scpi_log_option(parser)
     parser.set_defaults(func=run)
     return parser
 

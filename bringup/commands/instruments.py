@@ -50,6 +50,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         action="store_true",
         help="also list VISA resources (broadcasts on your network; only when you ask)",
     )
+    from bringup.commands.run import add_scpi_log_option
+
+    add_scpi_log_option(parser)
     parser.set_defaults(func=run)
 
 

@@ -18,6 +18,7 @@ __all__ = [
     "add_parser",
     "run",
     "add_bench_options",
+    "add_scpi_log_option",
     "add_headless_options",
     "run_headless_cli",
     "check_db_option",
@@ -33,6 +34,16 @@ MIN_TIME_SCALE, MAX_TIME_SCALE = 1.0, 1e4
 SCENARIOS = ("healthy", "weak-bootstrap", "no-overdrive", "slow-gate", "hot-switch", "sagging-rail")
 
 
+def add_scpi_log_option(parser: argparse.ArgumentParser) -> None:
+    """``--scpi-log FILE``: every line sent to and received from the instruments, timed."""
+    parser.add_argument(
+        "--scpi-log",
+        metavar="FILE",
+        help="append every SCPI line sent and received (binary blocks summarised), with UTC "
+        "timestamps, to FILE",
+    )
+
+
 def add_bench_options(parser: argparse.ArgumentParser) -> None:
     """``--bench FILE | --sim [--scenario NAME] [--seed N]``."""
     group = parser.add_mutually_exclusive_group()
@@ -44,6 +55,7 @@ def add_bench_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--seed", type=int, default=0, help="simulated bench's noise seed (default 0)"
     )
+    add_scpi_log_option(parser)
     parser.add_argument(
         "--time-scale",
         type=float,

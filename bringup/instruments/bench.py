@@ -406,7 +406,8 @@ def open_bench(
             session = InstrumentSession(
                 role, config.instruments[role].resource, profiles[role], fast_reads=fast_reads
             )
-            session.scpi_log = scpi_log
+            if scpi_log is not None:
+                session.scpi_log = scpi_log
             session.open()
             sessions[role] = session
             identities[role] = session.identify()

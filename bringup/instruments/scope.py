@@ -77,6 +77,36 @@ class Scope:
         if not self.profile.has(operation):
             raise self._not_offered(repr(operation))
 
+    def check_offers(
+        self,
+        *,
+        channels: list[int],
+        math: bool = False,
+        bandwidth_limit: bool = False,
+        couplings: set[str] | frozenset[str] = frozenset({"dc"}),
+    ) -> None:
+        """``NotOffered`` naming what a set-up needs and the profile lacks (channels beyond
+        its count, the math channel, the bandwidth limit, ground coupling), without sending
+        anything: called before a step energises the board."""
+        missing = [f"channel {n}" for n in channels if n not in self.channels]
+        if math and not (
+            self.profile.has("math_expression")
+            and self.profile.has("math_state")
+            and self.profile.has_word("math_source")
+        ):
+            missing.append("the math channel")
+        if bandwidth_limit and not self.profile.has("bandwidth_limit"):
+            missing.append("the bandwidth limit")
+        if "gnd" in couplings and not self.profile.has_word("coupling_gnd"):
+            missing.append("ground coupling")
+        if missing:
+            raise faults.NotOffered(
+                self.session.role,
+                None,
+                f"the step needs {', '.join(missing)}, which profile {self.profile.name!r} "
+                "declares absent; nothing was energised",
+            )
+
     def source_word(self, source: Source) -> str:
         """The instrument's name of a source: a channel or ``"math"``."""
         if source == "math":

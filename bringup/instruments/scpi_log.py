@@ -60,3 +60,26 @@ class ScpiLog:
     def close(self) -> None:
         with self._lock:
             self._file.close()
+
+
+# One log per process (``--scpi-log FILE``): every session opened while it is set writes to it,
+# whichever command or layer opens the bench.
+_PROCESS_LOG: ScpiLog | None = None
+
+
+def use_process_log(path: Path | str) -> ScpiLog:
+    """Log every instrument session of this process to ``path`` (appended); closed at exit.
+    ``InputError`` naming ``--scpi-log`` when the file cannot be written."""
+    import atexit
+
+    global _PROCESS_LOG
+    if _PROCESS_LOG is not None:
+        _PROCESS_LOG.close()
+    _PROCESS_LOG = ScpiLog(path)
+    atexit.register(_PROCESS_LOG.close)
+    return _PROCESS_LOG
+
+
+def process_log() -> ScpiLog | None:
+    """The process's SCPI log, if ``use_process_log`` was called."""
+    return _PROCESS_LOG

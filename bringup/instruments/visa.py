@@ -27,7 +27,7 @@ import numpy as np
 from bringup.analysis.verdict import SCPI_OVERRANGE as SCPI_NO_VALUE  # SCPI-99 +INF
 from bringup.instruments import faults
 from bringup.instruments.profiles import REPLY_MEANINGS, Profile
-from bringup.instruments.scpi_log import ScpiLog
+from bringup.instruments.scpi_log import ScpiLog, process_log
 from bringup.instruments.wire import (
     BlockSyntax,
     ResourceWire,
@@ -87,7 +87,8 @@ class InstrumentSession:
         self._term = profile.read_termination.encode("ascii")
         self._fault_listeners: list[Callable[[faults.InstrumentFault], None]] = []
         self.closed = True
-        self.scpi_log: ScpiLog | None = None  # every line sent and received, when set
+        # every line sent and received, when set (``--scpi-log``: the process's log)
+        self.scpi_log: ScpiLog | None = process_log()
 
     @property
     def lock(self) -> threading.RLock:

@@ -192,6 +192,19 @@ class BenchLink:
             return make_safe_quietly(self.bench.supply)
 
     # ---------------------------------------------------------------- scope
+    def check_scope_offers(self, plan: StepPlan) -> None:
+        """``NotOffered`` (before anything is energised) when the step's scope set-up needs an
+        operation the scope's profile declares absent."""
+        setup = plan.settings.get("scope")
+        if setup is None:
+            return
+        self.bench.scope.check_offers(
+            channels=[ch.channel for ch in plan.channels],
+            math=bool(setup.get("math")),
+            bandwidth_limit=any(ch.bandwidth_limit for ch in plan.channels),
+            couplings={ch.coupling.lower() for ch in plan.channels},
+        )
+
     def acquire(self, plan: StepPlan) -> tuple[dict[str, Trace], dict, dict[str, str]]:
         """Set up the scope as planned, take one record, fetch every planned trace.
 
@@ -205,7 +218,7 @@ class BenchLink:
             scope.configure_channel(ch.channel, range_v=ch.range_v, offset_v=ch.offset_v,
                                     coupling=ch.coupling.lower(),
                                     bandwidth_limit=ch.bandwidth_limit)  # fmt: skip
-        for n in (1, 2, 3, 4):
+        for n in scope.channels:
             if n not in used:
                 scope.disable_channel(n)
         by_net = {ch.net: ch.channel for ch in plan.channels}

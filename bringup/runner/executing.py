@@ -206,6 +206,8 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
         bench.play_hands(step, plan)
     else:
         bench.note_probes(plan)
+    # a scope that lacks what the step needs (math, bandwidth limit...) says so before power
+    bench.check_scope_offers(plan)
     supply = plan.settings.get("supply")
     if supply is None:
         if step.reading is not None and ctx.data.reading is None:
