@@ -377,6 +377,7 @@ def _bootstrap_droop(vbs: Trace, uvlo: float, on_window, out: AnalysisOutput) ->
         out.views.append(_view("vbs", vbs, {"start": b.start_v, "end": b.end_v, "uvlo": uvlo},
                                window=(b.top_start_s, b.top_end_s)))  # fmt: skip
         out.details["vbs_droop"] = b.to_dict()
+        out.warnings.extend(f"vbs: {w}" for w in b.warnings)
     except AnalysisError as exc:
         out.set("vbs_end", None, f"vbs: {exc}")
         out.set("uvlo_margin", None, f"vbs: {exc}")
@@ -424,6 +425,7 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.views.append(_view("vgs", vgs, {"start": d.start_v, "end": d.end_v, "floor": floor},
                                window=(d.top_start_s, d.top_end_s)))  # fmt: skip
         out.details["vgs_droop"] = d.to_dict()
+        out.warnings.extend(f"vgs: {w}" for w in d.warnings)
     except AnalysisError as exc:
         for metric in ("vgs_droop", "vgs_start", "vgs_end", "on_time", "on_time_supported"):
             out.set(metric, None, f"vgs: {exc}")
