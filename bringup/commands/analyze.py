@@ -407,7 +407,7 @@ def _soak(args, capture, channel, y, band: float) -> None:
             f"{capture.path}: {capture.where(i)}: channel {channel}: {float(y[i]):.6g} °C is "
             "below absolute zero (-273.15 °C): not a temperature in °C"
         )
-    f = fit_soak(capture.t_s, y, band_k=band)
+    f = fit_soak(np.asarray(capture.t_s, dtype=np.float64), y, band_k=band)
     result = {"file": capture.path, "channel": channel, **f.to_dict()}
     refuse_overflow(result, f"{capture.path}: channel {channel}")
     rows = [

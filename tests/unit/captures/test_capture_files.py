@@ -141,3 +141,60 @@ def test_a_large_csv(tmp_path):
     cap = read_capture(tmp_path / "big.csv")
     assert cap.t_s.size == n
     assert np.allclose(cap.channel("v")[1], data[:, 1], rtol=1e-8, atol=1e-12)
+
+
+def test_a_float32_time_column_is_read_as_uniform(tmp_path):
+    # 1 ns steps near 10 ms in float32 (the last millisecond of a 10 Mpt record from 0):
+    # there float32 instants are 2**-30 s = 0.93 ns apart (IEEE 754 binary32, 24-bit
+    # significand), so the stored steps are 0.93 or 1.86 ns. Each instant is still within
+    # half of that spacing of the 1 ns grid.
+    n = 1_000_000
+    t = (9e-3 + np.arange(n, dtype=np.float64) * 1e-9).astype(np.float32)
+    rng = np.random.default_rng(7)
+    y = (rng.normal(0.0, 0.05, n) + (np.arange(n) // 5000 % 2) * 12.0).astype(np.float32)
+    np.savez(tmp_path / "f32.npz", t=t, gate=y)
+    cap = read_capture(tmp_path / "f32.npz")
+    t0, dt = cap.sampling()
+    assert t0 == pytest.approx(9e-3, abs=1e-9)
+    assert dt == pytest.approx(1e-9, rel=1e-6)
+    assert cap.t_s.dtype == np.float32  # read as stored, no float64 copy
+
+
+def test_a_csv_time_printed_with_few_digits_is_read_as_uniform(tmp_path):
+    # As bench scopes write it: 4 significant digits. At 1.2 ns over 24 us the printed
+    # resolution is 1 ns (steps of 1 or 2 ns); at 0.8 ns over 16 us it is 1 ns, coarser than
+    # the sample interval, so neighbouring instants print equal. Both are uniform records.
+    rng = np.random.default_rng(3)
+    for dt, n, fmt in [(1.2e-9, 20_000, "%.3e"), (0.8e-9, 20_000, "%.3e")]:
+        t = np.arange(n) * dt + 1e-5
+        v = np.round(rng.normal(5.0, 0.1, n) / 0.0625) * 0.0625  # noise, 8-bit-like steps
+        path = tmp_path / f"few-{dt:g}.csv"
+        np.savetxt(path, np.column_stack([t, v]), delimiter=",", fmt=[fmt, "%.4f"],
+                   header="Time,CH1", comments="")  # fmt: skip
+        cap = read_capture(path)
+        t0, got = cap.sampling()
+        assert t0 == pytest.approx(1e-5, abs=1e-9)
+        assert got == pytest.approx(dt, rel=1e-3)  # span (n-1)*dt to +-1 ns
+
+
+def test_non_uniform_files_are_still_refused(tmp_path):
+    # One sample missing in the middle of a long record: the instants each side of it are
+    # dt/2 off the grid through the ends; printed with ample digits.
+    t = np.arange(100_001) * 1e-9
+    t = np.delete(t, 50_000)
+    path = tmp_path / "missing.csv"
+    np.savetxt(path, np.column_stack([t, np.ones(t.size)]), delimiter=",", fmt="%.9e")
+    with pytest.raises(InputError, match="line 50001: the time is not uniformly sampled"):
+        read_capture(path).sampling()
+    # A slow drift (a clock 5 % fast over the second half), no single step far off: refused.
+    t = np.concatenate([np.arange(5000.0), 5000 + np.arange(5000.0) * 1.05]) * 1e-9
+    np.savez(tmp_path / "drift.npz", t=t.astype(np.float32), v=np.ones(t.size))
+    with pytest.raises(InputError, match="the time is not uniformly sampled"):
+        read_capture(tmp_path / "drift.npz").sampling()
+    # Equal instants in a file printed finely enough to tell them apart: refused.
+    np.savez(tmp_path / "repeat.npz", t=np.array([0.0, 1e-9, 1e-9, 3e-9]), v=np.ones(4))
+    with pytest.raises(InputError, match="sample 3: the time does not increase"):
+        read_capture(tmp_path / "repeat.npz")
+    # Equal instants printed so coarsely that the span does not give the interval either.
+    with pytest.raises(InputError, match="line 3: the time does not increase"):
+        read_capture(write(tmp_path, "coarse.csv", "0.0,1\n0.1,2\n0.1,3\n0.2,4\n"))
