@@ -161,8 +161,22 @@ class PoweredSupply:
         return self.supply.measure_current()
 
     def regulation(self) -> Regulation:
-        """CV, CC, OVP tripped or off."""
-        return self.supply.regulation()
+        """CV or CC. A tripped protection, an output found off or an unregulated output is a
+        ``ProtectionFault``: the board is no longer powered as the step set it, and a reading
+        taken now (0 A, not in current limit) would look like a healthy board."""
+        state = self.supply.regulation()
+        if state in (Regulation.CONSTANT_VOLTAGE, Regulation.CONSTANT_CURRENT):
+            return state
+        s = self.supply
+        query = "regulation_status" if s.profile.has("regulation_status") else "regulation_mode"
+        why = {
+            Regulation.OVP_TRIPPED: "OVP tripped",
+            Regulation.OCP_TRIPPED: "OCP tripped",
+            Regulation.OFF: "output found off",
+        }.get(state, "output unregulated")
+        raise faults.ProtectionFault(
+            s.session.role, s.command_text(query), f"{why} while the step had it on"
+        )
 
     def output_is_on(self) -> bool:
         """Whether the output is on (read back)."""

@@ -91,14 +91,18 @@ def test_select_supply_sets_local_sense_where_the_bench_file_says_so(dialect_ben
     assert lines.index("VOLTage:SENSe:SOURce EXTernal") < lines.index("OUTPut ON")
 
 
-def test_a_tripped_overcurrent_protection_reads_as_tripped_not_as_a_regulation_mode(dialect_bench):
+def test_a_protection_that_trips_while_powered_is_a_fault_not_a_regulation_state(dialect_bench):
+    # a first-power ramp reads "not in current limit" as "no short"; a supply whose OCP has
+    # tripped reads 0 A and is not in CC either: the step must stop as not judged instead
     sim, bench_file, profiles = dialect_bench(supply="triple")
     with open_bench_file(bench_file, profiles_dir=profiles) as bench:
-        with energised(bench, volts=24.0, current_limit_a=2.0, ovp_v=26.5) as powered:
-            with sim.supply.lock:  # the load's current crosses the OCP level: the supply trips
-                sim.supply.fed.ocp_level = 0.001
-                sim.supply.fed.solve()
-            assert powered.regulation() is Regulation.OCP_TRIPPED
+        with pytest.raises(faults.ProtectionFault, match="OCP tripped") as info:
+            with energised(bench, volts=24.0, current_limit_a=2.0, ovp_v=26.5) as powered:
+                with sim.supply.lock:  # the load's current crosses the OCP level: it trips
+                    sim.supply.fed.ocp_level = 0.001
+                    sim.supply.fed.solve()
+                powered.regulation()
+        assert info.value.command == ":OUTPut:MODE? CH2" or "OCP" in str(info.value)
         assert not sim.supply.output_on
         # the next energising clears the latched trip before anything else
         with energised(bench, volts=5.0, current_limit_a=1.0, ovp_v=6.0) as powered:
