@@ -363,13 +363,15 @@ class Scope:
             return s.query_block(data_cmd, block.dtype, timeout_ms=ms)
         out = np.empty(announced, dtype=native)
         with s.lock:
+            joiner = self.profile.write_termination
             for first in range(0, announced, page):
                 last = min(first + page, announced)
-                # no error check between pages (it would double the round trips): the
-                # instrument's error report is read once, after the last page
-                for line in self.profile.lines("data_range", first=first + 1, last=last):
-                    s.write(line)
-                got = s.query_block(data_cmd, block.dtype, timeout_ms=ms, into=out[first:last])
+                # the range and the query go out in one write (separate program messages,
+                # one send) and no error check between pages (it would double the round
+                # trips): the instrument's error report is read once, after the last page
+                lines = self.profile.lines("data_range", first=first + 1, last=last)
+                message = joiner.join([*lines, data_cmd])
+                got = s.query_block(message, block.dtype, timeout_ms=ms, into=out[first:last])
                 if got.size != last - first:
                     raise faults.TruncatedBlock(
                         s.role,
