@@ -118,6 +118,15 @@ def reading_label(key: str) -> tuple[str, str]:
     return key.replace("_", " "), ""
 
 
+def _phase_text(phase: str, message: str) -> str:
+    """'acquiring: 3 traces acquired'; the phase once when the message only repeats it."""
+    if not message or message.strip().lower() == phase.strip().lower():
+        return phase
+    if message.lower().startswith(phase.lower()):
+        return message
+    return f"{phase}: {message}"
+
+
 def progress_view(p: Any) -> Progress:
     """A runner ``Progress`` event as the live panel shows it."""
     readings = []
@@ -139,7 +148,7 @@ def progress_view(p: Any) -> Progress:
         soak_limit_c=soak.limit_c if soak is not None else None,
         soak_final_c=soak.predicted_final_c if soak is not None else None,
         fraction=p.fraction,
-        text=f"{p.phase}: {p.message}" if p.message else p.phase,
+        text=_phase_text(p.phase, p.message),
         readings=tuple(readings),
         soak_t=soak_t,
         soak_temp=soak_temp,

@@ -57,6 +57,8 @@ COLOURS = {
 STATE_LOOKS: dict[str, StateLook] = {
     "not-started": StateLook("○", "to do", "todo"),
     "in-progress": StateLook("▶", "running", "running"),
+    # a stage with some steps done and nothing running in it
+    "started": StateLook("◐", "started", "todo"),
     "pass": StateLook("✔", "passed", "pass"),
     "fail": StateLook("✘", "FAILED", "fail"),
     "conditional-pass": StateLook("≈", "pass, inside guard band", "cond", "c.pass"),
@@ -101,5 +103,6 @@ def look_of(state: str | None) -> StateLook:
 
 #: the key to the symbols, shown under the checklist
 LEGEND = (
-    "○ to do  ▶ running  ✔ passed  ✘ FAILED  ≈ pass/≉ fail inside guard band  » skipped  ◇ waived"
+    "○ to do  ◐ started  ▶ running  ✔ passed  ✘ FAILED  ≈ pass/≉ fail inside guard band  "
+    "» skipped  ◇ waived"
 )

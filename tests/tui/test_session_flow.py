@@ -53,7 +53,10 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
             what="first attempt",
         )
         await app.workers.wait_for_complete()
-        # a note on it
+        # the cursor followed the work to the next step; k goes back for a note on the first
+        await wait_until(pilot, lambda: screen.viewed == "power-rails.rails-unloaded")
+        await pilot.press("k")
+        await wait_until(pilot, lambda: screen.viewed == "power-rails.first-power")
         await pilot.press("n")
         await _type(pilot, "ground spring on CH1")
         await pilot.press("enter")  # logged by a worker thread: wait for it to show
@@ -98,15 +101,17 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
             what="logic-meter attempt",
         )
         await app.workers.wait_for_complete()
-        # a retake of the same step: a second attempt, the first one kept
+        # a retake of the same step (the cursor had moved on: k back to it): a second
+        # attempt, the first one kept; then the cursor moves on again
+        await wait_until(pilot, lambda: screen.viewed == "power-rails.rails-loaded")
+        await pilot.press("k")
+        await wait_until(pilot, lambda: screen.viewed == "power-rails.logic-meter")
         assert await take_step(pilot, reading="3.29 V") == [
             "ConfirmPrompt",
             "ReadingPrompt",
             "EnergisePrompt",
         ]
-        assert screen.query_one("#attempts").row_count == 2
-
-        await pilot.press("j")
+        assert len(screen.link.attempts("power-rails.logic-meter")) == 2
         await wait_until(pilot, lambda: screen.viewed == "power-rails.rails-loaded")
         await take_step(pilot)
         assert screen.link.current_step_id() == "gate-overdrive.vgs-on"

@@ -41,6 +41,9 @@ async def _take_gate_step(pilot) -> None:
     screen.refresh_all(select=STEP)
     await wait_until(pilot, lambda: screen.viewed == STEP, what=STEP)
     await take_step(pilot)
+    if screen.viewed != STEP:  # a pass moves the cursor on: back to the step for its result
+        await pilot.press("k")
+        await wait_until(pilot, lambda: screen.viewed == STEP, what=STEP)
     screen.query_one("#checklist").focus()
     await pilot.pause()
 

@@ -34,9 +34,7 @@ async def test_stop_switches_the_supply_off_while_the_step_is_blocked_on_the_sco
     app = BringupApp(Launcher(log_path), open_new=values)
     async with app.run_test(size=(130, 40)) as pilot:
         screen = await wait_for_session(pilot)
-        await take_step(pilot)  # first power passes: the rails step is next
-        if screen.viewed != STEP:
-            await pilot.press("j")
+        await take_step(pilot)  # first power passes: the cursor moves on to the rails step
         await wait_until(pilot, lambda: screen.viewed == STEP, what=STEP)
         lamp = screen.query_one(SupplyLamp)
 

@@ -58,6 +58,9 @@ async def test_a_name_and_a_note_full_of_markup_are_shown_as_typed(log_path):
         assert any(HOSTILE_NAME in line for line in screen_lines(app))
 
         await take_step(pilot)  # first power, on the simulated bench
+        await wait_until(pilot, lambda: screen.viewed != "power-rails.first-power")
+        await pilot.press("k")  # back to the attempt just taken
+        await wait_until(pilot, lambda: screen.viewed == "power-rails.first-power")
         banner = _rendered(screen.query_one("#verdict-banner"))
         assert HOSTILE_NAME in banner, banner
 

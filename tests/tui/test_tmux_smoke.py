@@ -78,10 +78,9 @@ def test_demo_in_tmux_runs_a_step_and_ctrl_c_turns_the_supply_off(bench_file, tm
         pane.keys("r")
         pane.wait_for("ENERGISE THE BOARD?", "switch on at 24 V")
         pane.keys("y")
-        pane.wait_for("PASSED", timeout=40)
+        pane.wait_for("✔ passed", "Next: 1.2", timeout=40)
 
-        # the next step, and Ctrl+C while its supply is on
-        pane.keys("j")
+        # the cursor moved on to the next step: r runs it; Ctrl+C while its supply is on
         pane.wait_for("1.2  Rail levels")
         pane.keys("r")
         pane.wait_for("ENERGISE THE BOARD?")

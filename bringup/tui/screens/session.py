@@ -154,7 +154,7 @@ class SessionScreen(StepActions, Screen[None]):
         self.query_one("#titlebar", Static).update(literal(self.link.header(), multiline=False))
         tree = self.query_one("#checklist", ChecklistTree)
         current = self.link.current_step_id()
-        tree.show_stages(self.link.stages(), self.running or current)
+        tree.show_stages(self.link.stages(), self.running or current, running=self.running)
         target = select or self.viewed or current
         if target is not None:
             if select is not None:
@@ -360,7 +360,9 @@ class SessionScreen(StepActions, Screen[None]):
             )
         else:
             self.say("Acquiring: x stops and puts the bench in its safe state.")
-        self.query_one("#checklist", ChecklistTree).show_stages(self.link.stages(), detail.id)
+        self.query_one("#checklist", ChecklistTree).show_stages(
+            self.link.stages(), detail.id, running=detail.id
+        )
         self._run_worker(detail.id, answers, self._cancel, self._stop_soak)
 
     @work(thread=True, exclusive=True, exit_on_error=False, group="bench")
@@ -441,19 +443,31 @@ class SessionScreen(StepActions, Screen[None]):
         self.refresh_all(select=self.link.current_step_id() if select_next else self.viewed)
 
     def on_step_finished(self, message: StepFinished) -> None:
+        """The cursor follows the work: after a pass it moves to the next step (so r runs that
+        one); after a failure it stays on the failed step."""
         step = message.step_id
-        self._finish(select_next=False)
         look = look_of(message.attempt.verdict)
-        kind = "good" if look.key in ("pass", "cond") else "fault"
-        nxt = (
-            " r retakes; j goes to the next step."
-            if kind == "good"
-            else " r retakes it; w waives it (reason and name)."
-        )
-        if self.link.current_step_id() is None:
+        passed = look.key in ("pass", "cond")
+        following = self.link.current_step_id()
+        move_on = passed and following is not None and following != step
+        self._finish(select_next=move_on)
+        if not move_on:
+            self.show_step(step)
+        tree = self.query_one("#checklist", ChecklistTree)
+        if following is None:
             nxt = " Every step now has a verdict: m shows the summary."
-        self.say(f"Attempt {message.attempt.number}: {look.label()}.{nxt}", kind)
-        self.show_step(step)
+        elif move_on:
+            nxt = (
+                f" Next: {tree.number_of(following)} {self.link.detail(following).title}: "
+                "r runs it (k goes back to this one)."
+            )
+        elif passed:
+            nxt = " r retakes it."
+        else:
+            nxt = " r retakes it; w waives it (reason and the name of who accepts it)."
+        self.say(
+            f"Attempt {message.attempt.number}: {look.label()}.{nxt}", "good" if passed else "fault"
+        )
 
     def on_step_faulted(self, message: StepFaulted) -> None:
         self._finish(select_next=False)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from rich.text import Text
 from textual.widgets import Tree
 
@@ -13,14 +15,25 @@ __all__ = ["ChecklistTree"]
 
 
 def _label(number: str, title: str, state: str, attempts: int = 0, current: bool = False) -> Text:
-    """'➤ ✔ passed  1.2 Bus voltage, loaded': the state first so a narrow column never hides it."""
+    """'➤✔ passed ×2 1.2 Bus voltage, loaded': the state first so a narrow column never hides
+    it; the attempt count (from the second attempt) in a column of its own before the number."""
     look = look_of(state)
     text = Text()
     text.append("➤" if current else " ", style="bold #f2c14e")
-    word = look.brief + (f"×{attempts}" if attempts > 1 else "")
-    text.append(f"{look.symbol} {word:<8}", style=look.style)
+    text.append(f"{look.symbol} {look.brief:<7} ", style=look.style)
+    text.append(f"×{attempts:<2}" if attempts > 1 else "   ", style="bold")
     text.append(f"{number} {visible(title, multiline=False)}", style="bold" if current else "")
     return text
+
+
+def _stage_state(stage: StageRow) -> str:
+    """A stage's state as shown: "running" only while one of its steps runs; "started" when
+    some of its steps are done and none runs now."""
+    if any(s.state in ("in-progress", "running") for s in stage.steps):
+        return "in-progress"
+    if stage.state in ("in-progress", "running"):
+        return "started"
+    return stage.state
 
 
 class ChecklistTree(Tree[str]):
@@ -33,20 +46,36 @@ class ChecklistTree(Tree[str]):
         self._shown: tuple[StageRow, ...] = ()
         self._current: str | None = None
 
-    def show_stages(self, stages: tuple[StageRow, ...], current: str | None) -> None:
-        """Rebuild the labels (and the nodes when the checklist changed)."""
+    def show_stages(
+        self, stages: tuple[StageRow, ...], current: str | None, running: str | None = None
+    ) -> None:
+        """Rebuild the labels (and the nodes when the checklist changed). ``current``: the step
+        to do next (marked ➤); ``running``: the step whose worker runs now (▶ running)."""
+        if running is not None:
+            stages = tuple(
+                replace(
+                    stage,
+                    steps=tuple(
+                        replace(s, state="in-progress") if s.id == running else s
+                        for s in stage.steps
+                    ),
+                )
+                for stage in stages
+            )
         same_shape = [(s.id, [p.id for p in s.steps]) for s in stages] == [
             (s.id, [p.id for p in s.steps]) for s in self._shown
         ]
         if not same_shape:
             self.clear()
             for i, stage in enumerate(stages, 1):
-                branch = self.root.add(_label(str(i), stage.title, stage.state), expand=True)
+                branch = self.root.add(
+                    _label(str(i), stage.title, _stage_state(stage)), expand=True
+                )
                 for j, step in enumerate(stage.steps, 1):
                     branch.add_leaf(_label(f"{i}.{j}", step.title, step.state), data=step.id)
         branches = list(self.root.children)
         for i, (stage, branch) in enumerate(zip(stages, branches, strict=False), 1):
-            branch.set_label(_label(str(i), stage.title, stage.state))
+            branch.set_label(_label(str(i), stage.title, _stage_state(stage)))
             for j, (step, leaf) in enumerate(zip(stage.steps, branch.children, strict=False), 1):
                 leaf.set_label(
                     _label(f"{i}.{j}", step.title, step.state, step.attempts, step.id == current)
