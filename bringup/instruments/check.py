@@ -333,7 +333,7 @@ def check_scope(
     runner.command("channel_state")
     runner.command("probe_ratio")
     runner.command("coupling")
-    runner.command("bandwidth_limit", state=off)
+    runner.command("bandwidth_limit", state=profile.word("bandwidth_off"))
     runner.command("vertical_range", volts=10.0 * ratio)
     runner.command("vertical_offset", volts=0.0)
     runner.command("record_points")
