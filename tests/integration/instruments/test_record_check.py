@@ -193,3 +193,52 @@ def test_keysight_family_reads_unsigned_words_lsb_first(scripted_server):
         assert ":WAVeform:SOURce CHANnel2" in server.received
     finally:
         session.close()
+
+
+@pytest.mark.parametrize("wrapped", [False, True], ids=["plain", "in-a-block-header"])
+def test_ascii_records_with_constant_scale_and_no_preamble(scripted_server, tmp_path, wrapped):
+    # volts sent as numbers (a scope in ASCii format): y_step = 1 V, x_step a constant; no
+    # preamble query at all; noise and ringing as a real record has
+    rng = np.random.default_rng(6)
+    t = np.arange(500) * 4e-9
+    volts = 5.0 * (t > 1e-6) + 0.3 * np.exp(-np.clip(t - 1e-6, 0, None) / 5e-8) * np.sin(2e8 * t)
+    volts = np.round(volts + rng.normal(0, 0.01, t.size), 4)
+    body = ",".join(f"{v:+.4e}" for v in volts)
+    if wrapped:
+        body = f"#9{len(body):09d}{body}"
+
+    def reply(line, n):
+        answers = {
+            "*IDN?": b"NULLPOINT,SIMSCOPE-4,SC1,0\n",
+            "TRAC? CH1": body.encode() + b"\n",
+            "MEAS:VOLT:DC? CH1": f"{volts.mean():.6e}\n".encode(),
+        }
+        return answers.get(line)
+
+    text = (BUILTIN_DIR / "sim-scope.toml").read_text()
+    for old, new in (
+        ('datatype = "int16"\nbyte_order = "big"', 'datatype = "ascii"'),
+        ('waveform_preamble = "TRAC:PRE? {source}"\n', ""),
+        ('data_format = "FORM {format}"\n', ""),
+        ('byte_order = "FORM:BORD {order}"\n', ""),
+        ('measure_peak_to_peak = "MEAS:VOLT:PTP? {source}"\n', ""),
+    ):
+        assert old in text
+        text = text.replace(old, new)
+    start, end = text.index("[preamble]"), text.index("[words]")
+    text = text[:start] + "[scale]\ny_step = 1.0\nx_step = 4e-9\n\n" + text[end:]
+    text = text.replace(
+        'kind = "scope"\n',
+        'kind = "scope"\nabsent = ["waveform_preamble", "data_format", "byte_order", '
+        '"measure_peak_to_peak"]\n',
+    )
+    path = tmp_path / "sim-scope.toml"
+    path.write_text(text)
+    server = scripted_server(reply)
+    scope, session = _scope(server.resource, path)
+    try:
+        wf = scope.fetch_waveform(1)
+        np.testing.assert_allclose(wf.volts(), volts, rtol=1e-4, atol=1e-6)
+        np.testing.assert_allclose(wf.times(), t, atol=1e-15)
+    finally:
+        session.close()
