@@ -80,3 +80,23 @@ def test_capture_with_a_wrong_profile_is_one_line_naming_the_key(powered_bench, 
     (line,) = done.stderr.strip().splitlines()
     assert "block.byte_order" in line and str(folder / "sim-scope.toml") in line
     assert sim.supply.output_on
+
+
+def test_scpi_log_of_a_headless_run_holds_every_instrument_exchange(sim_bench, tmp_path):
+    sim = sim_bench()
+    bench = tmp_path / "bench.toml"
+    bench.write_text(sim.bench_file_text())
+    log = tmp_path / "run-scpi.log"
+    done = _bringup("instruments", "--bench", str(bench), "--scpi-log", str(log))
+    assert done.returncode == 0, done.stderr
+    lines = log.read_text().splitlines()
+    for role in ("scope", "supply", "thermometer"):
+        assert any(f" {role} > *IDN?" in line for line in lines), role
+        assert any(f" {role} < NULLPOINT," in line for line in lines), role
+    # every line: an ISO 8601 UTC time, the instrument, the direction, the text
+    assert all(line[:4].isdigit() and "Z " in line[:40] for line in lines)
+    refused = _bringup("instruments", "--bench", str(bench), "--scpi-log",
+                       str(tmp_path / "no-such-folder" / "x.log"))  # fmt: skip
+    assert refused.returncode == 2
+    (one,) = refused.stderr.strip().splitlines()
+    assert "--scpi-log" in one
