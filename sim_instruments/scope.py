@@ -9,8 +9,9 @@ front end's noise (0.15 % of the full-scale range rms at full bandwidth, scaled 
 of the bandwidth ratio with the limit on); then an 8-bit (or 12-bit) ADC that rounds and clips to
 the screen (IEEE Std 1057 model of a digitizer: gain, offset, noise, quantisation).
 
-Everything on the sample path is vectorised numpy (scipy's ``lfilter`` for the filters); a
-record is stored as ADC codes and encoded once per transfer format, then sent as a buffer.
+Everything on the sample path is vectorised numpy (the filters too: ``one_pole``, without
+scipy.signal, whose import alone took seconds in the first acquisition); a record is stored as
+ADC codes and encoded once per transfer format, then sent as a buffer.
 """
 
 from __future__ import annotations
@@ -298,22 +299,13 @@ class Scope(Instrument):
         return start + (i + float(frac)) * step, True
 
     def _digitise(self, ch, probe, t0, dt, n, bits, rng) -> Trace:
-        from scipy.signal import lfilter, lfilter_zi
-
         v = self._tip_signal(ch, probe, t0, dt, n)
         poles = [FULL_BANDWIDTH_HZ] + ([LIMIT_BANDWIDTH_HZ] if ch.bw_limit else [])
-        a_coef = np.array([1.0])
-        gain = 1.0
         for fc in poles:
             p = math.exp(-2.0 * math.pi * fc * dt)
             if p > 1e-9:  # a pole far above the sample rate changes nothing
-                a_coef = np.convolve(a_coef, [1.0, -p])
-                gain *= 1.0 - p
-        if len(a_coef) > 1:
-            # start from the steady state of the first sample (no start-up transient)
-            b32, a32 = np.array([gain], np.float32), a_coef.astype(np.float32)
-            zi = (lfilter_zi([gain], a_coef) * v[0]).astype(np.float32)
-            v, _ = lfilter(b32, a32, v, zi=zi)
+                # start from the steady state of the first sample (no start-up transient)
+                v = one_pole(np.asarray(v, dtype=np.float32), p)
         sigma = NOISE_FRACTION * ch.range_v
         if ch.bw_limit:
             sigma *= math.sqrt(LIMIT_BANDWIDTH_HZ / FULL_BANDWIDTH_HZ)
@@ -630,3 +622,49 @@ class Scope(Instrument):
         if bits not in (8, 12):
             raise ScpiError(-224, f"resolution {bits} bits: 8 or 12")
         return bits
+
+
+# Block length of ``one_pole``: each block is one row of a matrix product (BLAS), so the
+# recursion runs over n / 32 block ends instead of n samples.
+_POLE_BLOCK = 32
+
+
+def one_pole(x: np.ndarray, p: float) -> np.ndarray:
+    """A first-order low-pass, ``y[k] = p*y[k-1] + (1 - p)*x[k]`` with ``y[-1] = x[0]`` (the
+    steady state of the first sample), in float32: the bilinear-free discrete pole
+    ``p = exp(-2*pi*fc*dt)`` of an RC front end (what ``scipy.signal.lfilter([1 - p], [1, -p],
+    x, zi=p*x[0])`` computes; a test keeps the two equal)."""
+    u = np.multiply(x, np.float32(1.0 - p), dtype=np.float32)
+    return _recurrence(u, p, float(x[0]) if x.size else 0.0)
+
+
+def _recurrence(u: np.ndarray, a: float, y_before: float) -> np.ndarray:
+    """``y[k] = a*y[k-1] + u[k]``, ``y[-1] = y_before``, vectorised in blocks: within a block
+    from a zero state, ``u`` times the Toeplitz matrix of powers of ``a`` (one matrix
+    product); the block ends follow the same recurrence with ``a**L`` (solved recursively);
+    then each block adds its start state times ``a**(j+1)``."""
+    n = u.size
+    size = _POLE_BLOCK
+    if n < 4 * size:
+        y = np.empty(n, dtype=np.float32)
+        state = y_before
+        for k in range(n):
+            state = a * state + float(u[k])
+            y[k] = state
+        return y
+    m = n - n % size
+    j = np.arange(size)
+    lag = j[None, :] - j[:, None]
+    powers = np.where(lag >= 0, a ** np.maximum(lag, 0).astype(np.float64), 0.0)
+    y = np.empty(n, dtype=np.float32)
+    blocks = y[:m].reshape(-1, size)
+    np.matmul(u[:m].reshape(-1, size), powers.astype(np.float32), out=blocks)
+    ends = _recurrence(np.ascontiguousarray(blocks[:, -1]), a**size, y_before)
+    starts = np.concatenate([[y_before], ends[:-1]]).astype(np.float32)
+    rise = (a ** (j + 1.0)).astype(np.float32)
+    rows = 1 << 14  # a few hundred kB of temporary at a time
+    for r in range(0, blocks.shape[0], rows):
+        blocks[r : r + rows] += starts[r : r + rows, None] * rise
+    if m < n:
+        y[m:] = _recurrence(u[m:], a, float(ends[-1]))
+    return y
