@@ -307,14 +307,16 @@ def _profile_one(rel: np.ndarray, temp: np.ndarray, tau: float, limit: float):
 
 def _misfit(residual: np.ndarray, noise: float, params: int) -> tuple[bool, dict, list[str]]:
     """(misfit?, diagnostics, plain-words findings) of a fit's residuals."""
-    from scipy.stats import chi2
+    # chdtri(dof, 1 - q) is scipy.stats.chi2.ppf(q, dof): the same cephes routine, without
+    # importing scipy.stats (seconds of start-up the soak step paid on its first fit).
+    from scipy.special import chdtri
 
     n = residual.size
     rms = float(np.sqrt(np.mean(residual**2)))
     dof = max(n - params, 1)
     ratio = rms / noise if noise > 0 else None  # None: a noise-free log, no level test
     # Chi-square test of the residual variance against the noise from second differences.
-    limit = math.sqrt(chi2.ppf(0.999, dof) / dof * n / dof) if noise > 0 else math.inf
+    limit = math.sqrt(float(chdtri(dof, 0.001)) / dof * n / dof) if noise > 0 else math.inf
     z = runs_test_z(residual)
     d = durbin_watson(residual)
     findings = []
@@ -414,11 +416,11 @@ def fit_soak(
     diag["f_test_p"] = None
     diag["drift_c"] = None
     if two is not None and two.sse < one.sse:
-        from scipy.stats import f as f_dist
+        from scipy.special import fdtrc  # scipy.stats.f.sf(x, d1, d2) = fdtrc(d1, d2, x)
 
         # F-test of the nested models (3 vs 5 parameters).
         f_stat = (one.sse - two.sse) / 2.0 / (two.sse / (n - 5))
-        diag["f_test_p"] = float(f_dist.sf(f_stat, 2, n - 5))
+        diag["f_test_p"] = float(fdtrc(2, n - 5, f_stat))
         bic_gain = diag["bic_one_tau"] - diag["bic_two_tau"]
         if not bad1 and (bic_gain >= BIC_STRONG or diag["f_test_p"] < F_TEST_P):
             bad1 = True
