@@ -146,6 +146,6 @@ def run(args: argparse.Namespace) -> int:
             "operator": args.operator or demo_operator(),
         },
     )
+    # the notebook has already printed the exact command that carries on (with this --db)
     print(f"bringup demo: the supply is off; the log is {db}", file=sys.stderr)
-    print(f"bringup demo: carry on later with: bringup open --db {db}", file=sys.stderr)
     return status

@@ -42,6 +42,8 @@ class BringupApp(App[int]):
         self._open_new = open_new
         self._resume = resume
         self._shut = False
+        #: (session id, every step has a verdict) of the session shown last; (None, False)
+        self.last_session: tuple[str | None, bool] = (None, False)
         # After an unhandled exception Textual exits and prints the traceback on its public
         # ``error_console``: here that console writes into a buffer, so the bench gets one line
         # (``crash_message``, printed by ``run_app`` once the supply is off) and the traceback
@@ -63,8 +65,22 @@ class BringupApp(App[int]):
         """Show ``link``'s session (called on the UI thread once it is open)."""
         if self.link is not None and self.link is not link:
             self.link.close()
+        self.last_session = (link.session_id, False)
         self.link = link
         self.push_screen(SessionScreen())
+
+    def carry_on(self) -> str:
+        """One line for the terminal once the notebook has closed: the exact command that
+        carries on (with ``--db`` when the log is not the default one)."""
+        session_id, finished = self.last_session
+        command = self.launcher.carry_on(session_id, finished)
+        if session_id is None:
+            return f"bringup: no session was opened; to start one: {command}"
+        if finished:
+            return (
+                f"bringup: session {session_id} has a verdict on every step; its record: {command}"
+            )
+        return f"bringup: session {session_id} is unfinished; to carry on: {command}"
 
     def shutdown(self) -> None:
         """Safe state then close: supply OFF, instruments released. Safe to call twice."""
@@ -73,6 +89,10 @@ class BringupApp(App[int]):
         self._shut = True
         link, self.link = self.link, None
         if link is not None:
+            try:
+                self.last_session = (link.session_id, link.overall_finished())
+            except Exception:  # the bench goes safe whatever the log says
+                self.last_session = (link.session_id, False)
             link.close()
 
     def action_quit_safely(self) -> None:

@@ -50,6 +50,34 @@ class Launcher:
 
         return str(default_db_path())
 
+    def db_option(self) -> str:
+        """' --db PATH' (shell-quoted) when the log is not the default one, else ''."""
+        import shlex
+
+        if self.db_path is None:
+            return ""
+        from bringup.store import default_db_path
+
+        try:
+            if self.db_path.resolve() == default_db_path().resolve():
+                return ""
+        except OSError:
+            pass
+        return f" --db {shlex.quote(str(self.db_path))}"
+
+    def carry_on(self, session_id: str | None, finished: bool = False) -> str:
+        """The exact command that carries on from here: resume an unfinished session, export
+        a finished one's record, or open the notebook when no session was opened."""
+        import shlex
+
+        db = self.db_option()
+        if session_id is None:
+            return f"bringup open{db}"
+        sid = shlex.quote(str(session_id))
+        if finished:
+            return f"bringup export {sid} --format pdf --out record.pdf{db}"
+        return f"bringup resume {sid}{db}"
+
     def scenarios(self) -> tuple[str, ...]:
         """Scenario names of the simulated bench."""
         return SCENARIOS

@@ -216,6 +216,10 @@ class SessionLink:
         """The session's verdict: the worst of its stages'."""
         return self.runner.verdict()
 
+    def overall_finished(self) -> bool:
+        """True when every step has an accepted verdict (nothing left to do)."""
+        return self.runner.current_step() is None
+
     def _log_finish_if_complete(self) -> None:
         if not self._finished_logged and self.runner.current_step() is None:
             self._finished_logged = bool(self.runner.finish_if_complete())

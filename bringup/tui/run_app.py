@@ -45,7 +45,9 @@ def run_app(launcher: Any, *, open_new: dict | None = None, resume: Any = None) 
             f"bringup: error: {app.crash_message} (the supply was switched off){where}",
             file=sys.stderr,
         )
+        print(app.carry_on(), file=sys.stderr)
         return 2
+    print(app.carry_on(), file=sys.stderr)  # every way out says how to carry on
     return int(status or 0)
 
 

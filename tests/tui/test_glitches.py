@@ -77,3 +77,71 @@ async def test_the_cursor_follows_the_work_and_the_checklist_reads_plainly(log_p
         await wait_until(pilot, lambda: "acquiring" in str(screen.query_one("#live-text").render()))
         assert str(screen.query_one("#live-text").render()).strip() == "acquiring"
         await pilot.press("q")
+
+
+@sync
+async def test_every_way_out_names_the_command_that_carries_on(log_path):
+    import shlex
+
+    from bringup.cli import build_parser
+    from bringup.tui.screens.summary import SummaryScreen
+
+    # nothing opened: quitting the start screen says how to start (with this log's --db)
+    app = BringupApp(Launcher(log_path))
+    async with app.run_test(size=(130, 40)) as pilot:
+        await pilot.pause()
+        await pilot.press("ctrl+q")
+    assert (
+        app.carry_on()
+        == f"bringup: no session was opened; to start one: bringup open --db {log_path}"
+    )
+
+    # a session opened and left unfinished: the exact resume command, and the summary's hint
+    values = {"board": "demo", "checklist": None, "bench_file": None, "scenario": "healthy",
+              "serial": "DHS24-0131", "operator": "tester"}  # fmt: skip
+    app = BringupApp(Launcher(log_path), open_new=values)
+    async with app.run_test(size=(130, 40)) as pilot:
+        screen = await wait_for_session(pilot)
+        session_id = screen.link.session_id
+        await pilot.press("m")
+        await wait_until(pilot, lambda: isinstance(app.screen, SummaryScreen), what="summary")
+        hint = str(app.screen.query_one("#summary-hint").render())
+        assert f"bringup export {session_id} --format pdf --out record.pdf --db {log_path}" in hint
+        await pilot.press("q")
+    line = app.carry_on()
+    assert (
+        line
+        == f"bringup: session {session_id} is unfinished; to carry on: bringup resume {session_id} --db {log_path}"
+    )
+    # the command as printed is one the CLI takes, naming this log and this session
+    words = shlex.split(line.split(": ")[-1])[1:]
+    args = build_parser().parse_args(words)
+    assert args.session == session_id and str(args.db) == log_path
+
+
+@sync
+async def test_metric_names_wrap_instead_of_being_cut(log_path):
+    values = {"board": "demo", "checklist": None, "bench_file": None, "scenario": "healthy",
+              "serial": "DHS24-0132", "operator": "tester"}  # fmt: skip
+    app = BringupApp(Launcher(log_path), open_new=values)
+    async with app.run_test(size=(160, 45)) as pilot:
+        screen = await wait_for_session(pilot)
+        runner = screen.link.runner
+        step = "gate-overdrive.vgs-on"
+        for s in runner.checklist.steps():  # setting up: the rails are not under test here
+            if s.id == step:
+                break
+            runner.skip(s.id, "rails checked on the previous board")
+        screen.refresh_all(select=step)
+        await wait_until(pilot, lambda: screen.viewed == step)
+        await take_step(pilot)
+        if screen.viewed != step:
+            await pilot.press("k")
+            await wait_until(pilot, lambda: screen.viewed == step)
+        long_names = [m.label for m in screen.link.attempts(step)[-1].metrics if len(m.label) > 26]
+        assert long_names  # "Bus minus the switch node's high level" and the like
+        text = " ".join(" ".join(line.split()) for line in screen_lines(app))
+        assert "…" not in text
+        for name in long_names:  # every word of each long name is on screen, in its column
+            assert all(word in text for word in name.split()), name
+        await pilot.press("q")

@@ -93,6 +93,7 @@ def test_demo_in_tmux_runs_a_step_and_ctrl_c_turns_the_supply_off(bench_file, tm
 
     assert "bringup-exit=0" in screen, screen
     assert "Traceback" not in screen
+    assert "unfinished; to carry on: bringup resume" in screen, screen  # the exact command
     assert not bench.supply.output_on
     supply = visa_rm.open_resource(
         bench.resources["supply"], read_termination="\n", write_termination="\n", timeout=2000

@@ -46,6 +46,9 @@ from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
 
 __all__ = ["SessionScreen"]
 
+#: width of the result table's metric column, cells: a longer name wraps onto more lines
+METRIC_COLUMN = 26
+
 
 def _verdict_text(verdict: str) -> Text:
     return look_of(verdict).text()
@@ -120,9 +123,9 @@ class SessionScreen(StepActions, Screen[None]):
                         yield Static("", id="verdict-banner")
                         results = DataTable(id="results", cursor_type="row", zebra_stripes=True)
                         # the verdict second: it must never scroll off a narrow terminal
-                        results.add_columns(
-                            "metric", "verdict", "measured", "predicted", "limits", "margin"
-                        )
+                        # a metric's name wraps in its column (never cut): the rows grow
+                        results.add_column("metric", width=METRIC_COLUMN)
+                        results.add_columns("verdict", "measured", "predicted", "limits", "margin")
                         yield results
                         yield Static("", id="metric-detail")
                     with TabPane("2 trace", id="tab-trace"):
@@ -243,11 +246,15 @@ class SessionScreen(StepActions, Screen[None]):
             self.query_one("#plot", WaveformPlot).clear("no attempt yet: press r to run the step")
             return
         for m in attempt.metrics:
-            label = m.label if len(m.label) <= 30 else m.label[:29] + "…"
             look = look_of(m.verdict)
             verdict = Text(f"{look.symbol} {look.brief}", style=look.style)
             cells = (m.measured, m.predicted, m.limits, m.margin)
-            table.add_row(literal(label), verdict, *(literal(c, multiline=False) for c in cells))
+            table.add_row(
+                literal(m.label, multiline=False),
+                verdict,
+                *(literal(c, multiline=False) for c in cells),
+                height=None,  # as many lines as the wrapped name needs
+            )
         self._show_metric_detail(0)
         self._show_trace()
 

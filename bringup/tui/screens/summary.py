@@ -56,5 +56,9 @@ class SummaryScreen(Screen[None]):
         verdict.append(look.label().upper(), style=look.style)
         self.query_one("#summary-verdict", Static).update(verdict)
         self.query_one("#summary-hint", Static).update(
-            literal(f"Export the record: bringup export {link.session_id} --format html|pdf|json")
+            literal(
+                "The record (once every step has a verdict): "
+                + self.app.launcher.carry_on(link.session_id, finished=True)  # type: ignore[attr-defined]
+                + "  (--format html or json for the other forms)"
+            )
         )
