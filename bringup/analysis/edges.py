@@ -53,6 +53,7 @@ __all__ = [
     "measure_edges",
     "negative_excursion",
     "noise_rms",
+    "slow_reading_fraction",
     "state_levels",
 ]
 
@@ -453,6 +454,16 @@ def _find(y, dt, t0, pct, state: StateLevels, band_pct: float) -> Transitions:
     )
 
 
+def slow_reading_fraction(samples: float) -> float:
+    """How much slow (a fraction) linear interpolation reads a first-order edge that spans
+    ``samples`` samples between its reference levels: the computed table beside
+    ``MIN_EDGE_SAMPLES``, interpolated; 0 from 10 samples on."""
+    if samples >= 10.0:
+        return 0.0
+    xs, ys = zip(*_SLOW_READING_PCT, (10.0, 0.0), strict=True)
+    return float(np.interp(samples, xs, ys)) / 100.0
+
+
 def noise_rms(y: np.ndarray) -> float:
     """The record's white-noise rms (V), robustly: 1.4826 x the median absolute second
     difference / sqrt(6) (var(d2) = 6 sigma^2 for white noise; the median ignores the few
@@ -659,8 +670,7 @@ def measure_edges(
     fall_samples = None if fall[1] is None else fall[1] / dt
     for what, count in (("rising", rise_samples), ("falling", fall_samples)):
         if count is not None and count < MIN_EDGE_SAMPLES:
-            xs, ys = zip(*_SLOW_READING_PCT, strict=True)
-            slow = float(np.interp(count, xs, ys))
+            slow = 100.0 * slow_reading_fraction(count)
             warnings.append(
                 f"the fastest {what} edge spans only {count:.1f} samples between its "
                 f"{pct[0]:g} % and {pct[2]:g} % levels (fewer than {MIN_EDGE_SAMPLES}): "

@@ -269,6 +269,30 @@ def _chain_corrected(
     return c.corrected_s
 
 
+def _edge_time(metric: str, m: EdgeMetrics, rising: bool, trace: Trace, out: AnalysisOutput):
+    """The slowest edge's 10-90 time (s) with the chain taken out (``_chain_corrected``), and
+    its GUM budget (``bringup.analysis.uncertainty.duration_budget``, the slowest of the
+    record's edges): the expanded uncertainty goes to ``out.uncertainties``, the budget to
+    ``details["budgets"]``."""
+    from bringup.analysis.edges import slow_reading_fraction
+    from bringup.analysis.uncertainty import duration_budget
+
+    value = _chain_corrected(metric, m.rise_time_max_s if rising else m.fall_time_max_s,
+                             trace, out)  # fmt: skip
+    tr = m.transitions
+    if value is None or tr is None:
+        return value
+    durations = tr.duration_s[(tr.direction > 0) == rising]
+    samples = m.rise_time_samples if rising else m.fall_time_samples
+    chain = out.details.get("chain", {}).get(metric, {}).get("chain_s", 0.0)
+    budget = duration_budget(value, durations.tolist(), dt_s=trace.dt_s, statistic="max",
+                             interpolation_bias=slow_reading_fraction(samples or 0.0),
+                             chain_s=chain, quantity=metric)  # fmt: skip
+    out.uncertainties[metric] = budget.expanded
+    out.details.setdefault("budgets", {})[metric] = budget.to_dict()
+    return value
+
+
 def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     """IEEE 181 10-90 % times (s) of the switch node and Vgs, judged on the slowest edge of
     the record; the switch node's worst overshoot (% of amplitude) and its lowest voltage (V);
@@ -283,8 +307,8 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     try:
         m = measure_edges(sw.volts, sw.dt_s, sw.t0_s)
         out.warnings.extend(f"switch: {w}" for w in m.warnings)
-        rise = _chain_corrected("switch_rise", m.rise_time_max_s, sw, out)
-        fall = _chain_corrected("switch_fall", m.fall_time_max_s, sw, out)
+        rise = _edge_time("switch_rise", m, True, sw, out)
+        fall = _edge_time("switch_fall", m, False, sw, out)
         out.set(
             "switch_rise", rise, out.reasons.get("switch_rise") or m.reasons.get("rise_time_s", "")
         )
@@ -312,8 +336,8 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     try:
         g = measure_edges(vgs.volts, vgs.dt_s, vgs.t0_s)
         out.warnings.extend(f"vgs: {w}" for w in g.warnings)
-        g_rise = _chain_corrected("vgs_rise", g.rise_time_max_s, vgs, out)
-        g_fall = _chain_corrected("vgs_fall", g.fall_time_max_s, vgs, out)
+        g_rise = _edge_time("vgs_rise", g, True, vgs, out)
+        g_fall = _edge_time("vgs_fall", g, False, vgs, out)
         out.set("vgs_rise", g_rise, out.reasons.get("vgs_rise") or g.reasons.get("rise_time_s", ""))
         out.set("vgs_fall", g_fall, out.reasons.get("vgs_fall") or g.reasons.get("fall_time_s", ""))
         levels = _edge_levels(g)
@@ -459,7 +483,16 @@ def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.set("heatsink_final", None, fit.undecided_reason)
         return
     out.set("heatsink_final", fit.final_c)
-    out.uncertainties["heatsink_final"] = fit.final_c_uncertainty
+    # GUM budget: the fit (noise and model), the thermocouple's class 2 tolerance (the bench
+    # file does not name a class: the wider, usual one) and the reader's resolution.
+    from bringup.analysis.uncertainty import temperature_budget
+
+    steps = np.abs(np.diff(temp))
+    resolution = float(steps[steps > 0].min()) if np.any(steps > 0) else 0.0
+    budget = temperature_budget(fit.final_c, fit.final_c_uncertainty, resolution_c=resolution,
+                                quantity="heatsink_final")  # fmt: skip
+    out.uncertainties["heatsink_final"] = budget.expanded
+    out.details.setdefault("budgets", {})["heatsink_final"] = budget.to_dict()
     target = board.targets.get("heatsink_final")
     if target is not None and fit.final_c_uncertainty > target.uncertainty:
         out.warnings.append(

@@ -56,3 +56,22 @@ def test_an_edge_the_chain_cannot_resolve_is_not_judged():
     assert out.metrics["switch_rise"] is None
     assert "not judged" in out.reasons["switch_rise"]
     assert out.metrics["switching_loss"] is None
+
+
+def test_a_small_computed_uncertainty_leaves_the_declared_guard_band():
+    from types import SimpleNamespace
+
+    from bringup.checklist.load import load_checklist
+    from bringup.runner.executing import _judge
+
+    out = _edges(10e-9, ())
+    budget = out.details["budgets"]["switch_rise"]
+    assert budget["k"] == 2.0 and budget["expanded"] == out.uncertainties["switch_rise"]
+    board = load_board("demo")
+    declared = board.targets["switch_rise"].uncertainty
+    assert out.uncertainties["switch_rise"] < declared
+    _, metrics = _judge(
+        SimpleNamespace(board=board, step=load_checklist().step("edge-speed.edges")), out
+    )
+    rise = next(m for m in metrics if m.id == "switch_rise")
+    assert rise.uncertainty == declared

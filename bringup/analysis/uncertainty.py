@@ -1,0 +1,266 @@
+"""Measurement uncertainty budgets, combined as the GUM does (JCGM 100:2008).
+
+Each input quantity gets a standard uncertainty: type A from repeated observations (s/sqrt(n),
+GUM §4.2), type B from a specification or a bound (a rectangular bound +/- a gives a/sqrt(3),
+a triangular one a/sqrt(6), one quantisation step q gives q/sqrt(12); GUM §4.3.7, §4.3.9). The
+components here are already multiplied by their sensitivity coefficient (in the result's unit)
+and are uncorrelated, so u_c = sqrt(sum u_i^2) (GUM §5.1.2); the expanded uncertainty is
+U = k u_c with k = 2 (about 95 % for a large effective number of degrees of freedom, GUM §6.3).
+
+A ``Budget`` lists its components (what each is, how it was evaluated, its value) so that the
+reader can see where the uncertainty comes from. Pure functions: numbers in, budgets out.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+
+__all__ = [
+    "COVERAGE_K",
+    "Budget",
+    "Component",
+    "duration_budget",
+    "level_budget",
+    "quantisation",
+    "rectangular",
+    "temperature_budget",
+    "thermocouple_tolerance",
+    "triangular",
+    "type_a",
+]
+
+COVERAGE_K = 2.0
+
+
+def rectangular(half_width: float) -> float:
+    """Standard uncertainty of a quantity known only to lie within +/- ``half_width``
+    (uniform, GUM §4.3.7): a/sqrt(3)."""
+    return abs(float(half_width)) / math.sqrt(3.0)
+
+
+def triangular(half_width: float) -> float:
+    """Standard uncertainty of a triangular distribution of half-width a (GUM §4.3.9):
+    a/sqrt(6)."""
+    return abs(float(half_width)) / math.sqrt(6.0)
+
+
+def quantisation(step: float) -> float:
+    """Standard uncertainty of one reading rounded to ``step``: q/sqrt(12) (the rectangular
+    rule over +/- q/2)."""
+    return abs(float(step)) / math.sqrt(12.0)
+
+
+def type_a(std: float, n: int) -> float:
+    """Type A standard uncertainty of the mean of ``n`` observations of standard deviation
+    ``std`` (GUM §4.2.3): s/sqrt(n)."""
+    if n < 1:
+        raise ValueError(f"a type A evaluation needs at least one observation, got {n}")
+    return abs(float(std)) / math.sqrt(n)
+
+
+@dataclass(frozen=True)
+class Component:
+    """One line of a budget: ``name`` (what it is, with the figures it came from),
+    ``evaluation`` ("type A" or "type B, rectangular"...), ``u`` its standard uncertainty in
+    the result's unit (sensitivity coefficient applied)."""
+
+    name: str
+    evaluation: str
+    u: float
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "evaluation": self.evaluation, "u": self.u}
+
+
+@dataclass(frozen=True)
+class Budget:
+    """An uncertainty budget for ``quantity`` (in ``unit``): its components, the combined
+    standard uncertainty (root sum of squares, uncorrelated inputs) and the expanded one."""
+
+    quantity: str
+    unit: str
+    value: float
+    components: tuple[Component, ...]
+    k: float = COVERAGE_K
+
+    @property
+    def combined(self) -> float:
+        """u_c = sqrt(sum u_i^2) (GUM §5.1.2)."""
+        return math.sqrt(sum(c.u * c.u for c in self.components))
+
+    @property
+    def expanded(self) -> float:
+        """U = k u_c (GUM §6.2)."""
+        return self.k * self.combined
+
+    def dominant(self) -> Component | None:
+        """The largest component (what to improve first)."""
+        return max(self.components, key=lambda c: c.u, default=None)
+
+    def to_dict(self) -> dict:
+        return {
+            "quantity": self.quantity,
+            "unit": self.unit,
+            "value": self.value,
+            "components": [c.to_dict() for c in self.components],
+            "combined": self.combined,
+            "k": self.k,
+            "expanded": self.expanded,
+        }
+
+
+def _budget(quantity: str, unit: str, value: float, parts: Iterable[Component]) -> Budget:
+    return Budget(quantity, unit, float(value), tuple(c for c in parts if c.u > 0))
+
+
+def level_budget(
+    level_v: float,
+    *,
+    noise_rms_v: float,
+    samples: int,
+    code_step_v: float = 0.0,
+    gain_accuracy: float = 0.0,
+    offset_accuracy_v: float = 0.0,
+    probe_ratio_tolerance: float = 0.0,
+    quantity: str = "level",
+) -> Budget:
+    """Budget of a DC level (V) read as the mean of ``samples`` scope samples.
+
+    Components: the noise averaged over the samples (type A, sigma/sqrt(n)); the ADC's code
+    step (q/sqrt(12), itself averaged when the noise dithers it, i.e. sigma >= q/2); the
+    channel's gain accuracy (a fraction of the reading, rectangular); its offset accuracy (V,
+    rectangular); the probe's attenuation tolerance (a fraction of the reading, rectangular).
+    The accuracy figures come from the instrument's and probe's specifications at the range
+    used.
+    """
+    level = abs(float(level_v))
+    n = max(int(samples), 1)
+    dithered = noise_rms_v >= code_step_v / 2.0
+    q = quantisation(code_step_v) / (math.sqrt(n) if dithered else 1.0)
+    return _budget(
+        quantity,
+        "V",
+        level_v,
+        (
+            Component(f"noise {noise_rms_v:.3g} V rms over {n} samples", "type A",
+                      type_a(noise_rms_v, n)),
+            Component(f"ADC code step {code_step_v:.3g} V"
+                      + (" (dithered by the noise)" if dithered else ""),
+                      "type B, rectangular", q),
+            Component(f"gain accuracy +/-{100 * gain_accuracy:.3g} % of reading",
+                      "type B, rectangular", rectangular(gain_accuracy * level)),
+            Component(f"offset accuracy +/-{offset_accuracy_v:.3g} V", "type B, rectangular",
+                      rectangular(offset_accuracy_v)),
+            Component(f"probe ratio tolerance +/-{100 * probe_ratio_tolerance:.3g} %",
+                      "type B, rectangular", rectangular(probe_ratio_tolerance * level)),
+        ),
+    )  # fmt: skip
+
+
+def duration_budget(
+    duration_s: float,
+    edge_durations_s: Sequence[float],
+    *,
+    dt_s: float,
+    statistic: str = "median",
+    timebase_ppm: float = 0.0,
+    interpolation_bias: float = 0.0,
+    chain_s: float = 0.0,
+    quantity: str = "10-90 % duration",
+) -> Budget:
+    """Budget of an edge duration (s) from ``edge_durations_s`` (every edge of the record).
+
+    ``statistic``: "median" (the record's typical edge: the edges' scatter s over sqrt(n),
+    times sqrt(pi/2) for a median, type A) or "max" (the slowest edge judged alone: one
+    edge's scatter s, type A). Type B: the bias of taking the last crossing of each level on
+    a noisy edge, bounded by one edge's scatter (rectangular); the sample clock's accuracy (``timebase_ppm``, of the
+    value, rectangular); the linear interpolation's bias on an edge with few samples
+    (``interpolation_bias``, a fraction of the value, rectangular: see
+    ``edges.MIN_EDGE_SAMPLES``); a removed chain rise time ``chain_s``: its 0.35/BW is
+    uncertain (0.45/BW for a steep roll-off, REFERENCES §9), so the corrected value lies
+    between the two corrections (rectangular over half their difference). With one edge
+    only, its scatter is unknown: one sample interval / sqrt(6) stands in (two crossings each
+    within a triangular +/- dt/2, common practice) and the budget says so.
+    """
+    if statistic not in ("median", "max"):
+        raise ValueError(f"statistic must be 'median' or 'max', got {statistic!r}")
+    d = [float(v) for v in edge_durations_s]
+    n = len(d)
+    parts: list[Component] = []
+    if n >= 2:
+        mean = sum(d) / n
+        s = math.sqrt(sum((v - mean) ** 2 for v in d) / (n - 1))
+        if statistic == "median":
+            parts.append(Component(f"scatter of {n} edges, s = {s:.3g} s (median)", "type A",
+                                   math.sqrt(math.pi / 2.0) * type_a(s, n)))  # fmt: skip
+        else:
+            parts.append(Component(f"scatter of {n} edges, s = {s:.3g} s (one edge)", "type A", s))
+            # The largest of n noisy readings of like edges reads high by about
+            # s sqrt(2 ln n) (the expected maximum of n normal draws, common practice).
+            parts.append(Component(f"the slowest of {n} noisy edges reads high",
+                                   "type B, rectangular",
+                                   rectangular(s * math.sqrt(2.0 * math.log(n)))))  # fmt: skip
+        # The last crossing of each reference level is taken (IEEE 181 hysteresis): with
+        # noise on a shallow part of the edge that is the latest of several, a bias that the
+        # scatter does not show. Bounded by one edge's scatter (rectangular).
+        parts.append(Component("crossing choice under noise, up to one edge's scatter",
+                               "type B, rectangular", rectangular(s)))  # fmt: skip
+    else:
+        parts.append(Component("one edge only: two crossings within +/- dt/2 each",
+                               "type B, triangular", math.sqrt(2.0) * triangular(dt_s / 2.0)))  # fmt: skip
+    value = float(duration_s)
+    parts.append(Component(f"timebase accuracy {timebase_ppm:.3g} ppm", "type B, rectangular",
+                           rectangular(timebase_ppm * 1e-6 * value)))  # fmt: skip
+    parts.append(Component(f"interpolation on few samples, up to {100 * interpolation_bias:.3g} %",
+                           "type B, rectangular", rectangular(interpolation_bias * value)))  # fmt: skip
+    if chain_s > 0:
+        measured = math.hypot(value, chain_s)
+        steep = chain_s * 0.45 / 0.35
+        alt = math.sqrt(max(measured * measured - steep * steep, 0.0))
+        parts.append(Component(f"chain rise time {chain_s:.3g} s (0.35/BW, or 0.45/BW)",
+                               "type B, rectangular", rectangular((value - alt) / 2.0)))  # fmt: skip
+    return _budget(quantity, "s", value, parts)
+
+
+#: IEC 60584-1 tolerance classes of thermocouples (K, J, N, E, T share the form; REFERENCES
+#: §10 [memory]): (fixed half-width K, fraction of |t| in degC), the larger applies.
+_TC_CLASSES = {1: (1.5, 0.004), 2: (2.5, 0.0075)}
+
+
+def thermocouple_tolerance(t_c: float, tolerance_class: int = 2) -> float:
+    """Half-width (K) of a thermocouple's tolerance at ``t_c`` (degC): class 1 +/-1.5 K or
+    0.4 % of |t|, class 2 +/-2.5 K or 0.75 % of |t|, whichever is larger (IEC 60584-1
+    [memory, REFERENCES §10])."""
+    if tolerance_class not in _TC_CLASSES:
+        raise ValueError(f"thermocouple tolerance class must be 1 or 2, got {tolerance_class!r}")
+    fixed, frac = _TC_CLASSES[tolerance_class]
+    return max(fixed, frac * abs(float(t_c)))
+
+
+def temperature_budget(
+    final_c: float,
+    fit_expanded_c: float,
+    *,
+    tolerance_class: int = 2,
+    resolution_c: float = 0.0,
+    quantity: str = "final temperature",
+) -> Budget:
+    """Budget of a soak's predicted final temperature (degC): the fit's own uncertainty (its
+    expanded value / 2, from the log's noise and the model), the thermocouple's tolerance
+    class at that temperature (rectangular) and the reader's resolution (q/sqrt(12))."""
+    tol = thermocouple_tolerance(final_c, tolerance_class)
+    return _budget(
+        quantity,
+        "degC",
+        final_c,
+        (
+            Component("soak fit (noise of the log and the model)", "type A",
+                      float(fit_expanded_c) / COVERAGE_K),
+            Component(f"thermocouple class {tolerance_class}: +/-{tol:.3g} K at "
+                      f"{final_c:.4g} degC", "type B, rectangular", rectangular(tol)),
+            Component(f"reader resolution {resolution_c:.3g} K", "type B, rectangular",
+                      quantisation(resolution_c)),
+        ),
+    )  # fmt: skip
