@@ -157,36 +157,87 @@ def bench_source(args: argparse.Namespace):
     return None
 
 
+def _say(line: str, file=None) -> None:
+    """Print one line; a terminal or pipe that is gone (SIGHUP, a closed pipe) is no error."""
+    try:
+        print(line, file=file or sys.stderr, flush=True)
+    except (OSError, ValueError):
+        pass
+
+
 def run_headless_cli(runner, args: argparse.Namespace, book=None) -> int:
-    """Run ``runner``'s unfinished steps headless, print progress and verdicts; exit status.
+    """Run ``runner``'s unfinished steps headless, print progress and verdicts; exit status:
+    0 everything passed, 1 the board failed or a step was not run, 2 an instrument fault
+    ended a step, 128 + N when signal N stopped the run (130 for SIGINT, 129 for SIGHUP).
 
-    ``book``: the ``--answers`` file already read and checked (``load_answers``) before the
-    session was created or resumed; read here when not given."""
-    import json
-
+    Every terminating signal switches the supply off at once, logs the interrupted attempt
+    and an ``abort`` event naming the signal (``bringup.runner.stop_signals``); a closed
+    output pipe does the same (SIGPIPE). ``book``: the ``--answers`` file already read and
+    checked (``load_answers``) before the session was created or resumed; read here when not
+    given."""
     from bringup.runner.answers import load_answers
-    from bringup.runner.headless import run_headless
-    from bringup.runner.reporting import PASSING, attempt_lines, summary_json
+    from bringup.runner.stop_signals import SignalGuard, SignalStop
 
     if book is None and args.answers:
         book = load_answers(args.answers, runner.checklist)
+    guard = SignalGuard(lambda stop: runner.executor.stop_now(interrupting=True))
+    try:
+        with guard:
+            return _headless(runner, args, book)
+    except SignalStop as stop:
+        return _stopped(runner, stop.reason, stop.exit_status)
+    except BrokenPipeError:
+        import os
+        import signal
+
+        # further writes to the closed pipe would fail again at exit: send them nowhere
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        from bringup.runner.stop_signals import WHY
+
+        return _stopped(runner, f"SIGPIPE: {WHY['SIGPIPE']}", 128 + signal.SIGPIPE)
+
+
+def _stopped(runner, reason: str, status: int) -> int:
+    """After a signal: supply off (confirmed or not), the abort event naming it, one line."""
+    off = runner.abort(reason)
+    _say(f"bringup: stopped by {reason}: {off.text()}; session {runner.session_id} can be "
+         "resumed")  # fmt: skip
+    return status
+
+
+def _headless(runner, args: argparse.Namespace, book) -> int:
+    import json
+
+    from bringup.runner.headless import run_headless
+    from bringup.runner.reporting import PASSING, attempt_lines, summary_json
+
     out = sys.stderr if args.json else sys.stdout
     total = len(runner.checklist.steps())
     index = {s.id: i for i, s in enumerate(runner.checklist.steps(), start=1)}
     print(f"session {runner.session_id}: {runner.board.name} rev {runner.board.revision}, "
           f"serial {runner.serial}, operator {runner.operator}", file=out, flush=True)  # fmt: skip
     runner.bench()  # an unreachable bench is an error (exit 2), not a list of not-run steps
+    for notice in runner.bench_notices:  # an output found ON, a step found interrupted
+        _say(f"bringup: {notice}")
+    results = []
 
     def show(result) -> None:
+        results.append(result)
         for line in attempt_lines(index[result.step_id], total, result):
             print(line, file=out, flush=True)
 
     verdict = run_headless(runner, book, on_result=show)
-    summary = summary_json(runner)
+    summary = summary_json(runner, results)
     stages = ", ".join(f"{s['id']} {s['verdict']}" for s in summary["stages"])
     print(f"session {runner.session_id}: {verdict} ({stages})", file=out, flush=True)
     if args.json:
         print(json.dumps(summary), flush=True)
+    faulted = [r for r in results if r.fault]
+    if faulted:  # the bench failed, not (as far as anyone knows) the board
+        first = faulted[0]
+        _say(f"bringup: error: instrument fault in step {first.step_id}: {first.fault} "
+             "(the supply output is off)")  # fmt: skip
+        return 2
     return 0 if verdict in PASSING else 1
 
 

@@ -270,6 +270,9 @@ class Bench:
     simulation: SimulationControl | None = None
     #: this process's locks on the instruments' resources (``bringup.locks``), let go on close
     resource_locks: Any = None
+    #: What the supply was doing when the bench was opened, if its output was found ON
+    #: (``bringup.instruments.safety.FoundOn``: volts, amps); None when it was off.
+    found_on: Any = None
 
     def channel_for(self, net: str) -> int:
         """The scope channel whose probe sits on ``net`` now (``InputError`` if none)."""
@@ -432,9 +435,11 @@ def open_bench(
             resource_locks=locks,
         )
         if make_safe_on_open:
-            from bringup.instruments.safety import make_safe
+            from bringup.instruments.safety import switch_off_found_on
 
-            make_safe(bench.supply)
+            # an output left ON (a process killed mid-step, a host that lost power) is said,
+            # not switched off in silence: the caller reports ``found_on`` and logs it
+            bench.found_on = switch_off_found_on(bench.supply)
         for wiring in config.channels.values():
             bench.scope.set_probe_ratio(wiring.channel, wiring.probe_ratio)
         if config.simulated:

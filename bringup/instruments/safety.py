@@ -5,10 +5,17 @@ OFF, confirmed), sets the over-voltage protection, the over-current protection w
 supply has one, the sensing where the bench file names it, the current limit and the voltage
 (in one command where the supply sets them together), reads every one back, and only then
 turns the output ON. It turns the output OFF and confirms it
-on every way out: the end of the block, an exception (including ``KeyboardInterrupt``), SIGINT
-and SIGTERM (handlers switch off first, then raise ``KeyboardInterrupt`` / ``SystemExit``), a
-timeout or lost connection of any watched instrument, and interpreter exit. A SIGKILL or a
-power cut cannot be caught by software: rely on the supply's own protection for those.
+on every way out: the end of the block, an exception (including ``KeyboardInterrupt``), every
+terminating signal the platform delivers (``TERMINATING_SIGNALS``: SIGHUP, SIGINT, SIGQUIT,
+SIGTERM, SIGPIPE; handlers switch off first, then hand over to the handler that was installed
+before, or raise ``KeyboardInterrupt`` / ``SystemExit``), a timeout or lost connection of any
+watched instrument, and interpreter exit. A signal the process ignores (``nohup``'s SIGHUP,
+Python's SIGPIPE) does not end it and is left alone. A SIGKILL or a power cut cannot be caught
+by software: rely on the supply's own protection for those; the next opening of the bench
+switches off an output it finds ON and says so (``switch_off_found_on``).
+
+``make_safe_now`` switches off from any thread at once, even while another thread waits in an
+exchange with the supply (it then uses a second connection).
 
 Above 60 V DC a hazard notice must be acknowledged before the output goes ON, above 120 V DC
 a stronger one (IEC 62368-1 energy classes ES1 <= 60 V DC, ES2 <= 120 V DC [memory]; defer to
@@ -35,6 +42,13 @@ if TYPE_CHECKING:
     from bringup.instruments.visa import InstrumentSession
 
 LOG = logging.getLogger(__name__)
+
+#: The signals that end a process by default, by name: each switches the output OFF first.
+TERMINATING_SIGNALS = tuple(
+    getattr(signal, name)
+    for name in ("SIGHUP", "SIGINT", "SIGQUIT", "SIGTERM", "SIGPIPE")
+    if hasattr(signal, name)
+)
 TOUCH_SAFE_LIMIT_V = 60.0
 STRONG_WARNING_V = 120.0
 
@@ -109,6 +123,8 @@ def make_safe(supply: Supply) -> None:
                 except faults.InstrumentError as exc:
                     problems.append(exc.detail)  # an error queued earlier; check the state anyway
                 if not supply.output_is_on():
+                    for problem in problems:  # got past, not forgotten: the caller logs them
+                        session.absorbed.append(f"{session.role}: {problem}; output OFF confirmed")
                     return
                 problems.append("output still reports ON")
             except faults.InstrumentFault as exc:
@@ -125,6 +141,79 @@ def make_safe_quietly(supply: Supply) -> str | None:
     except BringupError as exc:
         return str(exc)
     return None
+
+
+def make_safe_now(supply: Supply, *, wait_s: float = 0.25) -> str | None:
+    """Output OFF now, from any thread, confirmed; returns a problem text or None.
+
+    Another thread may be in the middle of an exchange with the supply (a slow reply holds its
+    lock for up to the reply's timeout): after ``wait_s`` seconds the output is switched off
+    over a second connection to the same resource instead (LAN instruments take several; one
+    that refuses leaves the wait for the lock as the last resort)."""
+    lock = supply.session.lock
+    if lock.acquire(timeout=wait_s):
+        try:
+            return make_safe_quietly(supply)
+        finally:
+            lock.release()
+    problem = _make_safe_beside(supply)
+    if problem is None:
+        return None
+    with lock:  # the second connection failed: wait for the exchange to end
+        return make_safe_quietly(supply)
+
+
+def _make_safe_beside(supply: Supply) -> str | None:
+    """``make_safe`` over a fresh connection of its own; a problem text or None."""
+    from bringup.instruments.visa import InstrumentSession
+
+    first = supply.session
+    side = InstrumentSession(first.role, first.resource_name, first.profile)
+    try:
+        side.open()
+        make_safe(Supply(side))
+        return None
+    except BringupError as exc:
+        return str(exc)
+    finally:
+        side.close()
+
+
+@dataclass(frozen=True)
+class FoundOn:
+    """The output was found ON when the bench was opened: what it was doing (V, A; None for a
+    reading the supply would not give)."""
+
+    volts: float | None
+    amps: float | None
+
+    def describe(self) -> str:
+        """E.g. "24.0 V, 0.412 A"."""
+        v = "? V" if self.volts is None else f"{self.volts:.4g} V"
+        a = "? A" if self.amps is None else f"{self.amps:.4g} A"
+        return f"{v}, {a}"
+
+
+def switch_off_found_on(supply: Supply) -> FoundOn | None:
+    """On opening a bench: read whether the output is ON and at what voltage and current,
+    then switch it OFF, confirmed (``make_safe``: raises ``ProtectionFault`` if it cannot be
+    confirmed). Returns what was found ON, or None when it was off. A process stopped by
+    SIGKILL or a power cut of the computer (not of the supply) leaves the output as it was."""
+    found = None
+    try:
+        on = supply.output_is_on()
+    except faults.InstrumentFault:
+        on = False  # unknown: switched off below all the same, and confirmed
+    if on:
+        readings: list[float | None] = []
+        for read in (supply.measure_voltage, supply.measure_current):
+            try:
+                readings.append(read())
+            except faults.InstrumentFault:
+                readings.append(None)  # said as unknown, never a made-up number
+        found = FoundOn(*readings)
+    make_safe(supply)
+    return found
 
 
 class PoweredSupply:
@@ -334,7 +423,9 @@ class Energised:
         self.supply.session.add_fault_listener(self._on_fault)
         atexit.register(self.switch_off_now)
         if threading.current_thread() is threading.main_thread():
-            for signum in (signal.SIGINT, signal.SIGTERM):
+            for signum in TERMINATING_SIGNALS:
+                if signal.getsignal(signum) is signal.SIG_IGN:
+                    continue  # the process ignores it (nohup, Python's SIGPIPE): it ends nothing
                 self._saved_handlers[signum] = signal.signal(signum, self._on_signal)
 
     def _disarm_guards(self) -> None:

@@ -80,6 +80,9 @@ class InstrumentSession:
         self.fast_reads = fast_reads
         self.reconnects = 0  # how many times the connection was re-opened after a fault
         self.retries = 0  # how many safe queries were sent a second time
+        #: Faults that a retry or a switch-off got past, one line each, oldest first: the
+        #: caller takes them (``take_absorbed``) to log with what it was doing.
+        self.absorbed: list[str] = []
         self._lock = threading.RLock()
         self._resource: Any = None
         self._wire: SocketWire | ResourceWire | None = None
@@ -163,6 +166,11 @@ class InstrumentSession:
             self._drop()
             self.closed = True
 
+    def take_absorbed(self) -> list[str]:
+        """The absorbed faults noted since the last call (see ``absorbed``), and forget them."""
+        taken, self.absorbed = self.absorbed, []
+        return taken
+
     def add_fault_listener(self, listener: Callable[[faults.InstrumentFault], None]) -> None:
         """Call ``listener(fault)`` whenever this instrument times out or its connection is
         lost for good (after any retry). The safe-state owner uses it to switch off."""
@@ -210,6 +218,7 @@ class InstrumentSession:
                             self._tell(fault)
                         raise fault from None
                     self.retries += 1
+                    self.absorbed.append(f"{fault}; sent again after reconnecting")
                 except BlockSyntax as exc:
                     self._broken = True
                     raise faults.GarbageReply(

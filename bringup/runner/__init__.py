@@ -3,15 +3,19 @@
 Public API (for the TUI and the headless run):
 
 - ``SessionRunner`` (``session.py``): ``create``/``resume``, ``stages``, ``current_step``,
-  ``plan``, ``run_step``, ``skip``, ``waive``, ``note``, ``go_back``, ``abort``, ``close``. It
-  owns four collaborators, each importable and testable alone and none importing the runner:
+  ``plan``, ``run_step``, ``skip``, ``waive``, ``note``, ``go_back``, ``stop``, ``abort``,
+  ``close``. It owns four collaborators, each importable and testable alone and none importing
+  the runner:
   ``SessionState`` (``state.py``, the walk), ``Planner`` (``planning.py``), ``StepExecutor``
   (``executing.py``, the open bench and one attempt at a time) and ``Recorder``
   (``recording.py``, the session's side of the log); ``resuming.py`` reopens a session;
 - ``BenchSource`` (``bench_source.py``): a bench file or a simulated bench;
 - the records of ``results.py``: ``StepPlan``, ``EnergisePlan``, ``ChannelPlan``, ``StepAnswers``,
   ``Progress``, ``SoakProgress``, ``AttemptResult``, ``MetricResult``, ``WaveformView``,
-  ``Crossing``, ``StepStatus``, ``StageStatus`` and the state names ``STATES``.
+  ``Crossing``, ``StepStatus``, ``StageStatus``, ``SupplyOff`` and the state names ``STATES``;
+- ``stop_signals.py`` (``SignalGuard``: every terminating signal switches the supply off and
+  ends the command) and ``recovery.py`` (an output found ON and a step interrupted by an
+  unclean stop, logged when the bench is next opened).
 """
 
 from bringup.runner.bench_source import BenchSource
@@ -29,6 +33,7 @@ from bringup.runner.results import (
     StepAnswers,
     StepPlan,
     StepStatus,
+    SupplyOff,
     WaveformView,
 )
 from bringup.runner.session import RunnerError, SessionRunner
@@ -50,5 +55,6 @@ __all__ = [
     "StepAnswers",
     "StepPlan",
     "StepStatus",
+    "SupplyOff",
     "WaveformView",
 ]

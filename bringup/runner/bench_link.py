@@ -7,7 +7,6 @@ Every instrument call goes through ``bringup.instruments``; nothing here talks S
 from __future__ import annotations
 
 import tempfile
-import threading
 from pathlib import Path
 
 from bringup.boards.board_file import Board
@@ -52,8 +51,6 @@ class BenchLink:
         self.bench = bench
         self._running = running  # the in-process simulated bench, if any
         self._tmpdir = tmpdir
-        self._energised = None
-        self._off_lock = threading.Lock()
 
     @classmethod
     def open(cls, source: BenchSource, board: Board) -> BenchLink:
@@ -174,22 +171,40 @@ class BenchLink:
 
         notice = hazard_for(top_v)
         level = notice.level if (acknowledged and notice is not None) else HazardLevel.NONE
-        owner = energised(self.bench, volts=volts, current_limit_a=current_limit_a, ovp_v=ovp_v,
-                          acknowledged=level)  # fmt: skip
-        self._energised = owner
-        return owner
+        return energised(self.bench, volts=volts, current_limit_a=current_limit_a, ovp_v=ovp_v,
+                         acknowledged=level)  # fmt: skip
 
-    def make_safe(self) -> str | None:
-        """Supply output OFF now, from any thread; returns a problem text or None."""
-        from bringup.instruments.safety import make_safe_quietly
+    def make_safe(self, *, interrupting: bool = False) -> str | None:
+        """Supply output OFF now, from any thread, confirmed; returns a problem text or None.
 
-        owner = self._energised
-        if owner is not None:
-            problem = owner.switch_off_now()
-            if problem is None:
-                return None
-        with self._off_lock:
-            return make_safe_quietly(self.bench.supply)
+        A step's thread may be waiting in an exchange with the supply meanwhile: the
+        instrument layer then switches off over a second connection (``make_safe_now``).
+        ``interrupting``: called from a signal handler that may have cut an exchange of this
+        thread short: start on a fresh connection rather than read that exchange's reply."""
+        from bringup.instruments.safety import make_safe_now
+
+        supply = self.bench.supply
+        if interrupting:
+            supply.session.mark_out_of_sync()
+        return make_safe_now(supply)
+
+    @property
+    def supply_resource(self) -> str:
+        """The supply's VISA resource string (what ties an interrupted step to this bench)."""
+        return self.bench.supply.session.resource_name
+
+    @property
+    def found_on(self):
+        """``FoundOn`` (volts, amps) when the supply output was found ON as the bench opened
+        (and switched off); None when it was off."""
+        return getattr(self.bench, "found_on", None)
+
+    def take_absorbed(self) -> tuple[str, ...]:
+        """Faults a retry or a switch-off got past since the last call, every instrument."""
+        taken: list[str] = []
+        for session in self.bench.sessions.values():
+            taken.extend(session.take_absorbed())
+        return tuple(taken)
 
     # ---------------------------------------------------------------- scope
     def check_scope_offers(self, plan: StepPlan) -> None:

@@ -67,7 +67,7 @@ class _Context:
 
     def check(self) -> None:
         if self.aborted.is_set():
-            raise StepStopped("the session was aborted")
+            raise StepStopped(self.executor.stop_reason)
         if self.cancel.is_set():
             raise StepStopped("cancelled by the operator")
 
@@ -223,6 +223,9 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
         import scipy.optimize  # noqa: F401
     ctx.check()
     ctx.emit("energising", plan.energise.prompt if plan.energise else "supply on")
+    # logged before the output goes ON: if this process dies mid-step (SIGKILL, power cut),
+    # the next opening of the bench knows which step was running (bringup.runner.recovery)
+    ctx.executor.mark_energising(step, bench.supply_resource, supply)
     with bench.energised(first, supply["current_limit_a"], supply["ovp_v"], top,
                          acknowledged) as powered:  # fmt: skip
         if ramp:
@@ -236,7 +239,9 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
             ctx.check()
             ctx.emit("acquiring", "acquiring")
             traces, raw, clipped = bench.acquire(plan)
-            ctx.check()  # STOP while the scope was busy: what it read is not judged
+            # a STOP while the scope waited switched the supply off under the acquisition:
+            # that record shows the board unpowered, not how it behaves
+            ctx.check()
             ctx.data.supply_v = powered.measure_voltage()
             ctx.emit("acquiring", f"{len(traces)} traces acquired",
                      readings={"supply_voltage_v": ctx.data.supply_v,
@@ -251,6 +256,7 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
         tripped = powered.switched_off_because
         if tripped is not None:
             raise tripped
+        ctx.check()  # nothing read after a STOP is judged
     ctx.emit("safe", "supply output off")
     return identities
 
@@ -292,27 +298,28 @@ def _judge(ctx: _Context, out: AnalysisOutput) -> tuple[str, tuple[MetricResult,
 
 class StepExecutor:
     """Runs attempts on the bench and logs them: owns the open bench (opened on first use)
-    and the abort flag that every running step checks.
+    and the stop flag that every running step checks.
 
-    ``execute`` blocks (call it from a worker thread); ``stop_now`` may be called from any
-    thread meanwhile."""
+    ``execute`` blocks (call it from a worker thread); ``stop``, ``abort`` and ``stop_now`` may
+    be called from any thread meanwhile. ``on_open(link)`` is called once the bench is open
+    (the runner checks it for an output left ON and an interrupted step)."""
 
-    def __init__(self, *, board, source, planner: Planner, recorder: Recorder,
-                 operator: str, bench: BenchLink | None = None) -> None:  # fmt: skip
+    def __init__(self, *, board, source, planner: Planner, recorder: Recorder, operator: str,
+                 on_open: Callable[[BenchLink], None] | None = None) -> None:  # fmt: skip
         self.board = board
         self.source = source
         self.planner = planner
         self.recorder = recorder
         self.operator = operator
-        self._bench = bench
+        self.on_open = on_open
+        self._bench: BenchLink | None = None
         self._bench_lock = threading.Lock()
         self._abort = threading.Event()
-        if bench is not None:
-            planner.use_probes(bench.probe_kinds())
+        self._stop_reason = "the session was aborted"
 
     @property
     def aborted(self) -> threading.Event:
-        """Set by ``stop_now``; a running step checks it between instrument calls."""
+        """Set by ``stop``/``abort``; a running step checks it between instrument calls."""
         return self._abort
 
     @property
@@ -326,29 +333,60 @@ class StepExecutor:
             if self._bench is None:
                 from bringup.runner.bench_link import BenchLink
 
-                self._bench = BenchLink.open(self.source, self.board)
-                self.planner.use_probes(self._bench.probe_kinds())
+                self._take(BenchLink.open(self.source, self.board))
+            assert self._bench is not None
             return self._bench
+
+    def adopt(self, link: BenchLink) -> None:
+        """Use ``link``, a bench already open (``SessionRunner.create`` opens it first)."""
+        with self._bench_lock:
+            self._take(link)
+
+    def _take(self, link: BenchLink) -> None:
+        self.planner.use_probes(link.probe_kinds())
+        self._bench = link
+        if self.on_open is not None:
+            self.on_open(link)
+
+    def mark_energising(self, step: Step, supply_resource: str, supply: dict) -> None:
+        """Log the ``energise`` event of ``step`` (just before its output goes ON)."""
+        from bringup.runner.recovery import energise_payload
+
+        reason = (
+            f"supply output ON at {format_quantity(supply['voltage_v'], 'V')}, "
+            f"limit {format_quantity(supply['current_limit_a'], 'A')}"
+        )
+        self.recorder.event("energise", self.operator, stage_id=step.stage_id, step_id=step.key,
+                            reason=reason, payload=energise_payload(supply_resource, supply))  # fmt: skip
 
     def execute(
         self,
         step: Step,
-        attempt_no: int,
+        attempt_no: Callable[[], int],
         answers: StepAnswers | None,
         cancel: threading.Event | None,
         finish: threading.Event | None,
         on_progress: Callable[[Progress], None] | None,
         notes: str = "",
     ) -> AttemptResult:
-        """Run attempt ``attempt_no`` of ``step`` and log it (see the module docstring)."""
+        """Run one attempt of ``step`` and log it (see the module docstring); ``attempt_no()``
+        numbers it once the bench is open (opening may log an interrupted attempt first).
+
+        A terminating signal (``SignalStop``) is logged as an interrupted attempt, then raised
+        again for the command to finish its way out."""
+        from bringup.instruments.faults import InstrumentFault
+        from bringup.runner.stop_signals import SignalStop
+
         self._abort.clear()
+        self._stop_reason = "the session was aborted"
         ctx = _Context(self, step, self.planner.plan(step), cancel, finish, on_progress)
         started = now_utc()
         identities: dict[str, str] = {}
-        message = ""
+        message = fault = ""
         state = "not-run"
         metrics: tuple[MetricResult, ...] = ()
         out = AnalysisOutput()
+        signalled: SignalStop | None = None
         try:
             refusal = _answers(ctx, answers, self.source.is_simulated)
             if refusal is not None:
@@ -361,17 +399,23 @@ class StepExecutor:
                 state, metrics = _judge(ctx, out)
         except StepStopped as exc:
             message = f"not run: {exc}; supply switched off"
+        except InstrumentFault as exc:
+            message, fault = f"not run: {exc}", str(exc)
         except BringupError as exc:
             message = f"not run: {exc}"
+        except SignalStop as exc:
+            signalled = exc
+            message = f"not run: interrupted by {exc.reason}; supply switched off"
         finally:
             problem = self.stop_now() if self._bench is not None else None
             if problem:
                 ctx.warnings.append(f"could not confirm the supply off: {problem}")
+        absorbed = self._bench.take_absorbed() if self._bench is not None else ()
         ctx.emit("storing", "logging the attempt")
         result = AttemptResult(
             step_id=step.id,
             stage_id=step.stage_id,
-            attempt_no=attempt_no,
+            attempt_no=attempt_no(),
             state=state,
             metrics=metrics,
             waveforms=tuple(out.views),
@@ -384,21 +428,37 @@ class StepExecutor:
             warnings=tuple(dict.fromkeys(ctx.warnings)),
             soak=ctx.soak,
             notes=str(notes or "").strip(),
+            fault=fault,
+            absorbed=absorbed,
         )
         stored = self.recorder.store(step, result, ctx.raw, out)
+        if signalled is not None:
+            raise signalled
         ctx.emit("done", f"{step.id}: {state}")
         return stored
 
-    def abort(self) -> str | None:
-        """Make a running step stop at its next check and switch the supply off now."""
+    def stop(self, reason: str) -> str | None:
+        """Make a running step stop at its next check (logged as not run, ``reason``) and
+        switch the supply off now, from the calling thread; a problem text or None."""
+        self._stop_reason = reason
         self._abort.set()
         return self.stop_now()
 
-    def stop_now(self) -> str | None:
+    def abort(self) -> str | None:
+        """``stop`` for the whole session."""
+        return self.stop("the session was aborted")
+
+    def stop_now(self, *, interrupting: bool = False) -> str | None:
         """Supply output OFF now, from any thread; a problem text, or None when confirmed
-        (or when the bench was never opened: nothing can be on)."""
+        (or when the bench was never opened: nothing can be on). ``interrupting``: from a
+        signal handler (``BenchLink.make_safe``)."""
         bench = self._bench
-        return bench.make_safe() if bench is not None else None
+        return bench.make_safe(interrupting=interrupting) if bench is not None else None
+
+    @property
+    def stop_reason(self) -> str:
+        """Why the running step was told to stop."""
+        return self._stop_reason
 
     def close(self) -> None:
         """Supply OFF (confirmed), the bench's connections closed, a simulated bench stopped."""

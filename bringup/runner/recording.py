@@ -94,6 +94,10 @@ def _extra(step: Step, result: AttemptResult, out: AnalysisOutput) -> dict:
         },
         "details": out.details,
     }
+    if result.fault:
+        extra["fault"] = result.fault
+    if result.absorbed:
+        extra["absorbed"] = list(result.absorbed)
     if result.soak is not None:
         extra["soak"] = dataclasses.asdict(result.soak)
     return extra
@@ -220,6 +224,8 @@ def attempt_from_record(record, step: Step) -> AttemptResult:
         warnings=tuple(extra.get("warnings") or ()),
         attempt_id=record.id,
         soak=soak,
+        fault=str(extra.get("fault") or ""),
+        absorbed=tuple(extra.get("absorbed") or ()),
     )
 
 

@@ -28,13 +28,29 @@ def attempt_lines(index: int, total: int, result: AttemptResult) -> list[str]:
             lines.append(f"        ! {m.id}: {m.disagreement}")
     for warning in result.warnings:
         lines.append(f"        ! {warning}")
+    for fault in result.absorbed:
+        lines.append(f"        ! fault got past: {fault}")
     return lines
 
 
-def summary_json(runner: SessionRunner) -> dict:
-    """``{"session": ID, "verdict": ..., "stages": [{"id": ..., "verdict": ...}, ...]}``."""
+def summary_json(runner: SessionRunner, results: list[AttemptResult] | None = None) -> dict:
+    """``{"session": ID, "verdict": ..., "stages": [{"id": ..., "verdict": ...}, ...],
+    "attempts": [...]}``; ``attempts`` lists ``results`` (this run's attempts): step, attempt
+    number, state, message, the instrument ``fault`` that ended it ("" if none) and the faults
+    ``absorbed`` by a retry or a switch-off during it."""
     return {
         "session": runner.session_id,
         "verdict": runner.verdict(),
         "stages": [{"id": s.stage_id, "verdict": s.state} for s in runner.stages()],
+        "attempts": [
+            {
+                "step": r.step_id,
+                "attempt": r.attempt_no,
+                "state": r.state,
+                "message": r.message,
+                "fault": r.fault,
+                "absorbed": list(r.absorbed),
+            }  # fmt: skip
+            for r in results or ()
+        ],
     }

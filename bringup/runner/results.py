@@ -38,6 +38,7 @@ __all__ = [
     "AttemptResult",
     "StepStatus",
     "StageStatus",
+    "SupplyOff",
     "worst_state",
     "HAZARD_VOLTAGE_V",
 ]
@@ -264,6 +265,10 @@ class AttemptResult:
     "not-run"); ``message`` says why for "not-run" and errors. ``instruments`` maps role
     ("scope", "supply", "thermometer") to its ``*IDN?`` reply; ``settings`` the setup sent.
     Times are ISO 8601 UTC. ``attempt_id`` is the store's row id (None if not stored).
+    ``fault``: the instrument fault that ended the attempt ("" if none: the run's exit status
+    is 2 when one did); ``absorbed``: faults a retry or a switch-off got past during the
+    attempt (a late reply sent again, a dropped connection reopened, an error found in the
+    queue), one line each: the attempt stood, but they are logged and shown with it.
     """
 
     step_id: str
@@ -282,6 +287,8 @@ class AttemptResult:
     warnings: tuple[str, ...] = ()
     attempt_id: int | None = None
     soak: SoakProgress | None = None
+    fault: str = ""
+    absorbed: tuple[str, ...] = ()
 
     def metric(self, metric_id: str) -> MetricResult:
         """The metric with id ``metric_id``; KeyError if the attempt has none."""
@@ -311,3 +318,27 @@ class StageStatus:
     title: str
     state: str
     steps: tuple[StepStatus, ...]
+
+
+@dataclass(frozen=True)
+class SupplyOff:
+    """What ``SessionRunner.stop``/``abort`` did to the supply output, for a footer or a log.
+
+    ``confirmed``: the output reads back OFF (or no bench was open: nothing could be on);
+    ``problem``: why it could not be confirmed (then switch it off at the instrument);
+    ``at_utc``: when the switch-off was confirmed or given up (ISO 8601 UTC)."""
+
+    confirmed: bool
+    reason: str
+    at_utc: str
+    problem: str | None = None
+
+    def text(self) -> str:
+        """One line: "Supply output OFF, confirmed at 14:03:07 UTC" or the problem."""
+        clock = self.at_utc[11:19]
+        if self.confirmed:
+            return f"Supply output OFF, confirmed at {clock} UTC"
+        return (
+            f"Supply output NOT confirmed off ({self.problem}): switch it off at the supply "
+            "and check the board"
+        )

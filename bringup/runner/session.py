@@ -56,6 +56,7 @@ from bringup.runner.results import (
     StepAnswers,
     StepPlan,
     StepStatus,
+    SupplyOff,
     worst_state,
 )
 from bringup.runner.state import RunnerError, SessionState
@@ -97,10 +98,16 @@ class SessionRunner:
         self.state = SessionState(checklist)
         self.planner = Planner(board, bench)
         self.recorder = Recorder(log, session_id, session_lock)
-        self.executor = StepExecutor(board=board, source=bench, planner=self.planner,
-                                     recorder=self.recorder, operator=operator, bench=link)  # fmt: skip
         self._lock = threading.RLock()  # the state, and the log through the recorder
         self._run_lock = threading.Lock()  # one step at a time
+        #: Lines for the operator from opening the bench: an output found ON (at what voltage
+        #: and current) and switched off, steps found interrupted by an unclean stop.
+        self.bench_notices: tuple[str, ...] = ()
+        self.executor = StepExecutor(board=board, source=bench, planner=self.planner,
+                                     recorder=self.recorder, operator=operator,
+                                     on_open=self._bench_opened)  # fmt: skip
+        if link is not None:
+            self.executor.adopt(link)
 
     # ------------------------------------------------------------------ building
     @classmethod
@@ -290,7 +297,11 @@ class SessionRunner:
             with self._lock:
                 self.state.check_order(step)
                 self.state.running = step_id
-                attempt_no = self.state.attempt_count(step_id) + 1
+
+            def attempt_no() -> int:
+                with self._lock:
+                    return self.state.attempt_count(step_id) + 1
+
             result = self.executor.execute(step, attempt_no, answers, cancel, finish,
                                            on_progress, notes)  # fmt: skip
             with self._lock:
@@ -384,16 +395,61 @@ class SessionRunner:
                                 reason="operator went back")  # fmt: skip
             self.state.go_back(stage_id)
 
-    def abort(self, reason: str = "operator abort") -> None:
-        """Put the bench in its safe state now (supply output OFF) and stop a running step.
+    def stop(self, reason: str = "stopped by the operator") -> SupplyOff:
+        """STOP: switch the supply output off now, from the calling thread, and make a running
+        step end at its next check (its attempt is logged as not run, with ``reason``).
 
-        Safe to call from any thread, at any time, more than once."""
-        self.executor.abort()
+        It does not wait for the step: the output goes off even while the step's thread waits
+        for the scope (``*OPC?``, a long waveform read) or for a slow supply reply (then over a
+        second connection). Returns when the output reads back OFF, or when that cannot be
+        confirmed: ``SupplyOff.text()`` is the line to show (the notebook's footer). Blocks
+        for the switch-off's exchanges only (milliseconds on a healthy bench, at most the
+        supply's timeouts): from a UI, call it from a worker. Safe from any thread, at any
+        time, more than once; the session carries on (see :meth:`abort` to end it)."""
+        problem = self.executor.stop(reason)
+        return SupplyOff(problem is None, reason, now_utc(), problem)
+
+    def abort(self, reason: str = "operator abort") -> SupplyOff:
+        """:meth:`stop`, and log an ``abort`` event with ``reason`` (the session is left
+        aborted, resumable later). Safe to call from any thread, at any time, more than once."""
+        problem = self.executor.stop(f"the session was aborted ({reason})")
+        off = SupplyOff(problem is None, reason, now_utc(), problem)
         with self._lock:
             try:
-                self.recorder.event("abort", self.operator, reason=reason)
+                self.recorder.event("abort", self.operator, reason=reason,
+                                    payload={"supply_off_confirmed": off.confirmed,
+                                             "problem": problem})  # fmt: skip
             except BringupError:
                 pass  # the bench is safe; a log that cannot take the event must not hide that
+        return off
+
+    def _bench_opened(self, link) -> None:
+        """The bench is open: an output found ON and steps interrupted by an unclean stop are
+        logged (``bringup.runner.recovery``) and said in ``bench_notices``."""
+        from bringup.runner.recording import attempt_from_record
+        from bringup.runner.recovery import find_interrupted, record_recovery
+
+        with self._lock, self.recorder.lock:
+            log = self.recorder.log
+            interrupted = find_interrupted(log, self.session_id, link.supply_resource)
+            if not interrupted and link.found_on is None:
+                return
+            from bringup.locks import lock_session
+
+            lines = record_recovery(log, self.session_id, self.operator, interrupted,
+                                    link.found_on, link.supply_resource, now_utc(),
+                                    lambda sid: lock_session(log.path, sid))  # fmt: skip
+            steps = {(s.stage_id, s.key): s for s in self.checklist.steps()}
+            mine = {
+                (i.stage_id, i.step_key) for i in interrupted if i.session_id == self.session_id
+            }
+            for record in log.attempts(self.session_id):
+                key = (record.stage_id, record.step_id)
+                if key in mine and (record.extra or {}).get("interrupted"):
+                    if record.id not in {a.attempt_id for a in self.state.attempts()}:
+                        self.state.add(attempt_from_record(record, steps[key]))
+            self.bench_notices = (*self.bench_notices, *lines)
+            self._update_listing()
 
     def finish_if_complete(self) -> bool:
         """Log the finish event (final verdicts) once every step is accepted; True if done."""

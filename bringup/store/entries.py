@@ -26,7 +26,12 @@ ATTEMPT_OUTCOMES = ("pass", "conditional-pass", "conditional-fail", "fail", "not
 #: Outcomes that make a step "failed": only these can be waived, and these cannot be skipped.
 FAILED_OUTCOMES = ("fail", "conditional-fail")
 #: Kinds of event. skip/waive change a step's latest outcome to "skipped"/"waived".
-EVENT_KINDS = ("skip", "waive", "note", "go-back", "abort", "resume", "finish")
+#: ``energise`` is logged just before a step switches the supply output ON (so an attempt cut
+#: short by a SIGKILL or a power cut leaves a trace); ``found-on``: the output was found ON
+#: when the bench was next opened, and switched off.
+EVENT_KINDS = (
+    "skip", "waive", "note", "go-back", "abort", "resume", "finish", "energise", "found-on",
+)  # fmt: skip
 
 
 @dataclass(frozen=True)

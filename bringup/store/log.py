@@ -434,6 +434,9 @@ class SessionLog(LogReading):
           person's decision);
         - ``note``, ``go-back`` (``stage_id`` = the stage gone back to), ``abort``,
           ``resume``: free; abort marks the session "aborted", resume "open";
+        - ``energise`` (a step, just before its supply output goes ON; ``payload`` names the
+          supply, the settings and the process), ``found-on`` (the output was found ON when
+          the bench was opened again; ``reason`` says at what voltage and current): free;
         - ``finish``: marks the session finished; ``payload`` should carry the final
           ``{"verdict": ..., "stages": {stage_id: verdict}}`` (chained: the finished session's
           verdicts are read from it). After finish only notes are accepted (finished as the

@@ -1,4 +1,5 @@
-"""Run the notebook app with every way out covered: quit key, Ctrl+C, SIGTERM/SIGHUP, crash.
+"""Run the notebook app with every way out covered: quit key, Ctrl+C, crash, and every
+terminating signal (SIGHUP, SIGINT, SIGQUIT, SIGTERM, SIGPIPE: ``bringup.runner.stop_signals``).
 
 Whatever happens, ``app.shutdown()`` (safe state: supply OFF) and ``launcher.close()`` (stop a
 simulated bench the launcher started) run before the process leaves.
@@ -6,7 +7,6 @@ simulated bench the launcher started) run before the process leaves.
 
 from __future__ import annotations
 
-import signal
 import sys
 from pathlib import Path
 from typing import Any
@@ -16,20 +16,23 @@ __all__ = ["run_app"]
 
 def run_app(launcher: Any, *, open_new: dict | None = None, resume: Any = None) -> int:
     """Run the app on the terminal; returns the exit status (0 normal, 2 after a fault)."""
+    from bringup.runner.stop_signals import SignalGuard, SignalStop
     from bringup.tui.app import BringupApp
 
     app = BringupApp(launcher, open_new=open_new, resume=resume)
-    previous: dict[int, Any] = {}
 
-    def leave(signum: int, frame: object) -> None:
-        # a closed terminal or a kill: leave through the app so the safe state runs
-        app.call_later(app.exit, 128 + signum)
+    def leave(stop: SignalStop) -> None:
+        # a closed terminal, a kill, a closed pipe: the supply off at once and the signal
+        # named in the session's log (runner.abort), then out through the app so that the
+        # rest of the safe state runs
+        link = app.link
+        if link is not None:
+            link.runner.abort(stop.reason)
+        app.call_later(app.exit, stop.exit_status)
 
-    for sig in (signal.SIGTERM, getattr(signal, "SIGHUP", None)):
-        if sig is not None:
-            previous[sig] = signal.signal(sig, leave)
     try:
-        status = app.run()
+        with SignalGuard(leave, raise_stop=False):
+            status = app.run()
     except KeyboardInterrupt:
         status = 130
     finally:
@@ -37,8 +40,6 @@ def run_app(launcher: Any, *, open_new: dict | None = None, resume: Any = None) 
             app.shutdown()
         finally:
             launcher.close()
-            for sig, handler in previous.items():
-                signal.signal(sig, handler)
     if app.crash_message:
         where = _keep_detail(launcher, app.crash_detail)
         print(

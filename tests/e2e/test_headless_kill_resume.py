@@ -1,7 +1,8 @@
 """``kill -9`` of a headless run in the middle of a step, then ``bringup resume``.
 
-Every attempt committed before the kill is there, unchanged; the hash chain verifies; the
-session completes on resume (the interrupted step is simply run again).
+Every attempt committed before the kill is there, unchanged; the hash chain verifies; on resume
+the step that was running is logged as an interrupted attempt (its ``energise`` entry had no
+attempt after it), then run again, and the session completes.
 """
 
 from __future__ import annotations
@@ -61,9 +62,15 @@ def test_kill_during_the_soak_then_resume(tmp_path):
     with SessionLog.open(db, create=False) as log:
         after = [(a.id, a.step_id, a.content_hash) for a in log.attempts(session)]
         assert after[: len(before)] == before  # nothing committed was changed or lost
-        assert [a[1] for a in after[len(before) :]] == ["soak"]
+        assert [a[1] for a in after[len(before) :]] == ["soak", "soak"]
+        interrupted, retake = log.attempts(session)[len(before) :]
+        assert interrupted.outcome == "not-run" and interrupted.extra["interrupted"] is True
+        assert "interrupted" in interrupted.extra["message"] and retake.outcome == "pass"
         report = log.verify_chain(session)
         assert report.ok, report.problem
         data = log.session(session)
         assert data.summary.finished and data.summary.verdict == "pass"
-        assert [e.kind for e in data.events] == ["resume", "finish"]
+        # every energised step logged its "energise" entry before the output went ON
+        assert [e.kind for e in data.events if e.kind != "energise"] == ["resume", "finish"]
+        energised = [e.step_id for e in data.events if e.kind == "energise"]
+        assert energised.count("soak") == 2  # the interrupted soak and its retake

@@ -36,6 +36,7 @@ def test_steps_run_in_order_and_a_skip_needs_a_reason(make_runner):
         assert [(e.kind, e.step_id) for e in events] == [
             ("skip", "first-power"),
             ("skip", "rails-unloaded"),
+            ("energise", "logic-meter"),  # logged just before its supply output went ON
         ]
         assert events[1].reason == "scope in use elsewhere"
         assert [a.step_id for a in log.attempts(runner.session_id)] == ["logic-meter"]
