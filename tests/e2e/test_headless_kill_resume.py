@@ -17,6 +17,18 @@ import threading
 from bringup.store import SessionLog
 
 
+def _wait_for_energise(db, session, step_key, proc) -> None:
+    """Until the step's ``energise`` entry is in the log (read by another connection)."""
+    import time
+
+    while proc.poll() is None:
+        with SessionLog.open(db, create=False) as log:
+            if any(e.kind == "energise" and e.step_id == step_key for e in log.events(session)):
+                return
+        time.sleep(0.02)
+    raise AssertionError(f"the run ended before {step_key} was energised: {proc.stderr.read()}")
+
+
 def test_kill_during_the_soak_then_resume(tmp_path):
     db = tmp_path / "log.sqlite"
     env = {**os.environ, "PYTHONUNBUFFERED": "1"}
@@ -33,6 +45,8 @@ def test_kill_during_the_soak_then_resume(tmp_path):
             if line.startswith("session ") and session is None:
                 session = line.split()[1].rstrip(":")
             if line.startswith("[7/8]"):
+                # killed once the soak has logged that its supply is going ON: it is running
+                _wait_for_energise(db, session, "soak", proc)
                 os.kill(proc.pid, signal.SIGKILL)
                 break
         proc.wait(timeout=30)
