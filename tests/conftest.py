@@ -26,6 +26,14 @@ from collections.abc import Callable, Iterator, Mapping
 import pytest
 
 
+@pytest.fixture(autouse=True)
+def _own_lock_folder(tmp_path_factory, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Each test's instrument locks in a folder of its own (``$BRINGUP_LOCK_DIR``, inherited
+    by the processes it starts): a process a test kills leaves its lock record behind, and a
+    later simulated bench on the same loopback port would otherwise report taking it over."""
+    monkeypatch.setenv("BRINGUP_LOCK_DIR", str(tmp_path_factory.mktemp("locks")))
+
+
 @pytest.fixture(scope="session")
 def demo_design() -> dict[str, float]:
     from bringup.commands.sim import load_design

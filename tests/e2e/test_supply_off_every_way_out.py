@@ -22,7 +22,9 @@ import pytest
 from bringup.boards.board_file import checklists_dir
 from bringup.store import SessionLog
 
-ENV = {**os.environ, "PYTHONUNBUFFERED": "1"}
+
+def _env() -> dict[str, str]:
+    return {**os.environ, "PYTHONUNBUFFERED": "1"}  # read now: the test's own lock folder
 
 
 def _hold_acquisitions(sim) -> tuple[threading.Event, threading.Event]:
@@ -52,7 +54,7 @@ def _run(bench_path, db, *extra):
            "--serial", "DHS24-0042", "--operator", "tester", "--db", str(db), "--auto",
            "--answers", str(answers), *extra]  # fmt: skip
     return subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
-                            env=ENV)  # fmt: skip
+                            env=_env())  # fmt: skip
 
 
 def _stop(proc) -> None:
@@ -144,7 +146,7 @@ def test_after_kill_9_the_next_open_switches_off_says_so_and_logs_the_interrupte
     resumed = subprocess.run(
         [sys.executable, "-m", "bringup", "resume", session, "--db", str(db), "--auto",
          "--answers", str(checklists_dir() / "answers-demo.toml"), "--json"],
-        capture_output=True, text=True, timeout=180, env=ENV,
+        capture_output=True, text=True, timeout=180, env=_env(),
     )  # fmt: skip
     assert resumed.returncode == 0, resumed.stderr
     found = [line for line in resumed.stderr.splitlines() if "found ON" in line]
