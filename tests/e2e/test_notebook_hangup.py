@@ -2,9 +2,10 @@
 process gets SIGHUP, as when an SSH link drops. The supply goes OFF and the session's log
 names the signal.
 
-The simulated bench runs in this test process and is reached through a bench
-file, so it outlives the notebook's process (here ``bringup resume``); its scope holds the step's acquisition (a trigger
-that does not come) until the test lets it go, so the signal lands while the output is ON.
+The simulated bench runs in this test process and is reached through a bench file, so it
+outlives the notebook's process (here ``bringup resume``); its scope holds the step's
+acquisition (a trigger that does not come) until the test lets it go, so the signal lands while
+the output is ON.
 """
 
 from __future__ import annotations
