@@ -27,7 +27,15 @@ from typing import Any
 
 from bringup.store.chain_json import loads
 
-__all__ = ["Derived", "SEVERITY", "derive", "disagreements", "worst", "ENTRY_ROWS_SQL"]
+__all__ = [
+    "Derived",
+    "SEVERITY",
+    "checklist_layout",
+    "derive",
+    "disagreements",
+    "worst",
+    "ENTRY_ROWS_SQL",
+]
 
 #: Worst first. "error" (an attempt that could not complete) ranks with "not-run".
 SEVERITY = (
@@ -42,6 +50,9 @@ SEVERITY = (
     "conditional-pass",
     "pass",
 )
+
+_RANK = {state: k for k, state in enumerate(SEVERITY)}
+_UNKNOWN_RANK = _RANK["not-run"]
 
 #: Every chained entry of one session in chain order (bind the session id twice).
 ENTRY_ROWS_SQL = (
@@ -70,11 +81,7 @@ def worst(states: Iterable[str]) -> str:
     listed = list(states)
     if not listed:
         return "not-started"
-
-    def rank(state: str) -> int:
-        return SEVERITY.index(state) if state in SEVERITY else SEVERITY.index("not-run")
-
-    found = min(listed, key=rank)
+    found = min(listed, key=lambda state: _RANK.get(state, _UNKNOWN_RANK))
     if found == "not-started" and any(s != "not-started" for s in listed):
         return "in-progress"
     return found
@@ -94,8 +101,20 @@ def _checklist_steps(checklist: Any) -> list[tuple[str, list[str]]] | None:
     return out
 
 
-def derive(created_utc: str, checklist: Any, rows: Iterable[Mapping[str, Any]]) -> Derived:
-    """Replay ``rows`` (``ENTRY_ROWS_SQL``'s, in chain order) over the checklist snapshot."""
+def checklist_layout(checklist: Any) -> list[tuple[str, list[str]]] | None:
+    """What ``derive`` reads of a checklist snapshot (stage ids and step ids): worked out once
+    and passed as ``layout`` when many sessions share one checklist (``sessions()``)."""
+    return _checklist_steps(checklist)
+
+
+def derive(
+    created_utc: str,
+    checklist: Any,
+    rows: Iterable[Mapping[str, Any]],
+    layout: list[tuple[str, list[str]]] | None = None,
+) -> Derived:
+    """Replay ``rows`` (``ENTRY_ROWS_SQL``'s, in chain order) over the checklist snapshot
+    (or its ``checklist_layout``, given as ``layout``)."""
     state, finish, last = "open", None, created_utc
     latest: dict[tuple[str, str], str] = {}
     for row in rows:
@@ -128,7 +147,8 @@ def derive(created_utc: str, checklist: Any, rows: Iterable[Mapping[str, Any]]) 
             finished_utc=finish["recorded_utc"],
             last_activity_utc=last,
         )
-    layout = _checklist_steps(checklist)
+    if layout is None:
+        layout = _checklist_steps(checklist)
     if layout is None:
         return Derived(state, worst(latest.values()) if latest else None, None, None, last)
     stage_verdicts = {

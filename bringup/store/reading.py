@@ -27,7 +27,13 @@ from bringup.store.content import (
     event_record,
     signature_record,
 )
-from bringup.store.derived import ENTRY_ROWS_SQL, Derived, derive, disagreements
+from bringup.store.derived import (
+    ENTRY_ROWS_SQL,
+    Derived,
+    checklist_layout,
+    derive,
+    disagreements,
+)
 from bringup.store.entries import (
     AttemptRecord,
     EventRecord,
@@ -148,15 +154,54 @@ class LogReading:
             found = disagreements(row, self._derived_locked(row))
         return [f"session {session_id}: summary column {line}" for line in found]
 
+    def _checklist_texts(self, checklist_ids: set[str]) -> dict:
+        """The checklist snapshot texts of every session without sending one text per
+        session: ``{(_SHARED, checklist_id): text}`` for the text of the first session of each
+        checklist id, and ``{session_id: text}`` for each session whose text differs from it
+        (compared by SQLite)."""
+        texts: dict = {}
+        for cid in checklist_ids:
+            first = self._rows(
+                "SELECT checklist_json FROM sessions WHERE checklist_id IS ? ORDER BY id LIMIT 1",
+                [cid],
+            )
+            shared = first[0]["checklist_json"]
+            texts[_SHARED, cid] = shared
+            for other in self._rows(
+                "SELECT id, checklist_json FROM sessions "
+                "WHERE checklist_id IS ? AND checklist_json IS NOT ?",
+                [cid, shared],
+            ):
+                texts[other["id"]] = other["checklist_json"]
+        return texts
+
     def _summary(self, row: dict[str, Any]) -> SessionSummary:
-        derived = self._derived_locked(row)
-        latest = self._latest_outcomes_locked(row["id"])
+        entries = self._rows(ENTRY_ROWS_SQL, [row["id"], row["id"]])
+        return self._summary_of(row, loads(row["checklist_json"]), entries)
+
+    @staticmethod
+    def _summary_of(
+        row: dict[str, Any], checklist: Any, entries: list, layout: Any = None
+    ) -> SessionSummary:
+        """The summary of the ``sessions`` ``row`` from its chained ``entries`` (the rows of
+        ``ENTRY_ROWS_SQL``, in chain order) and its parsed checklist snapshot (and that
+        snapshot's ``checklist_layout``, when already worked out)."""
+        derived = derive(row["created_utc"], checklist, entries, layout)
+        # Each step's latest entry: an attempt's outcome, or a skip or waiver after it.
+        latest: dict[tuple[str, str], str] = {}
+        attempts = 0
+        for entry in entries:
+            kind = entry["kind"]
+            if kind == "attempt":
+                attempts += 1
+                latest[(entry["stage_id"], entry["step_id"])] = entry["outcome"]
+            elif kind in ("skip", "waive"):
+                latest[(entry["stage_id"], entry["step_id"])] = (
+                    "skipped" if kind == "skip" else "waived"
+                )
         progress: dict[str, int] = {}
         for outcome in latest.values():
             progress[outcome] = progress.get(outcome, 0) + 1
-        attempts = self._rows(
-            "SELECT count(*) AS n FROM attempts WHERE session_id = ?", [row["id"]]
-        )
         return SessionSummary(
             id=row["id"],
             created_utc=row["created_utc"],
@@ -169,18 +214,44 @@ class LogReading:
             verdict=derived.verdict,
             stage_verdicts=derived.stage_verdicts,
             progress=progress,
-            steps_total=_count_steps(loads(row["checklist_json"])),
-            attempts=attempts[0]["n"],
+            steps_total=_count_steps(checklist),
+            attempts=attempts,
             last_activity_utc=derived.last_activity_utc,
             altered=tuple(disagreements(row, derived)),
         )
 
     def sessions(self) -> list[SessionSummary]:
         """Every session, most recent activity first (state, verdicts and activity from each
-        session's chain, not from the stored listing columns)."""
+        session's chain, not from the stored listing columns).
+
+        A few queries for the whole log, whatever its size: the sessions' listing columns;
+        every chained entry of every session (two table scans), replayed session by session
+        in chain order with ``derive`` as ``session()`` does; and the checklist snapshots, read once
+        per distinct text (sessions of one checklist share it: SQLite compares the others
+        with it, and only a session whose snapshot differs sends its own). Only a ``finish``
+        event's payload is read (the one ``derive`` opens)."""
         with self._read():
-            rows = self._rows("SELECT * FROM sessions ORDER BY id")
-            summaries = [self._summary(row) for row in rows]
+            rows = self._rows(f"SELECT {_LISTING_COLUMNS} FROM sessions ORDER BY id")
+            texts = self._checklist_texts({row["checklist_id"] for row in rows})
+            by_session: dict[str, list[dict[str, Any]]] = {}
+            for sql in _ALL_ENTRIES_SQL:
+                cursor = self._db.conn.execute(sql)
+                columns = [d[0] for d in cursor.description]
+                for values in cursor:
+                    entry = dict(zip(columns, values, strict=True))
+                    by_session.setdefault(entry["session_id"], []).append(entry)
+        for listed in by_session.values():
+            listed.sort(key=lambda entry: entry["seq"])  # chain order
+        parsed: dict[str, tuple[Any, Any]] = {}  # text -> (snapshot, layout)
+        summaries = []
+        for row in rows:
+            text = texts.get(row["id"]) or texts[_SHARED, row["checklist_id"]]
+            if text not in parsed:
+                snapshot = loads(text)
+                parsed[text] = (snapshot, checklist_layout(snapshot))
+            snapshot, layout = parsed[text]
+            entries_of = by_session.get(row["id"], [])
+            summaries.append(self._summary_of(row, snapshot, entries_of, layout))
         summaries.sort(key=lambda s: s.id)
         summaries.sort(key=lambda s: s.last_activity_utc, reverse=True)
         return summaries
@@ -356,6 +427,25 @@ class LogReading:
                 "SELECT * FROM signatures WHERE session_id = ? ORDER BY id", [session_id]
             )
             return [signature_record(row) for row in rows]
+
+
+# The ``sessions`` columns a listing shows or checks (not the snapshots: see
+# ``_checklist_texts``).
+_LISTING_COLUMNS = (
+    "id, created_utc, board_name, board_revision, serial, operator, checklist_id, "
+    "state, verdict, stage_verdicts_json, finished_utc"
+)
+_SHARED = object()  # key of a checklist id's shared snapshot text in ``_checklist_texts``
+# ``ENTRY_ROWS_SQL``'s columns for every session at once: each table read in its stored order
+# (a scan; ordering by session would look every row up through the index), grouped by
+# session and put in chain order in Python. An event's payload only where ``derive`` reads it
+# (a finish event).
+_ALL_ENTRIES_SQL = (
+    "SELECT session_id, seq, 'attempt' AS kind, stage_id, step_id, outcome, "
+    "NULL AS payload_json, recorded_utc FROM attempts",
+    "SELECT session_id, seq, kind, stage_id, step_id, NULL AS outcome, "
+    "CASE kind WHEN 'finish' THEN payload_json END AS payload_json, recorded_utc FROM events",
+)
 
 
 def _count_steps(checklist: Any) -> int | None:
