@@ -592,9 +592,17 @@ class Scope(Instrument):
         ``"PTP"`` peak-to-peak, volts) as NR3; 9.9E37 when clipped (or the fault is armed)."""
         if self.faults.overrange:
             return format_nr3(OVERRANGE)
-        trace = self._trace(self.current_record(), source)
+        record = self.current_record()
+        trace = self._trace(record, source)
         if trace.clipped:
             return format_nr3(OVERRANGE)
+        key = ("measure", source, kind)
+        if key not in record.cache:  # once per record, as a scope measures each acquisition
+            record.cache[key] = self._measure(trace, kind)
+        return record.cache[key]
+
+    @staticmethod
+    def _measure(trace: Trace, kind: str) -> str:
         if trace.codes is not None:
             c = trace.codes
             if kind == "DC":

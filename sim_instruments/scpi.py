@@ -249,6 +249,7 @@ class CommandTree:
     """
 
     entries: list[_Entry] = field(default_factory=list)
+    _found: dict = field(default_factory=dict, repr=False)
 
     def add(
         self,
@@ -260,13 +261,26 @@ class CommandTree:
         """Register ``pattern``; ``locked=False`` handlers take the instrument lock themselves
         (a long acquisition must not hold the bench's lock while it computes)."""
         self.entries.append(_Entry(pattern, _compile(pattern), set, query, locked))
+        self._found.clear()
 
     def lookup(self, tokens: list[str]) -> tuple[_Entry, list[int]] | None:
+        """The first entry whose pattern spells ``tokens``, with its suffixes (or None).
+
+        Remembered per spelling (upper-cased): a header sent again, such as a paged read's
+        ``:WAVeform:STARt``, is not matched against every pattern again."""
+        key = tuple(t.upper() for t in tokens)
+        if key in self._found:
+            found = self._found[key]
+            return (found[0], list(found[1])) if found is not None else None
+        result = None
         for entry in self.entries:
             suffixes = _match(entry.nodes, tokens)
             if suffixes is not None:
-                return entry, suffixes
-        return None
+                result = entry, suffixes
+                break
+        if len(self._found) < 4096:  # bounded: headers are few, typos could be many
+            self._found[key] = (result[0], tuple(result[1])) if result is not None else None
+        return result
 
 
 def _match(nodes: list[_Node], tokens: list[str]) -> list[int] | None:

@@ -333,7 +333,15 @@ SCHEMA: dict[str, tuple[str, ...]] = {
     "errors": ("style", "mask"),
     "status": STATUS_BITS["supply"],
     "screen": ("vertical_divisions", "horizontal_divisions"),
-    "block": ("datatype", "byte_order", "chunk_bytes", "page_points", "code_min", "code_max"),
+    "block": (
+        "datatype",
+        "byte_order",
+        "chunk_bytes",
+        "page_points",
+        "pipeline",
+        "code_min",
+        "code_max",
+    ),
     "preamble": ("separator", "fields"),
     "scale": SCALE_TERMS,
     "acquire": ("completion", "done", "poll_interval_ms", "timeout_ms"),
@@ -369,6 +377,7 @@ class BlockFormat:
     big_endian: bool
     chunk_bytes: int
     page_points: int | None
+    pipeline: bool
     code_min: float
     code_max: float
     preamble_separator: str
@@ -967,6 +976,11 @@ def _block(
         page = _int(src, "block", block, "page_points", 0, 100, 1 << 30)
         if "data_range" not in commands:
             raise src.error(("block", "page_points"), "paged reads need a data_range operation")
+    pipeline = block.get("pipeline", False)
+    if not isinstance(pipeline, bool):
+        raise src.error(("block", "pipeline"), f"must be true or false, not {pipeline!r}")
+    if pipeline and page is None:
+        raise src.error(("block", "pipeline"), "only with page_points")
     if datatype == "ascii":
         lo, hi = -math.inf, math.inf
     elif datatype == "float32":
@@ -1026,6 +1040,7 @@ def _block(
         order == "big",
         chunk,
         page,
+        pipeline,
         float(code_min),
         float(code_max),
         sep,

@@ -364,14 +364,32 @@ class Scope:
         out = np.empty(announced, dtype=native)
         with s.lock:
             joiner = self.profile.write_termination
-            for first in range(0, announced, page):
-                last = min(first + page, announced)
+            starts = list(range(0, announced, page))
+
+            def message(first: int) -> str:
                 # the range and the query go out in one write (separate program messages,
                 # one send) and no error check between pages (it would double the round
                 # trips): the instrument's error report is read once, after the last page
+                last = min(first + page, announced)
                 lines = self.profile.lines("data_range", first=first + 1, last=last)
-                message = joiner.join([*lines, data_cmd])
-                got = s.query_block(message, block.dtype, timeout_ms=ms, into=out[first:last])
+                return joiner.join([*lines, data_cmd])
+
+            ahead = block.pipeline
+            if ahead:
+                s.write(message(starts[0]))
+            for k, first in enumerate(starts):
+                last = min(first + page, announced)
+                if ahead and k + 1 < len(starts):
+                    # the next page is asked for before this one is read: the instrument
+                    # prepares it while this one travels ([block] pipeline)
+                    s.write(message(starts[k + 1]))
+                got = s.query_block(
+                    message(first),
+                    block.dtype,
+                    timeout_ms=ms,
+                    into=out[first:last],
+                    send=not ahead,
+                )
                 if got.size != last - first:
                     raise faults.TruncatedBlock(
                         s.role,
@@ -519,7 +537,10 @@ class Scope:
         if mean_i is None and ptp_i is None:
             return
         tol = block.tolerance * self._full_scale_of(source, wf)
-        problem = judge_record(codes, wf.y_increment, wf.y_origin, block, mean_i, ptp_i, tol)
+        extremes = (float(lo), float(hi))
+        problem = judge_record(
+            codes, wf.y_increment, wf.y_origin, block, mean_i, ptp_i, tol, extremes
+        )
         if problem is not None:
             text, key = problem
             raise faults.RecordMismatch(
@@ -527,10 +548,13 @@ class Scope:
             )
 
 
-def _stats(codes: np.ndarray, step: float, origin: float) -> tuple[float, float]:
+def _stats(
+    codes: np.ndarray, step: float, origin: float, extremes: tuple[float, float] | None = None
+) -> tuple[float, float]:
+    """(mean, peak-to-peak) in volts; ``extremes`` the codes' (min, max) when already known."""
     mean = float(codes.mean(dtype=np.float64)) * step + origin
-    ptp = (float(codes.max()) - float(codes.min())) * abs(step)
-    return mean, ptp
+    lo, hi = extremes if extremes is not None else (float(codes.min()), float(codes.max()))
+    return mean, (hi - lo) * abs(step)
 
 
 def _alternatives(codes: np.ndarray, block: BlockFormat) -> list[tuple[str, str, np.ndarray]]:
@@ -555,6 +579,7 @@ def judge_record(
     mean_i: float | None,
     ptp_i: float | None,
     tol: float,
+    extremes: tuple[float, float] | None = None,
 ) -> tuple[str, str] | None:
     """Compare a record (``codes`` with volts = codes * step + origin) with the instrument's
     own mean and peak-to-peak (volts; None = not offered). Returns None when they agree within
@@ -562,8 +587,14 @@ def judge_record(
 
     The key: another reading of the same bytes (signedness, byte order) that makes them agree
     names ``block.datatype``/``block.byte_order``; a right peak-to-peak with a wrong mean names
-    the offset terms; anything else the step."""
-    mean, ptp = _stats(codes, step, origin)
+    the offset terms; anything else the step. ``extremes``: the codes' (min, max) if known."""
+    if mean_i is None and ptp_i is None:
+        return None
+    if mean_i is None:  # only the peak-to-peak to compare: no need of the mean
+        lo, hi = extremes if extremes is not None else (float(codes.min()), float(codes.max()))
+        mean, ptp = 0.0, (hi - lo) * abs(step)
+    else:
+        mean, ptp = _stats(codes, step, origin, extremes)
 
     def agrees(m: float, p: float) -> tuple[bool, bool]:
         return (

@@ -193,20 +193,29 @@ class InstrumentSession:
         if self.scpi_log is not None:
             self.scpi_log.sent(self.role, command)
         try:
-            self._resource.write(command)
+            if isinstance(self._wire, SocketWire):
+                self._wire.send((command + self.profile.write_termination).encode("ascii"))
+            else:
+                self._resource.write(command)
         except Exception as exc:  # OSError from the socket, VisaIOError from the backend
             self._broken = True
             raise faults.ConnectionLost(self.role, command, f"cannot send: {exc}") from None
 
     def _exchange(
-        self, command: str, timeout_ms: int, read: Callable[[Any, float], Any], repeatable: bool
+        self,
+        command: str,
+        timeout_ms: int,
+        read: Callable[[Any, float], Any],
+        repeatable: bool,
+        send: bool = True,
     ) -> Any:
         with self._lock:
-            attempts = 2 if repeatable else 1
+            attempts = 2 if repeatable and send else 1
             for attempt in range(attempts):
                 try:
                     wire = self._ready()
-                    self._write(command)
+                    if send:
+                        self._write(command)
                     return read(wire, time.monotonic() + timeout_ms / 1000)
                 except (WireTimeout, WireClosed, faults.ConnectionLost) as exc:
                     self._broken = True
@@ -315,6 +324,7 @@ class InstrumentSession:
         *,
         timeout_ms: int | None = None,
         into: np.ndarray | None = None,
+        send: bool = True,
     ) -> np.ndarray:
         """A binary block reply as a native-byte-order numpy array of ``dtype`` (``>i2``...).
 
@@ -322,7 +332,8 @@ class InstrumentSession:
         without a copy when the block holds exactly that many; otherwise a new array is
         returned (the caller compares sizes). Safe to repeat (the instrument keeps its last
         record), so retried once after a reconnect if nothing arrived in time or the
-        connection dropped.
+        connection dropped. ``send=False``: the query was already sent (a pipelined page);
+        only its reply is read, and never retried.
         """
         ms = timeout_ms or self.profile.default_timeout_ms
         kind = np.dtype(dtype)
@@ -341,7 +352,7 @@ class InstrumentSession:
                 skip_header=self.profile.echoes_headers,
             )
 
-        raw = self._exchange(command, ms, read, True)
+        raw = self._exchange(command, ms, read, True, send)
         if self.scpi_log is not None:
             self.scpi_log.received(self.role, f"<binary block of {raw.size} bytes>")
         if raw.size % kind.itemsize:

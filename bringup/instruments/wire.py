@@ -88,6 +88,12 @@ class SocketWire:
         error query waits for the delayed ACK of the first, tens of ms per step."""
         self._sock.setsockopt(socket.IPPROTO_TCP, socket.TCP_NODELAY, 1)
 
+    def send(self, data: bytes) -> None:
+        """Send ``data`` as it is (a command and its termination) straight on the socket:
+        pyvisa-py's write path costs tens of microseconds a line, which a paged read pays
+        once per page."""
+        self._sock.sendall(data)
+
     def connect_error(self) -> int:
         """The socket's pending error (``SO_ERROR``): non-zero when the connect was refused."""
         return self._sock.getsockopt(socket.SOL_SOCKET, socket.SO_ERROR)

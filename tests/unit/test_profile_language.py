@@ -146,7 +146,7 @@ def test_scale_terms_are_a_field_a_sum_a_constant_or_a_query(tmp_path):
 def _block(datatype="uint8", big=True):
     from bringup.instruments.profiles import BlockFormat
 
-    return BlockFormat(datatype, big, 1 << 20, None, 0, 255, ",", (), False, {}, 0.02)
+    return BlockFormat(datatype, big, 1 << 20, None, False, 0, 255, ",", (), False, {}, 0.02)
 
 
 def test_a_record_that_agrees_is_accepted():

@@ -138,7 +138,8 @@ def test_a_preamble_the_profile_cannot_describe_names_file_key_and_reply(scripte
         session.close()
 
 
-def test_a_long_record_is_read_in_pages_into_one(scripted_server):
+@pytest.mark.parametrize("pipeline", [False, True], ids=["page-by-page", "pipelined"])
+def test_a_long_record_is_read_in_pages_into_one(scripted_server, tmp_path, pipeline):
     # 600 001 points with noise, quantisation and ringing: three pages of at most 250 000
     rng = np.random.default_rng(4)
     t = np.arange(600_001) * 1e-8
@@ -146,7 +147,12 @@ def test_a_long_record_is_read_in_pages_into_one(scripted_server):
     volts += rng.normal(0, 0.05, t.size)
     fake = TenfieldScope(volts, 0.05, -60)
     server = scripted_server(fake)
-    scope, session = _scope(server.resource, BUILTIN_DIR / "rigol-ds1000z.toml")
+    path = _profile(
+        tmp_path,
+        "page_points = 250000" if pipeline else "",
+        "page_points = 250000\npipeline = true" if pipeline else "",
+    )
+    scope, session = _scope(server.resource, path)
     try:
         wf = scope.fetch_waveform(1)
         np.testing.assert_allclose(wf.volts(), fake.volts, atol=1e-9)
