@@ -193,6 +193,7 @@ def check_supply(session: InstrumentSession, supply: Any) -> list[CheckRow]:
         "ovp_level",
         "ovp_tripped",
         "ocp_level",
+        "ovp_enabled",
         "ocp_enabled",
         "ocp_tripped",
         "sense_state",
@@ -215,6 +216,11 @@ def check_supply(session: InstrumentSession, supply: Any) -> list[CheckRow]:
         ),
         ("set_ovp", {"volts": readings.get("ovp_level")}, ("ovp_level",)),
         ("set_ocp", {"amps": readings.get("ocp_level")}, ("ocp_level",)),
+        (
+            "ovp_enable",
+            {"state": word("on" if readings.get("ovp_enabled") else "off")},
+            ("ovp_enabled",),
+        ),
         (
             "ocp_enable",
             {"state": word("on" if readings.get("ocp_enabled") else "off")},

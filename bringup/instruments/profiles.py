@@ -131,6 +131,8 @@ OPERATIONS: dict[str, dict[str, OperationSpec]] = {
             "ovp_clear": "!",
             "set_ocp": "! amps",
             "ocp_level": "?",
+            "ovp_enable": "! state",
+            "ovp_enabled": "?",
             "ocp_enable": "! state",
             "ocp_enabled": "?",
             "ocp_tripped": "?",
@@ -186,6 +188,8 @@ OPTIONAL: dict[str, frozenset[str]] = {
             "apply",
             "set_ocp",
             "ocp_level",
+            "ovp_enable",
+            "ovp_enabled",
             "ocp_enable",
             "ocp_enabled",
             "ocp_tripped",
@@ -201,6 +205,7 @@ OPTIONAL: dict[str, frozenset[str]] = {
 GROUPS: dict[str, tuple[tuple[str, ...], ...]] = {
     "supply": (
         ("set_ocp", "ocp_level"),
+        ("ovp_enable", "ovp_enabled"),
         ("ocp_enable", "ocp_enabled"),
         ("sense", "sense_state"),
     ),
@@ -255,6 +260,7 @@ REPLY_MEANINGS: dict[str, dict[str, frozenset[str] | type]] = {
         "ovp_tripped": bool,
         "ocp_tripped": bool,
         "ocp_enabled": bool,
+        "ovp_enabled": bool,
         "sense_state": frozenset({"remote", "local"}),
         "regulation_mode": frozenset({"cv", "cc", "unregulated", "off"}),
     },

@@ -335,6 +335,8 @@ class Energised:
             s.set_ovp(self.ovp_v)
             if s.has_ocp_level:
                 s.set_ocp(self.ocp_a)
+            if s.has_ovp_switch:  # a level alone protects nothing while the switch is off
+                s.enable_ovp(True)
             if s.has_ocp_switch:
                 s.enable_ocp(True)
             if s.remote_sense is not None and s.has_sense:
@@ -372,6 +374,8 @@ class Energised:
                     s.command_text(operation),
                     f"{name} reads {read:g} {unit}, set {wanted:g} {unit}",
                 )
+        if s.has_ovp_switch and not s.ovp_enabled():
+            raise faults.ProtectionFault(role, s.command_text("ovp_enabled"), "OVP did not turn on")
         if s.has_ocp_switch and not s.ocp_enabled():
             raise faults.ProtectionFault(role, s.command_text("ocp_enabled"), "OCP did not turn on")
         if s.remote_sense is not None and s.has_sense and s.sense_is_remote() != s.remote_sense:

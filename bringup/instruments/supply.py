@@ -120,6 +120,12 @@ class Supply:
         return self.profile.has("set_ocp")
 
     @property
+    def has_ovp_switch(self) -> bool:
+        """Whether the over-voltage protection is switched on and off by a command (else it
+        is always on)."""
+        return self.profile.has("ovp_enable")
+
+    @property
     def has_ocp_switch(self) -> bool:
         """Whether the over-current protection is switched on and off by a command."""
         return self.profile.has("ocp_enable")
@@ -198,6 +204,14 @@ class Supply:
     def ocp_level(self) -> float:
         """The over-current protection level, amperes."""
         return self.ask_number("ocp_level")
+
+    def enable_ovp(self, on: bool) -> None:
+        """Switch the over-voltage protection on or off (only where ``has_ovp_switch``)."""
+        self.configure("ovp_enable", state=self.profile.word("on" if on else "off"))
+
+    def ovp_enabled(self) -> bool:
+        """Whether the over-voltage protection is on."""
+        return self._bool("ovp_enabled")
 
     def enable_ocp(self, on: bool) -> None:
         """Switch the over-current protection on or off (only where ``has_ocp_switch``)."""

@@ -66,6 +66,9 @@ def test_the_reported_three_channel_supply_loads_without_borrowed_templates():
 @pytest.mark.parametrize("supply", ["triple", "select"])
 def test_protection_set_and_read_back_on_the_boards_channel_then_off(dialect_bench, supply):
     sim, bench_file, profiles = dialect_bench(supply=supply)
+    if supply == "triple":  # someone switched the OVP off at the front panel
+        with sim.supply.lock:
+            sim.supply.fed.ovp_on = False
     with open_bench_file(bench_file, profiles_dir=profiles) as bench:
         with energised(bench, volts=24.0, current_limit_a=2.0, ovp_v=26.5) as powered:
             assert sim.supply.output_on  # the board's output, and only it
@@ -74,6 +77,8 @@ def test_protection_set_and_read_back_on_the_boards_channel_then_off(dialect_ben
             fed = sim.supply.fed
             assert (fed.voltage_set, fed.current_limit, fed.ovp_level) == (24.0, 2.0, 26.5)
             assert fed.ocp_on and fed.ocp_level == pytest.approx(2.2)  # 10 % above the limit
+            # the triple's OVP has a switch: turned on (the select's is always on)
+            assert fed.ovp_on or supply == "select"
             assert powered.regulation() is Regulation.CONSTANT_VOLTAGE
             assert powered.measure_voltage() == pytest.approx(24.0, abs=0.01)
         assert not sim.supply.output_on
