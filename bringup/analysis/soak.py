@@ -511,7 +511,8 @@ def fit_soak(
                 )
                 keep_soaking = span / 2.0
     if undecided:
-        undecided = f"undecided, keep soaking: {undecided}"
+        more = f" (about {keep_soaking:.0f} s more)" if keep_soaking else ""
+        undecided = f"undecided, keep soaking{more}: {undecided}"
     model_u = math.sqrt(max(expanded**2 - (COVERAGE_K * se) ** 2, 0.0))
     warnings_out = [undecided] if undecided else []
     rms = float(np.sqrt(np.mean(resid**2)))

@@ -109,6 +109,7 @@ def test_a_short_log_of_a_real_heatsink_is_undecided_not_a_confident_low_value(t
     assert f.outcome == "undecided" and not f.decided
     assert f.undecided_reason.startswith("undecided, keep soaking")
     assert f.keep_soaking_s is not None and f.keep_soaking_s > 0
+    assert f"(about {f.keep_soaking_s:.0f} s more)" in f.undecided_reason
     assert f.warnings == [f.undecided_reason]
 
 
