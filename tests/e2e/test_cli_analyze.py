@@ -35,8 +35,10 @@ def rc_pwm(n, dt, period, duty, tau, high=12.0, phase=0.0):
     )
 
 
-@pytest.fixture
-def pwm_csv(tmp_path):
+@pytest.fixture(scope="module")
+def pwm_csv(tmp_path_factory):
+    # Written once for the module: the commands only read it.
+    tmp_path = tmp_path_factory.mktemp("pwm")
     dt, n = 1e-9, 200_000
     t = np.arange(n) * dt
     gate = scope_like(rc_pwm(n, dt, 40e-6, 0.3, 50e-9, phase=3e-6) + 0.4, seed=1)
