@@ -135,7 +135,7 @@ class _Runner:
                     sent, f"replies.{operation}", reply, "a word the profile maps"
                 )
             return meaning
-        text = self.profile.numbers.strip(reply)
+        text = self.profile.numbers.number_text(reply)
         return self.session._number(sent, text if text is not None else reply, reply, operation)
 
 

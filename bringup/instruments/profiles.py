@@ -335,7 +335,7 @@ SCHEMA: dict[str, tuple[str, ...]] = {
     "words": ("<word>",),
     "replies": ("<operation>",),
     "channels": ("count", "names"),
-    "numbers": ("units", "header"),
+    "numbers": ("units",),
     "errors": ("style", "mask"),
     "status": STATUS_BITS["supply"],
     "screen": ("vertical_divisions", "horizontal_divisions"),
@@ -447,19 +447,15 @@ class ChannelSet:
 
 @dataclass(frozen=True)
 class NumberFormat:
-    """``[numbers]``: what may surround a number in a reply: a leading header word (an
-    instrument that echoes the command's header) and a trailing unit (``C``, ``V``)."""
+    """``[numbers]``: the units that may follow a number in a reply (``C``, ``VDC``). A header
+    echoed before it is ``[profile] echoes_headers``, for every reply."""
 
     units: tuple[str, ...] = ()
-    header: bool = False
 
-    def strip(self, reply: str) -> str | None:
-        """The number's text of ``reply``, or ``None`` when the reply has more than the
-        profile describes (left to the caller to report)."""
+    def number_text(self, reply: str) -> str | None:
+        """The number's text of ``reply`` with a declared unit removed (anything else is left
+        for the caller to report)."""
         text = reply.strip()
-        if self.header and text[:1].isalpha():
-            head, _, rest = text.partition(" ")
-            text = rest.strip() if rest else head
         for unit in sorted(self.units, key=len, reverse=True):
             if text.upper().endswith(unit.upper()):
                 text = text[: len(text) - len(unit)].strip()
@@ -899,18 +895,18 @@ def _replies(
 
 
 def _numbers(src: TomlDocument) -> NumberFormat:
-    """``[numbers]``: ``units`` that may follow a number, ``header`` before it."""
+    """``[numbers]``: ``units`` that may follow a number."""
     table = _table(src, "numbers", required=False)
     for key in table:
-        if key not in ("units", "header"):
-            raise src.error(("numbers", key), "unknown key (units, header)")
+        if key != "units":
+            raise src.error(
+                ("numbers", key),
+                "unknown key (units; an echoed header is [profile] echoes_headers)",
+            )
     units = table.get("units", [])
     if not isinstance(units, list) or not all(isinstance(u, str) and u.strip() for u in units):
         raise src.error(("numbers", "units"), "must be a list of unit words")
-    header = table.get("header", False)
-    if not isinstance(header, bool):
-        raise src.error(("numbers", "header"), f"must be true or false, not {header!r}")
-    return NumberFormat(tuple(u.strip() for u in units), header)
+    return NumberFormat(tuple(u.strip() for u in units))
 
 
 def _errors(src: TomlDocument, commands: Mapping[str, tuple[str, ...]]) -> tuple[str, int]:

@@ -397,7 +397,7 @@ class InstrumentSession:
         key and reply."""
         command = self.command_text(operation, **fields)
         reply = self.ask(operation, repeatable=repeatable, **fields)
-        text = self.profile.numbers.strip(reply)
+        text = self.profile.numbers.number_text(reply)
         return self._number(command, text if text is not None else reply, reply, operation)
 
     def ask_meaning(self, operation: str, *, repeatable: bool = True, **fields: Any) -> Any:

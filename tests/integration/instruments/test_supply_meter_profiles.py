@@ -229,3 +229,16 @@ def test_single_channel_profiles_need_no_channel(tmp_path):
     path.write_text(text)
     with pytest.raises(ConfigError, match="channels.count: 2 channels, but no template"):
         load_profile(path)
+
+
+def test_declared_units_are_stripped_and_others_left_to_refuse(tmp_path):
+    text = (BUILTIN_DIR / "logger-thermocouple.toml").read_text()
+    profile = load_profile(BUILTIN_DIR / "logger-thermocouple.toml")
+    assert profile.numbers.number_text("+2.512300000E+01 C") == "+2.512300000E+01"
+    assert profile.numbers.number_text("+3.3E+00 VDC") == "+3.3E+00"
+    # degrees Fahrenheit are not declared: the text stays, and reading it as a number fails
+    assert profile.numbers.number_text("+7.7E+01 F") == "+7.7E+01 F"
+    path = tmp_path / "logger-thermocouple.toml"
+    path.write_text(text.replace('units = ["C", "VDC"]', 'units = ["C"]\nheader = true'))
+    with pytest.raises(ConfigError, match=r"numbers\.header: unknown key .*echoes_headers"):
+        load_profile(path)
