@@ -7,7 +7,7 @@
   talk to; ``present.py`` formats the runner's records into ``views.py``'s frozen rows.
 - ``screens/``: ``start``, ``session`` (+ ``step_actions``), ``summary``, ``prompts``.
 - ``widgets/``: ``waveform_plot`` (braille, levels, crossings, on-time window),
-  ``checklist_tree``, ``status_line`` and ``supply_lamp`` (each with its own ``DEFAULT_CSS``);
+  ``checklist_column`` (names wrap), ``status_line`` and ``supply_lamp`` (each with its own ``DEFAULT_CSS``);
   ``states.py``: each state's symbol, word and colour; ``literal.py``: typed or file-supplied
   text made safe to show (no markup, escapes or direction overrides acting).
 - Styles: layout in ``bringup.tcss``, reusable widgets and prompts carry their own CSS.

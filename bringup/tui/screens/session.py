@@ -18,11 +18,11 @@ from textual.widgets import (
     DataTable,
     Footer,
     Input,
+    OptionList,
     ProgressBar,
     Static,
     TabbedContent,
     TabPane,
-    Tree,
 )
 from textual.worker import Worker, WorkerState
 
@@ -39,7 +39,7 @@ from bringup.tui.messages import (
 from bringup.tui.screens.step_actions import StepActions
 from bringup.tui.states import LEGEND, look_of
 from bringup.tui.views import AttemptView, Progress, StepDetail
-from bringup.tui.widgets.checklist_tree import ChecklistTree
+from bringup.tui.widgets.checklist_column import ChecklistColumn
 from bringup.tui.widgets.status_line import StatusLine
 from bringup.tui.widgets.supply_lamp import SupplyLamp
 from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
@@ -107,7 +107,7 @@ class SessionScreen(StepActions, Screen[None]):
         with Horizontal(id="session-body"):
             with Vertical(id="checklist-pane"):
                 yield Static("CHECKLIST", classes="pane-title")
-                yield ChecklistTree(id="checklist")
+                yield ChecklistColumn(id="checklist")
                 yield Static(LEGEND, id="legend")
             with Vertical(id="step-pane"):
                 yield Static("", id="step-title")
@@ -145,7 +145,7 @@ class SessionScreen(StepActions, Screen[None]):
     def on_mount(self) -> None:
         self.query_one("#live").display = False
         self.refresh_all(select=self.link.current_step_id())
-        self.query_one("#checklist", ChecklistTree).focus()
+        self.query_one("#checklist", ChecklistColumn).focus()
 
     # -- showing ---------------------------------------------------------------------------
     def say(self, message: str, kind: str = "info") -> None:
@@ -155,7 +155,7 @@ class SessionScreen(StepActions, Screen[None]):
     def refresh_all(self, select: str | None = None) -> None:
         """Redraw the title, the checklist and the viewed step from the link."""
         self.query_one("#titlebar", Static).update(literal(self.link.header(), multiline=False))
-        tree = self.query_one("#checklist", ChecklistTree)
+        tree = self.query_one("#checklist", ChecklistColumn)
         current = self.link.current_step_id()
         tree.show_stages(self.link.stages(), self.running or current, running=self.running)
         target = select or self.viewed or current
@@ -175,7 +175,7 @@ class SessionScreen(StepActions, Screen[None]):
         except BringupError as exc:
             self.say(str(exc), "fault")
             return
-        number = self.query_one("#checklist", ChecklistTree).number_of(step_id)
+        number = self.query_one("#checklist", ChecklistColumn).number_of(step_id)
         look = look_of(detail.state)
         title = Text()
         title.append(f"{number}  {visible(detail.title)}", style="bold")
@@ -311,23 +311,25 @@ class SessionScreen(StepActions, Screen[None]):
         self.action_tab("tab-trace")
 
     # -- navigation ------------------------------------------------------------------------
-    @on(Tree.NodeHighlighted, "#checklist")
-    def _highlighted(self, event: Tree.NodeHighlighted) -> None:
-        if event.node.data is not None and event.node.data != self.viewed:
-            self.show_step(event.node.data)
+    @on(OptionList.OptionHighlighted, "#checklist")
+    def _highlighted(self, event: OptionList.OptionHighlighted) -> None:
+        step = event.option_list.highlighted_step  # type: ignore[attr-defined]
+        if step is not None and step != self.viewed:
+            self.show_step(step)
 
-    @on(Tree.NodeSelected, "#checklist")
-    def _selected(self, event: Tree.NodeSelected) -> None:
-        if event.node.data is not None:
-            self.show_step(event.node.data)
+    @on(OptionList.OptionSelected, "#checklist")
+    def _selected(self, event: OptionList.OptionSelected) -> None:
+        step = event.option_list.highlighted_step  # type: ignore[attr-defined]
+        if step is not None:
+            self.show_step(step)
 
     def action_next_step(self) -> None:
         """Cursor to the next step, over the stage headings."""
-        self.query_one("#checklist", ChecklistTree).move_to_step(+1)
+        self.query_one("#checklist", ChecklistColumn).move_to_step(+1)
 
     def action_previous_step(self) -> None:
         """Cursor to the previous step, over the stage headings."""
-        self.query_one("#checklist", ChecklistTree).move_to_step(-1)
+        self.query_one("#checklist", ChecklistColumn).move_to_step(-1)
 
     def action_tab(self, tab: str) -> None:
         self.query_one("#tabs", TabbedContent).active = tab
@@ -367,7 +369,7 @@ class SessionScreen(StepActions, Screen[None]):
             )
         else:
             self.say("Acquiring: x stops and puts the bench in its safe state.")
-        self.query_one("#checklist", ChecklistTree).show_stages(
+        self.query_one("#checklist", ChecklistColumn).show_stages(
             self.link.stages(), detail.id, running=detail.id
         )
         self._run_worker(detail.id, answers, self._cancel, self._stop_soak)
@@ -460,7 +462,7 @@ class SessionScreen(StepActions, Screen[None]):
         self._finish(select_next=move_on)
         if not move_on:
             self.show_step(step)
-        tree = self.query_one("#checklist", ChecklistTree)
+        tree = self.query_one("#checklist", ChecklistColumn)
         if following is None:
             nxt = " Every step now has a verdict: m shows the summary."
         elif move_on:
@@ -555,6 +557,6 @@ class SessionScreen(StepActions, Screen[None]):
             if self.viewed == step:
                 self.show_step(step)
             self.say("Note kept.")
-            self.query_one("#checklist", ChecklistTree).focus()
+            self.query_one("#checklist", ChecklistColumn).focus()
 
         self._log_decision("note", lambda: self.link.add_note(step, text), done)
