@@ -156,16 +156,14 @@ class SessionLink:
         self._log_finish_if_complete()
         return view
 
-    def switch_off_now(self) -> str | None:
-        """STOP: switch the supply output OFF now, from the calling thread (never the step's
-        own, which may be blocked in an instrument call for up to its timeout), and read it back.
-
-        Returns None once the supply has answered that its output is OFF, else the problem.
-        The running step is not ended here: its ``cancel`` event does that at its next check,
-        and its attempt is logged as not run. This is the path closing the notebook takes
-        (``runner.abort`` switches off through the step executor's ``stop_now``) without
-        logging an abort of the whole session."""
-        return self.runner.executor.stop_now()
+    def switch_off_now(self, reason: str = "STOP pressed in the notebook"):
+        """STOP: the runner's ``stop`` switches the supply output OFF now from the calling
+        thread (never the step's own, which may be blocked in an instrument call for up to its
+        timeout) and reads it back; the running step ends at its next check and its attempt is
+        logged as not run, with ``reason``. The session carries on (closing the notebook uses
+        ``abort`` instead). Returns the runner's ``SupplyOff`` (``confirmed``, ``at_utc``,
+        ``problem``, ``text()``); blocks for the switch-off's exchanges: call it from a worker."""
+        return self.runner.stop(reason)
 
     def skip(self, step_id: str, reason: str) -> None:
         """Skip with a reason (the runner refuses a failed step)."""

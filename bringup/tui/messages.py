@@ -46,12 +46,13 @@ class StepStopped(Message):
 
 
 class SupplySwitchedOff(Message):
-    """STOP's own thread has switched the supply output off; ``problem`` is None when the
-    supply read back OFF (confirmed), else why it could not be confirmed."""
+    """STOP's own thread has switched the supply output off: ``problem`` is None when the
+    supply read back OFF (confirmed at ``clock``, "14:03:07 UTC"), else why it could not be."""
 
-    def __init__(self, problem: str | None) -> None:
+    def __init__(self, problem: str | None, clock: str = "") -> None:
         super().__init__()
         self.problem = problem
+        self.clock = clock
 
     @property
     def confirmed(self) -> bool:

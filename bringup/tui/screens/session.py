@@ -509,15 +509,19 @@ class SessionScreen(StepActions, Screen[None]):
     def _switch_off(self) -> None:
         """Switch the supply off and read it back, beside the step's own worker."""
         try:
-            problem = self.link.switch_off_now()
+            off = self.link.switch_off_now()
         except Exception as exc:  # one line: the operator must know it is not confirmed
-            problem = f"{type(exc).__name__}: {exc}"
-        self.post_message(SupplySwitchedOff(problem))
+            self.post_message(SupplySwitchedOff(f"{type(exc).__name__}: {exc}"))
+            return
+        if off.confirmed:
+            self.post_message(SupplySwitchedOff(None, f"{off.at_utc[11:19]} UTC"))
+        else:
+            self.post_message(SupplySwitchedOff(off.problem or "not confirmed"))
 
     def on_supply_switched_off(self, message: SupplySwitchedOff) -> None:
         lamp = self.query_one(SupplyLamp)
         if message.confirmed:
-            lamp.set_state("confirmed")
+            lamp.set_state("confirmed", f"at {message.clock}" if message.clock else "")
             if self.running is not None:
                 self.say(
                     f"STOP: supply output OFF, confirmed {lamp.detail}. The step ends once its "
