@@ -90,7 +90,8 @@ def _check_one(
         if role == "supply":
             from bringup.instruments.supply import Supply
 
-            if Supply(session).output_is_on():
+            supply = Supply(session, channel=entry.channel or 1)  # the board's output
+            if supply.output_is_on():
                 lines.append("  output    ON: the board is powered (left as found)")
             else:
                 lines.append("  output    OFF")

@@ -171,7 +171,7 @@ def _make_safe_beside(supply: Supply) -> str | None:
     side = InstrumentSession(first.role, first.resource_name, first.profile)
     try:
         side.open()
-        make_safe(Supply(side))
+        make_safe(supply.beside(side))  # the same output: the one feeding the board
         return None
     except BringupError as exc:
         return str(exc)

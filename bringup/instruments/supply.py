@@ -68,6 +68,11 @@ class Supply:
         self._channel_text = channels.text(channel) if channels else str(channel)
         self._channel_number = channels.number(channel) if channels else int(channel)
 
+    def beside(self, session: InstrumentSession) -> Supply:
+        """This supply's output reached through another ``session`` (a second connection to
+        the same instrument): the same channel and sensing."""
+        return Supply(session, channel=self.channel, remote_sense=self.remote_sense)
+
     # -- addressing the board's channel --------------------------------------------------
     def _fields(self, **fields: Any) -> dict[str, Any]:
         return {"channel": self._channel_text, "channel_number": self._channel_number, **fields}

@@ -242,3 +242,41 @@ def test_declared_units_are_stripped_and_others_left_to_refuse(tmp_path):
     path.write_text(text.replace('units = ["C", "VDC"]', 'units = ["C"]\nheader = true'))
     with pytest.raises(ConfigError, match=r"numbers\.header: unknown key .*echoes_headers"):
         load_profile(path)
+
+
+def test_switching_off_beside_a_busy_session_turns_off_the_boards_channel(dialect_bench):
+    # another thread holds the supply's lock (a slow exchange): the output goes off over a
+    # second connection, and it must be the output feeding the board, not output 1
+    import threading
+
+    from bringup.instruments.safety import make_safe_now
+
+    sim, bench_file, profiles = dialect_bench(supply="triple")
+    with open_bench_file(bench_file, profiles_dir=profiles) as bench:
+        with energised(bench, volts=24.0, current_limit_a=2.0, ovp_v=26.5):
+            held, release = threading.Event(), threading.Event()
+
+            def busy() -> None:
+                with bench.supply.session.lock:
+                    held.set()
+                    release.wait(10)
+
+            worker = threading.Thread(target=busy)
+            worker.start()
+            held.wait(10)
+            try:
+                assert make_safe_now(bench.supply, wait_s=0.05) is None
+                assert not sim.supply.output_on
+            finally:
+                release.set()
+                worker.join()
+
+
+def test_plain_instruments_listing_reads_the_boards_channel(dialect_bench, capsys):
+    from bringup.cli import main
+
+    sim, bench_file, profiles = dialect_bench(supply="triple", thermometer="logger")
+    assert main(["instruments", "--bench", str(bench_file), "--profiles", str(profiles)]) == 0
+    out = capsys.readouterr().out
+    assert "output    OFF" in out
+    assert ":OUTPut:STATe? CH2" in sim.supply.received_lines()
