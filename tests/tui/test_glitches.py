@@ -165,3 +165,31 @@ async def test_step_names_wrap_in_the_checklist_from_100x30_to_200x60(log_path):
             session_id = screen.link.session_id
             await pilot.press("q")
         app = BringupApp(Launcher(log_path), resume=session_id)
+
+
+@sync
+async def test_rail_ripple_is_a_band_with_its_peak_to_peak_and_distinct_axis_labels(log_path):
+    values = {"board": "demo", "checklist": None, "bench_file": None, "scenario": "healthy",
+              "serial": "DHS24-0134", "operator": "tester"}  # fmt: skip
+    app = BringupApp(Launcher(log_path), open_new=values)
+    async with app.run_test(size=(160, 50)) as pilot:
+        screen = await wait_for_session(pilot)
+        await take_step(pilot)  # first power
+        await wait_until(pilot, lambda: screen.viewed == RAILS)
+        await take_step(pilot)  # the rails, unloaded: bus, gate-drive and logic levels
+        await pilot.press("k")
+        await wait_until(pilot, lambda: screen.viewed == RAILS)
+        await pilot.press("2")
+        plot = screen.query_one("#plot")
+        await wait_until(pilot, lambda: plot.point_count > 0)
+        lines = screen_lines(app)
+        rows = [line.split("▎", 1)[1] for line in lines if "┤" in line and "▎" in line]
+        labels = [row.split("┤")[0].strip() for row in rows]
+        ticks = [label for label in labels if label]
+        assert len(ticks) == 3 and len(set(ticks)) == 3, ticks  # top, middle, bottom differ
+        legend = " ".join(lines)
+        assert "peak-to-peak" in legend and "max" in legend and "min" in legend
+        # a band in the middle: the top and bottom rows of the plot carry no trace
+        dots = [any(0x2801 <= ord(ch) <= 0x28FF for ch in row.split("┤", 1)[1]) for row in rows]
+        assert not dots[0] and not dots[-1] and any(dots), dots
+        await pilot.press("q")

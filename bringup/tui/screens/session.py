@@ -282,7 +282,12 @@ class SessionScreen(StepActions, Screen[None]):
         plot.show(
             trace.t,
             trace.v,
-            PlotMarks(levels=trace.levels, crossings=trace.crossings, window=trace.window),
+            PlotMarks(
+                levels=trace.levels,
+                crossings=trace.crossings,
+                window=trace.window,
+                band=not trace.crossings and trace.window is None and trace.unit == "V",
+            ),
             title=f"{trace.title}  · attempt {attempt.number}{more}",
             unit=trace.unit,
         )

@@ -55,6 +55,26 @@ class PlotMarks:
     window: tuple[float, float] | None = None
     window_label: str = "on-time"
     extra_legend: tuple[str, ...] = field(default=())
+    #: a level with ripple on it (a rail): drawn as a band in the middle of the plot with its
+    #: highest and lowest values marked and its peak-to-peak in the legend
+    band: bool = False
+
+
+def _value_ticks(y0: float, y1: float, rows: int, unit: str) -> dict[int, str]:
+    """Labels of the value axis at the top, middle and bottom rows, all different: with three
+    significant digits when they tell the rows apart, else the middle value and the top and
+    bottom as offsets from it ("+25 mV", "-25 mV") so that a small ripple on a large level
+    does not read "12 V" three times."""
+    at = {r: y1 - (r + 0.5) / rows * (y1 - y0) for r in (0, rows // 2, rows - 1)}
+    plain = {r: format_quantity(val, unit, 3) for r, val in at.items()}
+    if len(set(plain.values())) == len(plain):
+        return plain
+    mid = rows // 2
+    out = {mid: format_quantity(at[mid], unit, 4)}
+    for r in (0, rows - 1):
+        delta = at[r] - at[mid]
+        out[r] = ("+" if delta >= 0 else "-") + format_quantity(abs(delta), unit, 2)
+    return out
 
 
 def braille_envelope(
@@ -242,9 +262,23 @@ class WaveformPlot(Widget):
         x0, x1 = float(t[0]), float(t[-1])
         if x1 <= x0:
             x1 = x0 + 1e-12
+        extra_legend = list(marks.extra_legend)
+        if marks.band:
+            vmin, vmax = float(v.min()), float(v.max())
+            marks = PlotMarks(
+                levels=(*marks.levels, ("max", vmax), ("min", vmin)),
+                crossings=marks.crossings,
+                window=marks.window,
+                window_label=marks.window_label,
+            )
+            extra_legend.insert(
+                0, f"peak-to-peak {format_quantity(vmax - vmin, self._unit, 3)} (max - min)"
+            )
         values = [float(v.min()), float(v.max())] + [lv for _, lv in marks.levels]
         y0, y1 = min(values), max(values)
-        pad = (y1 - y0) * 0.06 or 0.5
+        # a band sits in the middle half of the plot (its width readable against the frame);
+        # an edge uses nearly the whole height
+        pad = (y1 - y0) * (0.5 if marks.band else 0.06) or 0.5
         y0, y1 = y0 - pad, y1 + pad
         dots = braille_envelope(t, v, cols, rows, (x0, x1), (y0, y1))
         codes = _cells(dots)
@@ -270,10 +304,10 @@ class WaveformPlot(Widget):
             self._style("plot--crossing"),
         )
         shade = Style(bgcolor=self._style("plot--window").bgcolor)
+        ticks = _value_ticks(y0, y1, rows, self._unit)
         for r in range(rows):
             # the value axis: top, middle and bottom carry a value
-            val = y1 - (r + 0.5) / rows * (y1 - y0)
-            tick = format_quantity(val, self._unit, 3) if r in (0, rows // 2, rows - 1) else ""
+            tick = ticks.get(r, "")
             segs = [Segment(tick.rjust(_LEFT - 2)[: _LEFT - 2] + " ┤", axis)]
             for c in range(cols):
                 code = int(codes[r, c])
@@ -331,6 +365,6 @@ class WaveformPlot(Widget):
             shown.append(f"(+{len(visible) - 4} more crossings)")
         if self.zoomed:
             shown.append("[z: whole record]")
-        legend = "  ".join(shown + list(marks.extra_legend))
+        legend = "  ".join(shown + extra_legend)
         lines.append(Strip([Segment(legend[:width].ljust(width), axis)]))
         return lines[:height]
