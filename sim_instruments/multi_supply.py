@@ -27,6 +27,7 @@ from sim_instruments.clock import SharedBoard, add_board_commands
 from sim_instruments.faults import OVERRANGE, FaultInjector, add_fault_commands
 from sim_instruments.scpi import (
     CommandTree,
+    Handler,
     Instrument,
     ScpiError,
     Session,
@@ -219,96 +220,98 @@ class TripleSupply(MultiSupply):
     ratings = ((6.0, 5.0), (60.0, 10.0), (30.0, 2.0))
     board_output = 2
 
-    def build_commands(self, tree: CommandTree) -> None:
-        count = len(self.ratings)
+    # -- parameters: the channel first (CH<n>), then the values --------------------------
+    def _channel_and(self, params: list[str], n_values: int) -> tuple[Output, list[str]]:
+        if len(params) != 1 + n_values:
+            raise ScpiError(-109 if len(params) < 1 + n_values else -108)
+        return self.output(_channel_word(params[0], len(self.ratings))), params[1:]
 
-        def channel_and(params: list[str], n_values: int) -> tuple[Output, list[str]]:
-            if len(params) != 1 + n_values:
-                raise ScpiError(-109 if len(params) < 1 + n_values else -108)
-            return self.output(_channel_word(params[0], count)), params[1:]
+    def _queried(self, params: list[str]) -> Output:
+        return self._channel_and(params, 0)[0]
 
-        def queried(params: list[str]) -> Output:
-            return channel_and(params, 0)[0]
+    # -- handler factories ---------------------------------------------------------------
+    def _level(self, attr: str) -> tuple[Handler, Handler]:
+        def setter(s: Session, params: list[str], n: list[int]) -> None:
+            out, (value,) = self._channel_and(params, 1)
+            self.set_level(out, attr, value)
 
-        def apply_set(s: Session, params: list[str], n: list[int]) -> None:
-            out, (volts, amps) = channel_and(params, 2)
-            self.set_level(out, "voltage_set", volts)
-            self.set_level(out, "current_limit", amps)
+        def getter(s: Session, params: list[str], n: list[int]) -> str:
+            return format_nr3(getattr(self._queried(params), attr))
 
-        def apply_query(s: Session, params: list[str], n: list[int]) -> str:
-            out = queried(params)
-            rating = f"CH{out.number}:{out.v_max:g}V/{out.i_max:g}A"
-            return f"{rating},{out.voltage_set:.3f},{out.current_limit:.4f}"
+        return setter, getter
 
-        def level(attr: str):
-            def setter(s, params, n):
-                out, (value,) = channel_and(params, 1)
-                self.set_level(out, attr, value)
+    def _suffixed(self, attr: str) -> tuple[Handler, Handler]:
+        def setter(s: Session, params: list[str], n: list[int]) -> None:
+            self.set_level(self.output(n[0]), attr, one_param(params))
 
-            def getter(s, params, n):
-                return format_nr3(getattr(queried(params), attr))
+        def getter(s: Session, params: list[str], n: list[int]) -> str:
+            no_params(params)
+            return format_nr3(getattr(self.output(n[0]), attr))
 
-            return setter, getter
+        return setter, getter
 
-        def suffixed(attr: str):
-            def setter(s, params, n):
-                self.set_level(self.output(n[0]), attr, one_param(params))
-
-            def getter(s, params, n):
-                no_params(params)
-                return format_nr3(getattr(self.output(n[0]), attr))
-
-            return setter, getter
-
-        def switch(attr: str):
-            def setter(s, params, n):
-                out, (value,) = channel_and(params, 1)
-                if attr == "output_on":
-                    out.turn_on(parse_bool(value))
-                else:
-                    setattr(out, attr, parse_bool(value))
-                    out.solve()
-
-            def getter(s, params, n):
-                return "ON" if getattr(queried(params), attr) else "OFF"
-
-            return setter, getter
-
-        def question(attr: str):
-            return lambda s, params, n: "YES" if getattr(queried(params), attr) else "NO"
-
-        def clear(attr: str):
-            def handler(s, params, n):
-                out = queried(params)
-                setattr(out, attr, False)
+    def _switch(self, attr: str) -> tuple[Handler, Handler]:
+        def setter(s: Session, params: list[str], n: list[int]) -> None:
+            out, (value,) = self._channel_and(params, 1)
+            if attr == "output_on":
+                out.turn_on(parse_bool(value))
+            else:
+                setattr(out, attr, parse_bool(value))
                 out.solve()
 
-            return handler
+        def getter(s: Session, params: list[str], n: list[int]) -> str:
+            return "ON" if getattr(self._queried(params), attr) else "OFF"
 
-        tree.add("APPLy", set=apply_set, query=apply_query)
+        return setter, getter
+
+    def _question(self, attr: str) -> Handler:
+        return lambda s, params, n: "YES" if getattr(self._queried(params), attr) else "NO"
+
+    def _clear(self, attr: str) -> Handler:
+        def handler(s: Session, params: list[str], n: list[int]) -> None:
+            out = self._queried(params)
+            setattr(out, attr, False)
+            out.solve()
+
+        return handler
+
+    def _apply_set(self, s: Session, params: list[str], n: list[int]) -> None:
+        out, (volts, amps) = self._channel_and(params, 2)
+        self.set_level(out, "voltage_set", volts)
+        self.set_level(out, "current_limit", amps)
+
+    def _apply_query(self, s: Session, params: list[str], n: list[int]) -> str:
+        out = self._queried(params)
+        rating = f"CH{out.number}:{out.v_max:g}V/{out.i_max:g}A"
+        return f"{rating},{out.voltage_set:.3f},{out.current_limit:.4f}"
+
+    def build_commands(self, tree: CommandTree) -> None:
+        tree.add("APPLy", set=self._apply_set, query=self._apply_query)
         for node, attr in (("VOLTage", "voltage_set"), ("CURRent", "current_limit")):
-            setter, getter = suffixed(attr)
+            setter, getter = self._suffixed(attr)
             tree.add(
                 f"[SOURce<n>:]{node}[:LEVel][:IMMediate][:AMPLitude]", set=setter, query=getter
             )
-        setter, getter = switch("output_on")
+        setter, getter = self._switch("output_on")
         tree.add("OUTPut[:STATe]", set=setter, query=getter)
         for prot, level_attr, on_attr, trip_attr in (
             ("OVP", "ovp_level", "ovp_on", "ovp_tripped"),
             ("OCP", "ocp_level", "ocp_on", "ocp_tripped"),
         ):
-            setter, getter = level(level_attr)
+            setter, getter = self._level(level_attr)
             tree.add(f"OUTPut:{prot}:VALue", set=setter, query=getter)
-            setter, getter = switch(on_attr)
+            setter, getter = self._switch(on_attr)
             tree.add(f"OUTPut:{prot}[:STATe]", set=setter, query=getter)
-            tree.add(f"OUTPut:{prot}:QUEStion", query=question(trip_attr))
-            tree.add(f"OUTPut:{prot}:CLEar", set=clear(trip_attr))
-        tree.add("OUTPut:MODE", query=lambda s, params, n: queried(params).mode())
+            tree.add(f"OUTPut:{prot}:QUEStion", query=self._question(trip_attr))
+            tree.add(f"OUTPut:{prot}:CLEar", set=self._clear(trip_attr))
+        tree.add("OUTPut:MODE", query=lambda s, params, n: self._queried(params).mode())
         tree.add(
-            "MEASure[:VOLTage][:DC]", query=lambda s, params, n: self.measured(queried(params), "V")
+            "MEASure[:VOLTage][:DC]",
+            query=lambda s, params, n: self.measured(self._queried(params), "V"),
         )
         tree.add(
-            "MEASure:CURRent[:DC]", query=lambda s, params, n: self.measured(queried(params), "I")
+            "MEASure:CURRent[:DC]",
+            query=lambda s, params, n: self.measured(self._queried(params), "I"),
         )
         self.add_sim_commands(tree)
 
@@ -330,75 +333,76 @@ class SelectSupply(MultiSupply):
     def sel(self) -> Output:
         return self.outputs[self.selected]
 
-    def build_commands(self, tree: CommandTree) -> None:
-        count = len(self.ratings)
-        names = [f"OUTput{k}" for k in range(1, count + 1)]
+    # -- handler factories and handlers ---------------------------------------------------
+    def _level(self, attr: str) -> tuple[Handler, Handler]:
+        def setter(s: Session, params: list[str], n: list[int]) -> None:
+            self.set_level(self.sel, attr, one_param(params))
 
-        def select_name(s, params, n):
-            self.selected = int(parse_choice(one_param(params), names)[3:])
+        def getter(s: Session, params: list[str], n: list[int]) -> str:
+            no_params(params)
+            return format_nr3(getattr(self.sel, attr))
 
-        def select_number(s, params, n):
-            self.selected = int(parse_number(one_param(params), 1, count))
+        return setter, getter
 
-        def level(attr: str):
-            def setter(s, params, n):
-                self.set_level(self.sel, attr, one_param(params))
-
-            def getter(s, params, n):
-                no_params(params)
-                return format_nr3(getattr(self.sel, attr))
-
-            return setter, getter
-
-        def flag(attr: str):
-            def setter(s, params, n):
-                value = parse_bool(one_param(params))
-                if attr == "output_on":
-                    self.sel.turn_on(value)
-                else:
-                    setattr(self.sel, attr, value)
-                    self.sel.solve()
-
-            def getter(s, params, n):
-                no_params(params)
-                return "1" if getattr(self.sel, attr) else "0"
-
-            return setter, getter
-
-        def clear(attr: str):
-            def handler(s, params, n):
-                no_params(params)
-                setattr(self.sel, attr, False)
+    def _flag(self, attr: str) -> tuple[Handler, Handler]:
+        def setter(s: Session, params: list[str], n: list[int]) -> None:
+            value = parse_bool(one_param(params))
+            if attr == "output_on":
+                self.sel.turn_on(value)
+            else:
+                setattr(self.sel, attr, value)
                 self.sel.solve()
 
-            return handler
-
-        def apply_set(s, params, n):
-            if len(params) != 2:
-                raise ScpiError(-109 if len(params) < 2 else -108)
-            self.set_level(self.sel, "voltage_set", params[0])
-            self.set_level(self.sel, "current_limit", params[1])
-
-        def sense(s, params, n):
-            choice = parse_choice(one_param(params), ["INTernal", "EXTernal"])
-            self.sel.sense_remote = choice == "EXT"
-
-        def summary(s, params, n):
+        def getter(s: Session, params: list[str], n: list[int]) -> str:
             no_params(params)
-            out = self.output(n[0])
-            out.solve()
-            bits = (1 if out.in_cc else 0) | (2 if out.output_on and not out.in_cc else 0)
-            return str(bits | (4 if out.ovp_tripped else 0) | (8 if out.ocp_tripped else 0))
+            return "1" if getattr(self.sel, attr) else "0"
 
+        return setter, getter
+
+    def _clear(self, attr: str) -> Handler:
+        def handler(s: Session, params: list[str], n: list[int]) -> None:
+            no_params(params)
+            setattr(self.sel, attr, False)
+            self.sel.solve()
+
+        return handler
+
+    def _select_name(self, s: Session, params: list[str], n: list[int]) -> None:
+        names = [f"OUTput{k}" for k in range(1, len(self.ratings) + 1)]
+        self.selected = int(parse_choice(one_param(params), names)[3:])
+
+    def _select_number(self, s: Session, params: list[str], n: list[int]) -> None:
+        self.selected = int(parse_number(one_param(params), 1, len(self.ratings)))
+
+    def _apply_set(self, s: Session, params: list[str], n: list[int]) -> None:
+        if len(params) != 2:
+            raise ScpiError(-109 if len(params) < 2 else -108)
+        self.set_level(self.sel, "voltage_set", params[0])
+        self.set_level(self.sel, "current_limit", params[1])
+
+    def _sense(self, s: Session, params: list[str], n: list[int]) -> None:
+        choice = parse_choice(one_param(params), ["INTernal", "EXTernal"])
+        self.sel.sense_remote = choice == "EXT"
+
+    def _summary(self, s: Session, params: list[str], n: list[int]) -> str:
+        no_params(params)
+        out = self.output(n[0])
+        out.solve()
+        bits = (1 if out.in_cc else 0) | (2 if out.output_on and not out.in_cc else 0)
+        return str(bits | (4 if out.ovp_tripped else 0) | (8 if out.ocp_tripped else 0))
+
+    def build_commands(self, tree: CommandTree) -> None:
         tree.add(
             "INSTrument[:SELect]",
-            set=select_name,
+            set=self._select_name,
             query=lambda s, p, n: f"OUT{self.selected}",
         )
-        tree.add("INSTrument:NSELect", set=select_number, query=lambda s, p, n: str(self.selected))
+        tree.add(
+            "INSTrument:NSELect", set=self._select_number, query=lambda s, p, n: str(self.selected)
+        )
         tree.add(
             "APPLy",
-            set=apply_set,
+            set=self._apply_set,
             query=lambda s, p, n: f'"{self.sel.voltage_set:.3f},{self.sel.current_limit:.4f}"',
         )
         for pattern, attr in (
@@ -407,19 +411,19 @@ class SelectSupply(MultiSupply):
             ("[SOURce:]VOLTage:PROTection[:LEVel]", "ovp_level"),
             ("[SOURce:]CURRent:PROTection[:LEVel]", "ocp_level"),
         ):
-            setter, getter = level(attr)
+            setter, getter = self._level(attr)
             tree.add(pattern, set=setter, query=getter)
-        setter, getter = flag("ocp_on")
+        setter, getter = self._flag("ocp_on")
         tree.add("[SOURce:]CURRent:PROTection:STATe", set=setter, query=getter)
         for node, attr in (("VOLTage", "ovp_tripped"), ("CURRent", "ocp_tripped")):
-            tree.add(f"[SOURce:]{node}:PROTection:TRIPped", query=flag(attr)[1])
-            tree.add(f"[SOURce:]{node}:PROTection:CLEar", set=clear(attr))
+            tree.add(f"[SOURce:]{node}:PROTection:TRIPped", query=self._flag(attr)[1])
+            tree.add(f"[SOURce:]{node}:PROTection:CLEar", set=self._clear(attr))
         tree.add(
             "[SOURce:]VOLTage:SENSe[:SOURce]",
-            set=sense,
+            set=self._sense,
             query=lambda s, p, n: "EXT" if self.sel.sense_remote else "INT",
         )
-        setter, getter = flag("output_on")
+        setter, getter = self._flag("output_on")
         tree.add("OUTPut[:STATe]", set=setter, query=getter)
         tree.add(
             "MEASure[:SCALar]:VOLTage[:DC]", query=lambda s, p, n: self.measured(self.sel, "V")
@@ -427,5 +431,5 @@ class SelectSupply(MultiSupply):
         tree.add(
             "MEASure[:SCALar]:CURRent[:DC]", query=lambda s, p, n: self.measured(self.sel, "I")
         )
-        tree.add("STATus:QUEStionable:INSTrument:ISUMmary<n>:CONDition", query=summary)
+        tree.add("STATus:QUEStionable:INSTrument:ISUMmary<n>:CONDition", query=self._summary)
         self.add_sim_commands(tree)

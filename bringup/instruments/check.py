@@ -168,74 +168,45 @@ def _start(role: str, session: InstrumentSession, runner: _Runner) -> bool:
     return True
 
 
+_SUPPLY_READS = (
+    "voltage_setpoint",
+    "current_limit",
+    "ovp_level",
+    "ovp_tripped",
+    "ocp_level",
+    "ovp_enabled",
+    "ocp_enabled",
+    "ocp_tripped",
+    "sense_state",
+    "measure_voltage",
+    "measure_current",
+    "regulation_status",
+    "regulation_mode",
+)
+
+
 def check_supply(session: InstrumentSession, supply: Any) -> list[CheckRow]:
     """Rows for the supply reached through ``supply`` (a ``Supply`` driver on ``session``)."""
     from bringup.instruments.supply import Supply
 
     assert isinstance(supply, Supply)
-    fields = supply._fields()
-    runner = _Runner("supply", session, fields)
+    runner = _Runner("supply", session, supply._fields())
     if not _start("supply", session, runner):
         return runner.rows
     select = supply._select if session.profile.has("select_channel") else None
     if session.profile.has("select_channel"):
         runner.command("select_channel")
     ok, on = runner.query("output_state", select)
+    why = ""
     if not ok or on:
         why = "the output is ON: the board is powered, left as found" if on else ""
         why = why or "the output state could not be read: nothing is set"
-    else:
-        why = ""
     readings: dict[str, Any] = {}
-    for operation in (
-        "voltage_setpoint",
-        "current_limit",
-        "ovp_level",
-        "ovp_tripped",
-        "ocp_level",
-        "ovp_enabled",
-        "ocp_enabled",
-        "ocp_tripped",
-        "sense_state",
-        "measure_voltage",
-        "measure_current",
-        "regulation_status",
-        "regulation_mode",
-    ):
+    for operation in _SUPPLY_READS:
         ok, value = runner.query(operation, select)
         if ok:
             readings[operation] = value
-    word = session.profile.word
-    writes: list[tuple[str, dict[str, Any], tuple[str, ...]]] = [
-        ("set_voltage", {"volts": readings.get("voltage_setpoint")}, ("voltage_setpoint",)),
-        ("set_current_limit", {"amps": readings.get("current_limit")}, ("current_limit",)),
-        (
-            "apply",
-            {"volts": readings.get("voltage_setpoint"), "amps": readings.get("current_limit")},
-            ("voltage_setpoint", "current_limit"),
-        ),
-        ("set_ovp", {"volts": readings.get("ovp_level")}, ("ovp_level",)),
-        ("set_ocp", {"amps": readings.get("ocp_level")}, ("ocp_level",)),
-        (
-            "ovp_enable",
-            {"state": word("on" if readings.get("ovp_enabled") else "off")},
-            ("ovp_enabled",),
-        ),
-        (
-            "ocp_enable",
-            {"state": word("on" if readings.get("ocp_enabled") else "off")},
-            ("ocp_enabled",),
-        ),
-        (
-            "sense",
-            {"sense": _sense_word(session.profile, readings.get("sense_state"))},
-            ("sense_state",),
-        ),
-        ("ovp_clear", {}, ("ovp_tripped",)),
-        ("ocp_clear", {}, ("ocp_tripped",)),
-        ("output", {"state": word("off")}, ()),
-    ]
-    for operation, values, needs in writes:
+    for operation, values, needs in _supply_writes(session.profile, readings):
         if operation in runner.done or runner.skip_absent(operation):
             continue
         if why:  # found ON: not even OFF is sent (someone powered the board on purpose)
@@ -249,20 +220,50 @@ def check_supply(session: InstrumentSession, supply: Any) -> list[CheckRow]:
             runner.row(operation, NOT_TRIED, note="tripped: left latched (clear it by hand)")
             continue
         runner.command(operation, select, **values)
-    # the check never turns anything on; confirm the output is as it was
     if not on:
-        try:
-            if supply.output_is_on():
-                from bringup.instruments.safety import make_safe
-
-                make_safe(supply)
-                runner.rows.append(
-                    CheckRow("supply", "output", FAILED, note="output read ON: switched OFF")
-                )
-        except BringupError as exc:
-            runner.rows.append(CheckRow("supply", "output_state", FAILED, note=str(exc)))
+        _confirm_off(runner, supply)
     _rest(runner)
     return runner.rows
+
+
+def _supply_writes(
+    profile: Profile, readings: dict[str, Any]
+) -> list[tuple[str, dict[str, Any], tuple[str, ...]]]:
+    """Each set command with the value read back before (operation, fields, reads it needs):
+    written back as read, nothing changes. The only ``output`` sent is the OFF word."""
+    word = profile.word
+
+    def switch(read: str) -> dict[str, Any]:
+        return {"state": word("on" if readings.get(read) else "off")}
+
+    volts, amps = readings.get("voltage_setpoint"), readings.get("current_limit")
+    return [
+        ("set_voltage", {"volts": volts}, ("voltage_setpoint",)),
+        ("set_current_limit", {"amps": amps}, ("current_limit",)),
+        ("apply", {"volts": volts, "amps": amps}, ("voltage_setpoint", "current_limit")),
+        ("set_ovp", {"volts": readings.get("ovp_level")}, ("ovp_level",)),
+        ("set_ocp", {"amps": readings.get("ocp_level")}, ("ocp_level",)),
+        ("ovp_enable", switch("ovp_enabled"), ("ovp_enabled",)),
+        ("ocp_enable", switch("ocp_enabled"), ("ocp_enabled",)),
+        ("sense", {"sense": _sense_word(profile, readings.get("sense_state"))}, ("sense_state",)),
+        ("ovp_clear", {}, ("ovp_tripped",)),
+        ("ocp_clear", {}, ("ocp_tripped",)),
+        ("output", {"state": word("off")}, ()),
+    ]
+
+
+def _confirm_off(runner: _Runner, supply: Any) -> None:
+    """The check never turns anything on: confirm the output found OFF is still OFF."""
+    try:
+        if supply.output_is_on():
+            from bringup.instruments.safety import make_safe
+
+            make_safe(supply)
+            runner.rows.append(
+                CheckRow("supply", "output", FAILED, note="output read ON: switched OFF")
+            )
+    except BringupError as exc:
+        runner.rows.append(CheckRow("supply", "output_state", FAILED, note=str(exc)))
 
 
 def _sense_word(profile: Profile, state: Any) -> str | None:
