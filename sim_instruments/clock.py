@@ -149,3 +149,8 @@ def add_board_commands(tree: CommandTree, board: SharedBoard) -> None:
         "SIMulation:TIME:SCALe", set=time_scale, query=lambda s, p, n: format_nr3(board.clock.scale)
     )
     tree.add("SIMulation:TIME[:NOW]", query=lambda s, p, n: format_nr3(board.clock.now()))
+
+    def time_advance(session, params, n):
+        board.clock.advance(_number(one_param(params), 0.0, MAX_TIME_SCALE))
+
+    tree.add("SIMulation:TIME:ADVance", set=time_advance)

@@ -93,3 +93,9 @@ class SimulationControl:
     def time_scale(self) -> float:
         """Simulated seconds per real second."""
         return self._scope.query_number("SIM:TIME:SCAL?")
+
+    def advance_time(self, seconds: float) -> None:
+        """Jump simulated time forward by ``seconds`` (the clock held at scale 0 is stepped)."""
+        if not seconds >= 0:
+            raise InputError(f"simulated time only moves forward, not by {seconds!r} s")
+        self._set(self._scope, f"SIM:TIME:ADV {seconds:.9g}")

@@ -7,6 +7,7 @@ Every instrument call goes through ``bringup.instruments``; nothing here talks S
 from __future__ import annotations
 
 import tempfile
+import time
 from pathlib import Path
 
 from bringup.boards.board_file import Board
@@ -41,6 +42,42 @@ def local_utc_offset() -> str:
     minutes = int(offset.total_seconds() // 60)
     sign = "-" if minutes < 0 else "+"
     return f"{sign}{abs(minutes) // 60:02d}:{abs(minutes) % 60:02d}"
+
+
+class SoakClock:
+    """Bench time for a soak log, seconds since the soak started.
+
+    On a real bench it is wall time. On a simulated bench the simulator's clock is held
+    (scale 0) and stepped by exactly one interval after each wall-clock wait, so the log's
+    sampling instants are exact however loaded the host is: with a wall-timed log at a 600x
+    speed-up, 20 ms of scheduling delay becomes 12 s of bench time at the wrong instant, which
+    bends the fit and leaves a healthy soak "undecided". The pace a person sees is unchanged
+    (one interval / scale of wall time per reading); ``release`` restores the speed-up.
+    """
+
+    def __init__(self, scale: float, sim=None) -> None:
+        self._scale = scale
+        self._sim = sim
+        self._start = time.monotonic()
+        self._stepped_s = 0.0
+
+    def elapsed_s(self) -> float:
+        """Bench seconds since the soak started."""
+        if self._sim is not None:
+            return self._stepped_s
+        return (time.monotonic() - self._start) * self._scale
+
+    def tick(self, interval_s: float) -> None:
+        """One reading interval has been waited for: step a held simulator clock by it."""
+        if self._sim is not None:
+            self._sim.advance_time(interval_s)
+            self._stepped_s += interval_s
+
+    def release(self) -> None:
+        """Give the simulator its speed-up back (a no-op on a real bench)."""
+        if self._sim is not None:
+            sim, self._sim = self._sim, None
+            sim.set_time_scale(self._scale)
 
 
 class BenchLink:
@@ -137,6 +174,14 @@ class BenchLink:
         if self.bench.simulation is None:
             return 1.0
         return float(self.bench.simulation.time_scale())
+
+    def soak_clock(self, scale: float) -> SoakClock:
+        """The clock a soak log is stamped with (see ``SoakClock``)."""
+        sim = self.bench.simulation
+        if sim is None or scale <= 0:
+            return SoakClock(scale)
+        sim.set_time_scale(0.0)  # held: the soak steps it by each interval
+        return SoakClock(scale, sim)
 
     # ---------------------------------------------------------------- hands (sim)
     def play_hands(self, step: Step, plan: StepPlan) -> None:

@@ -143,21 +143,30 @@ def _ramp(ctx: _Context, powered, supply: dict) -> None:
 def _soak(ctx: _Context, bench, powered) -> None:
     """Log the heatsink temperature, refit as it comes in, stop once the prediction settles
     (never before the minimum duration) or when the operator says so after that."""
-    from bringup.analysis.soak import fit_soak
-    from bringup.errors import AnalysisError
-
     soak = ctx.plan.settings["soak"]
     target = ctx.board.targets.get("heatsink_final")
     band = target.uncertainty if target is not None else 1.0
     limit = target.limit.max if target is not None else None
     scale = bench.time_scale()
     bench.configure_thermometer()
-    start = time.monotonic()
+    clock = bench.soak_clock(scale)
     times, temps, finals = ctx.data.soak_times_s, ctx.data.soak_temps_c, []
+    try:
+        _soak_log(ctx, bench, powered, soak, clock, scale, band, limit, times, temps, finals)
+    finally:
+        clock.release()
+
+
+def _soak_log(ctx: _Context, bench, powered, soak, clock, scale, band, limit, times, temps,
+              finals) -> None:  # fmt: skip
+    """The soak's reading loop (see ``_soak``); ``clock`` gives the bench time of each reading."""
+    from bringup.analysis.soak import fit_soak
+    from bringup.errors import AnalysisError
+
     fit = None
     while True:
         ctx.check()
-        elapsed = (time.monotonic() - start) * scale
+        elapsed = clock.elapsed_s()
         temps.append(bench.read_temperature_c())
         times.append(elapsed)
         if len(temps) >= 8 and len(temps) % _REFIT_EVERY == 0:
@@ -190,6 +199,7 @@ def _soak(ctx: _Context, bench, powered) -> None:
         if ctx.finish.is_set() and elapsed >= soak["min_duration_s"]:
             return
         ctx.wait(soak["interval_s"] / scale)
+        clock.tick(soak["interval_s"])
 
 
 def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
