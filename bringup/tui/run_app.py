@@ -42,14 +42,19 @@ def run_app(launcher: Any, *, open_new: dict | None = None, resume: Any = None) 
             launcher.close()
     if app.crash_message:
         where = _keep_detail(launcher, app.crash_detail)
-        print(
-            f"bringup: error: {app.crash_message} (the supply was switched off){where}",
-            file=sys.stderr,
-        )
-        print(app.carry_on(), file=sys.stderr)
+        _say(f"bringup: error: {app.crash_message} (the supply was switched off){where}")
+        _say(app.carry_on())
         return 2
-    print(app.carry_on(), file=sys.stderr)  # every way out says how to carry on
+    _say(app.carry_on())  # every way out says how to carry on
     return int(status or 0)
+
+
+def _say(line: str) -> None:
+    """One line on stderr; a terminal that is gone (SIGHUP: closed, link lost) is no error."""
+    try:
+        print(line, file=sys.stderr, flush=True)
+    except (OSError, ValueError):
+        pass
 
 
 def _keep_detail(launcher: Any, detail: str) -> str:
