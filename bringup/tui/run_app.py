@@ -7,7 +7,10 @@ simulated bench the launcher started) run before the process leaves.
 
 from __future__ import annotations
 
+import os
 import sys
+import threading
+import time
 from pathlib import Path
 from typing import Any
 
@@ -29,6 +32,8 @@ def run_app(launcher: Any, *, open_new: dict | None = None, resume: Any = None) 
         if link is not None:
             link.runner.abort(stop.reason)
         app.call_later(app.exit, stop.exit_status)
+        threading.Thread(target=_last_resort, args=(app, launcher, stop.exit_status),
+                         name="bringup-last-resort", daemon=True).start()  # fmt: skip
 
     try:
         with SignalGuard(leave, raise_stop=False):
@@ -47,6 +52,27 @@ def run_app(launcher: Any, *, open_new: dict | None = None, resume: Any = None) 
         return 2
     _say(app.carry_on())  # every way out says how to carry on
     return int(status or 0)
+
+
+#: Seconds the notebook may take to close after a signal before it is ended without Textual.
+LAST_RESORT_S = 10.0
+
+
+def _last_resort(app: Any, launcher: Any, status: int) -> None:
+    """After a signal the supply is already OFF (confirmed) and the abort logged; the app is
+    asked to exit. Textual can hang closing a terminal that is gone (SIGHUP: its writer thread
+    stops on the lost terminal and the driver waits for it forever), so if the process is still
+    here after ``LAST_RESORT_S`` it closes the session (idempotent: supply OFF, instruments and
+    log closed) and leaves with the signal's status. A step that had not finished is found
+    interrupted, and logged so, when the bench is next opened."""
+    time.sleep(LAST_RESORT_S)
+    try:
+        app.shutdown()
+    finally:
+        try:
+            launcher.close()
+        finally:
+            os._exit(status)
 
 
 def _say(line: str) -> None:
