@@ -13,7 +13,8 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         "sessions",
         help="list the sessions in the log",
         description="List the sessions in the log: id, board, serial, progress, overall "
-        "verdict, last activity. Reads the log only; never changes it.",
+        "verdict (marked 'rehearsal' for a session on a simulated bench), last activity. "
+        "Reads the log only; never changes it.",
     )
     parser.add_argument("--db", metavar="PATH", help="session log (default: your data directory)")
     parser.add_argument("--json", action="store_true", help="a JSON list of objects")
@@ -34,6 +35,9 @@ def _row(s) -> dict:
         "checklist": s.checklist_id,
         "state": s.state,
         "verdict": s.verdict or "not-started",
+        # a simulated bench's session: a rehearsal, whatever its verdict; no board was measured
+        "rehearsal": s.rehearsal,
+        "bench": "simulated" if s.rehearsal else "real",
         "finished": s.finished,
         "steps_done": s.steps_done,
         "steps_total": s.steps_total,
@@ -71,7 +75,7 @@ def run(args: argparse.Namespace) -> int:
     if not rows:
         print(f"no sessions in {path}")
         return 0
-    head = f"{'id':<12} {'board':<34} {'serial':<12} {'progress':>8}  {'verdict':<16} last activity"
+    head = f"{'id':<12} {'board':<34} {'serial':<12} {'progress':>8}  {'verdict':<22} last activity"
     print(head)
     for r in rows:
         total = r["steps_total"] if r["steps_total"] is not None else "?"
@@ -80,6 +84,7 @@ def run(args: argparse.Namespace) -> int:
         if r["altered"]:
             names = ", ".join(line.split(":", 1)[0] for line in r["altered"])
             state += f" [summary columns edited outside bringup: {names}; shown from the chain]"
+        verdict = f"rehearsal: {r['verdict']}" if r["rehearsal"] else r["verdict"]
         print(f"{r['id']:<12} {board[:34]:<34} {r['serial']:<12} {r['steps_done']:>4}/{total:<3}  "
-              f"{r['verdict']:<16} {r['last_activity']}{state}")  # fmt: skip
+              f"{verdict:<22} {r['last_activity']}{state}")  # fmt: skip
     return 0

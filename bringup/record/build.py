@@ -1,4 +1,4 @@
-"""The record's content, built from one session of the log (schema ``bringup-record/1``).
+"""The record's content, built from one session of the log (schema ``bringup-record/2``).
 
 Only what the log's hash chain covers goes into the content: the session's snapshot (board,
 checklist, bench, serial, operator: the chain's genesis) and its attempts and events. The
@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 
 from bringup.record.compare import content_digest, seal_of
+from bringup.record.schemas import RECORD_SCHEMA, REHEARSAL_OVERALL, content_as
 from bringup.record.signing import open_item
 from bringup.record.snapshot_reading import (
     bench_view,
@@ -27,7 +28,6 @@ from bringup.store.entries import AttemptRecord, EventRecord, SessionData
 
 __all__ = ["RECORD_SCHEMA", "build_content", "assemble_record", "step_statuses", "stamp"]
 
-RECORD_SCHEMA = "bringup-record/1"
 
 #: Outcomes that accept a measurement (ILAC-G8 §4.2: inside the limits).
 _ACCEPTED = ("pass", "conditional-pass")
@@ -302,9 +302,10 @@ def _session_state(data: SessionData) -> tuple[str, str | None]:
     return state, ended
 
 
-def _summary(stages: list[dict]) -> dict:
+def _summary(stages: list[dict], rehearsal: bool) -> dict:
     """The overall outcome, the count of each step status, the open items and the exceptions
-    (waivers and skips, each with who and why)."""
+    (waivers and skips, each with who and why). A rehearsal (a simulated bench) that passed is
+    ``rehearsed``, never ``accepted``: no board was accepted."""
     counts: dict[str, int] = {}
     open_items, exceptions = [], []
     for stage in stages:
@@ -330,6 +331,8 @@ def _summary(stages: list[dict]) -> dict:
         overall = "accepted-with-exceptions"
     else:
         overall = "accepted"
+    if rehearsal:
+        overall = REHEARSAL_OVERALL.get(overall, overall)
     return {"overall": overall, "counts": counts, "open_items": open_items,
             "exceptions": exceptions}  # fmt: skip
 
@@ -374,6 +377,7 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
     state, ended = _session_state(data)
     timeline = data.timeline
     last = timeline[-1].recorded_utc if timeline else summary.created_utc
+    bench = bench_view(data.bench, data.attempts)
     return {
         "session": {
             "id": summary.id,
@@ -384,13 +388,14 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
             "started": stamp(summary.created_utc, offset),
             "ended": stamp(ended or last, offset),
             "finished": ended is not None,
+            "rehearsal": bool(bench["simulated"]),
         },
         "board": _board(data, board_snap, targets),
         "checklist": _checklist(data, checklist),
-        "bench": bench_view(data.bench, data.attempts),
+        "bench": bench,
         "stages": stages,
         "events": [_event(e, offset) for e in _entries_by_step(data)[2]],
-        "summary": _summary(stages),
+        "summary": _summary(stages, bool(bench["simulated"])),
         "log": {
             "chain_head": data.chain_head,
             "genesis_hash": data.genesis_hash,
@@ -432,10 +437,12 @@ def _step(
     return step
 
 
-def assemble_record(content: dict, signatures: list[dict]) -> dict:
-    """The exported record: schema, content, seal (diagnostic digests) and signatures."""
+def assemble_record(content: dict, signatures: list[dict], schema: str = RECORD_SCHEMA) -> dict:
+    """The exported record: schema, content (as ``schema`` holds it: ``content_as``), seal
+    (diagnostic digests) and signatures."""
+    content = content_as(content, schema)
     return {
-        "schema": RECORD_SCHEMA,
+        "schema": schema,
         "content": content,
         "seal": seal_of(content),
         "signatures": sorted(signatures, key=lambda s: (s.get("signed_at", ""), s.get("role", ""))),

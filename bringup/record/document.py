@@ -20,10 +20,12 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
+from bringup.record.schemas import REHEARSAL_OVERALL, is_rehearsal
 from bringup.record.view import (
     GENERAL_CAUTIONS,
     OUTCOME_WORDS,
     OVERALL_WORDS,
+    REHEARSAL_MARK,
     Trace,
     checklist_label,
     comparison_rows,
@@ -62,8 +64,9 @@ class Heading:
 
 @dataclass(frozen=True)
 class Paragraph:
-    """Running text. ``kind``: "plain", "strong" (a lead-in), "outcome" (the overall verdict)
-    or "caution" (``lead`` names where the caution comes from)."""
+    """Running text. ``kind``: "plain", "strong" (a lead-in), "outcome" (the overall verdict),
+    "rehearsal" (the simulated bench's mark) or "caution" (``lead`` names where the caution
+    comes from)."""
 
     text: str
     kind: str = "plain"
@@ -123,7 +126,8 @@ class Section:
 
 @dataclass(frozen=True)
 class Document:
-    """The whole record as blocks, with what every page repeats (``running_head``, ``digest``)."""
+    """The whole record as blocks, with what every page repeats (``running_head``, ``digest``
+    and, for a session on a simulated bench, ``rehearsal``: the mark every page carries)."""
 
     title: str
     running_head: str
@@ -135,6 +139,7 @@ class Document:
     times_utc: tuple[str, ...]
     sections: tuple[Section, ...] = field(default_factory=tuple)
     closing: str = ""
+    rehearsal: str | None = None
 
 
 def _text(value: Any, default: str = "") -> str:
@@ -148,6 +153,7 @@ def _summary(content: dict, signatures: list[dict], digest: str) -> Section:
     pairs = (
         ("Board", f"{_text(board.get('name'), '-')} rev {_text(board.get('revision'), '-')}"),
         ("Serial number", _text(session.get("serial"), "-")),
+        ("Bench", "simulated: a rehearsal" if is_rehearsal(content) else "real instruments"),
         ("Session", _text(session.get("id"), "-")),
         ("Checklist", checklist_label(content.get("checklist", {}))),
         ("Operators", ", ".join(map(str, session.get("operators") or [])) or "-"),
@@ -158,7 +164,11 @@ def _summary(content: dict, signatures: list[dict], digest: str) -> Section:
         ("Log chain head", _text((content.get("log") or {}).get("chain_head"), "-")),
     )
     overall = summary.get("overall", "incomplete")
+    rehearsal = is_rehearsal(content)
+    if rehearsal:  # a bringup-record/1 content says "accepted" for a rehearsal too
+        overall = REHEARSAL_OVERALL.get(overall, overall)
     blocks: list[Block] = [
+        *([Paragraph(REHEARSAL_MARK, "rehearsal")] if rehearsal else []),
         Paragraph(f"Outcome: {OVERALL_WORDS.get(overall, overall)}", "outcome"),
         Table(None, pairs, (45, 145)),
         Heading("Open items", 3),
@@ -415,9 +425,12 @@ def build_document(record: dict) -> Document:
         *(_stage(s) for s in content.get("stages", [])),
         _identity(record, content, digest),
     )
+    rehearsal = is_rehearsal(content)
+    kind = "Rehearsal record" if rehearsal else "Bring-up record"
     return Document(
-        title=f"Bring-up record {serial}, {_text(board.get('name'))}",
-        running_head=f"Bring-up record  |  serial {serial or '-'}  |  {board_text}  |  "
+        title=f"{kind} {serial}, {_text(board.get('name'))}",
+        rehearsal=REHEARSAL_MARK if rehearsal else None,
+        running_head=f"{'REHEARSAL  |  ' if rehearsal else ''}Bring-up record  |  serial {serial or '-'}  |  {board_text}  |  "
         f"session {session_id or '-'}",
         digest=digest,
         serial=serial,

@@ -42,6 +42,7 @@ th{background:#efece4}
 .tag{font-weight:bold;padding:0 .3rem;border:1px solid #555;border-radius:3px}
 .tag-accepted{background:#dcefe0}.tag-rejected{background:#f6d4cf}
 .tag-waived,.tag-skipped{background:#f5e9c8}.tag-unfinished,.tag-not-started{background:#e4e4e4}
+.rehearsal{font-weight:bold;background:#fde3d0;border:2px dashed #963;padding:.3rem .6rem}
 .overall{font-size:1.1rem;font-weight:bold;border:2px solid #333;padding:.4rem .6rem}
 .caution{border-left:5px solid #8a5a00;background:#fbf3e2;padding:.3rem .6rem;margin:.3rem 0}
 figure{margin:.5rem 0;break-inside:avoid}
@@ -93,6 +94,8 @@ def _paragraph(p: Paragraph) -> str:
     if p.kind == "caution":
         lead = f"<b>{_e(p.lead)}:</b> " if p.lead else ""
         return f'<p class="caution">{lead}{_e(p.text)}</p>'
+    if p.kind == "rehearsal":
+        return f'<p class="rehearsal">{_e(p.text)}</p>'
     if p.kind == "outcome":
         return f'<p class="overall">{_e(p.text)}</p>'
     if p.kind == "strong":
@@ -138,6 +141,11 @@ def render_html(record: dict) -> str:
         '<html lang="en"><head><meta charset="utf-8">',
         f"<title>{_e(doc.title)}</title>",
         f"<style>{_CSS}</style></head><body>",
+        *(
+            [f'<p class="rehearsal" id="rehearsal">{_e(doc.rehearsal)}</p>']
+            if doc.rehearsal
+            else []
+        ),
         f"<h1>{_e(doc.title)}</h1>",
         *(_section(s) for s in doc.sections),
         f"<footer>{_e(doc.closing)}</footer>",

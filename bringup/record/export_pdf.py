@@ -86,7 +86,7 @@ def _date_of(doc: Document) -> datetime:
     return datetime(2000, 1, 1, tzinfo=UTC)
 
 
-def _make_document(identity: str, digest: str) -> Any:
+def _make_document(identity: str, digest: str, mark: str | None = None) -> Any:
     from fpdf import FPDF
 
     class _Record(FPDF):
@@ -94,21 +94,28 @@ def _make_document(identity: str, digest: str) -> Any:
             self.set_font("Helvetica", "", 8)
             self.set_text_color(60, 60, 60)
             self.cell(0, 5, _latin1(identity, multiline=False), new_x="LMARGIN", new_y="NEXT")
+            if mark is not None:  # a rehearsal says so on every page, top and bottom
+                self.set_font("Helvetica", "B", 9)
+                self.set_text_color(150, 40, 0)
+                self.cell(0, 5, _latin1(mark, multiline=False), new_x="LMARGIN", new_y="NEXT")
+                self.set_text_color(60, 60, 60)
             self.set_draw_color(150, 150, 150)
             self.line(self.l_margin, self.get_y(), self.w - self.r_margin, self.get_y())
             self.ln(2)
             self.set_text_color(0, 0, 0)
 
         def footer(self) -> None:
-            self.set_y(-12)
+            self.set_y(-12 if mark is None else -16)
             self.set_font("Helvetica", "", 7)
             self.set_text_color(60, 60, 60)
+            if mark is not None:
+                self.cell(0, 4, _latin1(mark, multiline=False), new_x="LMARGIN", new_y="NEXT")
             self.cell(0, 4, f"content SHA-256 {digest}", new_x="LMARGIN", new_y="NEXT")
             self.cell(0, 4, f"page {self.page_no()} of {{nb}}", align="R")
             self.set_text_color(0, 0, 0)
 
     pdf = _Record(format="A4")
-    pdf.set_auto_page_break(True, margin=16)
+    pdf.set_auto_page_break(True, margin=16 if mark is None else 20)
     pdf.alias_nb_pages()
     return pdf
 
@@ -137,7 +144,7 @@ def _paragraph(pdf: Any, p: Paragraph) -> None:
     if p.kind == "caution":
         _para(pdf, f"CAUTION ({p.lead}): {p.text}" if p.lead else f"CAUTION: {p.text}")
     else:
-        _para(pdf, p.text, "B" if p.kind in ("outcome", "strong") else "")
+        _para(pdf, p.text, "B" if p.kind in ("outcome", "strong", "rehearsal") else "")
 
 
 def _table(pdf: Any, table: Table) -> None:
@@ -169,7 +176,7 @@ def _figure(pdf: Any, figure: Figure) -> None:
     svg = svg.replace(svg[svg.index("<title>") : svg.index("</title>") + 8], "")
     svg = _latin1(svg)
     height = 190 * 220 / 640
-    if pdf.get_y() + height > pdf.h - 18:
+    if pdf.get_y() + height > pdf.h - pdf.b_margin - 2:
         pdf.add_page()
     y = pdf.get_y()
     logging.getLogger("fpdf.svg").setLevel(logging.ERROR)
@@ -207,7 +214,7 @@ def _section(pdf: Any, section: Section) -> None:
 def render_pdf(record: dict) -> bytes:
     """The PDF bytes of an exported record (``{"schema", "content", "seal", "signatures"}``)."""
     doc = build_document(record)
-    pdf = _make_document(doc.running_head, doc.digest)
+    pdf = _make_document(doc.running_head, doc.digest, doc.rehearsal)
     pdf.set_creation_date(_date_of(doc))
     pdf.set_title(_latin1(f"Bring-up record {doc.serial}"))
     pdf.set_author(_latin1(", ".join(doc.operators)))

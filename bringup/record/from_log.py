@@ -21,6 +21,7 @@ from bringup.errors import BringupError
 from bringup.record.build import assemble_record, build_content
 from bringup.record.compare import content_digest
 from bringup.record.keys import KeyPair, load_private_key
+from bringup.record.schemas import READABLE_SCHEMAS, RECORD_SCHEMA, content_as
 from bringup.record.signing import SignOffRefused, make_signature, open_items
 from bringup.store.entries import AttemptRecord, SessionData, SignatureRecord
 from bringup.store.log import SessionLog
@@ -70,6 +71,19 @@ def content_from_log(log: SessionLog, session_id: str) -> tuple[dict, SessionDat
     return build_content(data, load), data
 
 
+def schema_of(content: dict, signatures: list[SignatureRecord]) -> str:
+    """The schema a session's record is written in: today's, unless its sign-offs were all
+    made on the content an earlier schema built (``signatures.content_digest``), so that a
+    session signed before a schema change exports to a record its signatures still verify."""
+    if not signatures:
+        return RECORD_SCHEMA
+    signed = {s.content_digest for s in signatures}
+    for schema in READABLE_SCHEMAS:
+        if signed <= {content_digest(content_as(content, schema))}:
+            return schema
+    return RECORD_SCHEMA
+
+
 def check_chain(log: SessionLog, session_id: str, doing: str) -> None:
     """Refuse ``doing`` (``"export"``, ``"sign-off"``) unless the session's chain re-hashes.
 
@@ -95,7 +109,8 @@ def record_from_log(log: SessionLog, session: str) -> dict:
     session_id = log.resolve_session(session)
     check_chain(log, session_id, "export")
     content, data = content_from_log(log, session_id)
-    return assemble_record(content, [signature_entry(s) for s in data.signatures])
+    schema = schema_of(content, data.signatures)
+    return assemble_record(content, [signature_entry(s) for s in data.signatures], schema)
 
 
 def _person(name: str) -> str:
@@ -151,9 +166,11 @@ def sign_session(
             f"session {session_id}: sign-off refused, {len(items)} open: " + "; ".join(items)
         )
     _check_signer(session_id, pair, role, data.signatures)
+    schema = schema_of(content, data.signatures)  # one record: the sign-offs share a schema
+    content = content_as(content, schema)
     moment = now or _dt.datetime.now(_dt.UTC)
     signed_at = moment.astimezone(_dt.UTC).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
-    entry = make_signature(content, pair, role, signed_at)
+    entry = make_signature(content, pair, role, signed_at, schema)
     log.add_signature(
         session_id,
         name=entry["name"],

@@ -3,7 +3,7 @@
 A signature is an Ed25519 signature (RFC 8032) over the canonical JSON (RFC 8785 form, see
 ``canonical``) of a small statement::
 
-    {"purpose": "bringup-record/1 sign-off",
+    {"purpose": "bringup-record/2 sign-off",  (the record's schema, then " sign-off")
      "content": <the record's content>,
      "signer": {"name", "role", "signed_at", "key_fingerprint"}}
 
@@ -24,6 +24,7 @@ from cryptography.exceptions import InvalidSignature
 from bringup.errors import BringupError
 from bringup.record.keys import KeyPair, fingerprint, public_key_from_raw
 from bringup.record.rfc8785 import canonical_bytes
+from bringup.record.schemas import RECORD_SCHEMA, sign_purpose
 
 __all__ = [
     "ROLES",
@@ -37,21 +38,26 @@ __all__ = [
 ]
 
 ROLES = ("operator", "reviewer")
-SIGN_PURPOSE = "bringup-record/1 sign-off"
+SIGN_PURPOSE = sign_purpose(RECORD_SCHEMA)
 
 
 class SignOffRefused(BringupError):
     """The session has open items (unfinished steps, failures without a waiver)."""
 
 
-def signed_message(content: dict, signer: dict) -> bytes:
-    """The exact bytes a signature covers (see the module docstring)."""
+def signed_message(content: dict, signer: dict, schema: str = RECORD_SCHEMA) -> bytes:
+    """The exact bytes a signature covers (see the module docstring); ``schema`` is the
+    record's (a ``bringup-record/1`` signature states that schema's purpose)."""
     fields = {k: signer[k] for k in ("name", "role", "signed_at", "key_fingerprint")}
-    return canonical_bytes({"purpose": SIGN_PURPOSE, "content": content, "signer": fields})
+    purpose = sign_purpose(schema)
+    return canonical_bytes({"purpose": purpose, "content": content, "signer": fields})
 
 
-def make_signature(content: dict, pair: KeyPair, role: str, signed_at: str) -> dict:
-    """A signature entry for ``content`` by ``pair`` in ``role`` at ``signed_at`` (UTC text)."""
+def make_signature(
+    content: dict, pair: KeyPair, role: str, signed_at: str, schema: str = RECORD_SCHEMA
+) -> dict:
+    """A signature entry for ``content`` (a ``schema`` record's) by ``pair`` in ``role`` at
+    ``signed_at`` (UTC text)."""
     if role not in ROLES:
         raise BringupError(f"--role: unknown role {role!r} (expected {' or '.join(ROLES)})")
     public = pair.public
@@ -61,7 +67,7 @@ def make_signature(content: dict, pair: KeyPair, role: str, signed_at: str) -> d
         "signed_at": signed_at,
         "key_fingerprint": public.fingerprint,
     }
-    sig = pair.private.sign(signed_message(content, signer))
+    sig = pair.private.sign(signed_message(content, signer, schema))
     return {
         **signer,
         "algorithm": "Ed25519",
@@ -88,8 +94,11 @@ def _b64(text: Any) -> bytes | None:
         return None
 
 
-def check_signature(content: dict, entry: Any, index: int) -> SignatureCheck:
-    """Check one signature entry against ``content``: key, fingerprint, signature bytes."""
+def check_signature(
+    content: dict, entry: Any, index: int, schema: str = RECORD_SCHEMA
+) -> SignatureCheck:
+    """Check one signature entry against ``content`` of a ``schema`` record: key,
+    fingerprint, signature bytes."""
     if not isinstance(entry, dict):
         return SignatureCheck(f"signature {index + 1}", ("is not an object",), None)
     label = f"signature {index + 1} ({entry.get('role', '?')} {entry.get('name', '?')})"
@@ -123,7 +132,7 @@ def check_signature(content: dict, entry: Any, index: int) -> SignatureCheck:
         problems.append("signature is not base64")
     else:
         try:
-            key.verify(sig, signed_message(content, entry))
+            key.verify(sig, signed_message(content, entry, schema))
         except InvalidSignature:
             problems.append(
                 "does not verify: the content or the signer fields changed since signing"

@@ -12,7 +12,7 @@ import hashlib
 import tomllib
 from typing import Any
 
-from bringup.store.entries import AttemptRecord
+from bringup.store.entries import AttemptRecord, rehearsal_bench
 
 __all__ = ["bench_view", "checklist_file", "step_definitions", "text_digest"]
 
@@ -98,12 +98,8 @@ def bench_view(bench: dict | None, attempts: list[AttemptRecord]) -> dict:
                 if isinstance(c, dict)
             ]
         instruments.append(inst)
-    simulation = bench.get("simulation")
-    simulated = bench.get("kind") == "simulated" or (
-        isinstance(simulation, dict) and bool(simulation.get("enabled"))
-    )
     return {
-        "simulated": simulated,
+        "simulated": rehearsal_bench(bench),
         "instruments": instruments,
         "other": {k: v for k, v in bench.items() if k not in roles},
     }

@@ -17,10 +17,10 @@ from pathlib import Path
 from typing import Any
 
 from bringup.errors import InputError
-from bringup.record.build import RECORD_SCHEMA
 from bringup.record.compare import diagnose_seal, diff_content
 from bringup.record.keys import PublicKey
 from bringup.record.rfc8785 import NotCanonicalError, canonical_bytes
+from bringup.record.schemas import READABLE_SCHEMAS, content_as
 from bringup.record.signing import check_signature
 
 __all__ = ["read_record", "verify_record", "record_bytes"]
@@ -129,10 +129,10 @@ def read_record(path: str | Path) -> tuple[dict, bytes]:
     except NotCanonicalError as exc:
         # bringup never writes such a value (an integer beyond 2**53, say): not a record.
         raise InputError(f"{path}: not a record ({exc})") from None
-    if record.get("schema") != RECORD_SCHEMA:
+    if record.get("schema") not in READABLE_SCHEMAS:
         raise InputError(
-            f"{path}: schema {record.get('schema')!r} is not {RECORD_SCHEMA!r}; "
-            "this bringup reads only that one"
+            f"{path}: schema {record.get('schema')!r} is not one this bringup reads "
+            f"({', '.join(READABLE_SCHEMAS)})"
         )
     return record, data
 
@@ -147,14 +147,16 @@ def _check_form(record: dict, data: bytes) -> list[str]:
     return []
 
 
-def _check_signatures(content: dict, signatures: Any, trusted: list[PublicKey]) -> list[str]:
+def _check_signatures(
+    content: dict, signatures: Any, trusted: list[PublicKey], schema: str
+) -> list[str]:
     if not isinstance(signatures, list) or not signatures:
         return ["signatures: the record carries no signature (sign it with `bringup sign`)"]
     findings = []
     trusted_raw = {k.raw: k for k in trusted}
     seen: dict[bytes, tuple[int, str]] = {}  # raw key -> (first signature number, its role)
     for i, entry in enumerate(signatures):
-        result = check_signature(content, entry, i)
+        result = check_signature(content, entry, i, schema)
         findings += [f"{result.label}: {p}" for p in result.problems]
         if trusted and result.raw_public_key is not None:
             known = trusted_raw.get(result.raw_public_key)
@@ -192,12 +194,12 @@ def verify_record(
     ``log`` is an open ``SessionLog`` to compare with; ``trusted`` the public keys the
     signatures must come from (none given: any key that verifies is accepted and named).
     """
-    content = record["content"]
+    content, schema = record["content"], str(record.get("schema"))
     findings = _check_form(record, data)
     findings += [f"content: {f}" for f in diagnose_seal(content, record.get("seal"))]
-    findings += _check_signatures(content, record.get("signatures"), trusted or [])
+    findings += _check_signatures(content, record.get("signatures"), trusted or [], schema)
     if log is not None:
-        findings += _check_log(content, log)
+        findings += _check_log(content, log, schema)
         findings += _check_log_signatures(record.get("signatures"), content, log)
     return findings
 
@@ -241,7 +243,7 @@ def _check_log_signatures(signatures: Any, content: dict, log: Any) -> list[str]
     return findings
 
 
-def _check_log(content: dict, log: Any) -> list[str]:
+def _check_log(content: dict, log: Any, schema: str) -> list[str]:
     from bringup.errors import StoreError
     from bringup.record.from_log import content_from_log
 
@@ -251,6 +253,7 @@ def _check_log(content: dict, log: Any) -> list[str]:
     try:
         report = log.verify_chain(session_id)
         fresh, _ = content_from_log(log, session_id)
+        fresh = content_as(fresh, schema)  # a record of an earlier schema holds that content
         # The sessions row's state and verdict columns are outside the chain: an edit there
         # breaks no link, so it is compared with what the chain says.
         edited = log.summary_disagreements(session_id)

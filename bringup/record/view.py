@@ -20,6 +20,7 @@ __all__ = [
     "STATUS_WORDS",
     "OUTCOME_WORDS",
     "OVERALL_WORDS",
+    "REHEARSAL_MARK",
     "Trace",
     "comparison_rows",
     "decode_trace",
@@ -58,7 +59,13 @@ OVERALL_WORDS = {
     "accepted-with-exceptions": "ACCEPTED WITH EXCEPTIONS: waived or skipped steps, see below",
     "rejected": "NOT ACCEPTED: a step failed and carries no waiver",
     "incomplete": "INCOMPLETE: steps not finished",
+    # a simulated bench's session: no board was measured, so nothing was accepted
+    "rehearsed": "REHEARSAL PASSED: every step passed on a simulated bench; no board accepted",
+    "rehearsed-with-exceptions": "REHEARSAL PASSED WITH EXCEPTIONS: waived or skipped steps on "
+    "a simulated bench; no board accepted",
 }
+#: what every page of a rehearsal's record says (PDF header and footer, HTML banner)
+REHEARSAL_MARK = "REHEARSAL on a simulated bench: not a record of a board"
 GENERAL_CAUTIONS = (
     "The bench carries hazardous voltage and stored energy: bus capacitors stay charged after "
     "the supply is off. Check they are discharged before touching the board.",

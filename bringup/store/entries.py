@@ -34,6 +34,17 @@ EVENT_KINDS = (
 )  # fmt: skip
 
 
+def rehearsal_bench(bench: Any) -> bool:
+    """True when a logged bench snapshot is a simulated bench's: ``kind`` "simulated" (one the
+    runner started) or a ``simulation`` table with ``enabled`` true (a bench file's)."""
+    if not isinstance(bench, dict):
+        return False
+    simulation = bench.get("simulation")
+    return bench.get("kind") == "simulated" or (
+        isinstance(simulation, dict) and simulation.get("enabled") is True
+    )
+
+
 @dataclass(frozen=True)
 class SessionSummary:
     """One line of ``bringup sessions``.
@@ -64,6 +75,9 @@ class SessionSummary:
     #: stored listing columns that disagree with the chain (``derived.disagreements``): a
     #: sign that the ``sessions`` row was edited; empty when they agree
     altered: tuple[str, ...] = ()
+    #: the session ran on a simulated bench (``rehearsal_bench``): whatever it judged, no
+    #: board was measured
+    rehearsal: bool = False
 
     @property
     def finished(self) -> bool:

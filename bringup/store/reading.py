@@ -40,6 +40,7 @@ from bringup.store.entries import (
     SessionData,
     SessionSummary,
     SignatureRecord,
+    rehearsal_bench,
 )
 from bringup.store.opening import translate
 from bringup.store.waveforms import StoredWaveform, codes_digest, decode_codes
@@ -218,6 +219,7 @@ class LogReading:
             attempts=attempts,
             last_activity_utc=derived.last_activity_utc,
             altered=tuple(disagreements(row, derived)),
+            rehearsal=_rehearsal_of(row),
         )
 
     def sessions(self) -> list[SessionSummary]:
@@ -431,9 +433,23 @@ class LogReading:
 
 # The ``sessions`` columns a listing shows or checks (not the snapshots: see
 # ``_checklist_texts``).
+def _rehearsal_of(row: dict[str, Any]) -> bool:
+    """True when the session's bench snapshot is a simulated bench's (``rehearsal_bench``):
+    from the listing's ``rehearsal`` column, or the whole row's ``bench_json``."""
+    if "rehearsal" in row:
+        return bool(row["rehearsal"])
+    try:
+        return rehearsal_bench(loads(row.get("bench_json") or "null"))
+    except ValueError:
+        return False
+
+
 _LISTING_COLUMNS = (
     "id, created_utc, board_name, board_revision, serial, operator, checklist_id, "
-    "state, verdict, stage_verdicts_json, finished_utc"
+    "state, verdict, stage_verdicts_json, finished_utc, "
+    # a session on a simulated bench is a rehearsal (the rule of ``rehearsal_bench``)
+    "(CASE WHEN json_valid(bench_json) THEN (json_extract(bench_json, '$.kind') IS 'simulated' "
+    "OR json_extract(bench_json, '$.simulation.enabled') IS 1) ELSE 0 END) AS rehearsal"
 )
 _SHARED = object()  # key of a checklist id's shared snapshot text in ``_checklist_texts``
 # ``ENTRY_ROWS_SQL``'s columns for every session at once: each table read in its stored order

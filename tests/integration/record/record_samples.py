@@ -82,9 +82,10 @@ BENCH = {
         "profile": "simtherm",
         "calibration_due": "2027-01-15",
     },
-    "simulation": {"enabled": True},
     "utc_offset": "+01:00",
 }
+#: the same bench as a simulated one: a session on it is a rehearsal
+SIMULATED_BENCH = {**BENCH, "simulation": {"enabled": True}}
 
 IDN = {
     "scope": "NULLPOINT,SIMSCOPE-4,SN0042,1.0",
@@ -189,14 +190,21 @@ def _times(k: int) -> tuple[dt.datetime, dt.datetime]:
     return end - dt.timedelta(milliseconds=5), end
 
 
-def write_session(db: Path, *, complete: bool = True, waive: bool = True, seed: int = 7) -> Session:
-    """Write the demo session into ``db``; ``complete=False`` stops before the last stages."""
+def write_session(
+    db: Path, *, complete: bool = True, waive: bool = True, seed: int = 7, simulated: bool = False
+) -> Session:
+    """Write the demo session into ``db``; ``complete=False`` stops before the last stages;
+    ``simulated``: on a simulated bench (a rehearsal)."""
     rng = np.random.default_rng(seed)
     board = board_snapshot()
     serial = "DHS24-0117"
     with SessionLog.open(db) as log:
         sid = log.create_session(
-            board=board, checklist=CHECKLIST, bench=BENCH, serial=serial, operator="R. Okafor"
+            board=board,
+            checklist=CHECKLIST,
+            bench=SIMULATED_BENCH if simulated else BENCH,
+            serial=serial,
+            operator="R. Okafor",
         )
         k = 0
 

@@ -52,7 +52,8 @@ def _changed(capsys: pytest.CaptureFixture[str]) -> list[str]:
 
 def test_record_holds_what_was_logged(session: Session, tmp_path: Path) -> None:
     record = json.loads(_export(session, tmp_path / "r.json").read_text())
-    assert record["schema"] == "bringup-record/1"
+    assert record["schema"] == "bringup-record/2"
+    assert record["content"]["session"]["rehearsal"] is False  # a bench of real instruments
     c = record["content"]
     assert c["session"]["serial"] == "DHS24-0117"
     assert (
