@@ -29,6 +29,12 @@ SCENARIOS = (
 )
 
 
+def _sim_text(source) -> str:
+    """'sim bench (healthy, clock ×20)': the scenario and how fast the simulated thermal clock
+    runs (simulated seconds per real second), so a soak's pace is explained on screen."""
+    return f"sim bench ({source.scenario}, clock ×{source.time_scale:g})"
+
+
 class Launcher:
     """Opens sessions in the log at ``db_path`` (None = the default log).
 
@@ -128,10 +134,11 @@ class Launcher:
         name = scenario or "healthy"
         if name not in SCENARIOS:
             raise InputError(f"--scenario {name}: unknown (one of {', '.join(SCENARIOS)})")
-        text = f"sim bench ({name})"
         if self.sim_time_scale is None:
-            return BenchSource.simulated(name), text
-        return BenchSource.simulated(name, time_scale=self.sim_time_scale), text
+            source = BenchSource.simulated(name)
+        else:
+            source = BenchSource.simulated(name, time_scale=self.sim_time_scale)
+        return source, _sim_text(source)
 
     def new_session(
         self,
@@ -174,7 +181,7 @@ class Launcher:
         runner = SessionRunner.resume(str(session_id), db_path=self.db_path)
         source = runner.bench_source
         if source.is_simulated:
-            text = f"sim bench ({source.scenario})"
+            text = _sim_text(source)
         else:
             text = f"bench {Path(source.path).name}"
         return SessionLink(runner, text)

@@ -193,3 +193,23 @@ async def test_rail_ripple_is_a_band_with_its_peak_to_peak_and_distinct_axis_lab
         dots = [any(0x2801 <= ord(ch) <= 0x28FF for ch in row.split("┤", 1)[1]) for row in rows]
         assert not dots[0] and not dots[-1] and any(dots), dots
         await pilot.press("q")
+
+
+@sync
+async def test_the_demo_soak_runs_at_a_pace_a_person_can_watch_and_says_so(log_path):
+    from bringup.checklist.load import load_checklist
+    from bringup.commands.demo import DEMO_TIME_SCALE
+
+    soak = load_checklist().step("thermal.soak").soak
+    # the standard soak's minimum and longest durations in wall seconds at the demo's pace:
+    # tens of seconds to watch the prediction narrow before t may end it, a minute at most
+    assert 20.0 <= soak.min_duration_s / DEMO_TIME_SCALE <= soak.duration_s / DEMO_TIME_SCALE
+    assert soak.duration_s / DEMO_TIME_SCALE <= 120.0
+    values = {"board": "demo", "checklist": None, "bench_file": None, "scenario": "healthy",
+              "serial": "DHS24-0135", "operator": "tester"}  # fmt: skip
+    app = BringupApp(Launcher(log_path, sim_time_scale=DEMO_TIME_SCALE), open_new=values)
+    async with app.run_test(size=(160, 45)) as pilot:
+        screen = await wait_for_session(pilot)
+        header = str(screen.query_one("#titlebar").render())
+        assert f"clock ×{DEMO_TIME_SCALE:g}" in header, header  # the time scale, on screen
+        await pilot.press("q")

@@ -371,6 +371,11 @@ class SessionScreen(StepActions, Screen[None]):
             self.say(
                 "Soaking until the prediction settles. t: finish early and judge the prediction "
                 "(not before the minimum soak); x: abandon the soak, supply off."
+                + (
+                    "  Simulated bench: its clock runs as the header says (×N = N s of soak per s)."
+                    if self.link.simulated
+                    else ""
+                )
             )
         else:
             self.say("Acquiring: x stops and puts the bench in its safe state.")
