@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import threading
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from typing import TYPE_CHECKING
 
 from bringup.analysis.quantities import format_quantity, parse_quantity
@@ -306,6 +306,36 @@ def _judge(ctx: _Context, out: AnalysisOutput) -> tuple[str, tuple[MetricResult,
     return state, tuple(results)
 
 
+def _diagnose(
+    ctx: _Context,
+    out: AnalysisOutput,
+    state: str,
+    metrics: tuple[MetricResult, ...],
+    earlier: Mapping[str, float],
+) -> dict:
+    """The diagnosis (``bringup.analysis.diagnosis``) of a step that failed or whose metric
+    disagrees with its prediction by more than its uncertainty, as a dict; {} otherwise. Kept
+    in ``out.details["diagnosis"]`` too, so the log and the record hold it with the attempt."""
+    from bringup.analysis.diagnosis import diagnose
+
+    flagged = tuple(m.id for m in metrics if m.outcome in ("fail", "conditional-fail")
+                    or m.disagreement)  # fmt: skip
+    if state not in ("fail", "conditional-fail") and not flagged:
+        return {}
+    board, step = ctx.board, ctx.step
+    target = board.targets.get("vgs_end")
+    floor = target.limit.min if target is not None and target.limit.min is not None else None
+    pwm = ctx.plan.settings.get("pwm") or {}
+    found = diagnose(step.analysis, {m.id: m.measured for m in metrics}, board.design,
+                     failed=flagged, predicted={m.id: m.predicted for m in metrics
+                                                if m.predicted is not None},
+                     earlier=earlier, floor_v=floor, loaded=bool(pwm.get("enabled")))  # fmt: skip
+    if found is None:
+        return {}
+    out.details["diagnosis"] = found.to_dict()
+    return out.details["diagnosis"]
+
+
 class StepExecutor:
     """Runs attempts on the bench and logs them: owns the open bench (opened on first use)
     and the stop flag that every running step checks.
@@ -378,12 +408,14 @@ class StepExecutor:
         finish: threading.Event | None,
         on_progress: Callable[[Progress], None] | None,
         notes: str = "",
+        earlier: Mapping[str, float] | None = None,
     ) -> AttemptResult:
         """Run one attempt of ``step`` and log it (see the module docstring); ``attempt_no()``
         numbers it once the bench is open (opening may log an interrupted attempt first).
 
         A terminating signal (``SignalStop``) is logged as an interrupted attempt, then raised
-        again for the command to finish its way out."""
+        again for the command to finish its way out. ``earlier``: the latest values of other
+        steps' metrics this session, evidence for a diagnosis."""
         from bringup.instruments.faults import InstrumentFault
         from bringup.runner.stop_signals import SignalStop
 
@@ -395,6 +427,7 @@ class StepExecutor:
         message = fault = ""
         state = "not-run"
         metrics: tuple[MetricResult, ...] = ()
+        diagnosis: dict = {}
         out = AnalysisOutput()
         signalled: SignalStop | None = None
         try:
@@ -407,6 +440,7 @@ class StepExecutor:
                 out = analyse(step.analysis, ctx.data, self.board)
                 ctx.warnings.extend(out.warnings)
                 state, metrics = _judge(ctx, out)
+                diagnosis = _diagnose(ctx, out, state, metrics, earlier or {})
         except StepStopped as exc:
             message = f"not run: {exc}; supply switched off"
         except InstrumentFault as exc:
@@ -440,6 +474,7 @@ class StepExecutor:
             notes=str(notes or "").strip(),
             fault=fault,
             absorbed=absorbed,
+            diagnosis=diagnosis,
         )
         stored = self.recorder.store(step, result, ctx.raw, out)
         if signalled is not None:

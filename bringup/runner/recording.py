@@ -226,6 +226,7 @@ def attempt_from_record(record, step: Step) -> AttemptResult:
         soak=soak,
         fault=str(extra.get("fault") or ""),
         absorbed=tuple(extra.get("absorbed") or ()),
+        diagnosis=dict((extra.get("details") or {}).get("diagnosis") or {}),
     )
 
 

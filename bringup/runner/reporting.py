@@ -6,7 +6,7 @@ from bringup.analysis.quantities import format_quantity
 from bringup.runner.results import AttemptResult
 from bringup.runner.session import SessionRunner
 
-__all__ = ["attempt_lines", "summary_json", "PASSING"]
+__all__ = ["attempt_lines", "diagnosis_lines", "summary_json", "PASSING"]
 
 #: Overall states that count as "everything passed" for the exit status.
 PASSING = ("pass", "conditional-pass", "waived")
@@ -30,14 +30,29 @@ def attempt_lines(index: int, total: int, result: AttemptResult) -> list[str]:
         lines.append(f"        ! {warning}")
     for fault in result.absorbed:
         lines.append(f"        ! fault got past: {fault}")
+    lines.extend(f"        {line}" for line in diagnosis_lines(result.diagnosis))
+    return lines
+
+
+def diagnosis_lines(diagnosis: dict) -> list[str]:
+    """A stored diagnosis (``AttemptResult.diagnosis``) as plain lines: its notes, then each
+    cause ranked, its evidence and the check to make at the bench."""
+    if not diagnosis:
+        return []
+    lines = [f"? diagnosis: {n}" for n in diagnosis.get("notes") or ()]
+    for k, cause in enumerate(diagnosis.get("causes") or (), 1):
+        lines.append(f"? cause {k}: {cause.get('title', '')}")
+        lines.extend(f"      {e}" for e in cause.get("evidence") or ())
+        lines.append(f"      check: {cause.get('check', '')}")
     return lines
 
 
 def summary_json(runner: SessionRunner, results: list[AttemptResult] | None = None) -> dict:
     """``{"session": ID, "verdict": ..., "stages": [{"id": ..., "verdict": ...}, ...],
     "attempts": [...]}``; ``attempts`` lists ``results`` (this run's attempts): step, attempt
-    number, state, message, the instrument ``fault`` that ended it ("" if none) and the faults
-    ``absorbed`` by a retry or a switch-off during it."""
+    number, state, message, the instrument ``fault`` that ended it ("" if none), the faults
+    ``absorbed`` by a retry or a switch-off during it and the ``diagnosis`` of a failed step
+    (None when there is none)."""
     return {
         "session": runner.session_id,
         "verdict": runner.verdict(),
@@ -50,6 +65,7 @@ def summary_json(runner: SessionRunner, results: list[AttemptResult] | None = No
                 "message": r.message,
                 "fault": r.fault,
                 "absorbed": list(r.absorbed),
+                "diagnosis": r.diagnosis or None,
             }  # fmt: skip
             for r in results or ()
         ],

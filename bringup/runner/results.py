@@ -269,6 +269,9 @@ class AttemptResult:
     is 2 when one did); ``absorbed``: faults a retry or a switch-off got past during the
     attempt (a late reply sent again, a dropped connection reopened, an error found in the
     queue), one line each: the attempt stood, but they are logged and shown with it.
+    ``diagnosis``: for a failed step (or a metric far from its prediction), the likely causes
+    ranked with their evidence and the next bench check (``Diagnosis.to_dict()`` of
+    ``bringup.analysis.diagnosis``: "summary", "notes", "causes"); {} when there is none.
     """
 
     step_id: str
@@ -289,6 +292,7 @@ class AttemptResult:
     soak: SoakProgress | None = None
     fault: str = ""
     absorbed: tuple[str, ...] = ()
+    diagnosis: dict = field(default_factory=dict)
 
     def metric(self, metric_id: str) -> MetricResult:
         """The metric with id ``metric_id``; KeyError if the attempt has none."""

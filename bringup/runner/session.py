@@ -302,8 +302,12 @@ class SessionRunner:
                 with self._lock:
                     return self.state.attempt_count(step_id) + 1
 
+            with self._lock:
+                # Other steps' latest values: evidence for a diagnosis (the rail unloaded...).
+                earlier = {m.id: m.measured for a in self.state.attempts() if a.step_id != step_id
+                           for m in a.metrics if m.measured is not None}  # fmt: skip
             result = self.executor.execute(step, attempt_no, answers, cancel, finish,
-                                           on_progress, notes)  # fmt: skip
+                                           on_progress, notes, earlier)  # fmt: skip
             with self._lock:
                 self.state.add(result)
                 self._update_listing()
