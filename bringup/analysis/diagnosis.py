@@ -205,6 +205,14 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
             "no on-time is supported (the 0 s reading); the capacitor charges to about "
             f"{_q(charged, 'V')} ({_q(vdrv, 'V')} rail less the diode drop)"
         )
+        if start < charged:
+            # Charge sharing at turn-on (SLUA887, dV = Q_G / C): the step bounds C from below.
+            notes.append(
+                f"Vgs starts {_q(charged - start, 'V')} below that: the gate's "
+                f"{_q(q_gate, 'C')} alone would take a {_q(capacitance_from_step(q_gate, charged - start), 'F')} "
+                "capacitor down that far (dV = Q_G / C); a larger capacitor means it did not "
+                "recharge fully in the off-time"
+            )
     # Lower bounds on C from the step at turn-on (charge sharing): the deficit below the charged
     # level holds Q_G / C and possibly an incomplete recharge, so C >= Q_G / deficit.
     bounds: list[tuple[float, str]] = []
@@ -220,6 +228,10 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
     c_eff = effective_capacitance(i_design, rate)
     i_eff = drain_current(c_design, rate)
     c_min, c_min_from = max(bounds, default=(0.0, ""))
+    # The capacitor alone is refuted when the turn-on step already needs clearly more C than the
+    # sag allows with the design's current (by _REFUTE: a datasheet's typical Q_G and the
+    # diode drop are good to some tens of %): then the current is the finding.
+    refuted = c_min > _REFUTE * c_eff
     rate_txt = f"Vgs sags at {_q(rate, 'V/s')} ({_q(droop, 'V')} over {_q(t_on, 's')})"
     small_c = Cause(
         "bootstrap_capacitance",
@@ -230,7 +242,7 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
          f"C = I / (dV/dt) with the design's drain current {_q(i_design, 'A')} gives "
          f"{_q(c_eff, 'F')}",
          *((f"but the step at turn-on ({c_min_from}) needs C >= {_q(c_min, 'F')} "
-            f"(C >= Q_G / dV with Q_G {_q(q_gate, 'C')})",) if c_min > c_eff else ())),
+            f"(C >= Q_G / dV with Q_G {_q(q_gate, 'C')})",) if refuted else ())),
         "read the bootstrap capacitor's marking and measure it out of circuit with an LCR meter "
         f"(design {_q(c_design, 'F')}); a ceramic's DC-bias derating at 12 V can halve it, so "
         "check its voltage rating and dielectric too",
@@ -248,20 +260,24 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
          f"I = C * dV/dt with the design's {_q(c_design, 'F')} gives {_q(i_eff, 'A')}",
          *((f"the step at turn-on ({c_min_from}) needs C >= {_q(c_min, 'F')}, so a "
             f"{_q(c_eff, 'F')} capacitor cannot explain the sag: the current is too large",)
-           if c_min > c_eff else ())),
+           if refuted else ())),
         "with the board unpowered and the bootstrap capacitor discharged, measure the "
         "resistance from the high-side MOSFET's gate to its source (design: the "
         f"{_q(d.get('gate_source_pulldown'), 'ohm')} pull-down); a low reading is a wrong "
         "pull-down or a leaking gate, driver or bootstrap diode (lift one end to tell which)",
         {"drain_current_a": i_eff, "gate_source_resistance_ohm": r_eq},
     )  # fmt: skip
-    # The capacitor alone is refuted when the turn-on step already needs more C than the sag
-    # allows with the design's current: then the current is the finding.
-    if c_min > c_eff:
+    if refuted:
         causes = (_weighted(leak, 0.8), _weighted(small_c, 0.2))
     else:
         causes = (_weighted(small_c, 0.6), _weighted(leak, 0.4))
     return Diagnosis("droop", causes, tuple(notes))
+
+
+#: How far (factor) the turn-on step's lower bound on C must exceed the C the sag implies with
+#: the design's current before the small-capacitor reading is refuted (common practice: the
+#: first-order charge balance and a datasheet's typical gate charge are good to tens of %).
+_REFUTE = 1.5
 
 
 def _weighted(c: Cause, w: float) -> Cause:
