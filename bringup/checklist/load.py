@@ -6,10 +6,16 @@ Format (``checklists/high-side-bootstrap.toml`` is the shipped standard checklis
     [checklist]                      id, title (or name), version, description
     [stages.ID]                      title, purpose          (stages run in file order)
     [stages.ID.steps.KEY]            title, instructions, analysis (required);
-                                     cautions, confirm, reading, pwm, supply, targets, report
+                                     cautions, confirm, reading, pwm, supply, targets, report,
+                                     gate
     [stages.ID.steps.KEY.scope]      points, duration, pretrigger, trigger = {net, level, slope}
     [stages.ID.steps.KEY.scope.nets] NET = {range, offset, coupling, bandwidth_limit, probe}
     [stages.ID.steps.KEY.soak]       duration, interval, min_duration
+
+``gate = true`` marks a step as a safety gate (the first-power ramp and the rail checks of the
+standard checklist): it cannot be skipped, only waived after it failed (by someone other than the
+operator), and every later energising prompt names each earlier gate that was waived or has not
+passed. Default ``false``.
 
 Quantities are strings in engineering notation or ``"design.KEY"`` / ``"1.5 * design.KEY"``.
 Each problem is one ``ConfigError`` naming the file, the key and its line.
@@ -81,6 +87,7 @@ _STEP = {
     "soak": False,
     "targets": False,
     "report": False,
+    "gate": False,
 }
 _SCOPE = {"points": True, "duration": True, "pretrigger": False, "trigger": False, "nets": True}
 _TRIGGER = {"net": True, "level": True, "slope": False}
@@ -319,6 +326,7 @@ def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
         soak=soak,
         targets=targets,
         report=report,
+        gate=_bool(doc, (*keys, "gate"), t["gate"]) if "gate" in t else False,
     )
     check_step_settings(doc, step, None)
     return step

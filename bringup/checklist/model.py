@@ -144,6 +144,9 @@ class Step:
     soak: SoakSetup | None = None
     targets: tuple[str, ...] = ()
     report: tuple[str, ...] = ()
+    #: a safety gate: never skipped, only waived after a failure; later energising prompts
+    #: name it while it is waived or not passed
+    gate: bool = False
 
 
 @dataclass(frozen=True)

@@ -232,6 +232,12 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
         # the temperature log (on a sped-up simulated clock that gap would be minutes).
         import scipy.optimize  # noqa: F401
     ctx.check()
+    if plan.energise is not None and plan.energise.unmet_gates:
+        # Logged with the attempt and printed by the headless run: powered past a gate.
+        ctx.warnings.append(
+            "energised with earlier safety gate(s) waived or not passed: "
+            + "; ".join(plan.energise.unmet_gates)
+        )
     ctx.emit("energising", plan.energise.prompt if plan.energise else "supply on")
     # logged before the output goes ON: if this process dies mid-step (SIGKILL, power cut),
     # the next opening of the bench knows which step was running (bringup.runner.recovery)

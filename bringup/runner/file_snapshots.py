@@ -31,7 +31,10 @@ def checklist_snapshot(checklist: Checklist) -> dict:
             {
                 "id": s.id,
                 "title": s.title,
-                "steps": [{"id": st.key, "title": st.title} for st in s.steps],
+                "steps": [
+                    {"id": st.key, "title": st.title, **({"gate": True} if st.gate else {})}
+                    for st in s.steps
+                ],
             }
             for s in checklist.stages
         ],

@@ -5,6 +5,8 @@ Pure: no instrument is touched. The plan is shown before the step runs and logge
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from bringup.analysis.quantities import format_quantity
 from bringup.boards.board_file import Board
 from bringup.checklist.model import Step
@@ -110,14 +112,35 @@ def _energise(step: Step, design: dict[str, float]) -> EnergisePlan | None:
     return EnergisePlan(volts, amps, ramp, prompt, notice.text, notice.level.name)
 
 
+def _with_gates(energise: EnergisePlan, gates: tuple[tuple[Step, str], ...]) -> EnergisePlan:
+    """The energising plan naming each earlier safety gate that is waived or not passed."""
+    if not gates:
+        return energise
+    named = tuple(f"{gate.title} ({gate.id}): {state}" for gate, state in gates)
+    prompt = (
+        f"{energise.prompt} WARNING: {len(named)} earlier safety gate(s) waived or not passed: "
+        + "; ".join(named)
+        + "."
+    )
+    return replace(energise, prompt=prompt, unmet_gates=named)
+
+
 def plan_step(
-    step: Step, board: Board, bench: BenchSource, probe_kinds: dict[int, str] | None = None
+    step: Step,
+    board: Board,
+    bench: BenchSource,
+    probe_kinds: dict[int, str] | None = None,
+    gates: tuple[tuple[Step, str], ...] = (),
 ) -> StepPlan:
     """Resolve ``step`` for ``board``: what will be set, acquired and asked. ``probe_kinds``:
-    the kind of probe on each scope channel (default ``DEFAULT_PROBE_KINDS``)."""
+    the kind of probe on each scope channel (default ``DEFAULT_PROBE_KINDS``); ``gates``: the
+    earlier safety gates waived or not passed, with their states (the energising prompt names
+    them)."""
     design = board.design
     channels = _channels(step, design, dict(probe_kinds or DEFAULT_PROBE_KINDS))
     energise = _energise(step, design)
+    if energise is not None:
+        energise = _with_gates(energise, gates)
     warnings: list[str] = []
     if step.scope is not None and any(c.probe == "math" for c in step.scope.captures):
         common = design["bus_voltage"]
@@ -190,10 +213,13 @@ class Planner:
     """Plans the steps of one board on one bench: ``plan(step)``. The probes the open bench
     really has replace the default layout once known (``use_probes``)."""
 
-    def __init__(self, board: Board, bench: BenchSource) -> None:
+    def __init__(self, board: Board, bench: BenchSource, gates=None) -> None:
+        """``gates(step_id)``: the earlier safety gates waived or not passed, with their states
+        (``SessionState.gates_before``); None = none known."""
         self.board = board
         self.bench = bench
         self._kinds: dict[int, str] | None = None
+        self._gates = gates
 
     def use_probes(self, probe_kinds: dict[int, str]) -> None:
         """The kind of probe on each scope channel of the open bench."""
@@ -201,4 +227,5 @@ class Planner:
 
     def plan(self, step: Step) -> StepPlan:
         """``step`` resolved for this board and bench (see ``plan_step``)."""
-        return plan_step(step, self.board, self.bench, self._kinds)
+        gates = self._gates(step.id) if self._gates is not None else ()
+        return plan_step(step, self.board, self.bench, self._kinds, gates)

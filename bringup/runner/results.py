@@ -132,7 +132,9 @@ class EnergisePlan:
     to ``voltage_v``). ``hazard`` is the instrument layer's notice
     (``bringup.instruments.safety.hazard_for``) when the highest voltage the step sets is above
     60 V DC, else None; ``hazard_level`` its level, "CAUTION" (above 60 V DC) or "DANGER"
-    (above 120 V DC), else None.
+    (above 120 V DC), else None. ``unmet_gates`` names each earlier safety gate (``gate =
+    true`` in the checklist) that was waived or has not passed, as ``"<title> (<step id>):
+    <state>"``; the prompt ends with them, so nobody powers the board past a gate unawares.
     """
 
     voltage_v: float
@@ -141,6 +143,7 @@ class EnergisePlan:
     prompt: str
     hazard: str | None
     hazard_level: str | None = None
+    unmet_gates: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -96,7 +96,7 @@ class SessionRunner:
         self.operator = operator
         self.bench_source = bench
         self.state = SessionState(checklist)
-        self.planner = Planner(board, bench)
+        self.planner = Planner(board, bench, self.state.gates_before)
         self.recorder = Recorder(log, session_id, session_lock)
         self._lock = threading.RLock()  # the state, and the log through the recorder
         self._run_lock = threading.Lock()  # one step at a time

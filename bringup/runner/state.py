@@ -121,6 +121,18 @@ class SessionState:
                 return step.id
         return None
 
+    def gates_before(self, step_id: str) -> tuple[tuple[Step, str], ...]:
+        """Each safety gate before ``step_id`` that is waived or has not passed, with its state
+        (``waived``, ``fail``, ``not-started``, ...), in checklist order."""
+        found = []
+        for step in self._checklist.steps():
+            if step.id == step_id:
+                break
+            state = self.state(step.id)
+            if step.gate and state not in ("pass", "conditional-pass"):
+                found.append((step, state))
+        return tuple(found)
+
     def complete(self) -> bool:
         """True when every step is accepted (passed, waived or skipped)."""
         return all(self.state(s.id) in ACCEPTED for s in self._checklist.steps())
@@ -140,10 +152,16 @@ class SessionState:
                 )
 
     def check_skip(self, step_id: str) -> None:
-        """A failed step cannot be skipped: it is waived or retaken."""
+        """A failed step cannot be skipped: it is waived or retaken. A safety gate (``gate =
+        true`` in the checklist) is never skipped: it is run, and waived only after it failed."""
         if self.state(step_id) in FAILED:
             raise RunnerError(
                 f"step {step_id} failed: waive it with a reason and a name, or retake it"
+            )
+        if self._checklist.step(step_id).gate:
+            raise RunnerError(
+                f"step {step_id} is a safety gate: it cannot be skipped; run it (a failure may "
+                "then be waived by someone other than the operator)"
             )
 
     def check_waive(self, step_id: str) -> None:

@@ -44,7 +44,7 @@ import sqlite_utils
 
 from bringup.errors import StoreError
 from bringup.store import chain
-from bringup.store.chain_json import dumps, now_utc, to_plain
+from bringup.store.chain_json import dumps, loads, now_utc, to_plain
 from bringup.store.content import (
     attempt_content,
     metric_rows,
@@ -427,7 +427,8 @@ class SessionLog(LogReading):
         Kinds (``EVENT_KINDS``) and their rules:
 
         - ``skip``: a step, with a ``reason``; refused for a step whose latest outcome is a
-          failure (waive it or retake it instead: a failure is never hidden by a skip);
+          failure (waive it or retake it instead: a failure is never hidden by a skip) and
+          for a step the checklist snapshot marks ``"gate": true`` (a safety gate);
         - ``waive``: a step whose latest outcome is ``fail`` or ``conditional-fail``, with a
           ``reason``; ``operator`` is the name of the person who waives it, who must not be
           the session's operator nor the ``payload``'s ``recorded_by`` (a waiver is a second
@@ -463,6 +464,11 @@ class SessionLog(LogReading):
                 _check_waiver(session_id, operator, session["operator"], payload_plain)
             if kind in ("skip", "waive"):
                 self._check_skip_or_waive_locked(session_id, kind, stage_id, step_id)
+            if kind == "skip" and _is_gate(loads(session["checklist_json"]), stage_id, step_id):
+                raise StoreError(
+                    f"step {stage_id}/{step_id} is a safety gate: it cannot be skipped; run "
+                    "it (a failure may then be waived by someone other than the operator)"
+                )
             seq, previous = self._chain_tail(session_id, session["genesis_hash"])
             seq += 1
             recorded = now_utc()
@@ -575,3 +581,14 @@ def _check_waiver(session_id: str, name: str, operator: str, payload: Any) -> No
                 f"session {session_id}: {name!r} runs this session and cannot waive its "
                 "failures: a waiver is given by someone else (their name)"
             )
+
+
+def _is_gate(checklist: Any, stage_id: str, step_id: str) -> bool:
+    """True when the session's checklist snapshot marks the step ``gate`` (a safety gate)."""
+    stages = checklist.get("stages") if isinstance(checklist, dict) else None
+    for stage in stages if isinstance(stages, list) else ():
+        if isinstance(stage, dict) and stage.get("id") == stage_id:
+            for step in stage.get("steps") or ():
+                if isinstance(step, dict) and step.get("id") == step_id:
+                    return step.get("gate") is True
+    return False

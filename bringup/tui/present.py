@@ -219,7 +219,8 @@ def detail_view(plan: Any, state: str, soak: bool) -> StepDetail:
     energise = None
     if plan.energise is not None:
         e = plan.energise
-        energise = Energise(e.voltage_v, e.current_limit_a, tuple(e.ramp_v), e.prompt, e.hazard)
+        energise = Energise(e.voltage_v, e.current_limit_a, tuple(e.ramp_v), e.prompt, e.hazard,
+                            tuple(e.unmet_gates))  # fmt: skip
     kind = "soak" if soak else ("reading" if plan.reading_prompt else "waveform")
     return StepDetail(
         id=plan.step_id,

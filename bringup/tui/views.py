@@ -53,6 +53,8 @@ class Energise:
     ramp_v: tuple[float, ...] = ()
     prompt: str = ""
     hazard: str | None = None
+    #: earlier safety gates waived or not passed ("<title> (<step id>): <state>")
+    unmet_gates: tuple[str, ...] = ()
 
     @property
     def hazardous(self) -> bool:

@@ -64,19 +64,21 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
             pilot, lambda: "ground spring on CH1" in str(screen.query_one("#notes-list").render())
         )
 
-        # a skip needs a reason: an empty one is refused, then one is given
+        # the rail checks are safety gates: a skip is refused (the runner's words), the step
+        # is run instead
         await pilot.press("j")
         await wait_until(pilot, lambda: screen.viewed == "power-rails.rails-unloaded")
         await pilot.press("s")
         await wait_until(pilot, lambda: isinstance(app.screen, ReasonPrompt))
-        await pilot.press("enter")
-        assert isinstance(app.screen, ReasonPrompt)
         await _type(pilot, "scope busy on another bench")
         await pilot.press("enter")
         await wait_until(pilot, lambda: isinstance(app.screen, SessionScreen))
-        # the notebook moves on to the next step by itself, once the skip is logged
+        await wait_until(pilot, lambda: "safety gate" in str(screen.query_one("#status").render()))
+        assert screen.link.current_step_id() == "power-rails.rails-unloaded"
+        await take_step(pilot)
+        await wait_until(pilot, lambda: screen.link.current_step_id() == "power-rails.logic-meter")
+        await pilot.press("j")
         await wait_until(pilot, lambda: screen.viewed == "power-rails.logic-meter")
-        assert screen.link.current_step_id() == "power-rails.logic-meter"
         # the typed reading: a unit the step does not use is refused in the prompt itself
         await pilot.press("r")
         await wait_until(pilot, lambda: isinstance(app.screen, ConfirmPrompt))
@@ -116,6 +118,21 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         await take_step(pilot)
         assert screen.link.current_step_id() == "gate-overdrive.vgs-on"
 
+        # a skip (of a step that is no safety gate) needs a reason: an empty one is refused,
+        # then one is given
+        await pilot.press("j")
+        await wait_until(pilot, lambda: screen.viewed == "gate-overdrive.vgs-on")
+        await pilot.press("s")
+        await wait_until(pilot, lambda: isinstance(app.screen, ReasonPrompt))
+        await pilot.press("enter")
+        assert isinstance(app.screen, ReasonPrompt)
+        await _type(pilot, "scope busy on another bench")
+        await pilot.press("enter")
+        await wait_until(pilot, lambda: isinstance(app.screen, SessionScreen))
+        # the notebook moves on to the next step by itself, once the skip is logged
+        await wait_until(pilot, lambda: screen.viewed == "edge-speed.edges")
+        assert screen.link.current_step_id() == "edge-speed.edges"
+
         # quit in the middle of the session
         await pilot.press("q")
     assert app.return_code == 0
@@ -141,9 +158,7 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
     notes = [e for e in events if e.kind == "note"]
     assert [(n.step_id, n.reason) for n in notes] == [("first-power", "ground spring on CH1")]
     skips = [e for e in events if e.kind == "skip"]
-    assert [(e.step_id, e.reason) for e in skips] == [
-        ("rails-unloaded", "scope busy on another bench")
-    ]
+    assert [(e.step_id, e.reason) for e in skips] == [("vgs-on", "scope busy on another bench")]
 
     # ---- second sitting: resume from the start screen and finish -----------------------------
     app = BringupApp(Launcher(log_path))
@@ -154,7 +169,7 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         await pilot.press("ctrl+o")
         screen = await wait_for_session(pilot)
         assert screen.link.session_id == session_id
-        assert screen.viewed == "gate-overdrive.vgs-on"
+        assert screen.viewed == "edge-speed.edges"
         while screen.link.current_step_id() is not None:
             step = screen.link.current_step_id()
             if screen.viewed != step:
@@ -181,5 +196,5 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         )
     assert state == "finished"
     assert final == "skipped"
-    for step in ("vgs-on", "edges", "droop", "soak"):
+    for step in ("rails-unloaded", "edges", "droop", "soak"):
         assert outcomes[step] == "pass", (step, outcomes)

@@ -37,7 +37,10 @@ async def _take_gate_step(pilot) -> None:
     for step in runner.checklist.steps():
         if step.id == STEP:
             break
-        runner.skip(step.id, "rails checked on the previous board")
+        if step.gate:  # a safety gate is run, never skipped
+            runner.run_step(step.id)
+        else:
+            runner.skip(step.id, "rails checked on the previous board")
     screen.refresh_all(select=STEP)
     await wait_until(pilot, lambda: screen.viewed == STEP, what=STEP)
     await take_step(pilot)
@@ -59,7 +62,7 @@ def test_start_screen(snap_compare, log_path):
         operator="tester", bench=BenchSource.simulated("healthy"), db_path=log_path,
     )  # fmt: skip
     with runner:
-        runner.skip("power-rails.first-power", "powered up on the previous shift")
+        runner.run_step("power-rails.first-power")  # a safety gate: run, never skipped
 
     async def run_before(pilot) -> None:
         await pilot.pause()

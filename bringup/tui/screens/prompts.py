@@ -96,6 +96,13 @@ class EnergisePrompt(BenchPrompt[bool]):
             if self.energise.hazardous:
                 notice = self.energise.hazard or HAZARD_NOTICE
                 yield Static(literal(f"⚠ {notice}"), id="hazard-notice", classes="hazard")
+            if self.energise.unmet_gates:
+                gates = "\n".join(f"  - {g}" for g in self.energise.unmet_gates)
+                yield Static(
+                    literal(f"⚠ Earlier safety gates waived or not passed:\n{gates}"),
+                    id="unmet-gates",
+                    classes="hazard",
+                )
             with Horizontal(classes="prompt-buttons"):
                 yield Button(
                     f"Y  {'done, ' if self.by_hand else ''}switch on at {volts}",

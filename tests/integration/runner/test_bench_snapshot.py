@@ -80,7 +80,7 @@ def test_a_bench_file_is_logged_with_its_tables_identities_and_offset(tmp_path):
     assert record["session"]["started"]["offset"] == local_utc_offset()
     # the standard checklist's [checklist] table, carried through the session's snapshot
     assert record["checklist"]["id"] == "high-side-bootstrap"
-    assert record["checklist"]["version"] == load_checklist().version == "1.1"
+    assert record["checklist"]["version"] == load_checklist().version == "1.2"
 
 
 def test_a_simulated_bench_is_logged_with_scenario_seed_and_resources(tmp_path):

@@ -23,8 +23,11 @@ def test_steps_run_in_order_and_a_skip_needs_a_reason(make_runner):
         runner.run_step(METER)
     with pytest.raises(RunnerError, match="needs a reason"):
         runner.skip(FIRST, "  ")
-    runner.skip(FIRST, "ramp done on the bench supply's front panel")
-    runner.skip(UNLOADED, "scope in use elsewhere")
+    # the first-power ramp and the rail checks are safety gates: run, never skipped
+    with pytest.raises(RunnerError, match="is a safety gate: it cannot be skipped"):
+        runner.skip(FIRST, "ramp done on the bench supply's front panel")
+    assert runner.run_step(FIRST).state == "pass"
+    assert runner.run_step(UNLOADED).state == "pass"
     assert runner.current_step() == METER
     result = runner.run_step(METER, notes="meter on its 4 V range")  # the sim reads its meter
     assert result.notes == "meter on its 4 V range"
@@ -33,21 +36,23 @@ def test_steps_run_in_order_and_a_skip_needs_a_reason(make_runner):
     assert result.metric("logic_level").measured == pytest.approx(3.3, abs=0.05)
     with SessionLog.open(runner.log.path, create=False) as log:
         events = log.events(runner.session_id)
+        # the refused skip logged nothing; each step logged its energise event before power
         assert [(e.kind, e.step_id) for e in events] == [
-            ("skip", "first-power"),
-            ("skip", "rails-unloaded"),
-            ("energise", "logic-meter"),  # logged just before its supply output went ON
+            ("energise", "first-power"),
+            ("energise", "rails-unloaded"),
+            ("energise", "logic-meter"),
         ]
-        assert events[1].reason == "scope in use elsewhere"
-        assert [a.step_id for a in log.attempts(runner.session_id)] == ["logic-meter"]
-        assert log.attempts(runner.session_id)[0].notes == "meter on its 4 V range"
-    assert runner.step_status(FIRST).state == "skipped"
+        assert [a.step_id for a in log.attempts(runner.session_id)] == [
+            "first-power", "rails-unloaded", "logic-meter",
+        ]  # fmt: skip
+        assert log.attempts(runner.session_id)[2].notes == "meter on its 4 V range"
+    assert runner.step_status(FIRST).state == "pass"
 
 
 def test_waive_needs_a_failed_step_a_reason_and_a_name_and_retakes_keep_history(make_runner):
     runner = make_runner()
-    runner.skip(FIRST, "not today")
-    runner.skip(UNLOADED, "not today")
+    runner.run_step(FIRST)
+    runner.run_step(UNLOADED)
     with pytest.raises(RunnerError, match="only a failed step"):
         runner.waive(FIRST, "fine", "Bo")
     failed = runner.run_step(METER, answers=StepAnswers(confirmed=True, reading="3.6 V"))
@@ -67,7 +72,7 @@ def test_waive_needs_a_failed_step_a_reason_and_a_name_and_retakes_keep_history(
 
     runner.go_back("power-rails")
     assert runner.current_step() == FIRST  # the walk restarts at the stage's first step
-    runner.skip(FIRST, "still not today")
+    runner.run_step(FIRST)
     assert runner.current_step() == UNLOADED
     retake = runner.run_step(METER, answers=StepAnswers(confirmed=True, reading="3.30"))
     assert retake.state == "pass" and retake.attempt_no == 2
@@ -86,8 +91,8 @@ def test_a_bad_typed_reading_is_refused_with_the_step_named(make_runner):
     with pytest.raises(InputError, match=r"power-rails.logic-meter reading.*'3,3'"):
         runner.check_reading(METER, "3,3")
     assert runner.check_reading(METER, "3300 mV") == pytest.approx(3.3)
-    runner.skip(FIRST, "x")
-    runner.skip(UNLOADED, "x")
+    runner.run_step(FIRST)
+    runner.run_step(UNLOADED)
     result = runner.run_step(METER, answers=StepAnswers(confirmed=True, reading="three volts"))
     assert result.state == "not-run" and "three volts" in result.message
 

@@ -177,18 +177,18 @@ def test_the_standard_checklist_names_its_id_title_and_version():
     checklist = load_checklist()
     assert checklist.id == "high-side-bootstrap"
     assert checklist.title == checklist.name == "High-side N-channel switch with bootstrap drive"
-    assert checklist.version == "1.1"
+    assert checklist.version == "1.2"
 
 
 def test_unknown_key_in_the_checklist_table(tmp_path):
-    text = TEXT.replace('version = "1.1"', 'version = "1.1"\nrevision = "B"', 1)
+    text = TEXT.replace('version = "1.2"', 'version = "1.2"\nrevision = "B"', 1)
     _fails(tmp_path, text, "checklist.revision", _line_of(text, 'revision = "B"'), "unknown key")
 
 
 def test_a_version_must_be_a_version_string(tmp_path):
-    text = TEXT.replace('version = "1.1"', "version = 1.1", 1)
-    _fails(tmp_path, text, "checklist.version", _line_of(text, "version = 1.1"), "version string")
-    text = TEXT.replace('version = "1.1"', 'version = "one point one"', 1)
+    text = TEXT.replace('version = "1.2"', "version = 1.2", 1)
+    _fails(tmp_path, text, "checklist.version", _line_of(text, "version = 1.2"), "version string")
+    text = TEXT.replace('version = "1.2"', 'version = "one point one"', 1)
     _fails(tmp_path, text, "checklist.version", _line_of(text, "one point one"), "version string")
 
 
@@ -205,7 +205,7 @@ def test_title_or_name_but_not_both(tmp_path):
     _fails(tmp_path, neither, "checklist", _line_of(neither, "[checklist]"), "missing key 'title'")
     # name is the older spelling of title; without an id or a version the file still loads
     older = TEXT.replace(title, 'name = "Older file"', 1)
-    older = older.replace('id = "high-side-bootstrap"\n', "", 1).replace('version = "1.1"\n', "", 1)
+    older = older.replace('id = "high-side-bootstrap"\n', "", 1).replace('version = "1.2"\n', "", 1)
     path = tmp_path / "older.toml"
     path.write_text(older, encoding="utf-8")
     checklist = load_checklist(path)
