@@ -104,9 +104,10 @@ def _answers(ctx: _Context, answers: StepAnswers | None, simulated: bool) -> str
             )
     if step.reading is not None:
         text = answers.reading if answers is not None else None
+        later = answers is not None and answers.read_now is not None
         if text is not None:
             ctx.data.reading = parse_quantity(text, step.reading.unit, where=f"{step.id} reading")
-        elif not simulated:
+        elif not simulated and not (later and plan.energise is not None):
             return f"needs a reading typed in: {step.reading.prompt} ({step.reading.unit})"
         ctx.data.reading_metric = step.reading.metric
     return None
@@ -266,7 +267,7 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
             ctx.data.traces.update(traces)
             ctx.raw.update(raw)
         if step.reading is not None and ctx.data.reading is None:
-            ctx.data.reading = bench.read_meter_volts()
+            ctx.data.reading = _read_powered(ctx, bench, answers)
         if plan.settings.get("soak") is not None:
             _soak(ctx, bench, powered)
         tripped = powered.switched_off_because
@@ -275,6 +276,27 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
         ctx.check()  # nothing read after a STOP is judged
     ctx.emit("safe", "supply output off")
     return identities
+
+
+def _read_powered(ctx: _Context, bench, answers: StepAnswers | None) -> float:
+    """The meter reading of a powered board: asked of the operator now, while the supply is
+    ON (``StepAnswers.read_now``), or read by the simulated bench's meter."""
+    step = ctx.step
+    assert step.reading is not None
+    ask = answers.read_now if answers is not None else None
+    if ask is None:
+        return bench.read_meter_volts()
+    ctx.check()
+    ctx.emit("reading", f"the board is powered: {step.reading.prompt}")
+    text = ask(step.reading.prompt, step.reading.unit)
+    ctx.check()
+    if text is None:  # the operator closed the prompt
+        raise StepStopped("no reading typed")
+    if not str(text).strip():
+        if bench.simulated:  # left empty on a simulated bench: its meter reads
+            return bench.read_meter_volts()
+        raise StepStopped("no reading typed")
+    return parse_quantity(str(text), step.reading.unit, where=f"{step.id} reading")
 
 
 # ------------------------------------------------------------------------- judging

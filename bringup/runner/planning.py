@@ -191,7 +191,21 @@ def plan_step(
     confirm = None
     if needs_confirm:
         confirm = " ".join([*hands, *([step.confirm] if step.confirm else [])])
+    if step.reading is not None and energise is not None:
+        # the meter reads a powered board: power first, read, then confirm the value read
+        prompts: tuple[str, ...] = ("energise", "reading", "confirm")
+    else:
+        prompts = tuple(
+            kind
+            for kind, present in (
+                ("confirm", confirm is not None),
+                ("reading", step.reading is not None),
+                ("energise", energise is not None),
+            )
+            if present
+        )
     return StepPlan(
+        prompts=prompts,
         step_id=step.id,
         stage_id=step.stage_id,
         title=step.title,

@@ -16,6 +16,7 @@ Step and stage states (``STATES``):
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -183,17 +184,29 @@ class StepPlan:
     targets: tuple[str, ...]
     settings: dict
     warnings: tuple[str, ...] = ()
+    #: the order the operator is asked, as the bench needs it: "confirm" (hands done,
+    #: board unpowered), "energise", "reading"; a reading on a powered board is asked once the
+    #: supply is ON and confirmed after it: ("energise", "reading", "confirm")
+    prompts: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
 class StepAnswers:
     """The operator's answers for one step: ``confirmed`` the confirmation (True = done),
     ``reading`` a typed reading ("3.31", "3.31 V"), ``hazard_acknowledged`` the hazard notice
-    of a supply above 60 V DC. None = not answered."""
+    of a supply above 60 V DC. None = not answered.
+
+    ``read_now``: for a reading taken on a powered board (``StepPlan.prompts`` ==
+    ``("energise", "reading", "confirm")``), called from the step's thread once the supply is
+    ON, as ``read_now(prompt, unit)``; it returns the typed text, already confirmed by the
+    operator, or None to stop the step (supply off, logged as not run); "" on a simulated
+    bench lets its meter read. A ``reading`` given in
+    advance (an answers file) is used instead."""
 
     confirmed: bool | None = None
     reading: str | None = None
     hazard_acknowledged: bool = False
+    read_now: Callable[[str, str], str | None] | None = None
 
 
 @dataclass(frozen=True)

@@ -139,6 +139,7 @@ class SessionLink:
             confirmed=answers.get("confirmed"),  # type: ignore[arg-type]
             reading=answers.get("reading"),  # type: ignore[arg-type]
             hazard_acknowledged=bool(answers.get("hazard_acknowledged", False)),
+            read_now=answers.get("read_now"),  # type: ignore[arg-type]
         )
         self._idle.clear()
         try:

@@ -77,13 +77,15 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         assert screen.link.current_step_id() == "power-rails.rails-unloaded"
         await take_step(pilot)
         await wait_until(pilot, lambda: screen.link.current_step_id() == "power-rails.logic-meter")
-        await pilot.press("j")
+        # after a pass the cursor moves on to the next step by itself
         await wait_until(pilot, lambda: screen.viewed == "power-rails.logic-meter")
-        # the typed reading: a unit the step does not use is refused in the prompt itself
+        # the meter reading: the board is powered first, then the reading is asked (a unit the
+        # step does not use is refused in the prompt itself), then it is confirmed
         await pilot.press("r")
-        await wait_until(pilot, lambda: isinstance(app.screen, ConfirmPrompt))
+        await wait_until(pilot, lambda: isinstance(app.screen, EnergisePrompt))
         await pilot.press("y")
         await wait_until(pilot, lambda: isinstance(app.screen, ReasonPrompt))
+        assert screen.running == "power-rails.logic-meter"  # asked while the step runs
         await _type(pilot, "3.3 A")
         await pilot.press("enter")
         await pilot.pause()
@@ -93,7 +95,8 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         await pilot.press(*["backspace"] * 5)
         await _type(pilot, "3.31 V")
         await pilot.press("enter")
-        await wait_until(pilot, lambda: isinstance(app.screen, EnergisePrompt))
+        await wait_until(pilot, lambda: isinstance(app.screen, ConfirmPrompt))
+        assert any("3.31 V" in str(w.render()) for w in app.screen.query("Static"))
         await pilot.press("y")
         await wait_until(
             pilot,
@@ -109,9 +112,9 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         await pilot.press("k")
         await wait_until(pilot, lambda: screen.viewed == "power-rails.logic-meter")
         assert await take_step(pilot, reading="3.29 V") == [
-            "ConfirmPrompt",
-            "ReadingPrompt",
             "EnergisePrompt",
+            "ReadingPrompt",
+            "ConfirmPrompt",
         ]
         assert len(screen.link.attempts("power-rails.logic-meter")) == 2
         await wait_until(pilot, lambda: screen.viewed == "power-rails.rails-loaded")
@@ -119,8 +122,7 @@ async def test_whole_healthy_session_with_retake_note_skip_quit_and_resume(log_p
         assert screen.link.current_step_id() == "gate-overdrive.vgs-on"
 
         # a skip (of a step that is no safety gate) needs a reason: an empty one is refused,
-        # then one is given
-        await pilot.press("j")
+        # then one is given (the cursor moved on to it after the pass)
         await wait_until(pilot, lambda: screen.viewed == "gate-overdrive.vgs-on")
         await pilot.press("s")
         await wait_until(pilot, lambda: isinstance(app.screen, ReasonPrompt))

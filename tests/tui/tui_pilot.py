@@ -71,8 +71,9 @@ def status_text(app) -> str:
     return str(screen.query_one("#status").render())
 
 
-async def answer_prompts(pilot, reading: str | None = None) -> list[str]:
-    """Answer every prompt the step puts up, the way an operator would; names of prompts seen."""
+async def answer_prompts(pilot, reading: str | None = None, timeout: float = 30.0) -> list[str]:
+    """Answer every prompt the step puts up, the way an operator would, including those it
+    puts up while it runs (a meter reading once the board is powered); names of prompts seen."""
     app = pilot.app
     seen: list[str] = []
     screen = session_screen(app)
@@ -81,11 +82,16 @@ async def answer_prompts(pilot, reading: str | None = None) -> list[str]:
             pilot,
             lambda: (
                 isinstance(app.screen, (ConfirmPrompt, EnergisePrompt, ReasonPrompt))
-                or screen.running is not None
-                or not list(app.workers)  # nothing pending: refused or done
-                or all(w.group != "prompts" or w.is_finished for w in app.workers)
+                or (
+                    screen.running is None
+                    and (
+                        not list(app.workers)  # nothing pending: refused or done
+                        or all(w.group != "prompts" or w.is_finished for w in app.workers)
+                    )
+                )
             ),
-            what="a prompt or the step to start",
+            timeout=timeout,
+            what="a prompt or the step to end",
         )
         top = app.screen
         if isinstance(top, ConfirmPrompt | EnergisePrompt):
@@ -109,7 +115,7 @@ async def take_step(pilot, reading: str | None = None, timeout: float = 30.0) ->
     before = len(screen.link.attempts(screen.viewed))
     step = screen.viewed
     await pilot.press("r")
-    seen = await answer_prompts(pilot, reading)
+    seen = await answer_prompts(pilot, reading, timeout)
     await wait_until(
         pilot,
         lambda: screen.running is None and len(screen.link.attempts(step)) > before,

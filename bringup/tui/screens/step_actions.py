@@ -100,8 +100,22 @@ class StepActions:
 
     @work(exclusive=True, group="prompts")
     async def _ask_then_start(self, detail: StepDetail) -> None:
-        """The by-hand confirmation, the typed reading and the energising prompt, in order."""
+        """The prompts in the order the bench needs them (``StepPlan.prompts``)."""
         answers: dict[str, object] = {}
+        if detail.reading_prompt and detail.energise is not None:
+            # a meter reading of a powered board: energise (hands done first), then the
+            # reading, asked by the step once the supply is ON, then its confirmation
+            yes = await self.app.push_screen_wait(
+                EnergisePrompt(detail.title, detail.energise, by_hand=detail.confirm or "")
+            )
+            if not yes:
+                self.say("Not confirmed: the step did not run and nothing was energised.", "warn")
+                return
+            answers["confirmed"] = True
+            answers["hazard_acknowledged"] = detail.energise.hazardous
+            answers["read_now"] = self._reader(detail)
+            self._start(detail, answers)
+            return
         if detail.confirm and detail.energise is not None and not detail.reading_prompt:
             # one question: the hands are done and the supply may go on
             yes = await self.app.push_screen_wait(
@@ -149,6 +163,58 @@ class StepActions:
                 return
             answers["hazard_acknowledged"] = detail.energise.hazardous
         self._start(detail, answers)
+
+    def _reader(self, detail: StepDetail):
+        """``read_now(prompt, unit)`` for the step's thread: shows the reading prompt on the
+        UI thread once the board is powered, then asks to confirm the value; the text, or
+        None when the operator cancels (or the step is stopped meanwhile)."""
+        import threading
+
+        from bringup.analysis.quantities import parse_quantity
+
+        app, sim = self.app, self.link.simulated
+
+        def read_now(prompt: str, unit: str) -> str | None:
+            done, box = threading.Event(), {}
+
+            def finish(value: str | None) -> None:
+                box["value"] = value
+                done.set()
+
+            def typed(result: tuple[str, str] | None) -> None:
+                if result is None:
+                    finish(None)
+                    return
+                text = result[0]
+                shown = text or "(the simulated meter reads it)"
+                app.push_screen(
+                    ConfirmPrompt("Confirm the reading", f"{prompt}: {shown}"),
+                    lambda yes: finish(text if yes else None),
+                )
+
+            def ask() -> None:
+                hint = "\n(Simulated bench: leave it empty and the simulated meter reads it.)"
+                app.push_screen(
+                    ReasonPrompt(
+                        "The board is powered: type the reading",
+                        f"{prompt}" + (f" (in {unit})" if unit else "") + (hint if sim else ""),
+                        placeholder=f"e.g. 3.31 {unit}".strip(),
+                        empty_problem="Type the value read on the meter, or Esc to cancel.",
+                        allow_empty=sim,
+                        validate=lambda text: parse_quantity(
+                            text, unit or None, where="the reading"
+                        ),
+                    ),
+                    typed,
+                )
+
+            app.call_from_thread(ask)
+            while not done.wait(0.1):
+                if self._cancel.is_set():  # STOP while the prompt was up: the step ends
+                    return None
+            return box.get("value")
+
+        return read_now
 
     def action_back(self) -> None:
         """Go back to the first step of the stage before the viewed one."""
