@@ -23,7 +23,7 @@ import pytest
 
 from bringup.boards.board_file import load_board
 from bringup.checklist.load import load_checklist
-from bringup.runner import BenchSource, SessionRunner
+from bringup.runner import BenchSource, SessionRunner, StepAnswers
 from bringup.store import SessionLog
 
 pytestmark = pytest.mark.skipif(not hasattr(os, "fork"), reason="needs a pseudo-terminal")
@@ -91,12 +91,14 @@ def test_closing_the_notebooks_terminal_switches_off_logs_sighup_and_exits_129(s
         return real()
 
     sim.scope.acquire = held
-    # the session is started through the runner with its first step skipped, so that the
+    # the session is started through the runner with its first step done, so that the
     # notebook resumes at 1.2 (a step with the scope) and r runs it
     with SessionRunner.create(board=load_board("demo"), checklist=load_checklist(),
                               serial="DHS24-0100", operator="tester",
                               bench=BenchSource.from_file(path), db_path=log) as runner:  # fmt: skip
-        runner.skip("power-rails.first-power", "not under test here")
+        # a safety gate: run (no scope in it), never skipped
+        done = runner.run_step("power-rails.first-power", answers=StepAnswers(confirmed=True))
+        assert done.state == "pass", done.message
         session = runner.session_id
     bringup = str(Path(sys.executable).with_name("bringup"))
     env = {**os.environ, "TERM": "xterm-256color", "TEXTUAL_ANIMATIONS": "none",
