@@ -27,7 +27,11 @@ def test_the_bench_files_bandwidths_are_taken_out_of_the_edges(sim_bench, tmp_pa
         for step in runner.checklist.steps():
             if step.id == EDGES:
                 break
-            runner.skip(step.id, "covered by another test")
+            if step.gate:  # a safety gate is run, never skipped
+                typed = "3.30 V" if step.reading else None
+                runner.run_step(step.id, answers=StepAnswers(confirmed=True, reading=typed))
+            else:
+                runner.skip(step.id, "covered by another test")
         result = runner.run_step(EDGES, answers=StepAnswers(confirmed=True))
         details = runner.log.attempts(runner.session_id)[-1].extra["details"]
     finally:
