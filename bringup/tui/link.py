@@ -23,6 +23,7 @@ class SessionLink:
 
     def __init__(self, runner: Any, bench_text: str = "") -> None:
         self.runner = runner
+        self._notices_shown = 0
         self.bench_text = bench_text
         self._attempt_cache: dict[tuple[str, int], AttemptView] = {}
         self._idle = threading.Event()  # clear while a step runs
@@ -156,6 +157,14 @@ class SessionLink:
         self._attempt_cache[(step_id, result.attempt_no)] = view
         self._log_finish_if_complete()
         return view
+
+    def new_bench_notices(self) -> tuple[str, ...]:
+        """What the runner found on opening the bench (an output found ON after an unclean
+        stop, a step it interrupted) and has not been shown yet; each notice once."""
+        notices = tuple(getattr(self.runner, "bench_notices", ()))
+        fresh = notices[self._notices_shown :]
+        self._notices_shown = len(notices)
+        return fresh
 
     def switch_off_now(self, reason: str = "STOP pressed in the notebook"):
         """STOP: the runner's ``stop`` switches the supply output OFF now from the calling

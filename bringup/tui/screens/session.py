@@ -88,6 +88,7 @@ class SessionScreen(StepActions, Screen[None]):
         self._cancel = threading.Event()
         self._stop_soak = threading.Event()
         self._trace_index = 0
+        self._found: tuple[str, ...] = ()  # found on opening the bench (see ``say``)
         self._attempt: AttemptView | None = None
         self._soak_t: list[float] = []
         self._running_kind = ""
@@ -149,7 +150,17 @@ class SessionScreen(StepActions, Screen[None]):
 
     # -- showing ---------------------------------------------------------------------------
     def say(self, message: str, kind: str = "info") -> None:
-        """Put a one-line message in the status line (faults in their own style)."""
+        """Put a one-line message in the status line (faults in their own style). What the
+        bench was found in when it opened (an output left ON by an unclean stop) leads every
+        message until the next step starts, and stays in a notification."""
+        found = self.link.new_bench_notices()
+        for notice in found:
+            self.app.notify(visible(notice), title="Found on opening the bench",
+                            severity="warning", timeout=120)  # fmt: skip
+        self._found = (*self._found, *found)
+        if self._found:
+            message = f"{' '.join(self._found)} | {message}"
+            kind = "warn" if kind == "info" else kind
         self.query_one(StatusLine).say(message, kind)
 
     def refresh_all(self, select: str | None = None) -> None:
@@ -361,6 +372,7 @@ class SessionScreen(StepActions, Screen[None]):
         self._stop_soak = threading.Event()
         self._soak_t, self._soak_temp = [], []
         self._finals = []
+        self._found = ()  # the last step's bench notices have been seen by now
         live = self.query_one("#live")
         live.display = True
         bar = self.query_one("#live-bar", ProgressBar)
