@@ -187,3 +187,13 @@ def test_weak_bootstrap_says_below_the_floor_and_the_effective_parts(runs):
     lead = diagnosis["causes"][0]
     assert 8e-3 < lead["inferred"]["drain_current_a"] < 16e-3, lead
     assert "gate to its source" in lead["check"]
+
+
+def test_a_resumed_session_shows_the_same_diagnosis(runs):
+    from bringup.runner import SessionRunner
+
+    _, summary, _, db = runs["weak-bootstrap"]
+    failed = _failed_attempt(summary)
+    with SessionRunner.resume(summary["session"], db_path=db, operator="tester") as resumed:
+        again = resumed.attempts(failed["step"])[-1]
+    assert again.diagnosis == failed["diagnosis"]
