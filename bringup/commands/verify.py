@@ -1,4 +1,5 @@
-"""``bringup verify RECORD.json [--db PATH] [--key PUB ...]``: check a signed record."""
+"""``bringup verify RECORD [--db PATH] [--key PUB ...]``: check a signed record (JSON, or the
+HTML or PDF record carrying it)."""
 
 from __future__ import annotations
 
@@ -11,13 +12,15 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "verify",
         help="check a record's signatures, content and (with --db) the log behind it",
-        description="Check a JSON record: its canonical form, its content against its seal, "
+        description="Check a record (the .json file, or the .html or .pdf record, which carry "
+        "it embedded: then also that every visible page is exactly what the embedded record "
+        "renders, so an edited page is named): its canonical form, its content against its seal, "
         "every signature, and with --db that the log's hash chain is intact, ends at the "
         "record's chain head and holds the same content, and that the session's stored state "
         "and verdict agree with its chain. Exit 0 only when all of it holds; "
         "otherwise one line per finding and exit 1.",
     )
-    parser.add_argument("record", type=Path, metavar="RECORD.json")
+    parser.add_argument("record", type=Path, metavar="RECORD", help="a .json, .html or .pdf record")
     parser.add_argument("--db", type=Path, metavar="PATH", help="the session log to compare with")
     parser.add_argument(
         "--key",
@@ -33,10 +36,12 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Print the findings (or what holds) and return 0 only when nothing was found."""
     from bringup.record.keys import load_public_key
-    from bringup.record.verify import read_record, verify_record
+    from bringup.record.schemas import is_rehearsal
+    from bringup.record.verify import check_rendering, read_carried, verify_record
 
     trusted = [load_public_key(p) for p in args.key]
-    record, data = read_record(args.record)
+    carried = read_carried(args.record)
+    record, data = carried.record, carried.data
     if args.db is not None:
         from bringup.record.from_log import open_log
 
@@ -44,6 +49,7 @@ def run(args: argparse.Namespace) -> int:
             findings = verify_record(record, data, log=log, trusted=trusted)
     else:
         findings = verify_record(record, data, trusted=trusted)
+    findings += check_rendering(carried)
     if findings:
         for line in findings:
             print(f"CHANGED: {line}")
@@ -53,6 +59,14 @@ def run(args: argparse.Namespace) -> int:
     who = ", ".join(f"{s['role']} {s['name']} ({s['key_fingerprint'][:19]}...)" for s in sigs)
     digest = record.get("seal", {}).get("content_sha256", "")
     print(f"{args.record}: holds; content SHA-256 {digest}; signed by {who}")
+    if carried.kind != "json":
+        print(
+            f"pages: every page of the {carried.kind.upper()} is what its embedded record renders"
+        )
+    if is_rehearsal(record["content"]):
+        print("bench: SIMULATED, a rehearsal: no board was measured")
+    else:
+        print("bench: real instruments")
     if args.db is not None:
         print(f"log {args.db}: chain intact, head matches, content matches, summary matches")
     if not trusted:

@@ -1,4 +1,7 @@
-"""The HTML record: one self-contained, printable file (inline CSS and SVG, no scripts).
+"""The HTML record: one self-contained, printable file (inline CSS and SVG, nothing to run).
+
+The signed record itself travels in the file as a JSON data block (``embedding``), which
+``bringup verify`` checks and renders again to compare with the page.
 
 It lays out the blocks of ``bringup.record.document`` (the same ones the PDF record draws), in
 their order: summary, cautions, bench, design against measurement, the stages, the record's
@@ -24,6 +27,7 @@ from bringup.record.document import (
     Table,
     build_document,
 )
+from bringup.record.embedding import html_data_block
 from bringup.record.svg import plot_svg
 from bringup.record.view import STATUS_WORDS
 
@@ -149,6 +153,8 @@ def render_html(record: dict) -> str:
         f"<h1>{_e(doc.title)}</h1>",
         *(_section(s) for s in doc.sections),
         f"<footer>{_e(doc.closing)}</footer>",
+        # the signed record the page was rendered from: data, never run
+        html_data_block(record),
         "</body></html>",
     ]
     return "\n".join(parts) + "\n"

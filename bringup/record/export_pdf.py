@@ -3,7 +3,9 @@
 The same blocks as the HTML record, in the same order; each stage starts a page. Every page
 carries the record's identity (serial, session) in its header and the full SHA-256 of the
 canonical content with "page N of M" in its footer, so a single printed page can be matched to
-its record. The file is reproducible: its creation date is the session's last entry (not the
+its record. The signed record (its canonical JSON file) is embedded as a PDF attachment
+(``embedding.EMBEDDED_NAME``), which ``bringup verify`` checks and renders again to compare
+with the pages. The file is reproducible: its creation date is the session's last entry (not the
 export time) and fpdf2 derives the document ID from the content and that date.
 
 The built-in PDF core fonts cover Latin-1 only: other characters are spelled out, and the
@@ -31,6 +33,7 @@ from bringup.record.document import (
     Table,
     build_document,
 )
+from bringup.record.embedding import EMBEDDED_NAME, record_file_bytes
 from bringup.record.svg import plot_svg
 from bringup.record.view import STATUS_WORDS
 
@@ -215,7 +218,18 @@ def render_pdf(record: dict) -> bytes:
     """The PDF bytes of an exported record (``{"schema", "content", "seal", "signatures"}``)."""
     doc = build_document(record)
     pdf = _make_document(doc.running_head, doc.digest, doc.rehearsal)
-    pdf.set_creation_date(_date_of(doc))
+    date = _date_of(doc)
+    pdf.set_creation_date(date)
+    # the record itself, dated like the PDF (not the export time) so the bytes reproduce
+    pdf.embed_file(
+        bytes=record_file_bytes(record),
+        basename=EMBEDDED_NAME,
+        mime_type="application/json",
+        creation_date=date,
+        modification_date=date,
+        desc="The signed bring-up record these pages show; check with: bringup verify",
+        compress=True,
+    )
     pdf.set_title(_latin1(f"Bring-up record {doc.serial}"))
     pdf.set_author(_latin1(", ".join(doc.operators)))
     pdf.set_creator("bringup")

@@ -13,22 +13,31 @@ from __future__ import annotations
 
 import json
 import math
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from bringup.errors import InputError
 from bringup.record.compare import diagnose_seal, diff_content
+from bringup.record.embedding import EMBEDDED_NAME, html_block_record_text, record_file_bytes
 from bringup.record.keys import PublicKey
 from bringup.record.rfc8785 import NotCanonicalError, canonical_bytes
 from bringup.record.schemas import READABLE_SCHEMAS, content_as
 from bringup.record.signing import check_signature
 
-__all__ = ["read_record", "verify_record", "record_bytes"]
+__all__ = [
+    "Carried",
+    "check_rendering",
+    "read_carried",
+    "read_record",
+    "record_bytes",
+    "verify_record",
+]
 
 
 def record_bytes(record: dict) -> bytes:
     """The bytes of an exported record file: canonical JSON and one newline."""
-    return canonical_bytes(record) + b"\n"
+    return record_file_bytes(record)
 
 
 #: Deeper than any record bringup writes (about a dozen levels), shallow enough that every
@@ -92,12 +101,34 @@ def _depth(value: Any) -> int:
     return deepest
 
 
-def read_record(path: str | Path) -> tuple[dict, bytes]:
-    """Read a record file; one-line ``InputError`` when it is missing or not a record.
+@dataclass(frozen=True)
+class Carried:
+    """A record as read from a file: the record file itself (``kind`` "json"), or the record an
+    HTML or PDF rendering carries (``embedding``). ``data``: the record file's bytes (what the
+    form check compares); ``file``: the whole file as read (what the rendering check compares)."""
 
-    Refused as not a record (naming the file and, where it can be told, the line): text that
-    is not JSON, NaN or Infinity (which Python's reader would accept), integers beyond what
-    a record can hold, numbers beyond a double's range, and nesting deeper than ``MAX_DEPTH``.
+    record: dict
+    data: bytes
+    kind: str
+    file: bytes
+
+
+def read_record(path: str | Path) -> tuple[dict, bytes]:
+    """Read a record file (or the record an HTML or PDF record carries); one-line
+    ``InputError`` when it is missing or not a record. See ``read_carried``."""
+    carried = read_carried(path)
+    return carried.record, carried.data
+
+
+def read_carried(path: str | Path) -> Carried:
+    """Read a record from a ``.json`` record file, or from the HTML or PDF record carrying it
+    (told by the file's first bytes, whatever its name); one-line ``InputError`` when it is
+    missing or not a record.
+
+    Refused as not a record (naming the file and, where it can be told, the line): an HTML
+    page or a PDF without the embedded record, text that is not JSON, NaN or Infinity (which
+    Python's reader would accept), integers beyond what a record can hold, numbers beyond a
+    double's range, and nesting deeper than ``MAX_DEPTH``.
     """
     path = Path(path)
     try:
@@ -106,35 +137,161 @@ def read_record(path: str | Path) -> tuple[dict, bytes]:
         raise InputError(f"{path}: no such record file") from None
     except OSError as exc:
         raise InputError(f"{path}: cannot read the record ({exc.strerror})") from None
+    if data.startswith(b"%PDF-"):
+        inner = _pdf_attachment(path, data)
+        return Carried(_parse(inner, f"{path} (embedded record)"), inner, "pdf", data)
+    head = data[:64].lstrip(b"\xef\xbb\xbf \t\r\n").lower()
+    if head.startswith((b"<!doctype html", b"<html")):
+        text = html_block_record_text(data.decode("utf-8", errors="replace"))
+        if text is None:
+            raise InputError(
+                f"{path}: an HTML page without one bringup record data block; "
+                "not a record bringup can verify"
+            )
+        inner = text.encode("utf-8")
+        return Carried(_parse(inner, f"{path} (embedded record)"), inner, "html", data)
+    return Carried(_parse(data, str(path)), data, "json", data)
+
+
+def _pdf_attachment(path: Path, data: bytes) -> bytes:
+    """The bytes of the PDF's embedded record (``EMBEDDED_NAME``); ``InputError`` when the PDF
+    cannot be read or carries none, or more than one."""
+    import io
+    import logging
+
+    from pypdf import PdfReader
+
+    logging.getLogger("pypdf").setLevel(logging.ERROR)  # a damaged file is told in one line
+    try:
+        found = PdfReader(io.BytesIO(data)).attachments.get(EMBEDDED_NAME)
+    except Exception as exc:  # noqa: BLE001 - pypdf raises many kinds on a damaged file
+        raise InputError(
+            f"{path}: a PDF that cannot be read ({type(exc).__name__}: {exc})"
+        ) from None
+    if not found:
+        raise InputError(
+            f"{path}: a PDF without an embedded bringup record ({EMBEDDED_NAME}); "
+            "not a record bringup can verify"
+        )
+    if len(found) != 1:
+        raise InputError(f"{path}: a PDF carrying {len(found)} files named {EMBEDDED_NAME}")
+    return found[0]
+
+
+def _parse(data: bytes, where: str) -> dict:
+    """The record in ``data`` (a record file's bytes); ``where`` names it in an error."""
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError:
-        raise InputError(f"{path}: not UTF-8 text, not a record") from None
+        raise InputError(f"{where}: not UTF-8 text, not a record") from None
     try:
         record = json.loads(text, parse_constant=_no_constant, parse_int=_int, parse_float=_float)
     except json.JSONDecodeError as exc:
-        raise InputError(f"{path}:{exc.lineno}: not valid JSON ({exc.msg})") from None
+        raise InputError(f"{where}:{exc.lineno}: not valid JSON ({exc.msg})") from None
     except _NotJson as exc:
-        raise InputError(f"{path}:{_line_of(text, exc.token)}: not a record ({exc})") from None
+        raise InputError(f"{where}:{_line_of(text, exc.token)}: not a record ({exc})") from None
     except RecursionError:
-        raise InputError(f"{path}: nested too deeply to be a record") from None
+        raise InputError(f"{where}: nested too deeply to be a record") from None
     if _depth(record) > MAX_DEPTH:
         raise InputError(
-            f"{path}: nested more than {MAX_DEPTH} levels deep, too deep to be a record"
+            f"{where}: nested more than {MAX_DEPTH} levels deep, too deep to be a record"
         )
     if not isinstance(record, dict) or not isinstance(record.get("content"), dict):
-        raise InputError(f"{path}: not a bringup record (no 'content' object)")
+        raise InputError(f"{where}: not a bringup record (no 'content' object)")
     try:
         canonical_bytes(record)
     except NotCanonicalError as exc:
         # bringup never writes such a value (an integer beyond 2**53, say): not a record.
-        raise InputError(f"{path}: not a record ({exc})") from None
+        raise InputError(f"{where}: not a record ({exc})") from None
     if record.get("schema") not in READABLE_SCHEMAS:
         raise InputError(
-            f"{path}: schema {record.get('schema')!r} is not one this bringup reads "
+            f"{where}: schema {record.get('schema')!r} is not one this bringup reads "
             f"({', '.join(READABLE_SCHEMAS)})"
         )
-    return record, data
+    return record
+
+
+def _snippet(a: str, b: str) -> tuple[str, str]:
+    """The stretch of ``a`` and ``b`` around their first difference (about 30 characters)."""
+    at = next(
+        (i for i, (x, y) in enumerate(zip(a, b, strict=False)) if x != y), min(len(a), len(b))
+    )
+    start = max(0, at - 12)
+    return a[start : at + 18], b[start : at + 18]
+
+
+def _first_line_difference(shown: list[str], rendered: list[str]) -> tuple[int, str, str] | None:
+    """(line number from 1, the stretch shown, the stretch rendered) of the first line that
+    differs, or None when the lines are the same."""
+    for n, (a, b) in enumerate(zip(shown, rendered, strict=False), start=1):
+        if a != b:
+            return (n, *_snippet(a, b))
+    if len(shown) != len(rendered):
+        n = min(len(shown), len(rendered)) + 1
+        tail = lambda lines: lines[n - 1][:30] if len(lines) >= n else "(nothing)"  # noqa: E731
+        return n, tail(shown), tail(rendered)
+    return None
+
+
+def check_rendering(carried: Carried) -> list[str]:
+    """For an HTML or PDF record: is the file exactly what its embedded record renders to?
+    The exports are byte-reproducible, so any edit of the visible page (a digit, a name) is
+    named: the HTML by line, the PDF by page and text line (one finding, the first
+    difference). A JSON record file renders nothing: no finding."""
+    if carried.kind == "json":
+        return []
+    if carried.kind == "html":
+        from bringup.record.export_html import render_html
+
+        rendered = render_html(carried.record).encode("utf-8")
+        if rendered == carried.file:
+            return []
+        shown = carried.file.decode("utf-8", errors="replace").split("\n")
+        found = _first_line_difference(shown, rendered.decode("utf-8").split("\n"))
+        if found is None:
+            return ["page: the HTML's bytes are not what its embedded record renders"]
+        n, a, b = found
+        return [
+            f"page: line {n} of the HTML shows {a!r} where its embedded record renders {b!r} "
+            "(the page was edited, or made by another version of bringup)"
+        ]
+    from bringup.record.export_pdf import render_pdf
+
+    rendered = render_pdf(carried.record)
+    if rendered == carried.file:
+        return []
+    return [_pdf_difference(carried.file, rendered)]
+
+
+def _pdf_difference(shown: bytes, rendered: bytes) -> str:
+    """One line naming the first page (and text line) where two PDFs differ."""
+    import io
+
+    from pypdf import PdfReader
+
+    try:
+        pages_shown = [p.extract_text() for p in PdfReader(io.BytesIO(shown)).pages]
+    except Exception as exc:  # noqa: BLE001 - pypdf raises many kinds on a damaged file
+        return f"page: the PDF's pages cannot be read ({type(exc).__name__})"
+    pages_rendered = [p.extract_text() for p in PdfReader(io.BytesIO(rendered)).pages]
+    if len(pages_shown) != len(pages_rendered):
+        return (
+            f"page: the PDF has {len(pages_shown)} pages, its embedded record renders "
+            f"{len(pages_rendered)}"
+        )
+    for n, (a, b) in enumerate(zip(pages_shown, pages_rendered, strict=True), start=1):
+        found = _first_line_difference(a.split("\n"), b.split("\n"))
+        if found is not None:
+            line, x, y = found
+            return (
+                f"page {n}: text line {line} shows {x!r} where its embedded record renders "
+                f"{y!r} (the page was edited, or made by another version of bringup)"
+            )
+    return (
+        "page: the PDF's bytes are not what its embedded record renders, though its text is "
+        "(a drawing, the metadata or the structure changed, or another version of bringup "
+        "made it)"
+    )
 
 
 def _check_form(record: dict, data: bytes) -> list[str]:

@@ -43,8 +43,12 @@ class _Outline(HTMLParser):
         self.tags: set[str] = set()
         self.sections: list[str] = []
         self.text: list[str] = []
+        self.script_types: list[str | None] = []
 
     def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        if tag == "script":  # only a data block counts; anything else would be run
+            self.script_types.append(dict(attrs).get("type"))
+            return
         self.tags.add(tag)
         for name, value in attrs:
             if name in ("href", "src", "xlink:href", "srcset", "action", "data") and value:
@@ -65,6 +69,8 @@ def test_html_is_self_contained_with_the_summary_first(
     outline = _Outline()
     outline.feed(html)
     assert outline.references == []  # no links, images or scripts to fetch
+    # the one script element is the signed record as data (a JSON type is never run)
+    assert outline.script_types == ["application/json"]
     assert not outline.tags & {"script", "link", "img", "iframe", "object", "embed"}
     # The only URL is the SVG namespace name, which is never fetched.
     urls = set(re.findall(r"https?://[^\s\"'<>)]+", html))
