@@ -227,6 +227,23 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
         return Diagnosis("droop", (), tuple(notes)) if notes else None
     c_eff = effective_capacitance(i_design, rate)
     i_eff = drain_current(c_design, rate)
+    rate_design = i_design / c_design
+    if rate <= _REFUTE * rate_design:
+        # The sag is as designed: the parts the rate depends on are fine, the level is not.
+        low = Cause(
+            "gate_drive_voltage",
+            f"Vgs sags as designed but starts low ({_q(start, 'V')}): the gate-drive rail, the "
+            "bootstrap diode's drop or an incomplete recharge",
+            0.7,
+            (f"Vgs sags at {_q(rate, 'V/s')}, the design's {_q(rate_design, 'V/s')} "
+             f"(I / C = {_q(i_design, 'A')} / {_q(c_design, 'F')})",
+             f"it starts {_q(charged - start, 'V')} below the {_q(charged, 'V')} the capacitor "
+             "charges to"),
+            "probe the gate-drive rail at the driver while switching, then VB to the switch "
+            "node with a differential probe just before turn-on: it should reach the rail less "
+            "one diode drop",
+        )  # fmt: skip
+        return Diagnosis("droop", (low,), tuple(notes))
     c_min, c_min_from = max(bounds, default=(0.0, ""))
     # The capacitor alone is refuted when the turn-on step already needs clearly more C than the
     # sag allows with the design's current (by _REFUTE: a datasheet's typical Q_G and the
