@@ -412,6 +412,21 @@ def _edges(m, d, predicted) -> Diagnosis | None:
         "part fitted on the switch node that the design does not have",
     )  # fmt: skip
     causes = [gate, other] if slow else [other, gate]
+    if len(estimates) == 2 and max(estimates) > 3 * max(min(estimates), r_g):
+        # Only one edge slow: the gate resistor is in both paths, so the slow path's own part
+        # (the driver's source or sink, a turn-off diode beside the resistor) comes first.
+        on_slow = estimates[0] > estimates[1]
+        which = "turn-on" if on_slow else "turn-off"
+        part = "driver_source_resistance" if on_slow else "driver_sink_resistance"
+        causes.insert(0, Cause(
+            part,
+            f"only the {which} is slow: the {which} path (the driver's "
+            f"{'source' if on_slow else 'sink'} side, or a diode or resistor only in that path)",
+            0.85, tuple(ev),
+            f"probe the driver's output pin at {which} (a {which} slower there than at the "
+            "gate points at the driver); check any diode across the gate resistor is fitted "
+            "the right way round",
+        ))  # fmt: skip
     return Diagnosis("edges", tuple(causes))
 
 

@@ -240,3 +240,14 @@ def test_droop_at_the_design_rate_blames_the_start_level_not_the_parts():
     diag = diagnose("droop", m, DESIGN, floor_v=10.5)
     assert [c.part for c in diag.causes] == ["gate_drive_voltage"]
     assert diag.notes and "below the 10.5 V floor" in diag.notes[0]
+
+
+def test_only_a_slow_turn_on_points_at_the_turn_on_path():
+    # SLUA618: the turn-on ramp is Q_gd * R_on / (V_drv - V_pl), the turn-off Q_gd * R_off /
+    # V_pl; a 300 ohm turn-on path with the designed 14.5 ohm turn-off path [computed].
+    on = eq.gate_timing(11.4, 4.6, 300.0, 3.0, 10.0, 1.5, 14e-9).t_vds_on_s
+    off = eq.gate_timing(11.4, 4.6, 6.0, 3.0, 10.0, 1.5, 14e-9).t_vds_off_s
+    m = {"switch_rise": 0.8 * on, "switch_fall": 0.8 * off}
+    diag = diagnose("edges", m, DESIGN)
+    assert diag.causes[0].part == "driver_source_resistance"
+    assert "turn-on" in diag.causes[0].title
