@@ -7,8 +7,10 @@ cells), so both files tell the same story in the same order:
 
 1. the summary (board, serial, outcome, open items, waivers and skips, sign-offs);
 2. the cautions; 3. the bench; 4. the design against the measurement;
-5. each stage on its own page: per step its cautions, the deciding attempt's verdicts, metrics,
-   settings, notes and plots, the history of attempts and events, then earlier attempts;
+5. each stage on its own page: per step its cautions, the deciding attempt's verdicts, its
+   metrics by label with their uncertainty and how it was found, what was probed where (each
+   scope channel as set and as read back), the other settings, notes and plots, the history
+   of attempts and events, then earlier attempts;
 6. the record's identity (schema, digests, chain head, the board's design values).
 
 No escaping happens here: each renderer makes every text literal in its own medium (the text a
@@ -263,11 +265,110 @@ def _setting_rows(settings: dict, prefix: str = "") -> list[tuple[str, str]]:
     return rows
 
 
-def _results(attempt: dict) -> list[Block]:
-    """The attempt's verdicts, its metrics, its settings and its notes."""
+def _label(attempt: dict, name: str, verdict: dict | None = None) -> str:
+    """A metric's label as logged (the board target's label for a judged one), else its id."""
+    metric = (attempt.get("metrics") or {}).get(name)
+    for source in (verdict, metric):
+        if isinstance(source, dict) and source.get("label"):
+            return _text(source["label"])
+    return _text(name)
+
+
+def _number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _uncertainty(attempt: dict, name: str) -> tuple[str, str]:
+    """(the metric's expanded uncertainty U as text, how it was found). From the attempt's
+    GUM budget (``extra.details.budgets``, JCGM 100:2008 §6: U = k u_c) when one was logged,
+    else the uncertainty its verdict used (ILAC-G8 §4.2), else none was evaluated."""
+    budgets = ((attempt.get("extra") or {}).get("details") or {}).get("budgets") or {}
+    budget = budgets.get(name) if isinstance(budgets, dict) else None
+    unit = _text(((attempt.get("metrics") or {}).get(name) or {}).get("unit"))
+    if isinstance(budget, dict) and _number(budget.get("expanded")):
+        unit = _text(budget.get("unit") or unit)
+        k = budget.get("k")
+        parts = [
+            f"{_text(c.get('name'))} (u = {fmt_value(c.get('u'), unit)}, {_text(c.get('evaluation'))})"
+            for c in budget.get("components") or []
+            if isinstance(c, dict)
+        ]
+        how = f"GUM budget, k = {k:g}" if _number(k) else "GUM budget"
+        return fmt_value(budget["expanded"], unit), how + (": " + "; ".join(parts) if parts else "")
+    for v in attempt.get("verdicts") or []:
+        if v.get("target") == name and _number(v.get("uncertainty")):
+            return (
+                fmt_value(v["uncertainty"], v.get("unit") or unit),
+                "the uncertainty the verdict used (the target's stated one, or the larger "
+                "computed one)",
+            )
+    return "not evaluated", "reported only, not judged"
+
+
+def _scope(attempt: dict, bench: dict) -> list[Block]:
+    """What was probed where: each scope channel as set for this attempt (net, probe, range,
+    offset, coupling, bandwidth limit, record length) and what the record read back (points
+    and sample interval of the waveform of that net)."""
+    scope = (attempt.get("settings") or {}).get("scope")
+    if not isinstance(scope, dict) or not isinstance(scope.get("channels"), list):
+        return []
+    ratios = {}
+    for inst in bench.get("instruments") or []:
+        if inst.get("id") == "scope":
+            ratios = {str(c.get("id")): c.get("probe_ratio") for c in inst.get("channels") or []}
+    waves = {_text(w.get("name")): w for w in attempt.get("waveforms") or []}
+    points, duration = scope.get("points"), scope.get("duration_s")
+    interval = duration / points if _number(duration) and _number(points) and points else None
+    rows = []
+    for ch in scope["channels"]:
+        if not isinstance(ch, dict):
+            continue
+        ratio = ratios.get(str(ch.get("channel")))
+        probe = _text(ch.get("probe"), "-") + (f", {ratio:g}:1" if _number(ratio) else "")
+        wave = waves.get(_text(ch.get("net"))) or {}
+        rows.append(
+            (
+                _text(ch.get("channel"), "-"),
+                _text(ch.get("net"), "-"),
+                probe,
+                fmt_value(ch.get("range_v"), "V"),
+                fmt_value(ch.get("offset_v"), "V"),
+                _text(ch.get("coupling"), "-"),
+                _setting_text(ch.get("bandwidth_limit")),
+                f"{_setting_text(points)} / {_setting_text(wave.get('points'))}",
+                f"{fmt_value(interval, 's')} / {fmt_value(wave.get('x_increment'), 's')}",
+            )
+        )
+    head = ("Ch", "Net", "Probe", "Range", "Offset", "Coupling", "BW limit",
+            "Points set / read", "Sample interval set / read")  # fmt: skip
+    blocks: list[Block] = [
+        Paragraph("What was probed where: the scope as set, and as read back", "strong"),
+        Table(head, tuple(rows), (9, 17, 30, 17, 17, 17, 15, 30, 38)),
+    ]
+    trigger = scope.get("trigger")
+    if isinstance(trigger, dict):
+        trig = (
+            f"trigger on {_text(trigger.get('net'), '-')}, {_text(trigger.get('slope'), '-')} "
+            f"edge at {fmt_value(trigger.get('level_v'), 'V')}"
+        )
+    else:
+        trig = "no trigger (free run)"
+    blocks.append(
+        Paragraph(
+            f"Scope as set: window {fmt_value(duration, 's')}, "
+            f"{fmt_value(scope.get('pretrigger_s'), 's')} before the trigger; {trig}. "
+            "Read: what the instrument sent with the record of that net."
+        )
+    )
+    return blocks
+
+
+def _results(attempt: dict, bench: dict | None = None) -> list[Block]:
+    """The attempt's verdicts, its metrics with their uncertainty, the scope as set and read
+    back, its other settings and its notes."""
     verdicts = tuple(
         (
-            _text(v.get("metric") or v.get("target")),
+            _label(attempt, _text(v.get("metric") or v.get("target")), v),
             fmt_value(v.get("value"), v.get("unit", "")),
             _limit_text(v),
             fmt_value(v.get("margin"), v.get("unit", "")),
@@ -282,10 +383,13 @@ def _results(attempt: dict) -> list[Block]:
         head = ("Quantity", "Measured", "Limits", "Margin", "Guard band", "Verdict", "Why")
         blocks.append(Table(head, verdicts, (34, 24, 36, 22, 20, 24, 30)))
     metrics = tuple(
-        (str(name), fmt_value(m)) for name, m in sorted((attempt.get("metrics") or {}).items())
+        (_label(attempt, str(name)), fmt_value(m), *_uncertainty(attempt, str(name)))
+        for name, m in sorted((attempt.get("metrics") or {}).items())
     )
     if metrics:
-        blocks.append(Table(("Metric", "Value"), metrics, (95, 95), fold="All metrics"))
+        head = ("Quantity", "Value", "Uncertainty U", "How U was found")
+        blocks.append(Table(head, metrics, (52, 28, 28, 82), fold="All metrics"))
+    blocks += _scope(attempt, bench or {})
     settings = tuple(_setting_rows(attempt.get("settings") or {}))
     if settings:
         blocks.append(Table(("Setting", "Value"), settings, (95, 95), fold="Settings", folded=True))
@@ -356,7 +460,7 @@ def _history(step: dict) -> Table:
     return Table(head, tuple(rows), (22, 48, 27, 33, 60))
 
 
-def _step(step: dict) -> list[Block]:
+def _step(step: dict, bench: dict) -> list[Block]:
     blocks: list[Block] = [
         Heading(_text(step.get("title") or step.get("id")), 3, _text(step.get("status")))
     ]
@@ -367,7 +471,7 @@ def _step(step: dict) -> list[Block]:
         blocks.append(
             Paragraph(f"Decided by attempt {_text(final.get('number'))} of {len(attempts)}.")
         )
-        blocks += _results(final) + _plots(final)
+        blocks += _results(final, bench) + _plots(final)
     else:
         blocks.append(Paragraph("No attempt recorded."))
     history = _history(step)
@@ -376,14 +480,14 @@ def _step(step: dict) -> list[Block]:
     for earlier in attempts[:-1]:  # superseded tries stay in the record as evidence
         word = OUTCOME_WORDS.get(earlier.get("outcome"), earlier.get("outcome"))
         title = Heading(f"Earlier attempt {_text(earlier.get('number'))}: {_text(word)}", 4)
-        blocks.append(Aside((title, *_results(earlier), *_plots(earlier))))
+        blocks.append(Aside((title, *_results(earlier, bench), *_plots(earlier))))
     return blocks
 
 
-def _stage(stage: dict) -> Section:
+def _stage(stage: dict, bench: dict) -> Section:
     blocks: list[Block] = [Paragraph(_text(c), "caution") for c in stage.get("cautions") or []]
     for step in stage.get("steps") or []:
-        blocks += _step(step)
+        blocks += _step(step, bench)
     title = f"Stage: {_text(stage.get('title') or stage.get('id'))}"
     return Section(f"stage-{_text(stage.get('id'))}", title, tuple(blocks), stage=True)
 
@@ -422,7 +526,7 @@ def build_document(record: dict) -> Document:
         _cautions(content),
         _bench(content),
         _comparison(content),
-        *(_stage(s) for s in content.get("stages", [])),
+        *(_stage(s, content.get("bench") or {}) for s in content.get("stages", [])),
         _identity(record, content, digest),
     )
     rehearsal = is_rehearsal(content)
