@@ -393,8 +393,18 @@ class Scope(Instrument):
         self.dialect.build(tree)
         self.build_sim_commands(tree)
 
-    def build_native_commands(self, tree: CommandTree) -> None:  # noqa: C901 (one table)
-        """The native dialect (``NULLPOINT,SIMSCOPE-4``, sim_instruments/README.md)."""
+    def build_native_commands(self, tree: CommandTree) -> None:
+        """The native dialect (``NULLPOINT,SIMSCOPE-4``, sim_instruments/README.md), one
+        subsystem at a time, in the order a header is matched."""
+        self._native_input(tree)
+        self._native_sweep(tree)
+        self._native_trigger(tree)
+        self._native_math(tree)
+        self._native_transfer(tree)
+        self._native_measure(tree)
+
+    def _native_input(self, tree: CommandTree) -> None:
+        """``INPut<n>`` and ``SENSe<n>:VOLTage:RANGe``: display, filter, coupling, probe and range."""
         ch = self.channels_or_reset
 
         def chan_bool(attr):
@@ -412,6 +422,24 @@ class Scope(Instrument):
         def coupling(s, p, n):
             ch(n[0]).coupling = parse_choice(one_param(p), ["AC", "DC", "GND"])
 
+        for attr, pattern in (
+            ("enabled", "INPut<n>[:STATe]"),
+            ("bw_limit", "INPut<n>:FILTer:LPASs[:STATe]"),
+        ):
+            set_, get = chan_bool(attr)
+            tree.add(pattern, set=set_, query=get)
+        tree.add("INPut<n>:COUPling", set=coupling, query=lambda s, p, n: ch(n[0]).coupling)
+        for attr, pattern, lo, hi in (
+            ("attenuation", "INPut<n>:ATTenuation", 0.001, 10000.0),
+            ("range_v", "[SENSe<n>:]VOLTage:RANGe:PTPeak", 1e-3, 1e5),
+            ("offset_v", "[SENSe<n>:]VOLTage:RANGe:OFFSet", -1e5, 1e5),
+        ):
+            set_, get = chan_num(attr, lo, hi)
+            tree.add(pattern, set=set_, query=get)
+
+    def _native_sweep(self, tree: CommandTree) -> None:
+        """``SENSe:SWEep`` (time, points, offset), the trigger level and the resolution."""
+
         def sweep(attr, low, high, integer=False):
             def set_(s, p, n):
                 value = parse_number(one_param(p), low, high)
@@ -422,6 +450,27 @@ class Scope(Instrument):
                 return str(value) if integer else format_nr3(value)
 
             return set_, get
+
+        for attr, pattern, lo, hi, integer in (
+            ("sweep_time_s", "[SENSe:]SWEep:TIME", 1e-9, 100.0, False),
+            ("points", "[SENSe:]SWEep:POINts", MIN_POINTS, MAX_POINTS, True),
+            ("sweep_offset_s", "[SENSe:]SWEep:OFFSet:TIME", -100.0, 100.0, False),
+            ("trigger_level_v", "TRIGger[:SEQuence]:LEVel", -1e5, 1e5, False),
+        ):
+            set_, get = sweep(attr, lo, hi, integer)
+            tree.add(pattern, set=set_, query=get)
+        tree.add(
+            "[SENSe:]SWEep:TINTerval",
+            query=lambda s, p, n: format_nr3(self.sweep_time_s / self.points),
+        )
+        tree.add(
+            "[SENSe:]VOLTage:RESolution",
+            set=lambda s, p, n: setattr(self, "resolution_bits", self._bits(p)),
+            query=lambda s, p, n: str(self.resolution_bits),
+        )
+
+    def _native_trigger(self, tree: CommandTree) -> None:
+        """``TRIGger`` source and slope, ``INITiate`` and ``ABORt``."""
 
         def trig_source(s, p, n):
             self.trigger_source = int(_source(one_param(p), math_ok=False)[2:])
@@ -436,6 +485,25 @@ class Scope(Instrument):
         def continuous(s, p, n):
             self.continuous = parse_bool(one_param(p))
 
+        tree.add(
+            "TRIGger[:SEQuence]:SOURce",
+            set=trig_source,
+            query=lambda s, p, n: f"CH{self.trigger_source}",
+        )
+        tree.add(
+            "TRIGger[:SEQuence]:SLOPe", set=trig_slope, query=lambda s, p, n: self.trigger_slope
+        )
+        tree.add("INITiate[:IMMediate]", set=initiate, locked=False)
+        tree.add(
+            "INITiate:CONTinuous",
+            set=continuous,
+            query=lambda s, p, n: "1" if self.continuous else "0",
+        )
+        tree.add("ABORt", set=lambda s, p, n: setattr(self, "continuous", False))
+
+    def _native_math(self, tree: CommandTree) -> None:
+        """``CALCulate:MATH``: the one difference of two channels."""
+
         def math_expr(s, p, n):
             text = unquote(one_param(p)).replace(" ", "").upper()
             parts = text.split("-")
@@ -443,6 +511,20 @@ class Scope(Instrument):
                 raise ScpiError(-224, f'expected "CH<a>-CH<b>", got {text!r}')
             a, b = (int(_source(x, math_ok=False)[2:]) for x in parts)
             self.math_expr = (a, b)
+
+        tree.add(
+            "CALCulate:MATH:EXPRession",
+            set=math_expr,
+            query=lambda s, p, n: '"CH{}-CH{}"'.format(*self.math_expr),
+        )
+        tree.add(
+            "CALCulate:MATH:STATe",
+            set=lambda s, p, n: setattr(self, "math_on", parse_bool(one_param(p))),
+            query=lambda s, p, n: "1" if self.math_on else "0",
+        )
+
+    def _native_transfer(self, tree: CommandTree) -> None:
+        """``FORMat`` and ``TRACe``: the record's transfer and its preamble."""
 
         def data_format(s, p, n):
             if not p or len(p) > 2:
@@ -474,69 +556,17 @@ class Scope(Instrument):
             nums = (record.x_increment, record.x_origin, inc, origin)
             return ",".join([str(record.points), *(format_nr3(x) for x in nums)])
 
-        def measure(kind):
-            return lambda s, p, n: self.measure(_source(one_param(p)), kind)
-
-        for attr, pattern in (
-            ("enabled", "INPut<n>[:STATe]"),
-            ("bw_limit", "INPut<n>:FILTer:LPASs[:STATe]"),
-        ):
-            set_, get = chan_bool(attr)
-            tree.add(pattern, set=set_, query=get)
-        tree.add("INPut<n>:COUPling", set=coupling, query=lambda s, p, n: ch(n[0]).coupling)
-        for attr, pattern, lo, hi in (
-            ("attenuation", "INPut<n>:ATTenuation", 0.001, 10000.0),
-            ("range_v", "[SENSe<n>:]VOLTage:RANGe:PTPeak", 1e-3, 1e5),
-            ("offset_v", "[SENSe<n>:]VOLTage:RANGe:OFFSet", -1e5, 1e5),
-        ):
-            set_, get = chan_num(attr, lo, hi)
-            tree.add(pattern, set=set_, query=get)
-        for attr, pattern, lo, hi, integer in (
-            ("sweep_time_s", "[SENSe:]SWEep:TIME", 1e-9, 100.0, False),
-            ("points", "[SENSe:]SWEep:POINts", MIN_POINTS, MAX_POINTS, True),
-            ("sweep_offset_s", "[SENSe:]SWEep:OFFSet:TIME", -100.0, 100.0, False),
-            ("trigger_level_v", "TRIGger[:SEQuence]:LEVel", -1e5, 1e5, False),
-        ):
-            set_, get = sweep(attr, lo, hi, integer)
-            tree.add(pattern, set=set_, query=get)
-        tree.add(
-            "[SENSe:]SWEep:TINTerval",
-            query=lambda s, p, n: format_nr3(self.sweep_time_s / self.points),
-        )
-        tree.add(
-            "[SENSe:]VOLTage:RESolution",
-            set=lambda s, p, n: setattr(self, "resolution_bits", self._bits(p)),
-            query=lambda s, p, n: str(self.resolution_bits),
-        )
-        tree.add(
-            "TRIGger[:SEQuence]:SOURce",
-            set=trig_source,
-            query=lambda s, p, n: f"CH{self.trigger_source}",
-        )
-        tree.add(
-            "TRIGger[:SEQuence]:SLOPe", set=trig_slope, query=lambda s, p, n: self.trigger_slope
-        )
-        tree.add("INITiate[:IMMediate]", set=initiate, locked=False)
-        tree.add(
-            "INITiate:CONTinuous",
-            set=continuous,
-            query=lambda s, p, n: "1" if self.continuous else "0",
-        )
-        tree.add("ABORt", set=lambda s, p, n: setattr(self, "continuous", False))
-        tree.add(
-            "CALCulate:MATH:EXPRession",
-            set=math_expr,
-            query=lambda s, p, n: '"CH{}-CH{}"'.format(*self.math_expr),
-        )
-        tree.add(
-            "CALCulate:MATH:STATe",
-            set=lambda s, p, n: setattr(self, "math_on", parse_bool(one_param(p))),
-            query=lambda s, p, n: "1" if self.math_on else "0",
-        )
         tree.add("FORMat[:DATA]", set=data_format, query=format_query)
         tree.add("FORMat:BORDer", set=border, query=lambda s, p, n: self.byte_order)
         tree.add("TRACe[:DATA]", query=trace_data, locked=False)
         tree.add("TRACe:PREamble", query=preamble, locked=False)
+
+    def _native_measure(self, tree: CommandTree) -> None:
+        """``MEASure:VOLTage``: the mean and the peak-to-peak."""
+
+        def measure(kind):
+            return lambda s, p, n: self.measure(_source(one_param(p)), kind)
+
         tree.add("MEASure:VOLTage[:DC]", query=measure("DC"), locked=False)
         tree.add("MEASure:VOLTage:PTPeak", query=measure("PTP"), locked=False)
 

@@ -108,10 +108,18 @@ class Tenfield(Dialect):
             record.cache[key] = cached
         return cached
 
-    def build(self, tree: CommandTree) -> None:  # noqa: C901 (one table of commands)
-        scope = self.scope
-        ch = scope.channels_or_reset
-        src = ("CHANNEL", "CHAN")
+    def build(self, tree: CommandTree) -> None:
+        """The command table, one subsystem at a time, in the order a header is matched."""
+        self._add_channel(tree)
+        self._add_timebase(tree)
+        self._add_trigger(tree)
+        self._add_math(tree)
+        self._add_waveform(tree)
+        self._add_measure(tree)
+
+    def _add_channel(self, tree: CommandTree) -> None:
+        """``:CHANnel<n>``: display, coupling, bandwidth, probe, scale and offset."""
+        ch = self.scope.channels_or_reset
 
         def chan_number(attr, convert, back):
             def set_(s, p, n):
@@ -147,6 +155,10 @@ class Tenfield(Dialect):
         set_, get = chan_number("offset_v", lambda v: -v, lambda v: -v)
         tree.add(":CHANnel<n>:OFFSet", set=set_, query=get)
 
+    def _add_timebase(self, tree: CommandTree) -> None:
+        """``:TIMebase`` (the centre kept when the scale changes) and ``:ACQuire:MDEPth``."""
+        scope = self.scope
+
         def timebase_scale(s, p, n):
             centre = scope.sweep_offset_s + scope.sweep_time_s / 2
             scope.sweep_time_s = parse_number(one_param(p), 1e-9, 50.0) * self.HORIZONTAL_DIVS
@@ -173,6 +185,11 @@ class Tenfield(Dialect):
             ),
             query=lambda s, p, n: str(scope.points),
         )
+
+    def _add_trigger(self, tree: CommandTree) -> None:
+        """``:TRIGger:EDGe``, ``:SINGle``/``:STOP`` and ``:TRIGger:STATus``."""
+        scope = self.scope
+        src = ("CHANNEL", "CHAN")
         tree.add(
             ":TRIGger:EDGe:SOURce",
             set=lambda s, p, n: setattr(
@@ -207,6 +224,11 @@ class Tenfield(Dialect):
             locked=False,
         )
 
+    def _add_math(self, tree: CommandTree) -> None:
+        """``:MATH``: the one difference the profiles use."""
+        scope = self.scope
+        src = ("CHANNEL", "CHAN")
+
         def math_source(index):
             def set_(s, p, n):
                 a, b = scope.math_expr
@@ -227,6 +249,11 @@ class Tenfield(Dialect):
             set=lambda s, p, n: setattr(scope, "math_on", parse_bool(one_param(p))),
             query=lambda s, p, n: "1" if scope.math_on else "0",
         )
+
+    def _add_waveform(self, tree: CommandTree) -> None:
+        """``:WAVeform``: source, format, pages, preamble and data."""
+        scope = self.scope
+        src = ("CHANNEL", "CHAN")
         tree.add(
             ":WAVeform:SOURce",
             set=lambda s, p, n: setattr(self, "source", _channel_word(one_param(p), src)),
@@ -279,6 +306,11 @@ class Tenfield(Dialect):
 
         tree.add(":WAVeform:PREamble", query=preamble, locked=False)
         tree.add(":WAVeform:DATA", query=data, locked=False)
+
+    def _add_measure(self, tree: CommandTree) -> None:
+        """``:MEASure:ITEM``: the mean and the peak-to-peak."""
+        scope = self.scope
+        src = ("CHANNEL", "CHAN")
 
         def measure_item(s, p, n):
             if len(p) != 2:
@@ -348,11 +380,19 @@ class Outpre(Dialect):
             y_off += 128 if self.width == 1 else 32768
         return inc, y_off, offset
 
-    def build(self, tree: CommandTree) -> None:  # noqa: C901 (one table of commands)
-        scope = self.scope
-        ch = scope.channels_or_reset
-        src = ("CH",)
-        divs = self.VERTICAL_DIVS
+    def build(self, tree: CommandTree) -> None:
+        """The command table, one subsystem at a time, in the order a header is matched."""
+        self._add_header(tree)
+        self._add_select(tree)
+        self._add_vertical(tree)
+        self._add_horizontal(tree)
+        self._add_trigger_acquire(tree)
+        self._add_math(tree)
+        self._add_data(tree)
+        self._add_measurement(tree)
+
+    def _add_header(self, tree: CommandTree) -> None:
+        """``HEADer`` (replies echo their header) and ``VERBose``."""
         answer = self._answer
 
         def header(s, p, n):
@@ -364,6 +404,12 @@ class Outpre(Dialect):
             query=lambda s, p, n: answer("HEADER", "1" if self.header else "0"),
         )
         tree.add("VERBose", set=lambda s, p, n: parse_bool(one_param(p)))
+
+    def _add_select(self, tree: CommandTree) -> None:
+        """``SELect``: which channels and the math trace are shown."""
+        scope = self.scope
+        ch = scope.channels_or_reset
+        answer = self._answer
         tree.add(
             "SELect:CH<n>",
             set=lambda s, p, n: setattr(ch(n[0]), "enabled", parse_bool(one_param(p))),
@@ -374,6 +420,12 @@ class Outpre(Dialect):
             set=lambda s, p, n: setattr(scope, "math_on", parse_bool(one_param(p))),
             query=lambda s, p, n: answer("SELECT:MATH", "1" if scope.math_on else "0"),
         )
+
+    def _add_vertical(self, tree: CommandTree) -> None:
+        """``CH<n>``: coupling, bandwidth, probe gain, scale, offset and position."""
+        ch = self.scope.channels_or_reset
+        divs = self.VERTICAL_DIVS
+        answer = self._answer
         tree.add(
             "CH<n>:COUPling",
             set=lambda s, p, n: setattr(
@@ -442,6 +494,11 @@ class Outpre(Dialect):
             ),
         )
 
+    def _add_horizontal(self, tree: CommandTree) -> None:
+        """``HORizontal``: scale (the trigger's percent kept), position, record length."""
+        scope = self.scope
+        answer = self._answer
+
         def h_scale(s, p, n):
             percent = -100.0 * scope.sweep_offset_s / scope.sweep_time_s
             scope.sweep_time_s = parse_number(one_param(p), 1e-9, 100.0) * self.HORIZONTAL_DIVS
@@ -474,6 +531,12 @@ class Outpre(Dialect):
             query=lambda s, p, n: answer("HORIZONTAL:RECORDLENGTH", str(scope.points)),
         )
         tree.add("HORizontal:DELay:MODe", set=lambda s, p, n: parse_bool(one_param(p)))
+
+    def _add_trigger_acquire(self, tree: CommandTree) -> None:
+        """``TRIGger:A`` (a level per source) and ``ACQuire`` (single sequences)."""
+        scope = self.scope
+        src = ("CH",)
+        answer = self._answer
 
         def trig_source(s, p, n):
             scope.trigger_source = int(_channel_word(one_param(p), src, False)[2:])
@@ -527,6 +590,11 @@ class Outpre(Dialect):
             locked=False,
         )
 
+    def _add_math(self, tree: CommandTree) -> None:
+        """``MATH:DEFine``: the one difference the profiles use."""
+        scope = self.scope
+        src = ("CH",)
+
         def math_define(s, p, n):
             text = unquote(one_param(p)).replace(" ", "").upper()
             parts = text.split("-")
@@ -536,6 +604,11 @@ class Outpre(Dialect):
             scope.math_expr = (a, b)
 
         tree.add("MATH:DEFine", set=math_define)
+
+    def _add_data(self, tree: CommandTree) -> None:
+        """``DATa``, ``WFMOutpre`` and ``CURVe``: the record's transfer."""
+        src = ("CH",)
+        answer = self._answer
         tree.add(
             "DATa:SOUrce",
             set=lambda s, p, n: setattr(self, "source", _channel_word(one_param(p), src)),
@@ -566,6 +639,12 @@ class Outpre(Dialect):
             )
         tree.add("WFMOutpre", query=lambda s, p, n: self._preamble(p), locked=False)
         tree.add("CURVe", query=lambda s, p, n: self._curve(p), locked=False)
+
+    def _add_measurement(self, tree: CommandTree) -> None:
+        """``MEASUrement:IMMed`` and the event queue's ``EVMsg``."""
+        scope = self.scope
+        src = ("CH",)
+        answer = self._answer
         tree.add(
             "MEASUrement:IMMed:SOUrce<n>",
             set=lambda s, p, n: setattr(self, "measure_source", _channel_word(one_param(p), src)),

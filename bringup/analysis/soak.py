@@ -340,21 +340,10 @@ def _settle(final: float, terms: list[tuple[float, float]], band: float) -> floa
     return 0.0 if out.size == 0 else float(grid[min(out[-1] + 1, grid.size - 1)])
 
 
-def fit_soak(
-    t_s: np.ndarray,
-    temp_c: np.ndarray,
-    band_k: float = 1.0,
-    *,
-    min_taus: float = 1.0,
-    _stability: bool = True,
-) -> SoakFit:
-    """Fit a soak to samples ``temp_c`` (°C) taken at ``t_s`` (s, increasing); see the module
-    doc for the models, the misfit tests, the model choice and the "undecided" outcome.
-
-    ``band_k``: the settling band around T_final (K). Raises ``AnalysisError`` when the data
-    cannot support any fit: too few samples, no rise above the noise, noise that swamps the
-    rise, less than ``min_taus`` time constants of data, or a fit that does not converge.
-    """
+def _checked_log(
+    t_s: np.ndarray, temp_c: np.ndarray, band_k: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """The log as flat float arrays (s, °C), or ``AnalysisError`` naming what is wrong with it."""
     t = np.asarray(t_s, dtype=np.float64).ravel()
     temp = np.asarray(temp_c, dtype=np.float64).ravel()
     if t.size != temp.size:
@@ -367,9 +356,11 @@ def fit_soak(
         raise AnalysisError("the times of the temperature log do not increase")
     if not (math.isfinite(band_k) and band_k > 0):
         raise AnalysisError(f"settling band must be > 0 K, got {band_k!r}")
+    return t, temp
 
-    t_start = float(t[0])
-    rel = t - t_start
+
+def _noise_and_rise(temp: np.ndarray) -> tuple[float, float]:
+    """(noise K rms, rise K) of the log; ``AnalysisError`` when the rise is not above the noise."""
     # Noise from second differences (a slow trend cancels): var(d2) = 6 sigma^2 for white noise.
     noise = float(np.std(np.diff(temp, 2)) / math.sqrt(6.0))
     rise = float(temp[-(temp.size // 10 or 1) :].mean() - temp[: temp.size // 10 or 1].mean())
@@ -379,9 +370,16 @@ def fit_soak(
         raise AnalysisError(
             f"the rise ({rise:.3g} K) is within the noise of the log ({noise:.3g} K rms): no fit"
         )
+    return noise, rise
 
+
+def _fit_first_order(
+    rel: np.ndarray, temp: np.ndarray, span: float, rise: float, min_taus: float
+) -> tuple[_Fit, np.ndarray]:
+    """The one-time-constant fit and its residual (K); raises
+    ``AnalysisError`` when it does not converge, is not determined, covers fewer than
+    ``min_taus`` time constants or misses the log's shape by more than a quarter of the rise."""
     guess = _aitken(rel, temp)
-    span = float(rel[-1])
     if guess is None or not (0 < guess[1] < 100 * span):
         guess = (float(temp[-1]) + 0.5 * rise, span / 2.0)
     p0 = (guess[0], float(temp[0]), guess[1])
@@ -406,11 +404,15 @@ def fit_soak(
             f"the log does not follow a first-order soak (residual {rms1:.3g} K rms "
             f"against a rise of {abs(final1 - start1):.3g} K)"
         )
-    n = int(t.size)
-    bad1, diag, findings1 = _misfit(resid1, noise, 3)
-    two, grid = (None, None)
-    if n >= _MIN_TWO_TAU_SAMPLES:
-        two, grid = _fit_two(rel, temp, span, refine=False)
+    return one, resid1
+
+
+def _second_tau_wins(
+    one: _Fit, two: _Fit | None, n: int, bad1: bool, diag: dict, findings1: list[str]
+) -> bool:
+    """Whether the one-time-constant model is rejected: by its own misfit (``bad1``) or because
+    a second time constant lowers the BIC by ``BIC_STRONG`` or passes the nested F-test.
+    Fills ``diag`` (the BICs, the F-test's p) and ``findings1`` (why)."""
     diag["bic_one_tau"] = one.bic(n)
     diag["bic_two_tau"] = two.bic(n) if two is not None else None
     diag["f_test_p"] = None
@@ -428,103 +430,237 @@ def fit_soak(
                 f"a second time constant lowers the BIC by {bic_gain:.1f} "
                 f"(F-test p = {diag['f_test_p']:.2g})"
             )
+    return bad1
 
-    undecided = ""
+
+@dataclass
+class _Choice:
+    """The chosen model's numbers before the expanded uncertainty and the stability check
+    (°C, s; ``lo``/``hi`` bound T_final from the profile or the grid)."""
+
+    model: str
+    final: float
+    tau: float
+    tau_fast: float | None
+    tau_se: float
+    start: float
+    terms: list[tuple[float, float]]
+    resid: np.ndarray
+    se: float
+    lo: float
+    hi: float
+    undecided: str = ""
     keep_soaking: float | None = None
-    if not bad1:
-        model = "one-tau"
-        final, tau, tau_fast, tau_se = final1, tau1, None, float(one.errors[2])
-        start, terms, resid, se = start1, [(final1 - start1, tau1)], resid1, float(one.errors[0])
-        sigma2 = max(noise**2, one.sse / max(n - 3, 1))
-        lo, hi = _profile_one(rel, temp, tau1, COVERAGE_K**2 * sigma2)
-        if taus1 < MIN_TAUS_PREDICT and _stability:
-            undecided = (
-                f"only {taus1:.1f} time constants logged (tau about {tau1:.0f} s): a fit to early "
-                "data tends to underestimate T_final when the board has slower time constants; "
-                f"a one-time-constant prediction needs {MIN_TAUS_PREDICT:g} tau "
-                f"({MIN_TAUS_PREDICT * tau1:.0f} s, 95 % of the rise seen)"
-            )
-            keep_soaking = MIN_TAUS_PREDICT * tau1 - span
+
+
+def _choose_one_tau(
+    rel: np.ndarray,
+    temp: np.ndarray,
+    span: float,
+    one: _Fit,
+    resid1: np.ndarray,
+    noise: float,
+    n: int,
+    stability: bool,
+) -> _Choice:
+    """One time constant describes the log: T_final's interval from the profile likelihood,
+    undecided when fewer than ``MIN_TAUS_PREDICT`` time constants are logged."""
+    final1, start1, tau1 = (float(v) for v in one.popt)
+    taus1 = span / tau1
+    sigma2 = max(noise**2, one.sse / max(n - 3, 1))
+    lo, hi = _profile_one(rel, temp, tau1, COVERAGE_K**2 * sigma2)
+    choice = _Choice(
+        model="one-tau",
+        final=final1,
+        tau=tau1,
+        tau_fast=None,
+        tau_se=float(one.errors[2]),
+        start=start1,
+        terms=[(final1 - start1, tau1)],
+        resid=resid1,
+        se=float(one.errors[0]),
+        lo=lo,
+        hi=hi,
+    )
+    if taus1 < MIN_TAUS_PREDICT and stability:
+        choice.undecided = (
+            f"only {taus1:.1f} time constants logged (tau about {tau1:.0f} s): a fit to early "
+            "data tends to underestimate T_final when the board has slower time constants; "
+            f"a one-time-constant prediction needs {MIN_TAUS_PREDICT:g} tau "
+            f"({MIN_TAUS_PREDICT * tau1:.0f} s, 95 % of the rise seen)"
+        )
+        choice.keep_soaking = MIN_TAUS_PREDICT * tau1 - span
+    return choice
+
+
+def _choose_two_tau(
+    rel: np.ndarray,
+    temp: np.ndarray,
+    span: float,
+    one: _Fit,
+    two: _Fit | None,
+    resid1: np.ndarray,
+    noise: float,
+    n: int,
+    findings1: list[str],
+    stability: bool,
+) -> _Choice:
+    """One time constant does not describe the log: the refined two-time-constant fit with
+    T_final's interval from its grid profile, undecided when that fit fails, misfits too, or
+    its slow time constant is not pinned by the log; the one-tau numbers when it does not
+    converge."""
+    what = "the log does not follow one time constant (" + "; ".join(findings1) + ")"
+    grid = None
+    if two is not None:
+        two, grid = _fit_two(rel, temp, span, refine=True)
+    if two is None:
+        final1, start1, tau1 = (float(v) for v in one.popt)
+        return _Choice(
+            model="one-tau",
+            final=final1,
+            tau=tau1,
+            tau_fast=None,
+            tau_se=float(one.errors[2]),
+            start=start1,
+            terms=[(final1 - start1, tau1)],
+            resid=resid1,
+            se=float(one.errors[0]),
+            lo=final1,
+            hi=final1,
+            undecided=f"{what}, and a two-time-constant fit does not converge",
+            keep_soaking=span,
+        )
+    final, a1, t1, a2, t2 = (float(v) for v in two.popt)
+    resid = temp - _model2(rel, *two.popt)
+    bad2, _, findings2 = _misfit(resid, noise, 5)
+    # Profile of T_final over the grid: every pair of time constants whose fit is
+    # within k^2 sigma^2 of the best (a likelihood interval, k = 2).
+    finals, sses, slow = grid
+    sigma2 = max(noise**2, two.sse / max(n - 5, 1))
+    good = np.isfinite(sses) & np.isfinite(finals)
+    # Against the grid's own best, so that its 25 % steps do not narrow the interval.
+    best = float(sses[good].min()) if np.any(good) else two.sse
+    ok = good & (sses <= best + COVERAGE_K**2 * sigma2)
+    lo, hi = (final, final)
+    if np.any(ok):
+        lo, hi = float(finals[ok].min()), float(finals[ok].max())
+    choice = _Choice(
+        model="two-tau",
+        final=final,
+        tau=t2,
+        tau_fast=t1,
+        tau_se=float(two.errors[4]),
+        start=final - a1 - a2,
+        terms=[(a1, t1), (a2, t2)],
+        resid=resid,
+        se=float(two.errors[0]),
+        lo=lo,
+        hi=hi,
+    )
+    top = _tau_grid(span)[-4]
+    if bad2:
+        choice.undecided = (
+            f"{what}, nor two (" + "; ".join(findings2) + "): the soak has a shape these "
+            "models do not describe"
+        )
+        choice.keep_soaking = span
+    elif bool(np.any(slow[ok] >= top)) or (span < MIN_TAUS_PREDICT * t2 and stability):
+        choice.undecided = (
+            f"{what}; its slow time constant (about {t2:.0f} s) is not pinned by "
+            f"{span:.0f} s of log (a prediction needs {MIN_TAUS_PREDICT:g} of it): "
+            f"T_final may lie anywhere from {lo:.1f} degC up"
+        )
+        choice.keep_soaking = max(min(MIN_TAUS_PREDICT * t2, 20.0 * span) - span, span / 2)
+    return choice
+
+
+def _still_moving(
+    t: np.ndarray,
+    temp: np.ndarray,
+    band_k: float,
+    final: float,
+    expanded: float,
+    diag: dict,
+) -> tuple[str, float] | None:
+    """(why, s more to log) when the prediction has not stopped moving, else None.
+
+    The same fit on the first 2/3 of the log must agree within the larger of the two expanded
+    uncertainties (under the right model the two differ by less than the earlier one's
+    uncertainty; a slow term that neither model sees yet makes the prediction climb as the log
+    grows). Fills ``diag["drift_c"]`` when the early fit succeeds."""
+    n = int(t.size)
+    rel = t - float(t[0])
+    span = float(rel[-1])
+    part = (2 * n) // 3
+    try:
+        early = fit_soak(t[:part], temp[:part], band_k, min_taus=0.0, _stability=False)
+    except AnalysisError:
+        return None
+    drift = final - early.final_c
+    diag["drift_c"] = drift
+    if abs(drift) > max(early.final_c_uncertainty, expanded):
+        why = (
+            f"the prediction is still moving: {early.final_c:.2f} degC from the first "
+            f"{float(rel[part - 1]):.0f} s of log, {final:.2f} degC from all "
+            f"{span:.0f} s (more than either's uncertainty)"
+        )
+        return why, span / 2.0
+    return None
+
+
+def fit_soak(
+    t_s: np.ndarray,
+    temp_c: np.ndarray,
+    band_k: float = 1.0,
+    *,
+    min_taus: float = 1.0,
+    _stability: bool = True,
+) -> SoakFit:
+    """Fit a soak to samples ``temp_c`` (°C) taken at ``t_s`` (s, increasing); see the module
+    doc for the models, the misfit tests, the model choice and the "undecided" outcome.
+
+    ``band_k``: the settling band around T_final (K). Raises ``AnalysisError`` when the data
+    cannot support any fit: too few samples, no rise above the noise, noise that swamps the
+    rise, less than ``min_taus`` time constants of data, or a fit that does not converge.
+    """
+    t, temp = _checked_log(t_s, temp_c, band_k)
+    t_start = float(t[0])
+    rel = t - t_start
+    noise, rise = _noise_and_rise(temp)
+    span = float(rel[-1])
+    one, resid1 = _fit_first_order(rel, temp, span, rise, min_taus)
+    n = int(t.size)
+    bad1, diag, findings1 = _misfit(resid1, noise, 3)
+    two = None
+    if n >= _MIN_TWO_TAU_SAMPLES:
+        two, _ = _fit_two(rel, temp, span, refine=False)
+    if not _second_tau_wins(one, two, n, bad1, diag, findings1):
+        chosen = _choose_one_tau(rel, temp, span, one, resid1, noise, n, _stability)
     else:
-        what = "the log does not follow one time constant (" + "; ".join(findings1) + ")"
-        if two is not None:
-            two, grid = _fit_two(rel, temp, span, refine=True)
-        if two is None:
-            model = "one-tau"
-            final, tau, tau_fast, tau_se = final1, tau1, None, float(one.errors[2])
-            start, terms, resid = start1, [(final1 - start1, tau1)], resid1
-            se, lo, hi = float(one.errors[0]), final1, final1
-            undecided = f"{what}, and a two-time-constant fit does not converge"
-            keep_soaking = span
-        else:
-            model = "two-tau"
-            final, a1, t1, a2, t2 = (float(v) for v in two.popt)
-            tau, tau_fast, tau_se, se = t2, t1, float(two.errors[4]), float(two.errors[0])
-            start, terms = final - a1 - a2, [(a1, t1), (a2, t2)]
-            resid = temp - _model2(rel, *two.popt)
-            bad2, _, findings2 = _misfit(resid, noise, 5)
-            # Profile of T_final over the grid: every pair of time constants whose fit is
-            # within k^2 sigma^2 of the best (a likelihood interval, k = 2).
-            finals, sses, slow = grid
-            sigma2 = max(noise**2, two.sse / max(n - 5, 1))
-            good = np.isfinite(sses) & np.isfinite(finals)
-            # Against the grid's own best, so that its 25 % steps do not narrow the interval.
-            best = float(sses[good].min()) if np.any(good) else two.sse
-            ok = good & (sses <= best + COVERAGE_K**2 * sigma2)
-            lo, hi = (final, final)
-            if np.any(ok):
-                lo, hi = float(finals[ok].min()), float(finals[ok].max())
-            top = _tau_grid(span)[-4]
-            if bad2:
-                undecided = (
-                    f"{what}, nor two (" + "; ".join(findings2) + "): the soak has a shape these "
-                    "models do not describe"
-                )
-                keep_soaking = span
-            elif bool(np.any(slow[ok] >= top)) or (span < MIN_TAUS_PREDICT * t2 and _stability):
-                undecided = (
-                    f"{what}; its slow time constant (about {t2:.0f} s) is not pinned by "
-                    f"{span:.0f} s of log (a prediction needs {MIN_TAUS_PREDICT:g} of it): "
-                    f"T_final may lie anywhere from {lo:.1f} degC up"
-                )
-                keep_soaking = max(min(MIN_TAUS_PREDICT * t2, 20.0 * span) - span, span / 2)
-    lo, hi = min(lo, final - COVERAGE_K * se), max(hi, final + COVERAGE_K * se)
+        chosen = _choose_two_tau(rel, temp, span, one, two, resid1, noise, n, findings1, _stability)
+    final, se = chosen.final, chosen.se
+    undecided, keep_soaking = chosen.undecided, chosen.keep_soaking
+    lo, hi = min(chosen.lo, final - COVERAGE_K * se), max(chosen.hi, final + COVERAGE_K * se)
     expanded = max(final - lo, hi - final)
     if not undecided and _stability and n >= 2 * _MIN_TWO_TAU_SAMPLES:
-        # The prediction must have stopped moving: the same fit on the first 2/3 of the log
-        # agrees within the larger of the two expanded uncertainties (under the right model
-        # the two differ by less than the earlier one's uncertainty; a slow term that neither
-        # model sees yet makes the prediction climb as the log grows).
-        part = (2 * n) // 3
-        try:
-            early = fit_soak(t[:part], temp[:part], band_k, min_taus=0.0, _stability=False)
-        except AnalysisError:
-            early = None
-        if early is not None:
-            drift = final - early.final_c
-            diag["drift_c"] = drift
-            if abs(drift) > max(early.final_c_uncertainty, expanded):
-                undecided = (
-                    f"the prediction is still moving: {early.final_c:.2f} degC from the first "
-                    f"{float(rel[part - 1]):.0f} s of log, {final:.2f} degC from all "
-                    f"{span:.0f} s (more than either's uncertainty)"
-                )
-                keep_soaking = span / 2.0
+        moving = _still_moving(t, temp, band_k, final, expanded, diag)
+        if moving is not None:
+            undecided, keep_soaking = moving
     if undecided:
         more = f" (about {keep_soaking:.0f} s more)" if keep_soaking else ""
         undecided = f"undecided, keep soaking{more}: {undecided}"
     model_u = math.sqrt(max(expanded**2 - (COVERAGE_K * se) ** 2, 0.0))
     warnings_out = [undecided] if undecided else []
-    rms = float(np.sqrt(np.mean(resid**2)))
-    taus = span / tau
-    settle_rel = _settle(final, terms, band_k)
+    rms = float(np.sqrt(np.mean(chosen.resid**2)))
+    taus = span / chosen.tau
+    settle_rel = _settle(final, chosen.terms, band_k)
     settle_time = t_start + settle_rel
     return SoakFit(
         final_c=final,
         final_c_uncertainty=float(expanded),
-        start_c=start,
-        tau_s=tau,
-        tau_uncertainty_s=float(COVERAGE_K * tau_se),
+        start_c=chosen.start,
+        tau_s=chosen.tau,
+        tau_uncertainty_s=float(COVERAGE_K * chosen.tau_se),
         settle_time_s=float(settle_time),
         settle_in_s=float(max(settle_time - float(t[-1]), 0.0)),
         band_k=float(band_k),
@@ -533,8 +669,8 @@ def fit_soak(
         samples=n,
         warnings=warnings_out,
         outcome="undecided" if undecided else "predicted",
-        model=model,
-        tau_fast_s=tau_fast,
+        model=chosen.model,
+        tau_fast_s=chosen.tau_fast,
         model_uncertainty_c=float(model_u),
         noise_c=noise,
         undecided_reason=undecided,
