@@ -197,3 +197,12 @@ def test_a_resumed_session_shows_the_same_diagnosis(runs):
     with SessionRunner.resume(summary["session"], db_path=db, operator="tester") as resumed:
         again = resumed.attempts(failed["step"])[-1]
     assert again.diagnosis == failed["diagnosis"]
+    # the headless lines print it: notes, then each cause with its evidence and its check
+    from bringup.runner.reporting import attempt_lines
+
+    text = "\n".join(attempt_lines(7, 8, again))
+    assert "? diagnosis: Vgs already starts at" in text
+    first = failed["diagnosis"]["causes"][0]
+    assert f"? cause 1: {first['title']}" in text
+    assert f"check: {first['check']}" in text
+    assert all(e in text for e in first["evidence"])
