@@ -238,32 +238,17 @@ def _given_window(on_window_s, dt: float, t0: float, n: int):
     return on_start, a, b, on_end, "given"
 
 
-def measure_droop(
+def _top_span(
     y: np.ndarray,
     dt: float,
-    floor_v: float,
-    t0: float = 0.0,
-    *,
-    settle_s: float | None = None,
-    on_window_s: tuple[float, float] | None = None,
-) -> DroopMetrics:
-    """Measure the droop of the longest on-pulse of ``y`` (V, ``dt`` s apart).
-
-    ``floor_v``: the lowest acceptable level (V). ``settle_s``: time after the on-pulse starts
-    to skip before fitting; by default found from the data (where the top starts to follow its
-    line within 5 sigma of its noise). ``on_window_s``: the on-pulse's start and end instants
-    (s) when another trace knows them better, e.g. V_BS, whose on-time is its lower, sagging
-    part between recharge bumps: pass the ``on_start_s``/``on_end_s`` that ``measure_droop``
-    found on V_GS of the same acquisition. Raises ``AnalysisError`` when there is no top.
-    """
-    if not (isinstance(floor_v, int | float | np.floating) and math.isfinite(floor_v)):
-        raise AnalysisError(f"floor must be a finite voltage, got {floor_v!r}")
-    y = np.asarray(y)
-    dt, t0, n = float(dt), float(t0), int(np.asarray(y).size)
-    if on_window_s is not None:
-        on_start, a, b, on_end, window = _given_window(on_window_s, dt, t0, n)
-    else:
-        on_start, a, b, on_end, window = _find_pulse(y, dt, t0, n)
+    a: int,
+    b: int,
+    window: str,
+    settle_s: float | None,
+) -> tuple[int, int]:
+    """[a_fit, b_fit): the settled top of the on-pulse's samples [a, b), clear of the rising
+    edge's settling (``settle_s``, or where the top starts to follow its line) and of the
+    falling edge's first samples; ``AnalysisError`` when too little of it is left."""
     if b - a < _MIN_TOP_SAMPLES:
         raise AnalysisError(
             f"the on-pulse top has only {max(b - a, 0)} samples (need {_MIN_TOP_SAMPLES})"
@@ -291,20 +276,20 @@ def measure_droop(
         raise AnalysisError(
             f"the settled top has only {max(b_fit - a_fit, 0)} samples (need {_MIN_TOP_SAMPLES})"
         )
-    line = _fit_line(y, a_fit, b_fit)
+    return a_fit, b_fit
 
+
+def _longest_on_time(
+    line: _Line,
+    dt: float,
+    start_v: float,
+    floor_v: float,
+    on_time: float,
+    reasons: dict[str, str],
+) -> tuple[float | None, float | None]:
+    """(longest on-time s, its ratio to the on-time shown) before the line reaches
+    ``floor_v``; (None, None) with the reason in ``reasons`` when it cannot be said."""
     slope_v_per_s = line.slope / dt
-    # The droop over the whole on-time the record shows (50 % to 50 %), not only over the
-    # fitted samples: the line is carried over the settling at the start and over the
-    # falling edge's first half at the end, so that droop_v = rate x on_time.
-    on_time = on_end - on_start
-    start_v = line.at((on_start - t0) / dt)
-    end_v = line.at((on_end - t0) / dt)
-    top_start = t0 + a_fit * dt
-    reasons: dict[str, str] = {}
-    warnings: list[str] = []
-    t_on_max = None
-    extrapolation = None
     if start_v <= floor_v:
         reasons["t_on_max_s"] = (
             f"the top starts at {start_v:.4g} V, already at or below the floor {floor_v:.4g} V"
@@ -313,7 +298,21 @@ def measure_droop(
         reasons["t_on_max_s"] = "the top does not droop measurably (slope within its noise)"
     else:
         t_on_max = (floor_v - start_v) / slope_v_per_s
-        extrapolation = t_on_max / on_time if on_time > 0 else None
+        return t_on_max, t_on_max / on_time if on_time > 0 else None
+    return None, None
+
+
+def _top_warnings(
+    y: np.ndarray,
+    dt: float,
+    a_fit: int,
+    b_fit: int,
+    line: _Line,
+    window: str,
+    on_time: float,
+) -> list[str]:
+    """What limits the reading: no edge, a fitted top short of the on-time, a bent top."""
+    warnings: list[str] = []
     if window == "whole-record":
         warnings.append(
             "no edge found: the whole record is taken as the top of one on-pulse (a capture of "
@@ -328,6 +327,49 @@ def measure_droop(
     bend = _bend(y, a_fit, b_fit, line, dt)
     if bend is not None:
         warnings.append(bend)
+    return warnings
+
+
+def measure_droop(
+    y: np.ndarray,
+    dt: float,
+    floor_v: float,
+    t0: float = 0.0,
+    *,
+    settle_s: float | None = None,
+    on_window_s: tuple[float, float] | None = None,
+) -> DroopMetrics:
+    """Measure the droop of the longest on-pulse of ``y`` (V, ``dt`` s apart).
+
+    ``floor_v``: the lowest acceptable level (V). ``settle_s``: time after the on-pulse starts
+    to skip before fitting; by default found from the data (where the top starts to follow its
+    line within 5 sigma of its noise). ``on_window_s``: the on-pulse's start and end instants
+    (s) when another trace knows them better, e.g. V_BS, whose on-time is its lower, sagging
+    part between recharge bumps: pass the ``on_start_s``/``on_end_s`` that ``measure_droop``
+    found on V_GS of the same acquisition. Raises ``AnalysisError`` when there is no top.
+    """
+    if not (isinstance(floor_v, int | float | np.floating) and math.isfinite(floor_v)):
+        raise AnalysisError(f"floor must be a finite voltage, got {floor_v!r}")
+    y = np.asarray(y)
+    dt, t0, n = float(dt), float(t0), int(np.asarray(y).size)
+    if on_window_s is not None:
+        on_start, a, b, on_end, window = _given_window(on_window_s, dt, t0, n)
+    else:
+        on_start, a, b, on_end, window = _find_pulse(y, dt, t0, n)
+    a_fit, b_fit = _top_span(y, dt, a, b, window, settle_s)
+    line = _fit_line(y, a_fit, b_fit)
+
+    slope_v_per_s = line.slope / dt
+    # The droop over the whole on-time the record shows (50 % to 50 %), not only over the
+    # fitted samples: the line is carried over the settling at the start and over the
+    # falling edge's first half at the end, so that droop_v = rate x on_time.
+    on_time = on_end - on_start
+    start_v = line.at((on_start - t0) / dt)
+    end_v = line.at((on_end - t0) / dt)
+    top_start = t0 + a_fit * dt
+    reasons: dict[str, str] = {}
+    t_on_max, extrapolation = _longest_on_time(line, dt, start_v, floor_v, on_time, reasons)
+    warnings = _top_warnings(y, dt, a_fit, b_fit, line, window, on_time)
     return DroopMetrics(
         start_v=float(start_v),
         end_v=float(end_v),

@@ -557,6 +557,129 @@ def _stats(values: np.ndarray) -> tuple[float | None, float | None, float | None
     return float(np.median(values)), float(values.min()), float(values.max())
 
 
+def _median_max(values: np.ndarray) -> tuple[float | None, float | None]:
+    if values.size == 0:
+        return None, None
+    return float(np.median(values)), float(values.max())
+
+
+def _no_edge_reasons(rise_found: bool, fall_found: bool, reasons: dict[str, str]) -> None:
+    """Why each rising (falling) edge metric is absent when the record has no such edge."""
+    if not rise_found:
+        for k in ("rise_time_s", "rise_time_min_s", "rise_time_max_s", "overshoot_pct"):
+            reasons[k] = "no rising edge in the record"
+        reasons["overshoot_max_pct"] = reasons["slew_rate_rise_v_per_s"] = reasons["rise_time_s"]
+    if not fall_found:
+        for k in ("fall_time_s", "fall_time_min_s", "fall_time_max_s", "undershoot_pct"):
+            reasons[k] = "no falling edge in the record"
+        reasons["undershoot_max_pct"] = reasons["slew_rate_fall_v_per_s"] = reasons["fall_time_s"]
+
+
+def _level_uncertainty_pct(y: np.ndarray, state: StateLevels) -> float:
+    """Standard uncertainty (% of amplitude) of the state level an aberration is read from.
+
+    The level is known to within its histogram bin (the refined level lies in the modal bin):
+    rectangular over +/- half a bin, u = bin/sqrt(12) (GUM §4.3.7), common to every edge of the
+    record; 0 with min/max levels. One ADC code adds its own rectangular part (the level and
+    the peak are read in codes)."""
+    if state.method == "minmax":
+        return 0.0
+    code_pct = 100.0 * code_step(y) / state.amplitude_v
+    return math.hypot(100.0 / HISTOGRAM_BINS, code_pct) / math.sqrt(12.0)
+
+
+def _aberration_uncertainty(
+    values: np.ndarray, u: np.ndarray, u_level: float
+) -> tuple[float | None, float | None]:
+    """Expanded (k = 2) uncertainty of the median and of the largest of ``values`` (%):
+    the median of n estimates has a standard error sqrt(pi/2) u/sqrt(n) for normal errors
+    (the median's asymptotic efficiency, common practice); the largest is one edge's
+    (the fit's, without the scatter: the largest is not a typical edge); the
+    level's part is added in quadrature to both (GUM §5.1.2, uncorrelated inputs)."""
+    if values.size == 0:
+        return None, None
+    # Per edge: the fit's noise (type B from the record's noise), or the edges' own
+    # scatter when it is larger (type A, GUM §4.2: the location's jitter shows there).
+    u_edge = float(np.median(u))
+    if values.size >= 3:
+        u_edge = max(u_edge, float(np.std(values, ddof=1)))
+    u_median = math.sqrt(math.pi / 2.0) * u_edge / math.sqrt(values.size)
+    u_max = float(u[int(np.argmax(values))])
+    return 2.0 * math.hypot(u_median, u_level), 2.0 * math.hypot(u_max, u_level)
+
+
+def _pulse_timing(
+    mids: np.ndarray, rising: np.ndarray, reasons: dict[str, str]
+) -> tuple[float | None, float | None, float | None, float | None, float | None]:
+    """(pulse width s, negative pulse width s, period s, frequency Hz, duty cycle) from the
+    edges' mid-reference instants (IEEE 181), each None with its reason when the record
+    lacks the edges it needs."""
+    falling = ~rising
+    gaps = np.diff(mids)
+    high_widths = gaps[rising[:-1]]
+    low_widths = gaps[falling[:-1]]
+    pulse_width = float(np.median(high_widths)) if high_widths.size else None
+    negative_width = float(np.median(low_widths)) if low_widths.size else None
+    if pulse_width is None:
+        reasons["pulse_width_s"] = "no rising edge followed by a falling edge"
+    if negative_width is None:
+        reasons["negative_pulse_width_s"] = "no falling edge followed by a rising edge"
+    periods = np.concatenate((np.diff(mids[rising]), np.diff(mids[falling])))
+    if periods.size:
+        period = float(np.median(periods))
+        frequency = 1.0 / period
+    else:
+        period = frequency = None
+        reasons["period_s"] = reasons["frequency_hz"] = (
+            "fewer than two edges of the same direction (no full period)"
+        )
+    if period is not None and pulse_width is not None:
+        duty = pulse_width / period
+    elif period is not None and negative_width is not None:
+        duty = 1.0 - negative_width / period
+    else:
+        duty = None
+        reasons["duty_cycle"] = reasons.get("period_s", "no complete pulse in the record")
+    return pulse_width, negative_width, period, frequency, duty
+
+
+def _few_samples_warnings(
+    rise_samples: float | None,
+    fall_samples: float | None,
+    pct: tuple[float, float, float],
+    dt: float,
+) -> list[str]:
+    """A warning per direction whose fastest edge spans fewer than ``MIN_EDGE_SAMPLES``."""
+    warnings: list[str] = []
+    for what, count in (("rising", rise_samples), ("falling", fall_samples)):
+        if count is not None and count < MIN_EDGE_SAMPLES:
+            slow = 100.0 * slow_reading_fraction(count)
+            warnings.append(
+                f"the fastest {what} edge spans only {count:.1f} samples between its "
+                f"{pct[0]:g} % and {pct[2]:g} % levels (fewer than {MIN_EDGE_SAMPLES}): "
+                f"interpolating between so few samples reads a first-order edge about "
+                f"+{slow:.1f} % slow; sample faster: more record points over the same time span, "
+                f"or a shorter time span with the same points (now {dt:.3g} s per sample; aim "
+                f"for {count * dt / MIN_EDGE_SAMPLES:.3g} s or less)"
+            )
+    return warnings
+
+
+def _cycle_mean(
+    y: np.ndarray, mids: np.ndarray, rising: np.ndarray, t0: float, dt: float
+) -> float | None:
+    """The record's mean (V) over whole periods only, so that a part-period at either end
+    does not bias it; None without a full period."""
+    falling = ~rising
+    same = mids[rising] if rising.sum() >= 2 else mids[falling]
+    if same.size >= 2:
+        i0 = int(round((same[0] - t0) / dt))
+        i1 = int(round((same[-1] - t0) / dt))
+        if i1 > i0:
+            return float(np.mean(y[i0:i1], dtype=np.float64))
+    return None
+
+
 def measure_edges(
     y: np.ndarray,
     dt: float,
@@ -584,7 +707,6 @@ def measure_edges(
             f"({state.low_v:.4g} V and {state.high_v:.4g} V)"
         )
     reasons: dict[str, str] = {}
-    warnings: list[str] = []
     rising = tr.direction > 0
     falling = ~rising
     span = pct[2] - pct[0]
@@ -592,102 +714,26 @@ def measure_edges(
 
     rise = _stats(tr.duration_s[rising])
     fall = _stats(tr.duration_s[falling])
-    if rise[0] is None:
-        for k in ("rise_time_s", "rise_time_min_s", "rise_time_max_s", "overshoot_pct"):
-            reasons[k] = "no rising edge in the record"
-        reasons["overshoot_max_pct"] = reasons["slew_rate_rise_v_per_s"] = reasons["rise_time_s"]
-    if fall[0] is None:
-        for k in ("fall_time_s", "fall_time_min_s", "fall_time_max_s", "undershoot_pct"):
-            reasons[k] = "no falling edge in the record"
-        reasons["undershoot_max_pct"] = reasons["slew_rate_fall_v_per_s"] = reasons["fall_time_s"]
-
-    def _median_max(values):
-        if values.size == 0:
-            return None, None
-        return float(np.median(values)), float(values.max())
-
-    # The state level the aberration is measured from is known to within its histogram bin
-    # (the refined level lies in the modal bin): rectangular over +/- half a bin, u = bin/sqrt(12)
-    # (GUM §4.3.7), common to every edge of the record; 0 with min/max levels.
-    # One ADC code adds its own rectangular part (the level and the peak are read in codes).
-    u_level = 0.0
-    if state.method != "minmax":
-        code_pct = 100.0 * code_step(y) / amp
-        u_level = math.hypot(100.0 / HISTOGRAM_BINS, code_pct) / math.sqrt(12.0)
-
-    def _uncertainty(values, u):
-        """Expanded (k = 2) uncertainty of the median and of the largest of ``values`` (%):
-        the median of n estimates has a standard error sqrt(pi/2) u/sqrt(n) for normal errors
-        (the median's asymptotic efficiency, common practice); the largest is one edge's
-        (the fit's, without the scatter: the largest is not a typical edge); the
-        level's part is added in quadrature to both (GUM §5.1.2, uncorrelated inputs)."""
-        if values.size == 0:
-            return None, None
-        # Per edge: the fit's noise (type B from the record's noise), or the edges' own
-        # scatter when it is larger (type A, GUM §4.2: the location's jitter shows there).
-        u_edge = float(np.median(u))
-        if values.size >= 3:
-            u_edge = max(u_edge, float(np.std(values, ddof=1)))
-        u_median = math.sqrt(math.pi / 2.0) * u_edge / math.sqrt(values.size)
-        u_max = float(u[int(np.argmax(values))])
-        return 2.0 * math.hypot(u_median, u_level), 2.0 * math.hypot(u_max, u_level)
-
+    _no_edge_reasons(rise[0] is not None, fall[0] is not None, reasons)
+    u_level = _level_uncertainty_pct(y, state)
     overshoot = _median_max(tr.aberration_pct[rising])
     undershoot = _median_max(tr.aberration_pct[falling])
-    u_over = _uncertainty(tr.aberration_pct[rising], tr.aberration_u_pct[rising])
-    u_under = _uncertainty(tr.aberration_pct[falling], tr.aberration_u_pct[falling])
+    u_over = _aberration_uncertainty(
+        tr.aberration_pct[rising], tr.aberration_u_pct[rising], u_level
+    )
+    u_under = _aberration_uncertainty(
+        tr.aberration_pct[falling], tr.aberration_u_pct[falling], u_level
+    )
     slew_rise = None if rise[0] is None else span / 100.0 * amp / rise[0]
     slew_fall = None if fall[0] is None else -span / 100.0 * amp / fall[0]
-
-    mids = tr.t_mid_s
-    gaps = np.diff(mids)
-    high_widths = gaps[rising[:-1]]
-    low_widths = gaps[falling[:-1]]
-    pulse_width = float(np.median(high_widths)) if high_widths.size else None
-    negative_width = float(np.median(low_widths)) if low_widths.size else None
-    if pulse_width is None:
-        reasons["pulse_width_s"] = "no rising edge followed by a falling edge"
-    if negative_width is None:
-        reasons["negative_pulse_width_s"] = "no falling edge followed by a rising edge"
-    periods = np.concatenate((np.diff(mids[rising]), np.diff(mids[falling])))
-    if periods.size:
-        period = float(np.median(periods))
-        frequency = 1.0 / period
-    else:
-        period = frequency = None
-        reasons["period_s"] = reasons["frequency_hz"] = (
-            "fewer than two edges of the same direction (no full period)"
-        )
-    if period is not None and pulse_width is not None:
-        duty = pulse_width / period
-    elif period is not None and negative_width is not None:
-        duty = 1.0 - negative_width / period
-    else:
-        duty = None
-        reasons["duty_cycle"] = reasons.get("period_s", "no complete pulse in the record")
-
+    pulse_width, negative_width, period, frequency, duty = _pulse_timing(
+        tr.t_mid_s, rising, reasons
+    )
     rise_samples = None if rise[1] is None else rise[1] / dt
     fall_samples = None if fall[1] is None else fall[1] / dt
-    for what, count in (("rising", rise_samples), ("falling", fall_samples)):
-        if count is not None and count < MIN_EDGE_SAMPLES:
-            slow = 100.0 * slow_reading_fraction(count)
-            warnings.append(
-                f"the fastest {what} edge spans only {count:.1f} samples between its "
-                f"{pct[0]:g} % and {pct[2]:g} % levels (fewer than {MIN_EDGE_SAMPLES}): "
-                f"interpolating between so few samples reads a first-order edge about "
-                f"+{slow:.1f} % slow; sample faster: more record points over the same time span, "
-                f"or a shorter time span with the same points (now {dt:.3g} s per sample; aim "
-                f"for {count * dt / MIN_EDGE_SAMPLES:.3g} s or less)"
-            )
+    warnings = _few_samples_warnings(rise_samples, fall_samples, pct, dt)
     mean_v = float(np.mean(y, dtype=np.float64))
-    cycle_mean = None
-    same = mids[rising] if rising.sum() >= 2 else mids[falling]
-    if same.size >= 2:
-        # Mean over whole periods only, so that a part-period at either end does not bias it.
-        i0 = int(round((same[0] - t0) / dt))
-        i1 = int(round((same[-1] - t0) / dt))
-        if i1 > i0:
-            cycle_mean = float(np.mean(y[i0:i1], dtype=np.float64))
+    cycle_mean = _cycle_mean(y, tr.t_mid_s, rising, t0, dt)
     if cycle_mean is None:
         reasons["cycle_mean_v"] = "no full period in the record"
 
