@@ -246,9 +246,9 @@ class WaveformPlot(Widget):
         return self.get_component_rich_style(name)
 
     def _draw(self, width: int, height: int) -> list[Strip]:
-        base = self.rich_style
+        """The plot's lines: title, one row per text row of trace, the marker row, the time
+        axis and the legend."""
         title_style = self._style("plot--title")
-        axis = self._style("plot--axis")
         lines: list[Strip] = [
             Strip([Segment(self._title[:width].ljust(width), title_style)]).simplify()
         ]
@@ -257,23 +257,11 @@ class WaveformPlot(Widget):
         if cols < 8 or rows < 2 or self._t.size == 0:
             return lines
 
-        marks = self._marks
         t, v = self._view()
         x0, x1 = float(t[0]), float(t[-1])
         if x1 <= x0:
             x1 = x0 + 1e-12
-        extra_legend = list(marks.extra_legend)
-        if marks.band:
-            vmin, vmax = float(v.min()), float(v.max())
-            marks = PlotMarks(
-                levels=(*marks.levels, ("max", vmax), ("min", vmin)),
-                crossings=marks.crossings,
-                window=marks.window,
-                window_label=marks.window_label,
-            )
-            extra_legend.insert(
-                0, f"peak-to-peak {format_quantity(vmax - vmin, self._unit, 3)} (max - min)"
-            )
+        marks, extra_legend = self._banded(self._marks, v)
         values = [float(v.min()), float(v.max())] + [lv for _, lv in marks.levels]
         y0, y1 = min(values), max(values)
         # a band sits in the middle half of the plot (its width readable against the frame);
@@ -298,13 +286,49 @@ class WaveformPlot(Widget):
             w0, w1 = marks.window
             win = (col_of(max(w0, x0)), col_of(min(w1, x1)))
 
+        ticks = _value_ticks(y0, y1, rows, self._unit)
+        lines.extend(self._trace_rows(codes, ticks, level_rows, cross_cols, win))
+        lines.append(self._marker_row(cols, win, marks.window_label, cross_cols))
+        lines.append(self._time_axis(cols, x0, x1))
+        lines.append(self._legend(width, marks, x0, x1, extra_legend))
+        return lines[:height]
+
+    def _banded(self, marks: PlotMarks, v: np.ndarray) -> tuple[PlotMarks, list[str]]:
+        """A band's marks gain its max and min levels and its peak-to-peak in the legend."""
+        extra_legend = list(marks.extra_legend)
+        if marks.band:
+            vmin, vmax = float(v.min()), float(v.max())
+            marks = PlotMarks(
+                levels=(*marks.levels, ("max", vmax), ("min", vmin)),
+                crossings=marks.crossings,
+                window=marks.window,
+                window_label=marks.window_label,
+            )
+            extra_legend.insert(
+                0, f"peak-to-peak {format_quantity(vmax - vmin, self._unit, 3)} (max - min)"
+            )
+        return marks, extra_legend
+
+    def _trace_rows(
+        self,
+        codes: np.ndarray,
+        ticks: dict[int, str],
+        level_rows: dict[int, str],
+        cross_cols: dict[int, str],
+        win: tuple[int, int] | None,
+    ) -> list[Strip]:
+        """One line per text row: the value axis, the braille trace over the level and
+        crossing marks (the window shaded), and the level's label."""
+        base = self.rich_style
+        axis = self._style("plot--axis")
         trace, level, cross = (
             self._style("plot--trace"),
             self._style("plot--level"),
             self._style("plot--crossing"),
         )
         shade = Style(bgcolor=self._style("plot--window").bgcolor)
-        ticks = _value_ticks(y0, y1, rows, self._unit)
+        rows, cols = codes.shape
+        lines: list[Strip] = []
         for r in range(rows):
             # the value axis: top, middle and bottom carry a value
             tick = ticks.get(r, "")
@@ -324,31 +348,39 @@ class WaveformPlot(Widget):
             label = level_rows.get(r, "")
             segs.append(Segment((" " + label)[:_RIGHT].ljust(_RIGHT), level))
             lines.append(Strip(segs).simplify())
+        return lines
 
-        # marker row: window bracket and crossing arrows
+    def _marker_row(
+        self, cols: int, win: tuple[int, int] | None, window_label: str, cross_cols: dict[int, str]
+    ) -> Strip:
+        """The window's bracket with its label, and an arrow under each crossing."""
+        base = self.rich_style
+        cross = self._style("plot--crossing")
         marker = [" "] * cols
         if win is not None:
             a, b = win
             for c in range(a, b + 1):
                 marker[c] = "─"
             marker[a], marker[b] = "├", "┤"
-            text = f" {marks.window_label} "
+            text = f" {window_label} "
             mid = (a + b - len(text)) // 2
             if b - a > len(text) + 2:
                 for i, ch in enumerate(text):
                     marker[mid + i] = ch
         for c in cross_cols:
             marker[c] = "▲"
-        lines.append(
-            Strip(
-                [
-                    Segment(" " * _LEFT, base),
-                    Segment("".join(marker), cross),
-                    Segment(" " * _RIGHT, base),
-                ]
-            ).simplify()
-        )
-        # time axis: start, middle and end of the record
+        return Strip(
+            [
+                Segment(" " * _LEFT, base),
+                Segment("".join(marker), cross),
+                Segment(" " * _RIGHT, base),
+            ]
+        ).simplify()
+
+    def _time_axis(self, cols: int, x0: float, x1: float) -> Strip:
+        """Start, middle and end of the view's time span."""
+        base = self.rich_style
+        axis = self._style("plot--axis")
         axis_chars = [" "] * (cols + _RIGHT)
         for frac in (0.0, 0.5, 1.0):
             at = x0 + frac * (x1 - x0)
@@ -358,7 +390,13 @@ class WaveformPlot(Widget):
             pos = int(frac * (cols - 1))
             pos = min(max(0, pos - len(text) // 2), len(axis_chars) - len(text))
             axis_chars[pos : pos + len(text)] = list(text)
-        lines.append(Strip([Segment(" " * _LEFT, base), Segment("".join(axis_chars), axis)]))
+        return Strip([Segment(" " * _LEFT, base), Segment("".join(axis_chars), axis)])
+
+    def _legend(
+        self, width: int, marks: PlotMarks, x0: float, x1: float, extra_legend: list[str]
+    ) -> Strip:
+        """The first four crossings in view with their instants, then the extra notes."""
+        axis = self._style("plot--axis")
         visible = [(label, ts) for label, ts in marks.crossings if x0 <= ts <= x1]
         shown = [f"▲ {label} {format_quantity(ts, 's', 4)}" for label, ts in visible[:4]]
         if len(visible) > 4:
@@ -366,5 +404,4 @@ class WaveformPlot(Widget):
         if self.zoomed:
             shown.append("[z: whole record]")
         legend = "  ".join(shown + extra_legend)
-        lines.append(Strip([Segment(legend[:width].ljust(width), axis)]))
-        return lines[:height]
+        return Strip([Segment(legend[:width].ljust(width), axis)])
