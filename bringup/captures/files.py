@@ -541,8 +541,12 @@ def _read_csv(p: Path, name: str):
         return _read_csv_as(p, name, "latin-1")
 
 
-def _read_csv_as(p: Path, name: str, encoding: str):
-    # Look at the start of the file: comments, header (names, maybe units), first data line.
+def _csv_head(p: Path, name: str, encoding: str):
+    """The start of a CSV file: comments, header (names, maybe units), first data line.
+
+    Returns (header names or None, delimiter or None for whitespace, whether rows end with
+    a delimiter, the first data row's line number or None, the header rows' line numbers,
+    the first data row's fields)."""
     header: list[str] | None = None
     delimiter: str | None = None
     trailing = False  # rows end with a delimiter ("0,1.5,"): not an empty column
@@ -579,18 +583,14 @@ def _read_csv_as(p: Path, name: str, encoding: str):
                     f"{name}: line {line_no}: non-numeric cell {_first_bad(fields)!r} "
                     "(a CSV capture has at most a header row and a units row)"
                 )
-    if data_line is None:
-        raise InputError(f"{name}: no data rows (only comments or a header)")
+    return header, delimiter, trailing, data_line, head_lines, fields
 
-    ncols = len(fields)
-    # A header written with the same trailing delimiter ("time,gate,") has one empty name
-    # more than the data has columns; an empty name inside the data's width is kept (ch<n>).
-    if header is not None and len(header) == ncols + 1 and header[-1] == "":
-        header = header[:-1]
-    if ncols < 2:
-        raise InputError(
-            f"{name}: line {data_line}: need a time column and at least one signal column"
-        )
+
+def _csv_rows(
+    p: Path, name: str, encoding: str, data_line: int, delimiter, ncols: int, trailing: bool
+) -> np.ndarray:
+    """The data rows from ``data_line`` on as a float array; a row numpy cannot read is an
+    ``InputError`` naming its line."""
     # With semicolons a comma can only be a decimal comma, on any row (the first row of a
     # log often holds whole numbers: "0;0").
     decimal_comma = delimiter == ";"
@@ -621,6 +621,24 @@ def _read_csv_as(p: Path, name: str, encoding: str):
         raise InputError(
             _locate(name, p, encoding, data_line, delimiter, ncols, decimal_comma, trailing, exc)
         ) from None
+    return data
+
+
+def _read_csv_as(p: Path, name: str, encoding: str):
+    header, delimiter, trailing, data_line, head_lines, fields = _csv_head(p, name, encoding)
+    if data_line is None:
+        raise InputError(f"{name}: no data rows (only comments or a header)")
+
+    ncols = len(fields)
+    # A header written with the same trailing delimiter ("time,gate,") has one empty name
+    # more than the data has columns; an empty name inside the data's width is kept (ch<n>).
+    if header is not None and len(header) == ncols + 1 and header[-1] == "":
+        header = header[:-1]
+    if ncols < 2:
+        raise InputError(
+            f"{name}: line {data_line}: need a time column and at least one signal column"
+        )
+    data = _csv_rows(p, name, encoding, data_line, delimiter, ncols, trailing)
     if data.shape[1] != ncols:
         raise InputError(f"{name}: line {data_line}: expected {ncols} columns")
     if data.shape[0] < 2:
@@ -636,6 +654,7 @@ def _read_csv_as(p: Path, name: str, encoding: str):
         return f"line {_line_of_row(p, encoding, data_line, i)}"
 
     names = _channel_names(name, header, ncols)
+    decimal_comma = delimiter == ";"
     printed = _printed_quantum(p, encoding, data_line, delimiter, trailing, decimal_comma)
     t, channels, quantum, off_grid = _scan_table(name, data, where, names, printed)
     return t, channels, where, quantum, off_grid
