@@ -273,7 +273,8 @@ def final_attempt(step: dict) -> dict | None:
 
 
 def comparison_rows(content: dict) -> list[dict]:
-    """Design-vs-measured rows: every predicted value with the measured value of the same name.
+    """Design-vs-measured rows: every predicted value with the measured value of the same name,
+    each named as a person reads it (the step's title, the metric's logged label).
 
     Deviation is (measured - predicted) / |predicted| in percent, from each step's last attempt.
     """
@@ -300,10 +301,11 @@ def comparison_rows(content: dict) -> list[dict]:
                 deviation = None
                 if isinstance(pv, int | float) and isinstance(mv, int | float) and pv != 0:
                     deviation = 100.0 * (mv - pv) / abs(pv)
+                label = measured.get("label") if isinstance(measured, dict) else None
                 rows.append(
                     {
-                        "where": f"{stage.get('id')}/{step.get('id')}",
-                        "quantity": name,
+                        "where": str(step.get("title") or f"{stage.get('id')}/{step.get('id')}"),
+                        "quantity": str(label or name),
                         "predicted": fmt_value(pred),
                         "basis": pred.get("basis", "") if isinstance(pred, dict) else "",
                         "measured": fmt_value(measured) if measured is not None else "-",

@@ -105,3 +105,27 @@ def test_pdf_shows_the_same_details(tmp_path: Path) -> None:
     assert "Switch node rise time, 10-90 % 206 ns 343.5 ps GUM budget, k = 2" in flat
     assert "2 switch single-ended, 10:1 50 V 15 V DC on 2500 / 3000 1.2 ns / 1 ns" in flat
     assert "switch_rise" not in flat.split("Settings")[0]
+
+
+def test_design_table_names_steps_and_metrics_as_people_read_them(tmp_path: Path) -> None:
+    board = board_snapshot()
+    with SessionLog.open(tmp_path / "log.db") as log:
+        sid = log.create_session(
+            board=board, checklist=CHECKLIST, bench=BENCH, serial="DHS24-0117", operator="R. Okafor"
+        )
+        end = dt.datetime.now(dt.UTC)
+        log.record_attempt(
+            sid, stage_id="power-rails", step_id="bus", operator="R. Okafor",
+            started_utc=end - dt.timedelta(milliseconds=5), finished_utc=end, instruments=IDN,
+            settings={}, predictions={"bus_level": {"value": 24.0, "unit": "V",
+                                                    "basis": "design bus_voltage"}},
+            metrics={"bus_level": {"value": 24.07, "unit": "V", "label": "Bus level, mean"}},
+            verdicts={"bus_level": _verdict(board, "bus_level", 24.07)}, outcome="pass",
+        )  # fmt: skip
+        record = record_from_log(log, sid)
+    html = render_html(record)
+    design = _cells(html[html.index('id="design"') : html.index('class="stage"')])
+    title = next(s["title"] for s in CHECKLIST["stages"][0]["steps"] if s["id"] == "bus")
+    # deviation (24.07 - 24) / 24 = +0.29 %
+    assert [title, "Bus level, mean", "24 V", "design bus_voltage", "24.07 V", "+0.3 %",
+            ""] in design  # fmt: skip
