@@ -680,6 +680,53 @@ def _cycle_mean(
     return None
 
 
+def _edge_shape(
+    y: np.ndarray,
+    tr: Transitions,
+    rising: np.ndarray,
+    state: StateLevels,
+    pct: tuple[float, float, float],
+    reasons: dict[str, str],
+) -> dict[str, float | None]:
+    """The ``EdgeMetrics`` fields of the edges' shape: rise and fall times (median, fastest,
+    slowest; s), overshoot and undershoot (median, largest; % of amplitude) with their
+    expanded uncertainties, and the slew rates between the low and high reference levels
+    (V/s). Each absent one gets its reason in ``reasons``."""
+    falling = ~rising
+    span = pct[2] - pct[0]
+    amp = state.amplitude_v
+    rise = _stats(tr.duration_s[rising])
+    fall = _stats(tr.duration_s[falling])
+    _no_edge_reasons(rise[0] is not None, fall[0] is not None, reasons)
+    u_level = _level_uncertainty_pct(y, state)
+    overshoot = _median_max(tr.aberration_pct[rising])
+    undershoot = _median_max(tr.aberration_pct[falling])
+    u_over = _aberration_uncertainty(
+        tr.aberration_pct[rising], tr.aberration_u_pct[rising], u_level
+    )
+    u_under = _aberration_uncertainty(
+        tr.aberration_pct[falling], tr.aberration_u_pct[falling], u_level
+    )
+    return {
+        "rise_time_s": rise[0],
+        "rise_time_min_s": rise[1],
+        "rise_time_max_s": rise[2],
+        "fall_time_s": fall[0],
+        "fall_time_min_s": fall[1],
+        "fall_time_max_s": fall[2],
+        "overshoot_pct": overshoot[0],
+        "overshoot_max_pct": overshoot[1],
+        "undershoot_pct": undershoot[0],
+        "undershoot_max_pct": undershoot[1],
+        "slew_rate_rise_v_per_s": None if rise[0] is None else span / 100.0 * amp / rise[0],
+        "slew_rate_fall_v_per_s": None if fall[0] is None else -span / 100.0 * amp / fall[0],
+        "overshoot_uncertainty_pct": u_over[0],
+        "overshoot_max_uncertainty_pct": u_over[1],
+        "undershoot_uncertainty_pct": u_under[0],
+        "undershoot_max_uncertainty_pct": u_under[1],
+    }
+
+
 def measure_edges(
     y: np.ndarray,
     dt: float,
@@ -708,29 +755,13 @@ def measure_edges(
         )
     reasons: dict[str, str] = {}
     rising = tr.direction > 0
-    falling = ~rising
-    span = pct[2] - pct[0]
-    amp = state.amplitude_v
-
-    rise = _stats(tr.duration_s[rising])
-    fall = _stats(tr.duration_s[falling])
-    _no_edge_reasons(rise[0] is not None, fall[0] is not None, reasons)
-    u_level = _level_uncertainty_pct(y, state)
-    overshoot = _median_max(tr.aberration_pct[rising])
-    undershoot = _median_max(tr.aberration_pct[falling])
-    u_over = _aberration_uncertainty(
-        tr.aberration_pct[rising], tr.aberration_u_pct[rising], u_level
-    )
-    u_under = _aberration_uncertainty(
-        tr.aberration_pct[falling], tr.aberration_u_pct[falling], u_level
-    )
-    slew_rise = None if rise[0] is None else span / 100.0 * amp / rise[0]
-    slew_fall = None if fall[0] is None else -span / 100.0 * amp / fall[0]
+    shape = _edge_shape(y, tr, rising, state, pct, reasons)
     pulse_width, negative_width, period, frequency, duty = _pulse_timing(
         tr.t_mid_s, rising, reasons
     )
-    rise_samples = None if rise[1] is None else rise[1] / dt
-    fall_samples = None if fall[1] is None else fall[1] / dt
+    fastest_rise, fastest_fall = shape["rise_time_min_s"], shape["fall_time_min_s"]
+    rise_samples = None if fastest_rise is None else fastest_rise / dt
+    fall_samples = None if fastest_fall is None else fastest_fall / dt
     warnings = _few_samples_warnings(rise_samples, fall_samples, pct, dt)
     mean_v = float(np.mean(y, dtype=np.float64))
     cycle_mean = _cycle_mean(y, tr.t_mid_s, rising, t0, dt)
@@ -742,24 +773,13 @@ def measure_edges(
         low_level_v=float(state.low_v),
         high_level_v=float(state.high_v),
         level_method=state.method,
-        amplitude_v=float(amp),
+        amplitude_v=float(state.amplitude_v),
         reference_levels_pct=pct,
         reference_levels_v=ref_v,  # type: ignore[arg-type]
         edges=len(tr),
         rising_edges=int(rising.sum()),
-        falling_edges=int(falling.sum()),
-        rise_time_s=rise[0],
-        rise_time_min_s=rise[1],
-        rise_time_max_s=rise[2],
-        fall_time_s=fall[0],
-        fall_time_min_s=fall[1],
-        fall_time_max_s=fall[2],
-        overshoot_pct=overshoot[0],
-        overshoot_max_pct=overshoot[1],
-        undershoot_pct=undershoot[0],
-        undershoot_max_pct=undershoot[1],
-        slew_rate_rise_v_per_s=slew_rise,
-        slew_rate_fall_v_per_s=slew_fall,
+        falling_edges=int((~rising).sum()),
+        **shape,
         pulse_width_s=pulse_width,
         negative_pulse_width_s=negative_width,
         period_s=period,
@@ -777,9 +797,5 @@ def measure_edges(
         transitions=tr,
         rise_time_samples=rise_samples,
         fall_time_samples=fall_samples,
-        overshoot_uncertainty_pct=u_over[0],
-        overshoot_max_uncertainty_pct=u_over[1],
-        undershoot_uncertainty_pct=u_under[0],
-        undershoot_max_uncertainty_pct=u_under[1],
         warnings=warnings,
     )
