@@ -382,6 +382,7 @@ def _results(attempt: dict, bench: dict | None = None) -> list[Block]:
     if verdicts:
         head = ("Quantity", "Measured", "Limits", "Margin", "Guard band", "Verdict", "Why")
         blocks.append(Table(head, verdicts, (34, 24, 36, 22, 20, 24, 30)))
+    blocks += _diagnosis(attempt)
     metrics = tuple(
         (_label(attempt, str(name)), fmt_value(m), *_uncertainty(attempt, str(name)))
         for name, m in sorted((attempt.get("metrics") or {}).items())
@@ -394,6 +395,33 @@ def _results(attempt: dict, bench: dict | None = None) -> list[Block]:
     if settings:
         blocks.append(Table(("Setting", "Value"), settings, (95, 95), fold="Settings", folded=True))
     blocks += [Paragraph(f"Note: {note}") for note in attempt.get("notes") or []]
+    return blocks
+
+
+def _diagnosis(attempt: dict) -> list[Block]:
+    """The likely causes of a failed step, most likely first, each with its evidence and the
+    check to make at the bench (``extra.details.diagnosis``, ``bringup.analysis.diagnosis``)."""
+    found = ((attempt.get("extra") or {}).get("details") or {}).get("diagnosis") or {}
+    causes = found.get("causes") or []
+    notes = [_text(n) for n in found.get("notes") or []]
+    if not causes and not notes:
+        return []
+    items = tuple(
+        " — ".join(
+            x
+            for x in (
+                _text(c.get("title")),
+                "; ".join(_text(e) for e in c.get("evidence") or []),
+                f"check: {_text(c.get('check'))}" if c.get("check") else "",
+            )
+            if x
+        )
+        for c in causes
+    )
+    blocks: list[Block] = [Paragraph("Likely causes, most likely first", kind="strong")]
+    blocks += [Paragraph(note) for note in notes]
+    if items:
+        blocks.append(Bullets(items))
     return blocks
 
 

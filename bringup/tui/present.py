@@ -73,9 +73,27 @@ def when_text(utc: str) -> str:
     return utc.replace("T", " ").split(".")[0].removesuffix("Z").removesuffix("+00:00")
 
 
+def diagnosis_line(diagnosis: dict) -> str:
+    """The diagnosis in one line for the result view: the most likely part, its evidence and
+    the check to make at the bench ("" when the attempt has none)."""
+    notes = "; ".join(diagnosis.get("notes") or [])
+    causes = diagnosis.get("causes") or []
+    if not causes:
+        return notes
+    first = causes[0]
+    evidence = "; ".join(first.get("evidence") or [])
+    parts = [notes, str(diagnosis.get("summary", "")), evidence,
+             f"check: {first.get('check', '')}"]  # fmt: skip
+    if len(causes) > 1:
+        parts.append(f"also possible: {causes[1].get('title', '')}")
+    return " — ".join(p for p in parts if p)
+
+
 def attempt_view(a: Any) -> AttemptView:
     """An ``AttemptResult`` for the result table, the plot and the history."""
     findings = [m.disagreement for m in a.metrics if getattr(m, "disagreement", None)]
+    # the likely part at fault, first cause first (bringup.analysis.diagnosis)
+    findings.append(diagnosis_line(getattr(a, "diagnosis", None) or {}))
     message = " · ".join(x for x in (a.message, *a.warnings, *findings) if x)
     traces = tuple(trace_view(w) for w in a.waveforms)
     if a.soak is not None and a.soak.times_s:

@@ -206,3 +206,29 @@ def test_a_resumed_session_shows_the_same_diagnosis(runs):
     assert f"? cause 1: {first['title']}" in text
     assert f"check: {first['check']}" in text
     assert all(e in text for e in first["evidence"])
+
+
+def test_the_record_shows_the_diagnosis(runs, tmp_path):
+    """The readable record (HTML and PDF, one rendering model) lists the likely causes of the
+    failed step, the first with its check; before, only the embedded JSON carried them."""
+    from pypdf import PdfReader
+
+    _, summary, _, db = runs["no-overdrive"]
+    first = _failed_attempt(summary)["diagnosis"]["causes"][0]
+    pages = {}
+    for fmt in ("html", "pdf"):
+        out = tmp_path / f"record.{fmt}"
+        done = subprocess.run(
+            [sys.executable, "-m", "bringup", "export", summary["session"], "--format", fmt,
+             "--out", str(out), "--db", str(db)],
+            capture_output=True, text=True, timeout=120,
+        )  # fmt: skip
+        assert done.returncode == 0, done.stderr
+        pages[fmt] = out
+    html = pages["html"].read_text(encoding="utf-8")
+    visible = html.split('<script type="application/json"', 1)[0]  # not the embedded record
+    assert "Likely causes, most likely first" in visible
+    assert first["title"].split(":")[0] in visible
+    pdf = " ".join(" ".join(p.extract_text().split()) for p in PdfReader(str(pages["pdf"])).pages)
+    assert "Likely causes, most likely first" in pdf
+    assert " ".join(first["title"].split(":")[0].split()) in pdf
