@@ -20,6 +20,8 @@ def attempt_lines(index: int, total: int, result: AttemptResult) -> list[str]:
         if not m.judged:
             continue
         value = format_quantity(m.measured, m.unit)
+        if m.uncertainty is not None and m.measured is not None:
+            value += f" ± {format_quantity(m.uncertainty, m.unit)}"
         limit = m.limit.describe() if m.limit else ""
         margin = f", margin {format_quantity(m.margin, m.unit)}" if m.margin is not None else ""
         pred = f", design {format_quantity(m.predicted, m.unit)}" if m.predicted is not None else ""
@@ -47,12 +49,18 @@ def diagnosis_lines(diagnosis: dict) -> list[str]:
     return lines
 
 
+def _plain(value: float | None) -> float | None:
+    """A JSON number (numpy scalars are floats of another type)."""
+    return None if value is None else float(value)
+
+
 def summary_json(runner: SessionRunner, results: list[AttemptResult] | None = None) -> dict:
     """``{"session": ID, "verdict": ..., "stages": [{"id": ..., "verdict": ...}, ...],
     "attempts": [...]}``; ``attempts`` lists ``results`` (this run's attempts): step, attempt
     number, state, message, the instrument ``fault`` that ended it ("" if none), the faults
-    ``absorbed`` by a retry or a switch-off during it and the ``diagnosis`` of a failed step
-    (None when there is none)."""
+    ``absorbed`` by a retry or a switch-off during it, the ``diagnosis`` of a failed step
+    (None when there is none) and its ``metrics`` (measured value with its expanded
+    uncertainty U, k = 2, the one the decision used; None where there is none)."""
     return {
         "session": runner.session_id,
         "verdict": runner.verdict(),
@@ -66,6 +74,16 @@ def summary_json(runner: SessionRunner, results: list[AttemptResult] | None = No
                 "fault": r.fault,
                 "absorbed": list(r.absorbed),
                 "diagnosis": r.diagnosis or None,
+                "metrics": [
+                    {
+                        "id": m.id,
+                        "unit": m.unit,
+                        "measured": _plain(m.measured),
+                        "uncertainty": _plain(m.uncertainty),
+                        "outcome": m.outcome,
+                    }
+                    for m in r.metrics
+                ],
             }  # fmt: skip
             for r in results or ()
         ],

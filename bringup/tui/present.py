@@ -32,6 +32,14 @@ def _q(value: float | None, unit: str) -> str:
     return format_quantity(value, unit)
 
 
+def _plus_minus(m: Any) -> str:
+    """ " ± U" (the expanded uncertainty, k = 2, the decision used) beside a measured value."""
+    u = getattr(m, "uncertainty", None)
+    if m.measured is None or u is None or not u > 0:
+        return ""
+    return f" ± {format_quantity(u, m.unit)}"
+
+
 def metric_row(m: Any) -> MetricRow:
     """A ``MetricResult`` as a table row (margin signed: + inside the limits)."""
     if m.margin is None:
@@ -42,7 +50,7 @@ def metric_row(m: Any) -> MetricRow:
     reason = " ".join(x for x in (m.reason, m.disagreement) if x)
     return MetricRow(
         label=m.label,
-        measured=_q(m.measured, m.unit),
+        measured=_q(m.measured, m.unit) + _plus_minus(m),
         predicted="—" if m.predicted is None else format_quantity(m.predicted, m.unit),
         limits=m.limit.describe() if m.limit is not None else "(reported)",
         margin=margin,

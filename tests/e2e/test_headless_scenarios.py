@@ -232,3 +232,15 @@ def test_the_record_shows_the_diagnosis(runs, tmp_path):
     pdf = " ".join(" ".join(p.extract_text().split()) for p in PdfReader(str(pages["pdf"])).pages)
     assert "Likely causes, most likely first" in pdf
     assert " ".join(first["title"].split(":")[0].split()) in pdf
+
+
+@pytest.mark.parametrize("name", ["healthy", "healthy-seed-7"])
+def test_every_judged_metric_carries_its_uncertainty(runs, name):
+    """--json gives each metric its measured value with the expanded uncertainty U (k = 2)
+    the decision used (the larger of the computed budget and the board's declared value)."""
+    _, summary, _, _ = runs[name]
+    judged = [m for a in summary["attempts"] for m in a["metrics"] if m["outcome"] is not None]
+    assert len(judged) >= 10, summary
+    for m in judged:
+        assert m["measured"] is not None and m["uncertainty"] is not None, m
+        assert 0 < m["uncertainty"] < float("inf"), m
