@@ -8,11 +8,13 @@ profile = "sim-scope"
 calibration_due = 2027-03-31        # optional, a TOML date
 
 bandwidth_hz = 350e6                # optional: its -3 dB bandwidth (rise times lose 0.35/BW)
+dc_accuracy = 0.02                  # optional: DC vertical accuracy, a fraction of full scale
 
 [scope.channels.1]
 net = "gate"                        # gate, switch, vgs, vbs, bus, vdrv, logic
 probe_ratio = 10
 probe_bandwidth_hz = 500e6          # optional: the probe's -3 dB bandwidth
+probe_ratio_tolerance = 0.01        # optional: the probe's attenuation tolerance, a fraction
 
 [supply]
 resource = "TCPIP::192.168.1.21::5025::SOCKET"
@@ -61,7 +63,7 @@ _RESOURCE = re.compile(
     re.IGNORECASE,
 )
 _ROLE_KEYS = {
-    "scope": {"channels", "bandwidth_hz"},
+    "scope": {"channels", "bandwidth_hz", "dc_accuracy"},
     "supply": {"channel", "remote_sense"},
     "thermometer": {"channel", "thermocouple"},
 }
@@ -81,6 +83,8 @@ class InstrumentEntry:
     remote_sense: bool | None = None  # supply only
     thermocouple: str = "K"  # thermometer only
     bandwidth_hz: float | None = None  # scope only: its -3 dB bandwidth, when given
+    # scope only: DC vertical accuracy as a fraction of full scale (its datasheet), when given
+    dc_accuracy: float | None = None
 
     def calibration_overdue(self, today: dt.date) -> bool:
         """Whether the calibration due date has passed on ``today``."""
@@ -95,6 +99,7 @@ class ChannelWiring:
     net: str
     probe_ratio: float
     probe_bandwidth_hz: float | None = None  # the probe's -3 dB bandwidth, when given
+    probe_ratio_tolerance: float | None = None  # its attenuation tolerance (fraction), when given
 
 
 @dataclass(frozen=True)
@@ -169,9 +174,19 @@ def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
             f"{tc!r} is not a thermocouple type ({', '.join(THERMOCOUPLES)})",
         )
     bandwidth = _bandwidth(src, (role, "bandwidth_hz"), table.get("bandwidth_hz"))
-    return InstrumentEntry(
-        role, resource, table["profile"].strip(), due, channel, sense, tc.strip().upper(), bandwidth
-    )
+    accuracy = _fraction(src, (role, "dc_accuracy"), table.get("dc_accuracy"))
+    return InstrumentEntry(role, resource, table["profile"].strip(), due, channel, sense,
+                           tc.strip().upper(), bandwidth, accuracy)  # fmt: skip
+
+
+def _fraction(src: TomlDocument, where: tuple[str, ...], value: Any) -> float | None:
+    """An optional accuracy or tolerance as a fraction: 0 to 0.5 (0.02 = 2 %), from a
+    datasheet; it enters the GUM budget of the levels the channel reads."""
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, int | float) or not 0 <= value <= 0.5:
+        raise src.error(where, f"must be a fraction from 0 to 0.5 (0.02 = 2 %), not {value!r}")
+    return float(value)
 
 
 def _bandwidth(src: TomlDocument, where: tuple[str, ...], value: Any) -> float | None:
@@ -204,9 +219,11 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
                 src.path, f"scope.channels.{key}", "must be a table", src.line_of(*where)
             )
         for item in table:
-            if item not in ("net", "probe_ratio", "probe_bandwidth_hz"):
+            if item not in ("net", "probe_ratio", "probe_bandwidth_hz", "probe_ratio_tolerance"):
                 raise src.error(
-                    (*where, item), "unknown key (expected net, probe_ratio, probe_bandwidth_hz)"
+                    (*where, item),
+                    "unknown key (expected net, probe_ratio, probe_bandwidth_hz, "
+                    "probe_ratio_tolerance)",
                 )
         net = table.get("net")
         if net is None:
@@ -226,7 +243,9 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
             )
         seen[net] = int(key)
         probe_bw = _bandwidth(src, (*where, "probe_bandwidth_hz"), table.get("probe_bandwidth_hz"))
-        out[int(key)] = ChannelWiring(int(key), net, float(ratio), probe_bw)
+        tolerance = _fraction(src, (*where, "probe_ratio_tolerance"),
+                              table.get("probe_ratio_tolerance"))  # fmt: skip
+        out[int(key)] = ChannelWiring(int(key), net, float(ratio), probe_bw, tolerance)
     return dict(sorted(out.items()))
 
 
@@ -290,7 +309,8 @@ class Bench:
             if w.net == net and ch != channel:
                 del self.wiring[ch]  # a net is on one channel at a time
         self.wiring[channel] = ChannelWiring(channel, net, old.probe_ratio if old else 1.0,
-                                             old.probe_bandwidth_hz if old else None)  # fmt: skip
+                                             old.probe_bandwidth_hz if old else None,
+                                             old.probe_ratio_tolerance if old else None)  # fmt: skip
 
     def close(self) -> None:
         """Make the supply safe (output OFF, confirmed) and close every connection; a second

@@ -40,6 +40,12 @@ class Trace:
     # -3 dB bandwidths (Hz) of what the signal went through: the scope, the probe, a
     # bandwidth limit; empty when the bench file does not say (no correction then).
     chain_bandwidths_hz: tuple[float, ...] = ()
+    # What a level read on this trace is good to (GUM type B terms): the ADC's code step (V,
+    # 0 for float records), the channel's DC accuracy at its range (V, half-width) and the
+    # probe's attenuation tolerance (fraction); 0 where the bench file does not say.
+    code_step_v: float = 0.0
+    dc_accuracy_v: float = 0.0
+    ratio_tolerance: float = 0.0
 
     def span(self, start_s: float, end_s: float) -> np.ndarray:
         """The samples from ``start_s`` to ``end_s`` (s), both included."""
@@ -187,6 +193,27 @@ def first_power(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.warnings.append(data.ramp_stopped)
 
 
+def _level_uncertainty(metric: str, value: float, samples: np.ndarray, trace: Trace,
+                       out: AnalysisOutput) -> None:  # fmt: skip
+    """The GUM budget of a level (V) read as the mean of ``samples``
+    (``bringup.analysis.uncertainty.level_budget``): their scatter (type A), the code step,
+    the channel's DC accuracy and the probe's ratio tolerance from the bench file. The
+    expanded value goes to ``out.uncertainties``, the budget to ``details["budgets"]``.
+    Scatter is taken as independent samples: ripple averaged over whole periods cancels, so
+    this is a fair figure for a mean over many periods."""
+    from bringup.analysis.uncertainty import level_budget
+
+    if samples.size < 2:
+        return
+    budget = level_budget(value, noise_rms_v=float(np.std(samples, dtype=np.float64)),
+                          samples=int(samples.size), code_step_v=trace.code_step_v,
+                          offset_accuracy_v=trace.dc_accuracy_v,
+                          probe_ratio_tolerance=trace.ratio_tolerance,
+                          quantity=metric)  # fmt: skip
+    out.uncertainties[metric] = budget.expanded
+    out.details.setdefault("budgets", {})[metric] = budget.to_dict()
+
+
 def rail_levels(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     """Mean (V) and peak-to-peak ripple (V) of each rail trace (``<net>_level``/``_ripple``)."""
     from bringup.analysis.rails import measure_rail
@@ -202,6 +229,7 @@ def rail_levels(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
             out.set(f"{net}_ripple", None, str(exc))
             continue
         out.set(f"{net}_level", rail.mean_v)
+        _level_uncertainty(f"{net}_level", rail.mean_v, trace.volts, trace, out)
         out.set(f"{net}_ripple", rail.ripple_pp_v)
         out.views.append(
             _view(net, trace, {"mean": rail.mean_v, "min": rail.min_v, "max": rail.max_v})
@@ -228,6 +256,9 @@ def gate_overdrive(data: AnalysisInput, board: Board, out: AnalysisOutput) -> No
     try:
         v = state_levels(vgs.volts)
         out.set("vgs_on", v.high_v)
+        # the high state's samples: within a tenth of the amplitude of its level
+        top = vgs.volts[np.abs(vgs.volts - v.high_v) < 0.1 * abs(v.high_v - v.low_v)]
+        _level_uncertainty("vgs_on", v.high_v, top, vgs, out)
         out.views.append(_view("vgs", vgs, {"low": v.low_v, "high": v.high_v}))
     except AnalysisError as exc:
         out.set("vgs_on", None, f"vgs: {exc}")

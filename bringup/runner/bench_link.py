@@ -302,17 +302,33 @@ class BenchLink:
         wanted = [(ch.net, ch.channel) for ch in plan.channels] + [(n, "math") for n in math_nets]
         windows = {ch.net: (ch.offset_v, ch.range_v) for ch in plan.channels}
         chains = self._chains(plan, by_net, math_nets)
+        accuracy = self._level_accuracy(plan)
         for net, source in wanted:
             wf = scope.fetch_waveform(source)
             raw[net] = wf
             volts = wf.volts()
+            dc_accuracy_v, tolerance = accuracy.get(net, (0.0, 0.0))
+            step_v = abs(wf.y_increment) if wf.codes.dtype.kind in "iu" else 0.0  # float: unknown
             traces[net] = Trace(net, volts, wf.x_increment, wf.x_origin, windows.get(net),
-                                chains.get(net, ()))  # fmt: skip
+                                chains.get(net, ()), code_step_v=step_v,
+                                dc_accuracy_v=dc_accuracy_v, ratio_tolerance=tolerance)  # fmt: skip
             if net in windows:
                 why = _clipping(net, source, volts, *windows[net])
                 if why:
                     clipped[net] = why
         return traces, raw, clipped
+
+    def _level_accuracy(self, plan: StepPlan) -> dict[str, tuple[float, float]]:
+        """Per net of a scope channel: (DC accuracy in V at the channel's range, the probe's
+        ratio tolerance as a fraction), from the bench file (0 where it does not say)."""
+        entry = self.bench.config.instruments.get("scope")
+        fraction = getattr(entry, "dc_accuracy", None) or 0.0
+        out: dict[str, tuple[float, float]] = {}
+        for ch in plan.channels:
+            wiring = self.bench.wiring.get(ch.channel)
+            tolerance = getattr(wiring, "probe_ratio_tolerance", None) or 0.0
+            out[ch.net] = (fraction * ch.range_v, tolerance)
+        return out
 
     def _chains(self, plan: StepPlan, by_net: dict, math_nets: list) -> dict[str, tuple]:
         """Each net's measuring chain as -3 dB bandwidths (Hz): the scope's and the probe's
