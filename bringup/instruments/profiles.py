@@ -657,54 +657,14 @@ def _commands(src: TomlDocument, kind: str, absent: frozenset[str]) -> dict[str,
 def load_profile(path: Path) -> Profile:
     """Read and validate one profile file; raises ``ConfigError`` naming file, key and line."""
     src = read_toml(Path(path))
-    head = _table(src, "profile")
-    for key in src.data:
-        if key not in SCHEMA:
-            raise src.error((key,), f"unknown table (expected one of {', '.join(SCHEMA)})")
-    _keys(src, "profile", head, SCHEMA["profile"])
-    name = _string(src, "profile", head, "name")
-    if name != src.path.stem:
-        raise src.error(("profile", "name"), f"{name!r} must equal the file name {src.path.stem!r}")
-    kind = _string(src, "profile", head, "kind")
-    if kind not in KINDS:
-        raise src.error(("profile", "kind"), f"{kind!r} is not one of {', '.join(KINDS)}")
-    for table in _SCOPE_ONLY:
-        if kind != "scope" and table in src.data:
-            raise src.error((table,), f"only a scope profile has a [{table}] table")
-    try:
-        identity = re.compile(_string(src, "profile", head, "identity"))
-    except re.error as exc:
-        raise src.error(("profile", "identity"), f"not a valid regular expression: {exc}") from None
-    echoes = head.get("echoes_headers", False)
-    if not isinstance(echoes, bool):
-        raise src.error(("profile", "echoes_headers"), f"must be true or false, not {echoes!r}")
-
-    term = _table(src, "termination")
-    _keys(src, "termination", term, SCHEMA["termination"])
-    read_term = _string(src, "termination", term, "read")
-    write_term = _string(src, "termination", term, "write")
-    for key, value in (("read", read_term), ("write", write_term)):
-        if value not in TERMINATIONS:
-            raise src.error(
-                ("termination", key), f'must be "\\n", "\\r\\n" or "\\r", not {value!r}'
-            )
+    head, name, kind, identity, echoes = _profile_head(src)
+    read_term, write_term = _terminations(src)
 
     absent = _absent(src, head, kind)
     commands = _commands(src, kind, absent)
     _check_groups(src, kind, commands)
     words = _words(src, kind, commands)
-    timeouts = _table(src, "timeouts_ms")
-    for key, value in timeouts.items():
-        if key != "default" and key not in OPERATIONS[kind]:
-            raise src.error(("timeouts_ms", key), "not an operation of this profile")
-        if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 3_600_000:
-            raise src.error(
-                ("timeouts_ms", key), f"must be whole milliseconds 1..3600000, not {value!r}"
-            )
-    if "default" not in timeouts:
-        raise src.error(("timeouts_ms", "default"), "missing")
-    default_ms = timeouts["default"]
-    op_ms = {k: v for k, v in timeouts.items() if k != "default"}
+    default_ms, op_ms = _timeouts(src, kind)
     style, mask = _errors(src, commands)
     screen = _table(src, "screen", required=False)
     _keys(src, "screen", screen, SCHEMA["screen"])
@@ -736,6 +696,64 @@ def load_profile(path: Path) -> Profile:
         horizontal_divisions=_int(src, "screen", screen, "horizontal_divisions", 10, 1, 100),
         acquire=_acquire(src, kind, commands, op_ms.get("operation_complete", default_ms)),
     )
+
+
+def _profile_head(src: TomlDocument) -> tuple[dict[str, Any], str, str, re.Pattern[str], bool]:
+    """``[profile]``: (the table, name, kind, identity pattern, echoes_headers), checked, and
+    the file's tables checked against the kind."""
+    head = _table(src, "profile")
+    for key in src.data:
+        if key not in SCHEMA:
+            raise src.error((key,), f"unknown table (expected one of {', '.join(SCHEMA)})")
+    _keys(src, "profile", head, SCHEMA["profile"])
+    name = _string(src, "profile", head, "name")
+    if name != src.path.stem:
+        raise src.error(("profile", "name"), f"{name!r} must equal the file name {src.path.stem!r}")
+    kind = _string(src, "profile", head, "kind")
+    if kind not in KINDS:
+        raise src.error(("profile", "kind"), f"{kind!r} is not one of {', '.join(KINDS)}")
+    for table in _SCOPE_ONLY:
+        if kind != "scope" and table in src.data:
+            raise src.error((table,), f"only a scope profile has a [{table}] table")
+    try:
+        identity = re.compile(_string(src, "profile", head, "identity"))
+    except re.error as exc:
+        raise src.error(("profile", "identity"), f"not a valid regular expression: {exc}") from None
+    echoes = head.get("echoes_headers", False)
+    if not isinstance(echoes, bool):
+        raise src.error(("profile", "echoes_headers"), f"must be true or false, not {echoes!r}")
+    return head, name, kind, identity, echoes
+
+
+def _terminations(src: TomlDocument) -> tuple[str, str]:
+    """``[termination]``: (read, write), each one of ``TERMINATIONS``."""
+    term = _table(src, "termination")
+    _keys(src, "termination", term, SCHEMA["termination"])
+    read_term = _string(src, "termination", term, "read")
+    write_term = _string(src, "termination", term, "write")
+    for key, value in (("read", read_term), ("write", write_term)):
+        if value not in TERMINATIONS:
+            raise src.error(
+                ("termination", key), f'must be "\\n", "\\r\\n" or "\\r", not {value!r}'
+            )
+    return read_term, write_term
+
+
+def _timeouts(src: TomlDocument, kind: str) -> tuple[int, dict[str, int]]:
+    """``[timeouts_ms]``: (the default, the per-operation timeouts), whole milliseconds."""
+    timeouts = _table(src, "timeouts_ms")
+    for key, value in timeouts.items():
+        if key != "default" and key not in OPERATIONS[kind]:
+            raise src.error(("timeouts_ms", key), "not an operation of this profile")
+        if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 3_600_000:
+            raise src.error(
+                ("timeouts_ms", key), f"must be whole milliseconds 1..3600000, not {value!r}"
+            )
+    if "default" not in timeouts:
+        raise src.error(("timeouts_ms", "default"), "missing")
+    default_ms = timeouts["default"]
+    op_ms = {k: v for k, v in timeouts.items() if k != "default"}
+    return default_ms, op_ms
 
 
 def _absent(src: TomlDocument, head: dict[str, Any], kind: str) -> frozenset[str]:
@@ -957,6 +975,30 @@ def _block(
         return None
     block = _table(src, "block")
     _keys(src, "block", block, SCHEMA["block"])
+    datatype, order = _block_codes(src, block)
+    chunk, page, pipeline = _block_reads(src, block, commands)
+    code_min, code_max = _code_range(src, block, datatype)
+    sep, names, open_end = _preamble_fields(src, commands)
+    scale = _scale_terms(src, datatype, commands, names)
+    tol = _tolerance(src)
+    return BlockFormat(
+        datatype,
+        order == "big",
+        chunk,
+        page,
+        pipeline,
+        float(code_min),
+        float(code_max),
+        sep,
+        names,
+        open_end,
+        scale,
+        float(tol),
+    )
+
+
+def _block_codes(src: TomlDocument, block: dict[str, Any]) -> tuple[str, str]:
+    """``[block]`` datatype and byte order (a multi-byte binary code needs one)."""
     datatype = _string(src, "block", block, "datatype")
     if datatype not in DATATYPES:
         raise src.error(("block", "datatype"), f"{datatype!r} is not one of {', '.join(DATATYPES)}")
@@ -970,6 +1012,14 @@ def _block(
         order = "big"
     if order not in ("big", "little"):
         raise src.error(("block", "byte_order"), f"{order!r} must be 'big' or 'little'")
+    return datatype, order
+
+
+def _block_reads(
+    src: TomlDocument, block: dict[str, Any], commands: Mapping[str, tuple[str, ...]]
+) -> tuple[int, int | None, bool]:
+    """``[block]`` chunk bytes, points per page (paged reads need ``data_range``) and
+    pipelining (only of pages)."""
     chunk = block.get("chunk_bytes", 1 << 22)
     if isinstance(chunk, bool) or not isinstance(chunk, int) or not 4096 <= chunk <= 1 << 28:
         raise src.error(("block", "chunk_bytes"), f"must be bytes 4096..268435456, not {chunk!r}")
@@ -983,6 +1033,11 @@ def _block(
         raise src.error(("block", "pipeline"), f"must be true or false, not {pipeline!r}")
     if pipeline and page is None:
         raise src.error(("block", "pipeline"), "only with page_points")
+    return chunk, page, pipeline
+
+
+def _code_range(src: TomlDocument, block: dict[str, Any], datatype: str) -> tuple[Any, Any]:
+    """``[block]`` code_min and code_max: within the datatype's range, min below max."""
     if datatype == "ascii":
         lo, hi = -math.inf, math.inf
     elif datatype == "float32":
@@ -997,7 +1052,13 @@ def _block(
             raise src.error(("block", key), f"must be a code within {lo:g}..{hi:g}, not {value!r}")
     if code_min >= code_max:
         raise src.error(("block", "code_max"), f"must be above code_min ({code_min:g})")
+    return code_min, code_max
 
+
+def _preamble_fields(
+    src: TomlDocument, commands: Mapping[str, tuple[str, ...]]
+) -> tuple[str, tuple[str, ...], bool]:
+    """``[preamble]``: (separator, field names, whether more fields may follow ``...``)."""
     pre = _table(src, "preamble", required="waveform_preamble" in commands)
     if pre and "waveform_preamble" not in commands:
         raise src.error(("preamble",), "a [preamble] needs the waveform_preamble operation")
@@ -1017,7 +1078,17 @@ def _block(
             raise src.error(("preamble", "fields"), f"{n!r} is not a field name ('...' only last)")
     if len(set(names)) != len(names):
         raise src.error(("preamble", "fields"), "a field name appears twice")
+    return sep, names, open_end
 
+
+def _scale_terms(
+    src: TomlDocument,
+    datatype: str,
+    commands: Mapping[str, tuple[str, ...]],
+    names: tuple[str, ...],
+) -> dict[str, ScaleTerm]:
+    """``[scale]``: each term from the preamble's fields, a number or a query; the steps are
+    required, the others default."""
     table = _table(src, "scale")
     _keys(src, "scale", table, SCHEMA["scale"])
     scale: dict[str, ScaleTerm] = {}
@@ -1030,6 +1101,11 @@ def _block(
             scale[key] = ScaleTerm(constant=_SCALE_DEFAULTS[key])
     if datatype != "ascii" and "points" not in scale and "waveform_preamble" in commands:
         pass  # the block's own length is the only announcement then
+    return scale
+
+
+def _tolerance(src: TomlDocument) -> Any:
+    """``[checks] tolerance``: a fraction of full scale in (0, 0.5]."""
     checks = _table(src, "checks", required=False)
     _keys(src, "checks", checks, SCHEMA["checks"])
     tol = checks.get("tolerance", 0.02)
@@ -1037,20 +1113,7 @@ def _block(
         raise src.error(
             ("checks", "tolerance"), f"must be a fraction of full scale in (0, 0.5], not {tol!r}"
         )
-    return BlockFormat(
-        datatype,
-        order == "big",
-        chunk,
-        page,
-        pipeline,
-        float(code_min),
-        float(code_max),
-        sep,
-        names,
-        open_end,
-        scale,
-        float(tol),
-    )
+    return tol
 
 
 def _acquire(
