@@ -323,18 +323,18 @@ class SessionLog(LogReading):
             raise StoreError(
                 f"attempt outcome {outcome!r} is not one of {', '.join(ATTEMPT_OUTCOMES)}"
             )
-        try:
-            plain = {
-                "started_utc": time_text(started_utc, "started_utc"),
-                "finished_utc": time_text(finished_utc, "finished_utc"),
-                **{k: to_plain(dict(v)) for k, v in (("instruments", instruments),
-                   ("settings", settings), ("metrics", metrics), ("predictions", predictions),
-                   ("verdicts", verdicts))},
-                "notes": str(notes or ""),
-                "extra": None if extra is None else to_plain(dict(extra)),
-            }  # fmt: skip
-        except TypeError as error:
-            raise StoreError(f"attempt of step {stage_id}/{step_id}: {error}") from None
+        plain = _plain_attempt(
+            f"attempt of step {stage_id}/{step_id}",
+            started_utc=started_utc,
+            finished_utc=finished_utc,
+            instruments=instruments,
+            settings=settings,
+            metrics=metrics,
+            predictions=predictions,
+            verdicts=verdicts,
+            notes=notes,
+            extra=extra,
+        )
         table_rows = metric_rows(plain["metrics"])
         encoded = _encoded_waveforms(waveforms or {})
         with self._write():
@@ -343,38 +343,64 @@ class SessionLog(LogReading):
                 raise StoreError(
                     f"session {session_id} is finished: no more attempts can be logged"
                 )
-            seq, previous = self._chain_tail(session_id, session["genesis_hash"])
-            seq += 1
-            attempt_no = self._next_attempt_no(session_id, stage_id, step_id)
-            recorded = now_utc()
-            waveform_rows = {
-                name: {**waveform.scale(), "raw_sha256": blob.raw_sha256}
-                for name, (waveform, blob) in encoded.items()
-            }
-            content = attempt_content(
-                session_id, seq, stage_id, step_id, attempt_no, operator, recorded, outcome,
-                plain, table_rows, waveform_rows,
-            )  # fmt: skip
-            hashes = chain.field_hashes(content)
-            digest = chain.content_hash(hashes)
-            row = {
-                "session_id": session_id,
-                "seq": seq,
-                "stage_id": stage_id,
-                "step_id": step_id,
-                "attempt_no": attempt_no,
-                "operator": operator,
-                "recorded_utc": recorded,
-                "outcome": outcome,
-                **_attempt_columns(plain),
-                "field_hashes_json": dumps(hashes),
-                "content_hash": digest,
-                "chain_hash": chain.link(previous, digest),
-            }
-            attempt_id = self._db["attempts"].insert(row).last_pk
+            attempt_id = self._insert_attempt_locked(
+                session_id,
+                session,
+                stage_id,
+                step_id,
+                operator,
+                outcome,
+                plain,
+                table_rows,
+                encoded,
+            )
             self._insert_attempt_details(int(attempt_id), table_rows, encoded)
             self._refresh_listing(session)
         return int(attempt_id)
+
+    def _insert_attempt_locked(
+        self,
+        session_id: str,
+        session: dict[str, Any],
+        stage_id: str,
+        step_id: str,
+        operator: str,
+        outcome: str,
+        plain: dict[str, Any],
+        table_rows: list[tuple[str, float | None, str]],
+        encoded: dict[str, tuple[StoredWaveform, Any]],
+    ) -> int:
+        """The chained attempt row (next ``seq`` and ``attempt_no``, its field hashes and
+        links); inside the write transaction. Returns its row id."""
+        seq, previous = self._chain_tail(session_id, session["genesis_hash"])
+        seq += 1
+        attempt_no = self._next_attempt_no(session_id, stage_id, step_id)
+        recorded = now_utc()
+        waveform_rows = {
+            name: {**waveform.scale(), "raw_sha256": blob.raw_sha256}
+            for name, (waveform, blob) in encoded.items()
+        }
+        content = attempt_content(
+            session_id, seq, stage_id, step_id, attempt_no, operator, recorded, outcome,
+            plain, table_rows, waveform_rows,
+        )  # fmt: skip
+        hashes = chain.field_hashes(content)
+        digest = chain.content_hash(hashes)
+        row = {
+            "session_id": session_id,
+            "seq": seq,
+            "stage_id": stage_id,
+            "step_id": step_id,
+            "attempt_no": attempt_no,
+            "operator": operator,
+            "recorded_utc": recorded,
+            "outcome": outcome,
+            **_attempt_columns(plain),
+            "field_hashes_json": dumps(hashes),
+            "content_hash": digest,
+            "chain_hash": chain.link(previous, digest),
+        }
+        return self._db["attempts"].insert(row).last_pk
 
     def _next_attempt_no(self, session_id: str, stage_id: str, step_id: str) -> int:
         """1 + the attempts already logged for this step (a retake never replaces one)."""
@@ -447,10 +473,7 @@ class SessionLog(LogReading):
             raise StoreError(f"event kind {kind!r} is not one of {', '.join(EVENT_KINDS)}")
         operator = name_text(operator, "name" if kind == "waive" else "operator")
         reason = str(reason or "").strip()
-        try:
-            payload_plain = None if payload is None else to_plain(dict(payload))
-        except TypeError as error:
-            raise StoreError(f"{kind} event: {error}") from None
+        payload_plain = _plain_payload(kind, payload)
         if kind in ("skip", "waive"):
             stage_id = required(stage_id, "stage id")
             step_id = required(step_id, "step id")
@@ -458,55 +481,89 @@ class SessionLog(LogReading):
                 raise StoreError(f"a {kind} of step {stage_id}/{step_id} needs a reason")
         with self._write():
             session = self._session_row(session_id)
-            if self._chained_state(session) == "finished" and kind != "note":
-                raise StoreError(f"session {session_id} is finished: only notes can be added")
-            if kind == "waive":
-                _check_waiver(session_id, operator, session["operator"], payload_plain)
-            if kind in ("skip", "waive"):
-                self._check_skip_or_waive_locked(session_id, kind, stage_id, step_id)
-            if kind == "skip" and _is_gate(loads(session["checklist_json"]), stage_id, step_id):
-                raise StoreError(
-                    f"step {stage_id}/{step_id} is a safety gate: it cannot be skipped; run "
-                    "it (a failure may then be waived by someone other than the operator)"
-                )
-            seq, previous = self._chain_tail(session_id, session["genesis_hash"])
-            seq += 1
-            recorded = now_utc()
-            content = {
-                "kind": kind,
-                "session_id": session_id,
-                "seq": seq,
-                "stage_id": stage_id,
-                "step_id": step_id,
-                "operator": operator,
-                "reason": reason,
-                "payload": payload_plain,
-                "recorded_utc": recorded,
-            }
-            hashes = chain.field_hashes(content)
-            digest = chain.content_hash(hashes)
-            event_id = (
-                self._db["events"]
-                .insert(
-                    {
-                        "session_id": session_id,
-                        "seq": seq,
-                        "kind": kind,
-                        "stage_id": stage_id,
-                        "step_id": step_id,
-                        "operator": operator,
-                        "reason": reason,
-                        "payload_json": None if payload_plain is None else dumps(payload_plain),
-                        "recorded_utc": recorded,
-                        "field_hashes_json": dumps(hashes),
-                        "content_hash": digest,
-                        "chain_hash": chain.link(previous, digest),
-                    }
-                )
-                .last_pk
+            self._check_event_locked(
+                session_id, session, kind, operator, stage_id, step_id, payload_plain
+            )
+            event_id = self._insert_event_locked(
+                session_id, session, kind, operator, stage_id, step_id, reason, payload_plain
             )
             self._refresh_listing(session)
         return int(event_id)
+
+    def _check_event_locked(
+        self,
+        session_id: str,
+        session: dict[str, Any],
+        kind: str,
+        operator: str,
+        stage_id: str | None,
+        step_id: str | None,
+        payload_plain: Any,
+    ) -> None:
+        """The event's refusals (inside the write transaction, so the chain cannot change):
+        a finished session takes only notes, a waiver needs a second person, only a failed
+        step is waived, a failed step or a safety gate is never skipped."""
+        if self._chained_state(session) == "finished" and kind != "note":
+            raise StoreError(f"session {session_id} is finished: only notes can be added")
+        if kind == "waive":
+            _check_waiver(session_id, operator, session["operator"], payload_plain)
+        if kind in ("skip", "waive"):
+            self._check_skip_or_waive_locked(session_id, kind, stage_id, step_id)
+        if kind == "skip" and _is_gate(loads(session["checklist_json"]), stage_id, step_id):
+            raise StoreError(
+                f"step {stage_id}/{step_id} is a safety gate: it cannot be skipped; run "
+                "it (a failure may then be waived by someone other than the operator)"
+            )
+
+    def _insert_event_locked(
+        self,
+        session_id: str,
+        session: dict[str, Any],
+        kind: str,
+        operator: str,
+        stage_id: str | None,
+        step_id: str | None,
+        reason: str,
+        payload_plain: Any,
+    ) -> int:
+        """The chained event row (next ``seq``, its field hashes and link); inside the write
+        transaction. Returns its row id."""
+        seq, previous = self._chain_tail(session_id, session["genesis_hash"])
+        seq += 1
+        recorded = now_utc()
+        content = {
+            "kind": kind,
+            "session_id": session_id,
+            "seq": seq,
+            "stage_id": stage_id,
+            "step_id": step_id,
+            "operator": operator,
+            "reason": reason,
+            "payload": payload_plain,
+            "recorded_utc": recorded,
+        }
+        hashes = chain.field_hashes(content)
+        digest = chain.content_hash(hashes)
+        return (
+            self._db["events"]
+            .insert(
+                {
+                    "session_id": session_id,
+                    "seq": seq,
+                    "kind": kind,
+                    "stage_id": stage_id,
+                    "step_id": step_id,
+                    "operator": operator,
+                    "reason": reason,
+                    "payload_json": None if payload_plain is None else dumps(payload_plain),
+                    "recorded_utc": recorded,
+                    "field_hashes_json": dumps(hashes),
+                    "content_hash": digest,
+                    "chain_hash": chain.link(previous, digest),
+                }
+            )
+            .last_pk
+        )
 
     def _check_skip_or_waive_locked(
         self, session_id: str, kind: str, stage_id: str, step_id: str
@@ -592,3 +649,40 @@ def _is_gate(checklist: Any, stage_id: str, step_id: str) -> bool:
                 if isinstance(step, dict) and step.get("id") == step_id:
                     return step.get("gate") is True
     return False
+
+
+def _plain_attempt(
+    what: str,
+    *,
+    started_utc: str | _dt.datetime,
+    finished_utc: str | _dt.datetime,
+    instruments: Mapping[str, Any],
+    settings: Mapping[str, Any],
+    metrics: Mapping[str, Any],
+    predictions: Mapping[str, Any],
+    verdicts: Mapping[str, Any],
+    notes: str,
+    extra: Mapping[str, Any] | None,
+) -> dict[str, Any]:
+    """An attempt's fields as plain JSON-able values (times as UTC text); a value that cannot
+    be stored is a ``StoreError`` starting with ``what``."""
+    try:
+        return {
+            "started_utc": time_text(started_utc, "started_utc"),
+            "finished_utc": time_text(finished_utc, "finished_utc"),
+            **{k: to_plain(dict(v)) for k, v in (("instruments", instruments),
+               ("settings", settings), ("metrics", metrics), ("predictions", predictions),
+               ("verdicts", verdicts))},
+            "notes": str(notes or ""),
+            "extra": None if extra is None else to_plain(dict(extra)),
+        }  # fmt: skip
+    except TypeError as error:
+        raise StoreError(f"{what}: {error}") from None
+
+
+def _plain_payload(kind: str, payload: Mapping[str, Any] | None) -> Any:
+    """An event's payload as plain JSON-able values (or None); else a ``StoreError``."""
+    try:
+        return None if payload is None else to_plain(dict(payload))
+    except TypeError as error:
+        raise StoreError(f"{kind} event: {error}") from None
