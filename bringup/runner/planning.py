@@ -125,22 +125,9 @@ def _with_gates(energise: EnergisePlan, gates: tuple[tuple[Step, str], ...]) -> 
     return replace(energise, prompt=prompt, unmet_gates=named)
 
 
-def plan_step(
-    step: Step,
-    board: Board,
-    bench: BenchSource,
-    probe_kinds: dict[int, str] | None = None,
-    gates: tuple[tuple[Step, str], ...] = (),
-) -> StepPlan:
-    """Resolve ``step`` for ``board``: what will be set, acquired and asked. ``probe_kinds``:
-    the kind of probe on each scope channel (default ``DEFAULT_PROBE_KINDS``); ``gates``: the
-    earlier safety gates waived or not passed, with their states (the energising prompt names
-    them)."""
-    design = board.design
-    channels = _channels(step, design, dict(probe_kinds or DEFAULT_PROBE_KINDS))
-    energise = _energise(step, design)
-    if energise is not None:
-        energise = _with_gates(energise, gates)
+def _math_warnings(step: Step, design: dict[str, float]) -> list[str]:
+    """A warning when Vgs comes from a math difference at a high common mode (the two
+    probes' gain mismatch scales with the bus voltage)."""
     warnings: list[str] = []
     if step.scope is not None and any(c.probe == "math" for c in step.scope.captures):
         common = design["bus_voltage"]
@@ -150,6 +137,17 @@ def plan_step(
                 f"a 1 % gain mismatch of the two probes is {_v(0.01 * common)} of error on Vgs; "
                 "use a differential probe for a verdict you can trust."
             )
+    return warnings
+
+
+def _settings(
+    step: Step,
+    design: dict[str, float],
+    energise: EnergisePlan | None,
+    channels: tuple[ChannelPlan, ...],
+) -> dict:
+    """What the step sets on each instrument (PWM, supply, scope, thermometer, meter), as
+    logged with the attempt."""
     settings: dict = {}
     if step.pwm is not None:
         settings["pwm"] = {
@@ -186,11 +184,14 @@ def plan_step(
         }
     if step.reading is not None:
         settings["reading"] = {"net": step.reading.net, "unit": step.reading.unit}
-    hands = _hands(step, design, channels)
-    needs_confirm = step.confirm is not None or bool(hands)
-    confirm = None
-    if needs_confirm:
-        confirm = " ".join([*hands, *([step.confirm] if step.confirm else [])])
+    return settings
+
+
+def _prompt_order(
+    step: Step, energise: EnergisePlan | None, confirm: str | None
+) -> tuple[str, ...]:
+    """The order the step asks in: confirm, reading, energise; a meter reading a powered
+    board is read after the power comes on and confirmed after it is read."""
     if step.reading is not None and energise is not None:
         # the meter reads a powered board: power first, read, then confirm the value read
         prompts: tuple[str, ...] = ("energise", "reading", "confirm")
@@ -204,6 +205,33 @@ def plan_step(
             )
             if present
         )
+    return prompts
+
+
+def plan_step(
+    step: Step,
+    board: Board,
+    bench: BenchSource,
+    probe_kinds: dict[int, str] | None = None,
+    gates: tuple[tuple[Step, str], ...] = (),
+) -> StepPlan:
+    """Resolve ``step`` for ``board``: what will be set, acquired and asked. ``probe_kinds``:
+    the kind of probe on each scope channel (default ``DEFAULT_PROBE_KINDS``); ``gates``: the
+    earlier safety gates waived or not passed, with their states (the energising prompt names
+    them)."""
+    design = board.design
+    channels = _channels(step, design, dict(probe_kinds or DEFAULT_PROBE_KINDS))
+    energise = _energise(step, design)
+    if energise is not None:
+        energise = _with_gates(energise, gates)
+    warnings = _math_warnings(step, design)
+    settings = _settings(step, design, energise, channels)
+    hands = _hands(step, design, channels)
+    needs_confirm = step.confirm is not None or bool(hands)
+    confirm = None
+    if needs_confirm:
+        confirm = " ".join([*hands, *([step.confirm] if step.confirm else [])])
+    prompts = _prompt_order(step, energise, confirm)
     return StepPlan(
         prompts=prompts,
         step_id=step.id,
