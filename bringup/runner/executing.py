@@ -12,6 +12,7 @@ from __future__ import annotations
 import threading
 import time
 from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 from bringup.analysis.quantities import format_quantity, parse_quantity
@@ -35,6 +36,7 @@ from bringup.runner.results import (
 
 if TYPE_CHECKING:
     from bringup.runner.bench_link import BenchLink
+    from bringup.runner.stop_signals import SignalStop
 
 __all__ = ["StepExecutor", "StepStopped", "now_utc"]
 
@@ -364,6 +366,21 @@ def _diagnose(
     return out.details["diagnosis"]
 
 
+@dataclass
+class _Ran:
+    """What running one attempt gave: its instruments' identities, state, metrics, diagnosis
+    and analysis, or the message (and fault, and terminating signal) that stopped it."""
+
+    identities: dict[str, str] = field(default_factory=dict)
+    state: str = "not-run"
+    metrics: tuple[MetricResult, ...] = ()
+    diagnosis: dict = field(default_factory=dict)
+    out: AnalysisOutput = field(default_factory=AnalysisOutput)
+    message: str = ""
+    fault: str = ""
+    signalled: SignalStop | None = None
+
+
 class StepExecutor:
     """Runs attempts on the bench and logs them: owns the open bench (opened on first use)
     and the stop flag that every running step checks.
@@ -444,71 +461,75 @@ class StepExecutor:
         A terminating signal (``SignalStop``) is logged as an interrupted attempt, then raised
         again for the command to finish its way out. ``earlier``: the latest values of other
         steps' metrics this session, evidence for a diagnosis."""
-        from bringup.instruments.faults import InstrumentFault
-        from bringup.runner.stop_signals import SignalStop
-
         self._abort.clear()
         self._stop_reason = "the session was aborted"
         ctx = _Context(self, step, self.planner.plan(step), cancel, finish, on_progress)
         started = now_utc()
-        identities: dict[str, str] = {}
-        message = fault = ""
-        state = "not-run"
-        metrics: tuple[MetricResult, ...] = ()
-        diagnosis: dict = {}
-        out = AnalysisOutput()
-        signalled: SignalStop | None = None
-        try:
-            refusal = _answers(ctx, answers, self.source.is_simulated)
-            if refusal is not None:
-                message = f"not run: {refusal}"
-            else:
-                identities = _on_bench(ctx, answers)
-                ctx.emit("analysing", "analysing")
-                out = analyse(step.analysis, ctx.data, self.board)
-                ctx.warnings.extend(out.warnings)
-                state, metrics = _judge(ctx, out)
-                diagnosis = _diagnose(ctx, out, state, metrics, earlier or {})
-        except StepStopped as exc:
-            message = f"not run: {exc}; supply switched off"
-        except InstrumentFault as exc:
-            message, fault = f"not run: {exc}", str(exc)
-        except BringupError as exc:
-            message = f"not run: {exc}"
-        except SignalStop as exc:
-            signalled = exc
-            message = f"not run: interrupted by {exc.reason}; supply switched off"
-        finally:
-            problem = self.stop_now() if self._bench is not None else None
-            if problem:
-                ctx.warnings.append(f"could not confirm the supply off: {problem}")
+        ran = self._attempt(ctx, answers, earlier)
         absorbed = self._bench.take_absorbed() if self._bench is not None else ()
         ctx.emit("storing", "logging the attempt")
         result = AttemptResult(
             step_id=step.id,
             stage_id=step.stage_id,
             attempt_no=attempt_no(),
-            state=state,
-            metrics=metrics,
-            waveforms=tuple(out.views),
-            instruments=identities,
+            state=ran.state,
+            metrics=ran.metrics,
+            waveforms=tuple(ran.out.views),
+            instruments=ran.identities,
             settings=ctx.plan.settings,
             operator=self.operator,
             started_utc=started,
             finished_utc=now_utc(),
-            message=message,
+            message=ran.message,
             warnings=tuple(dict.fromkeys(ctx.warnings)),
             soak=ctx.soak,
             notes=str(notes or "").strip(),
-            fault=fault,
+            fault=ran.fault,
             absorbed=absorbed,
-            diagnosis=diagnosis,
+            diagnosis=ran.diagnosis,
         )
-        stored = self.recorder.store(step, result, ctx.raw, out)
-        if signalled is not None:
-            raise signalled
-        ctx.emit("done", f"{step.id}: {state}")
+        stored = self.recorder.store(step, result, ctx.raw, ran.out)
+        if ran.signalled is not None:
+            raise ran.signalled
+        ctx.emit("done", f"{step.id}: {ran.state}")
         return stored
+
+    def _attempt(
+        self, ctx: _Context, answers: StepAnswers | None, earlier: Mapping[str, float] | None
+    ) -> _Ran:
+        """Check the answers, run the step on the bench, analyse and judge it; a stop, an
+        instrument fault, a refusal or a terminating signal becomes the attempt's message.
+        The supply is switched off on every way out."""
+        from bringup.instruments.faults import InstrumentFault
+        from bringup.runner.stop_signals import SignalStop
+
+        step = ctx.step
+        ran = _Ran()
+        try:
+            refusal = _answers(ctx, answers, self.source.is_simulated)
+            if refusal is not None:
+                ran.message = f"not run: {refusal}"
+            else:
+                ran.identities = _on_bench(ctx, answers)
+                ctx.emit("analysing", "analysing")
+                ran.out = analyse(step.analysis, ctx.data, self.board)
+                ctx.warnings.extend(ran.out.warnings)
+                ran.state, ran.metrics = _judge(ctx, ran.out)
+                ran.diagnosis = _diagnose(ctx, ran.out, ran.state, ran.metrics, earlier or {})
+        except StepStopped as exc:
+            ran.message = f"not run: {exc}; supply switched off"
+        except InstrumentFault as exc:
+            ran.message, ran.fault = f"not run: {exc}", str(exc)
+        except BringupError as exc:
+            ran.message = f"not run: {exc}"
+        except SignalStop as exc:
+            ran.signalled = exc
+            ran.message = f"not run: interrupted by {exc.reason}; supply switched off"
+        finally:
+            problem = self.stop_now() if self._bench is not None else None
+            if problem:
+                ctx.warnings.append(f"could not confirm the supply off: {problem}")
+        return ran
 
     def stop(self, reason: str) -> str | None:
         """Make a running step stop at its next check (logged as not run, ``reason``) and
