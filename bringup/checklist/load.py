@@ -235,55 +235,59 @@ def _supply(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> SupplySetu
     )
 
 
-def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
-    keys = ("stages", stage_id, "steps", key)
-    if not _ID_RE.match(key):
-        raise doc.error(keys, "a step key is lower-case letters, digits and '-'")
-    t = check_table(doc, keys, raw, _STEP)
-    analysis = t["analysis"]
-    if analysis not in ANALYSES:
-        known = ", ".join(ANALYSES)
-        raise doc.error((*keys, "analysis"), f"unknown analysis {analysis!r} (known: {known})")
+def _reading(doc: TomlDocument, keys: tuple[str, ...], analysis: str, raw: object) -> ReadingSpec:
+    """A step's ``reading`` table: prompt, unit (the metric's), metric (of the analysis), net."""
     spec = ANALYSES[analysis]
-    reading = None
-    if "reading" in t:
-        rk = (*keys, "reading")
-        r = check_table(doc, rk, t["reading"], _READING)
-        metric = expect_str(doc, (*rk, "metric"), r["metric"])
-        if metric not in spec.metrics:
-            raise doc.error((*rk, "metric"), f"analysis {analysis!r} yields no metric {metric!r}")
-        unit = _choice(doc, (*rk, "unit"), r["unit"], (spec.metrics[metric],))
-        reading = ReadingSpec(
-            expect_str(doc, (*rk, "prompt"), r["prompt"]),
-            unit,
-            metric,
-            _choice(doc, (*rk, "net"), r["net"], NETS),
-        )
-    pwm = None
-    if "pwm" in t:
-        p = check_table(doc, (*keys, "pwm"), t["pwm"], _PWM)
-        duty = _setting(doc, (*keys, "pwm", "duty"), p["duty"], "") if "duty" in p else None
-        pwm = PwmSetup(_bool(doc, (*keys, "pwm", "enabled"), p["enabled"]), duty)
-    supply = _supply(doc, (*keys, "supply"), t["supply"]) if "supply" in t else None
-    scope = _scope(doc, (*keys, "scope"), t["scope"]) if "scope" in t else None
-    soak = None
-    if "soak" in t:
-        sk = (*keys, "soak")
-        s = check_table(doc, sk, t["soak"], _SOAK)
-        duration = read_quantity(doc, (*sk, "duration"), s["duration"], "s")
-        interval = read_quantity(doc, (*sk, "interval"), s["interval"], "s")
-        if not 0 < duration <= MAX_SOAK_S:
-            raise doc.error((*sk, "duration"), f"must be positive and at most {MAX_SOAK_S:g} s")
-        if not 0 < interval < duration:
-            raise doc.error((*sk, "interval"), "must be positive and shorter than the duration")
-        least = read_quantity(doc, (*sk, "min_duration"), s.get("min_duration", duration), "s")
-        if not 0 <= least <= duration:
-            raise doc.error(
-                (*sk, "min_duration"),
-                f"{least:g} s must lie between 0 and the soak's duration ({duration:g} s)",
-            )
-        soak = SoakSetup(duration, interval, least)
+    rk = (*keys, "reading")
+    r = check_table(doc, rk, raw, _READING)
+    metric = expect_str(doc, (*rk, "metric"), r["metric"])
+    if metric not in spec.metrics:
+        raise doc.error((*rk, "metric"), f"analysis {analysis!r} yields no metric {metric!r}")
+    unit = _choice(doc, (*rk, "unit"), r["unit"], (spec.metrics[metric],))
+    return ReadingSpec(
+        expect_str(doc, (*rk, "prompt"), r["prompt"]),
+        unit,
+        metric,
+        _choice(doc, (*rk, "net"), r["net"], NETS),
+    )
 
+
+def _pwm(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> PwmSetup:
+    """A step's ``pwm`` table: on or off, and the duty cycle (a fraction, or a design key)."""
+    p = check_table(doc, (*keys, "pwm"), raw, _PWM)
+    duty = _setting(doc, (*keys, "pwm", "duty"), p["duty"], "") if "duty" in p else None
+    return PwmSetup(_bool(doc, (*keys, "pwm", "enabled"), p["enabled"]), duty)
+
+
+def _soak(doc: TomlDocument, sk: tuple[str, ...], raw: object) -> SoakSetup:
+    """A step's ``soak`` table: duration, reading interval and least duration (s)."""
+    s = check_table(doc, sk, raw, _SOAK)
+    duration = read_quantity(doc, (*sk, "duration"), s["duration"], "s")
+    interval = read_quantity(doc, (*sk, "interval"), s["interval"], "s")
+    if not 0 < duration <= MAX_SOAK_S:
+        raise doc.error((*sk, "duration"), f"must be positive and at most {MAX_SOAK_S:g} s")
+    if not 0 < interval < duration:
+        raise doc.error((*sk, "interval"), "must be positive and shorter than the duration")
+    least = read_quantity(doc, (*sk, "min_duration"), s.get("min_duration", duration), "s")
+    if not 0 <= least <= duration:
+        raise doc.error(
+            (*sk, "min_duration"),
+            f"{least:g} s must lie between 0 and the soak's duration ({duration:g} s)",
+        )
+    return SoakSetup(duration, interval, least)
+
+
+def _check_needs(
+    doc: TomlDocument,
+    keys: tuple[str, ...],
+    analysis: str,
+    scope: ScopeSetup | None,
+    supply: SupplySetup | None,
+    soak: SoakSetup | None,
+    reading: ReadingSpec | None,
+) -> None:
+    """The tables and nets the step's analysis needs are there."""
+    spec = ANALYSES[analysis]
     for name, present, needed in (
         ("scope", scope is not None, bool(spec.needs_nets)),
         ("supply.ramp", supply is not None and bool(supply.ramp_v), spec.needs_supply_ramp),
@@ -302,6 +306,23 @@ def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
     if analysis == "rail-levels" and (scope is None or not scope.captures):
         raise doc.error(keys, "analysis 'rail-levels' needs a 'scope' table")
 
+
+def _step(doc: TomlDocument, stage_id: str, key: str, raw: object) -> Step:
+    keys = ("stages", stage_id, "steps", key)
+    if not _ID_RE.match(key):
+        raise doc.error(keys, "a step key is lower-case letters, digits and '-'")
+    t = check_table(doc, keys, raw, _STEP)
+    analysis = t["analysis"]
+    if analysis not in ANALYSES:
+        known = ", ".join(ANALYSES)
+        raise doc.error((*keys, "analysis"), f"unknown analysis {analysis!r} (known: {known})")
+    spec = ANALYSES[analysis]
+    reading = _reading(doc, keys, analysis, t["reading"]) if "reading" in t else None
+    pwm = _pwm(doc, keys, t["pwm"]) if "pwm" in t else None
+    supply = _supply(doc, (*keys, "supply"), t["supply"]) if "supply" in t else None
+    scope = _scope(doc, (*keys, "scope"), t["scope"]) if "scope" in t else None
+    soak = _soak(doc, (*keys, "soak"), t["soak"]) if "soak" in t else None
+    _check_needs(doc, keys, analysis, scope, supply, soak, reading)
     targets = _str_list(doc, (*keys, "targets"), t.get("targets", []))
     report = _str_list(doc, (*keys, "report"), t.get("report", []))
     for field_name, ids in (("targets", targets), ("report", report)):
