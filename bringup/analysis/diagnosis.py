@@ -187,16 +187,9 @@ def _design_drain_current(d: Mapping[str, float], vgs_v: float) -> tuple[float, 
     return rest + (vgs_v / pd if pd else 0.0), rest
 
 
-def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
-    start, droop, t_on = _get(m, "vgs_start"), _get(m, "vgs_droop"), _get(m, "on_time")
-    if start is None or droop is None or not t_on:
-        return None
-    rate = droop / t_on
-    c_design = d["bootstrap_capacitance"]
-    i_design, i_rest = _design_drain_current(d, start)
-    q_gate = d.get("mosfet_gate_charge", 0.0) + d.get("level_shift_charge", 0.0)
-    vdrv = _get(earlier, "vdrv_level") or d["gate_drive_voltage"]
-    charged = vdrv - d.get("bootstrap_diode_drop", 0.0)
+def _start_notes(start: float, floor_v: float | None, charged: float, vdrv: float,
+                 q_gate: float) -> list[str]:  # fmt: skip
+    """Notes for a Vgs that already starts below the floor as the on-time begins."""
     notes: list[str] = []
     floor_txt = f"the {_q(floor_v, 'V')} floor" if floor_v is not None else "the floor"
     if floor_v is not None and start <= floor_v:
@@ -213,8 +206,13 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
                 "capacitor down that far (dV = Q_G / C); a larger capacitor means it did not "
                 "recharge fully in the off-time"
             )
-    # Lower bounds on C from the step at turn-on (charge sharing): the deficit below the charged
-    # level holds Q_G / C and possibly an incomplete recharge, so C >= Q_G / deficit.
+    return notes
+
+
+def _turn_on_bounds(earlier, start: float, charged: float,
+                    q_gate: float) -> list[tuple[float, str]]:  # fmt: skip
+    """Lower bounds on C (F) from the step at turn-on (charge sharing): the deficit below the
+    charged level holds Q_G / C and possibly an incomplete recharge, so C >= Q_G / deficit."""
     bounds: list[tuple[float, str]] = []
     for key, what in (("vgs_on", "while on in the gate-overdrive step"),):
         v = _get(earlier, key)
@@ -223,34 +221,32 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
     if start < charged:
         bounds.append((capacitance_from_step(q_gate, charged - start),
                        f"Vgs {_q(start, 'V')} at the start of this on-time"))  # fmt: skip
-    if rate <= 0:
-        return Diagnosis("droop", (), tuple(notes)) if notes else None
-    c_eff = effective_capacitance(i_design, rate)
-    i_eff = drain_current(c_design, rate)
-    rate_design = i_design / c_design
-    if rate <= _REFUTE * rate_design:
-        # The sag is as designed: the parts the rate depends on are fine, the level is not.
-        low = Cause(
-            "gate_drive_voltage",
-            f"Vgs sags as designed but starts low ({_q(start, 'V')}): the gate-drive rail, the "
-            "bootstrap diode's drop or an incomplete recharge",
-            0.7,
-            (f"Vgs sags at {_q(rate, 'V/s')}, the design's {_q(rate_design, 'V/s')} "
-             f"(I / C = {_q(i_design, 'A')} / {_q(c_design, 'F')})",
-             f"it starts {_q(charged - start, 'V')} below the {_q(charged, 'V')} the capacitor "
-             "charges to"),
-            "probe the gate-drive rail at the driver while switching, then VB to the switch "
-            "node with a differential probe just before turn-on: it should reach the rail less "
-            "one diode drop",
-        )  # fmt: skip
-        return Diagnosis("droop", (low,), tuple(notes))
-    c_min, c_min_from = max(bounds, default=(0.0, ""))
-    # The capacitor alone is refuted when the turn-on step already needs clearly more C than the
-    # sag allows with the design's current (by _REFUTE: a datasheet's typical Q_G and the
-    # diode drop are good to some tens of %): then the current is the finding.
-    refuted = c_min > _REFUTE * c_eff
-    rate_txt = f"Vgs sags at {_q(rate, 'V/s')} ({_q(droop, 'V')} over {_q(t_on, 's')})"
-    small_c = Cause(
+    return bounds
+
+
+def _starts_low(start: float, charged: float, rate: float, rate_design: float,
+                i_design: float, c_design: float) -> Cause:  # fmt: skip
+    """The sag is as designed: the parts the rate depends on are fine, the level is not."""
+    return Cause(
+        "gate_drive_voltage",
+        f"Vgs sags as designed but starts low ({_q(start, 'V')}): the gate-drive rail, the "
+        "bootstrap diode's drop or an incomplete recharge",
+        0.7,
+        (f"Vgs sags at {_q(rate, 'V/s')}, the design's {_q(rate_design, 'V/s')} "
+         f"(I / C = {_q(i_design, 'A')} / {_q(c_design, 'F')})",
+         f"it starts {_q(charged - start, 'V')} below the {_q(charged, 'V')} the capacitor "
+         "charges to"),
+        "probe the gate-drive rail at the driver while switching, then VB to the switch "
+        "node with a differential probe just before turn-on: it should reach the rail less "
+        "one diode drop",
+    )  # fmt: skip
+
+
+def _small_capacitor(rate_txt: str, c_eff: float, c_design: float, i_design: float,
+                     bound: tuple[float, str], q_gate: float, refuted: bool) -> Cause:  # fmt: skip
+    """The sag read as a bootstrap capacitor smaller than designed (C = I / (dV/dt))."""
+    c_min, c_min_from = bound
+    return Cause(
         "bootstrap_capacitance",
         f"bootstrap capacitor smaller than designed: it behaves like {_q(c_eff, 'F')} against "
         f"the design's {_q(c_design, 'F')}",
@@ -265,9 +261,17 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
         "check its voltage rating and dielectric too",
         {"bootstrap_capacitance_f": c_eff},
     )  # fmt: skip
+
+
+def _too_much_current(rate_txt: str, start: float, i_eff: float, i_rest: float, i_design: float,
+                      c_design: float, c_eff: float, bound: tuple[float, str], d,
+                      refuted: bool) -> Cause:  # fmt: skip
+    """The sag read as extra current drawn from the capacitor (I = C dV/dt), as a resistance
+    from gate to source."""
+    c_min, c_min_from = bound
     extra = max(i_eff - i_rest, 0.0)
     r_eq = start / extra if extra > 0 else math.inf
-    leak = Cause(
+    return Cause(
         "gate_source_pulldown",
         f"too much current drawn from the bootstrap capacitor: {_q(i_eff, 'A')} with the "
         f"design's {_q(c_design, 'F')} (design {_q(i_design, 'A')}), like {_q(r_eq, 'ohm')} "
@@ -284,6 +288,37 @@ def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
         "pull-down or a leaking gate, driver or bootstrap diode (lift one end to tell which)",
         {"drain_current_a": i_eff, "gate_source_resistance_ohm": r_eq},
     )  # fmt: skip
+
+
+def _droop(m, d, earlier, floor_v) -> Diagnosis | None:
+    start, droop, t_on = _get(m, "vgs_start"), _get(m, "vgs_droop"), _get(m, "on_time")
+    if start is None or droop is None or not t_on:
+        return None
+    rate = droop / t_on
+    c_design = d["bootstrap_capacitance"]
+    i_design, i_rest = _design_drain_current(d, start)
+    q_gate = d.get("mosfet_gate_charge", 0.0) + d.get("level_shift_charge", 0.0)
+    vdrv = _get(earlier, "vdrv_level") or d["gate_drive_voltage"]
+    charged = vdrv - d.get("bootstrap_diode_drop", 0.0)
+    notes = _start_notes(start, floor_v, charged, vdrv, q_gate)
+    bounds = _turn_on_bounds(earlier, start, charged, q_gate)
+    if rate <= 0:
+        return Diagnosis("droop", (), tuple(notes)) if notes else None
+    c_eff = effective_capacitance(i_design, rate)
+    i_eff = drain_current(c_design, rate)
+    rate_design = i_design / c_design
+    if rate <= _REFUTE * rate_design:
+        low = _starts_low(start, charged, rate, rate_design, i_design, c_design)
+        return Diagnosis("droop", (low,), tuple(notes))
+    bound = max(bounds, default=(0.0, ""))
+    # The capacitor alone is refuted when the turn-on step already needs clearly more C than the
+    # sag allows with the design's current (by _REFUTE: a datasheet's typical Q_G and the
+    # diode drop are good to some tens of %): then the current is the finding.
+    refuted = bound[0] > _REFUTE * c_eff
+    rate_txt = f"Vgs sags at {_q(rate, 'V/s')} ({_q(droop, 'V')} over {_q(t_on, 's')})"
+    small_c = _small_capacitor(rate_txt, c_eff, c_design, i_design, bound, q_gate, refuted)
+    leak = _too_much_current(rate_txt, start, i_eff, i_rest, i_design, c_design, c_eff, bound,
+                             d, refuted)  # fmt: skip
     if refuted:
         causes = (_weighted(leak, 0.8), _weighted(small_c, 0.2))
     else:
