@@ -195,6 +195,10 @@ async def test_rail_ripple_is_a_band_with_its_peak_to_peak_and_distinct_axis_lab
         # a band in the middle: the top and bottom rows of the plot carry no trace
         dots = [any(0x2801 <= ord(ch) <= 0x28FF for ch in row.split("┤", 1)[1]) for row in rows]
         assert not dots[0] and not dots[-1] and any(dots), dots
+        # ... and only the middle half of them: half the band's width as margin on each side
+        lit = [i for i, d in enumerate(dots) if d]
+        quarter = len(dots) / 4
+        assert min(lit) >= quarter - 1 and max(lit) <= 3 * quarter, dots
         await pilot.press("q")
 
 

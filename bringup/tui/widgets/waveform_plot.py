@@ -18,7 +18,7 @@ right edge, crossings are ``▲`` under the plot with their names in the legend,
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from rich.segment import Segment
@@ -298,12 +298,8 @@ class WaveformPlot(Widget):
         extra_legend = list(marks.extra_legend)
         if marks.band:
             vmin, vmax = float(v.min()), float(v.max())
-            marks = PlotMarks(
-                levels=(*marks.levels, ("max", vmax), ("min", vmin)),
-                crossings=marks.crossings,
-                window=marks.window,
-                window_label=marks.window_label,
-            )
+            # replace() keeps ``band`` (and every other mark), so the band keeps its padding
+            marks = replace(marks, levels=(*marks.levels, ("max", vmax), ("min", vmin)))
             extra_legend.insert(
                 0, f"peak-to-peak {format_quantity(vmax - vmin, self._unit, 3)} (max - min)"
             )
