@@ -979,7 +979,7 @@ def _block(
     chunk, page, pipeline = _block_reads(src, block, commands)
     code_min, code_max = _code_range(src, block, datatype)
     sep, names, open_end = _preamble_fields(src, commands)
-    scale = _scale_terms(src, datatype, commands, names)
+    scale = _scale_terms(src, names)
     tol = _tolerance(src)
     return BlockFormat(
         datatype,
@@ -1081,12 +1081,7 @@ def _preamble_fields(
     return sep, names, open_end
 
 
-def _scale_terms(
-    src: TomlDocument,
-    datatype: str,
-    commands: Mapping[str, tuple[str, ...]],
-    names: tuple[str, ...],
-) -> dict[str, ScaleTerm]:
+def _scale_terms(src: TomlDocument, names: tuple[str, ...]) -> dict[str, ScaleTerm]:
     """``[scale]``: each term from the preamble's fields, a number or a query; the steps are
     required, the others default."""
     table = _table(src, "scale")
@@ -1099,8 +1094,7 @@ def _scale_terms(
             raise src.error(("scale", key), "missing")
         elif key in _SCALE_DEFAULTS:
             scale[key] = ScaleTerm(constant=_SCALE_DEFAULTS[key])
-    if datatype != "ascii" and "points" not in scale and "waveform_preamble" in commands:
-        pass  # the block's own length is the only announcement then
+    # without a "points" term the block's own length is the only announcement of the count
     return scale
 
 
