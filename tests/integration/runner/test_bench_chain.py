@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import pytest
+from runner_walk import walk_to
 
 from bringup.boards.board_file import load_board
 from bringup.checklist.load import load_checklist
@@ -24,14 +25,7 @@ def test_the_bench_files_bandwidths_are_taken_out_of_the_edges(sim_bench, tmp_pa
                                   bench=BenchSource.from_file(path),
                                   db_path=tmp_path / "log.sqlite")  # fmt: skip
     try:
-        for step in runner.checklist.steps():
-            if step.id == EDGES:
-                break
-            if step.gate:  # a safety gate is run, never skipped
-                typed = "3.30 V" if step.reading else None
-                runner.run_step(step.id, answers=StepAnswers(confirmed=True, reading=typed))
-            else:
-                runner.skip(step.id, "covered by another test")
+        walk_to(runner, EDGES, confirm=True)
         result = runner.run_step(EDGES, answers=StepAnswers(confirmed=True))
         details = runner.log.attempts(runner.session_id)[-1].extra["details"]
     finally:

@@ -4,6 +4,7 @@ withdraw it, V_BS is fitted over the on-time V_GS found, and a top that clips st
 from __future__ import annotations
 
 import pytest
+from runner_walk import walk_to
 
 from bringup.checklist.load import load_checklist, standard_checklist_path
 
@@ -12,13 +13,7 @@ ZOOM = 'range = "0.5 * design.gate_drive_voltage", offset = "0.9 * design.gate_d
 
 
 def _skip_to_droop(runner) -> None:
-    for step in runner.checklist.steps():
-        if step.id == DROOP:
-            return
-        if step.gate:  # a safety gate is run, never skipped
-            runner.run_step(step.id)
-        else:
-            runner.skip(step.id, "covered by another test")
+    walk_to(runner, DROOP)
 
 
 def _droop_by_charge_balance() -> float:

@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 
 import pytest
+from runner_walk import walk_to
 
 from bringup.boards.board_file import load_board
 from bringup.checklist.load import load_checklist
@@ -26,14 +27,7 @@ def _run_vgs_on(path, tmp_path):
                                   bench=BenchSource.from_file(path),
                                   db_path=tmp_path / "log.sqlite")  # fmt: skip
     try:
-        for step in runner.checklist.steps():
-            if step.id == VGS_ON:
-                break
-            if step.gate:  # a safety gate is run, never skipped
-                typed = "3.30 V" if step.reading else None
-                runner.run_step(step.id, answers=StepAnswers(confirmed=True, reading=typed))
-            else:
-                runner.skip(step.id, "covered by another test")
+        walk_to(runner, VGS_ON, confirm=True)
         result = runner.run_step(VGS_ON, answers=StepAnswers(confirmed=True))
         attempt = runner.log.attempts(runner.session_id)[-1]
     finally:
