@@ -453,6 +453,15 @@ class _Choice:
     keep_soaking: float | None = None
 
 
+def _one_tau(one, resid1: np.ndarray, lo: float, hi: float, **outcome) -> _Choice:
+    """The one-time-constant model as the choice (``one``: its fit of final, start, tau),
+    with the interval ``lo``..``hi`` (degC) and any ``undecided``/``keep_soaking`` outcome."""
+    final1, start1, tau1 = (float(v) for v in one.popt)
+    return _Choice(model="one-tau", final=final1, tau=tau1, tau_fast=None,
+                   tau_se=float(one.errors[2]), start=start1, terms=[(final1 - start1, tau1)],
+                   resid=resid1, se=float(one.errors[0]), lo=lo, hi=hi, **outcome)  # fmt: skip
+
+
 def _choose_one_tau(
     rel: np.ndarray,
     temp: np.ndarray,
@@ -465,23 +474,11 @@ def _choose_one_tau(
 ) -> _Choice:
     """One time constant describes the log: T_final's interval from the profile likelihood,
     undecided when fewer than ``MIN_TAUS_PREDICT`` time constants are logged."""
-    final1, start1, tau1 = (float(v) for v in one.popt)
+    tau1 = float(one.popt[2])
     taus1 = span / tau1
     sigma2 = max(noise**2, one.sse / max(n - 3, 1))
     lo, hi = _profile_one(rel, temp, tau1, COVERAGE_K**2 * sigma2)
-    choice = _Choice(
-        model="one-tau",
-        final=final1,
-        tau=tau1,
-        tau_fast=None,
-        tau_se=float(one.errors[2]),
-        start=start1,
-        terms=[(final1 - start1, tau1)],
-        resid=resid1,
-        se=float(one.errors[0]),
-        lo=lo,
-        hi=hi,
-    )
+    choice = _one_tau(one, resid1, lo, hi)
     if taus1 < MIN_TAUS_PREDICT and stability:
         choice.undecided = (
             f"only {taus1:.1f} time constants logged (tau about {tau1:.0f} s): a fit to early "
@@ -514,22 +511,10 @@ def _choose_two_tau(
     if two is not None:
         two, grid = _fit_two(rel, temp, span, refine=True)
     if two is None:
-        final1, start1, tau1 = (float(v) for v in one.popt)
-        return _Choice(
-            model="one-tau",
-            final=final1,
-            tau=tau1,
-            tau_fast=None,
-            tau_se=float(one.errors[2]),
-            start=start1,
-            terms=[(final1 - start1, tau1)],
-            resid=resid1,
-            se=float(one.errors[0]),
-            lo=final1,
-            hi=final1,
-            undecided=f"{what}, and a two-time-constant fit does not converge",
-            keep_soaking=span,
-        )
+        final1 = float(one.popt[0])
+        return _one_tau(one, resid1, final1, final1,
+                        undecided=f"{what}, and a two-time-constant fit does not converge",
+                        keep_soaking=span)  # fmt: skip
     final, a1, t1, a2, t2 = (float(v) for v in two.popt)
     resid = temp - _model2(rel, *two.popt)
     bad2, _, findings2 = _misfit(resid, noise, 5)
