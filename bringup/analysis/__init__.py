@@ -13,6 +13,14 @@ from typing import TYPE_CHECKING
 from bringup.errors import AnalysisError
 
 if TYPE_CHECKING:
+    from bringup.analysis.dead_time import (
+        Commutations,
+        DeadTimeResult,
+        OnIntervals,
+        Overlap,
+        gate_on_intervals,
+        measure_dead_time,
+    )
     from bringup.analysis.design import (
         BootstrapSizing,
         GateTiming,
@@ -80,6 +88,12 @@ _LAZY = {
     "rc_rise_time": "design",
     "size_bootstrap": "design",
     "switching_loss": "design",
+    "Commutations": "dead_time",
+    "DeadTimeResult": "dead_time",
+    "OnIntervals": "dead_time",
+    "Overlap": "dead_time",
+    "gate_on_intervals": "dead_time",
+    "measure_dead_time": "dead_time",
     "DroopMetrics": "droop",
     "measure_droop": "droop",
     "EdgeMetrics": "edges",
@@ -124,6 +138,8 @@ def __dir__() -> list[str]:
 __all__ = [
     "AnalysisError",
     "BootstrapSizing",
+    "Commutations",
+    "DeadTimeResult",
     "DroopMetrics",
     "EdgeMetrics",
     "GateTiming",
@@ -158,8 +174,12 @@ __all__ = [
     "measure_droop",
     "measure_edges",
     "measure_rail",
+    "gate_on_intervals",
+    "measure_dead_time",
     "negative_excursion",
+    "OnIntervals",
     "on_time_at_duty",
+    "Overlap",
     "parse_quantity",
     "parse_quantity_unit",
     "rc_rise_time",

@@ -21,6 +21,7 @@ __all__ = [
     "COVERAGE_K",
     "Budget",
     "Component",
+    "crossing_budget",
     "duration_budget",
     "level_budget",
     "quantisation",
@@ -263,4 +264,41 @@ def temperature_budget(
             Component(f"reader resolution {resolution_c:.3g} K", "type B, rectangular",
                       quantisation(resolution_c)),
         ),
+    )  # fmt: skip
+
+
+def crossing_budget(
+    noise_v: float,
+    slope_v_per_s: float,
+    curvature_v_per_s2: float = 0.0,
+    dt_s: float = 0.0,
+    *,
+    quantity: str = "threshold-crossing instant",
+) -> Budget:
+    """Budget of one threshold-crossing instant (s) found by linear interpolation between two
+    samples ``dt_s`` apart on an edge of slope ``slope_v_per_s`` (V/s).
+
+    Components: the noise ``noise_v`` (V rms) moves the crossing by noise/|slope| (type A,
+    REFERENCES §10: a time uncertainty is u(y) over the slope at the crossing); taking the last
+    of several noisy crossings (the hysteresis rule) biases it by up to that much again
+    (rectangular, as in ``duration_budget``); linear
+    interpolation on a curved edge errs by at most |y''| dt^2 / (8 |y'|) (the remainder of
+    linear interpolation, max |f''|/2 (t - t_i)(t_{i+1} - t), divided by the slope; any
+    numerical-analysis text), taken as a rectangular bound (GUM §4.3.7). A zero or infinite
+    slope gives an infinite uncertainty (a crossing that cannot be timed)."""
+    slope = abs(float(slope_v_per_s))
+    if not (slope > 0 and math.isfinite(slope)):
+        return _budget(quantity, "s", math.nan,
+                       (Component("no slope at the crossing", "type B", math.inf),))  # fmt: skip
+    remainder = abs(float(curvature_v_per_s2)) * float(dt_s) ** 2 / (8.0 * slope)
+    return _budget(
+        quantity,
+        "s",
+        math.nan,
+        (Component(f"noise {noise_v:.3g} V over slope {slope:.3g} V/s", "type A",
+                   abs(float(noise_v)) / slope),
+         Component("crossing choice under noise (the last of several), up to noise/slope",
+                   "type B, rectangular", rectangular(abs(float(noise_v)) / slope)),
+         Component(f"linear interpolation on a curved edge, up to {remainder:.3g} s",
+                   "type B, rectangular", rectangular(remainder))),
     )  # fmt: skip

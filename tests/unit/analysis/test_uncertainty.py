@@ -8,6 +8,7 @@ from analysis_synth import rc_pwm, scope
 
 from bringup.analysis.edges import code_step, measure_edges, noise_rms, state_levels
 from bringup.analysis.uncertainty import (
+    crossing_budget,
     duration_budget,
     level_budget,
     quantisation,
@@ -104,3 +105,19 @@ def test_the_level_interval_covers_the_truth_over_seeds():
                          probe_ratio_tolerance=0.01)  # fmt: skip
         covered += abs(levels.high_v - 12.0) <= b.expanded
     assert covered >= 38
+
+
+def test_crossing_budget_by_hand():
+    # A 3 V crossing of a 15 ns RC edge to 12 V: slope (12 - 3)/15 ns = 0.6 V/ns, curvature
+    # -0.6 V/ns / 15 ns; 0.05 V noise, 2 ns samples. Noise/slope = 83.3 ps (REFERENCES §10
+    # [computed]); the last-crossing choice adds 83.3 ps/sqrt(3); the interpolation remainder
+    # |y''| dt^2/(8 |y'|) = (0.04 V/ns^2)(4 ns^2)/(8 x 0.6 V/ns) = 33.3 ps, /sqrt(3) [computed].
+    b = crossing_budget(0.05, 0.6e9, -0.6e9 / 15e-9, 2e-9)
+    noise = 0.05 / 0.6e9
+    remainder = 0.04e18 * 4e-18 / (8 * 0.6e9)
+    assert remainder == pytest.approx(33.33e-12, rel=1e-3)
+    assert b.combined == pytest.approx(
+        math.sqrt(noise**2 * (1 + 1 / 3) + remainder**2 / 3), rel=1e-9
+    )
+    assert b.dominant().evaluation == "type A"
+    assert crossing_budget(0.05, 0.0).combined == math.inf  # a flat "edge" cannot be timed

@@ -1,0 +1,126 @@
+"""Half-bridge test waveforms with known truth: two gates with known dead times (and overlaps),
+a supply current with shoot-through spikes, a ringing switch node, a bootstrap voltage that
+droops and recovers, and a v.i crossover. Deterministic (seeded); times in s, volts in V.
+
+Every waveform carries what a scope adds (noise, 8-bit quantisation: ``analysis_synth.scope``)
+and what a real bench adds (ringing, Miller bumps, switching glitches)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from analysis_synth import damped_ring, scope
+
+
+@dataclass(frozen=True)
+class GatePair:
+    """Two gate traces and the truth: crossing instants of ``threshold_v`` for each turn-on and
+    turn-off, the dead times of each commutation (signed, s) and the overlaps (start, length)."""
+
+    high: np.ndarray
+    low: np.ndarray
+    current: np.ndarray
+    dt: float
+    threshold_v: float
+    dead_hl: list[float]
+    dead_lh: list[float]
+    overlaps: list[tuple[float, float]]
+    spike_a: float
+
+
+def _gate(n: int, dt: float, pulses, v_drv: float, tau_on: float, tau_off: float):
+    """A gate driven through an RC: each (a, b) pulse rises from 0 at a with tau_on and decays
+    from wherever it got to at b with tau_off. Returns the trace and each pulse's exact
+    crossing instants of a level (a function of the level)."""
+    t = np.arange(n) * dt
+    y = np.zeros(n)
+    tops = []
+    for a, b in pulses:
+        v_b = v_drv * (1.0 - math.exp(-(b - a) / tau_on))
+        on = (t >= a) & (t < b)
+        y[on] += v_drv * (1.0 - np.exp(-(t[on] - a) / tau_on))
+        off = t >= b
+        y[off] += v_b * np.exp(-(t[off] - b) / tau_off)
+        tops.append(v_b)
+
+    def crossings(level: float):
+        rise = [a + tau_on * math.log(v_drv / (v_drv - level)) for a, _ in pulses]
+        fall = [
+            b + tau_off * math.log(v_b / level) for (_, b), v_b in zip(pulses, tops, strict=True)
+        ]
+        return rise, fall
+
+    return y, crossings
+
+
+def gate_pair(
+    *,
+    dt: float = 2e-9,
+    periods: int = 10,
+    period_s: float = 10e-6,
+    duty: float = 0.45,
+    dead_hl_s: float = 100e-9,
+    dead_lh_s: float = 70e-9,
+    overlap_period: int | None = None,
+    overlap_lead_s: float = 60e-9,
+    spike_a: float = 18.0,
+    threshold_v: float = 3.0,
+    phase_s: float = 1.3e-6,
+    seed: int = 0,
+    noise_v: float = 0.05,
+) -> GatePair:
+    """A half-bridge's gates at ``1/period_s`` with commanded dead times (between the drive
+    commands; the truth is computed at the threshold crossings). In ``overlap_period`` the low
+    side is commanded on ``overlap_lead_s`` before the high side is commanded off: an overlap.
+    The off gate carries a Miller bump (1.2 V, under threshold) at each of the other side's
+    turn-ons, each gate rings after turning on; the supply current has a 1.5 A recovery spike
+    at every commutation and ``spike_a`` at the end of each overlap."""
+    rng = np.random.default_rng(seed)
+    n = int(round((periods * period_s + 2 * phase_s) / dt))
+    tau_on, tau_off, v_drv = 15e-9, 10e-9, 12.0
+    hs, ls = [], []
+    for k in range(periods):
+        a = phase_s + k * period_s + rng.uniform(0, dt)  # sub-sample phase varies
+        b = a + duty * period_s
+        c = b + dead_hl_s if k != overlap_period else b - overlap_lead_s
+        d = a + period_s - dead_lh_s
+        hs.append((a, b))
+        ls.append((c, d))
+    high, hx = _gate(n, dt, hs, v_drv, tau_on, tau_off)
+    low, lx = _gate(n, dt, ls, v_drv, tau_on, tau_off)
+    h_rise, h_fall = hx(threshold_v)
+    l_rise, l_fall = lx(threshold_v)
+    dead_hl, dead_lh, overlaps = [], [], []
+    for k in range(periods):
+        dead_hl.append(l_rise[k] - h_fall[k])
+        if dead_hl[-1] < 0:
+            overlaps.append((l_rise[k], -dead_hl[-1]))
+        if k + 1 < periods:
+            dead_lh.append(h_rise[k + 1] - l_fall[k])
+    for a, _ in hs:  # Miller bumps on the off gate and ringing on the one turning on
+        low += 1.2 * np.exp(-0.5 * ((np.arange(n) * dt - a - 20e-9) / 8e-9) ** 2)
+        high += damped_ring(n, dt, a + 40e-9, 0.8, 60e6, 20e-9)
+    for c, _ in ls:
+        high += 1.2 * np.exp(-0.5 * ((np.arange(n) * dt - c - 20e-9) / 8e-9) ** 2)
+        low += damped_ring(n, dt, c + 40e-9, 0.8, 60e6, 20e-9)
+    t = np.arange(n) * dt
+    current = 0.3 + 0.05 * np.sin(2 * np.pi * t / period_s)
+    for x in [*h_rise, *l_rise]:
+        current += 1.5 * np.exp(-0.5 * ((t - x - 30e-9) / 10e-9) ** 2)
+    for start, length in overlaps:
+        end = start + length
+        ramp = np.clip((t - start) / length, 0.0, 1.0) * (t < end)
+        current += spike_a * ramp + spike_a * np.exp(-np.maximum(t - end, 0.0) / 20e-9) * (t >= end)
+    return GatePair(
+        high=scope(high, noise_v=noise_v, seed=seed + 1),
+        low=scope(low, noise_v=noise_v, seed=seed + 2),
+        current=scope(current, noise_v=0.05, lo=-5.0, hi=35.0, seed=seed + 3),
+        dt=dt,
+        threshold_v=threshold_v,
+        dead_hl=dead_hl,
+        dead_lh=dead_lh,
+        overlaps=overlaps,
+        spike_a=spike_a,
+    )
