@@ -63,6 +63,14 @@ if TYPE_CHECKING:
     )
     from bringup.analysis.rails import RailMetrics, measure_rail
     from bringup.analysis.soak import SoakFit, fit_soak
+    from bringup.analysis.switch_node_stress import (
+        EdgeSet,
+        RingFit,
+        SwitchNodeResult,
+        fit_ring,
+        loop_inductance,
+        measure_switch_node,
+    )
     from bringup.analysis.verdict import Limit, Verdict, judge
 
 # name -> module of bringup.analysis that defines it
@@ -113,6 +121,12 @@ _LAZY = {
     "measure_rail": "rails",
     "SoakFit": "soak",
     "fit_soak": "soak",
+    "EdgeSet": "switch_node_stress",
+    "RingFit": "switch_node_stress",
+    "SwitchNodeResult": "switch_node_stress",
+    "fit_ring": "switch_node_stress",
+    "loop_inductance": "switch_node_stress",
+    "measure_switch_node": "switch_node_stress",
     "Limit": "verdict",
     "Verdict": "verdict",
     "judge": "verdict",
@@ -140,6 +154,9 @@ __all__ = [
     "BootstrapSizing",
     "Commutations",
     "DeadTimeResult",
+    "EdgeSet",
+    "RingFit",
+    "SwitchNodeResult",
     "DroopMetrics",
     "EdgeMetrics",
     "GateTiming",
@@ -164,16 +181,19 @@ __all__ = [
     "estimate_losses",
     "find_miller_plateau",
     "find_transitions",
+    "fit_ring",
     "fit_soak",
     "format_quantity",
     "gate_drive_current",
     "gate_drive_loss",
     "gate_timing",
     "judge",
+    "loop_inductance",
     "junction_temperature",
     "measure_droop",
     "measure_edges",
     "measure_rail",
+    "measure_switch_node",
     "gate_on_intervals",
     "measure_dead_time",
     "negative_excursion",

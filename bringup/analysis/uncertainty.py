@@ -23,7 +23,9 @@ __all__ = [
     "Component",
     "crossing_budget",
     "duration_budget",
+    "excursion_budget",
     "level_budget",
+    "loop_inductance_budget",
     "quantisation",
     "rectangular",
     "temperature_budget",
@@ -301,4 +303,64 @@ def crossing_budget(
                    "type B, rectangular", rectangular(abs(float(noise_v)) / slope)),
          Component(f"linear interpolation on a curved edge, up to {remainder:.3g} s",
                    "type B, rectangular", rectangular(remainder))),
+    )  # fmt: skip
+
+
+def excursion_budget(
+    extreme_v: float,
+    noise_v: float,
+    samples: int,
+    code_step_v: float = 0.0,
+    between_samples_v: float = 0.0,
+    *,
+    quantity: str = "peak voltage",
+) -> Budget:
+    """Budget of a waveform's extreme (V) read as its highest (or lowest) sample.
+
+    Components: the noise on that one sample (type A, sigma); the extreme of ``samples`` noisy
+    samples reads outward by up to sigma sqrt(2 ln N) (the expected maximum of N normal draws,
+    common practice; rectangular); one ADC code (q/sqrt(12), GUM §4.3.7); the true peak falling
+    between samples, up to ``between_samples_v`` (for a ring of amplitude A at f sampled every
+    dt, A (1 - cos(pi f dt)) [computed]; rectangular)."""
+    n = max(int(samples), 2)
+    return _budget(
+        quantity,
+        "V",
+        extreme_v,
+        (Component(f"noise {noise_v:.3g} V rms on one sample", "type A", abs(float(noise_v))),
+         Component(f"the extreme of {n} noisy samples reads outward", "type B, rectangular",
+                   rectangular(noise_v * math.sqrt(2.0 * math.log(n)))),
+         Component(f"ADC code step {code_step_v:.3g} V", "type B, rectangular",
+                   quantisation(code_step_v)),
+         Component(f"peak between samples, up to {between_samples_v:.3g} V",
+                   "type B, rectangular", rectangular(between_samples_v))),
+    )  # fmt: skip
+
+
+def loop_inductance_budget(
+    frequency_hz: float,
+    frequency_u_hz: float,
+    capacitance_f: float,
+    capacitance_u_f: float = 0.0,
+    *,
+    quantity: str = "loop inductance",
+) -> Budget:
+    """Budget of L = 1/((2 pi f)^2 C) (H) from a ring's natural frequency (Hz, standard
+    uncertainty ``frequency_u_hz``) and the switch node's capacitance (F, ``capacitance_u_f``).
+
+    L is a product of powers (f^-2 C^-1), so its relative uncertainty is
+    sqrt((2 u(f)/f)^2 + (u(C)/C)^2) (GUM §5.1.6); each component below is that relative part
+    times L."""
+    f, c = float(frequency_hz), float(capacitance_f)
+    if not (f > 0 and c > 0):
+        raise ValueError("frequency and capacitance must be > 0")
+    value = 1.0 / ((2.0 * math.pi * f) ** 2 * c)
+    return _budget(
+        quantity,
+        "H",
+        value,
+        (Component(f"ring frequency {f:.4g} Hz +/- {frequency_u_hz:.3g} Hz (sensitivity -2 L/f)",
+                   "type A (fit)", 2.0 * abs(float(frequency_u_hz)) / f * value),
+         Component(f"switch-node capacitance {c:.4g} F +/- {capacitance_u_f:.3g} F",
+                   "type B", abs(float(capacitance_u_f)) / c * value)),
     )  # fmt: skip
