@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import tempfile
 import time
+from collections.abc import Callable
 from pathlib import Path
 
 from bringup.boards.board_file import Board
@@ -52,7 +53,8 @@ class SoakClock:
     sampling instants are exact however loaded the host is: with a wall-timed log at a 600x
     speed-up, 20 ms of scheduling delay becomes 12 s of bench time at the wrong instant, which
     bends the fit and leaves a healthy soak "undecided". The pace a person sees is unchanged
-    (one interval / scale of wall time per reading); ``release`` restores the speed-up.
+    (one interval / scale of wall time per reading; none on an unpaced bench, scale 0);
+    ``release`` restores the speed-up.
     """
 
     def __init__(self, scale: float, sim=None) -> None:
@@ -175,10 +177,30 @@ class BenchLink:
             return 1.0
         return float(self.bench.simulation.time_scale())
 
+    def dwell(self, seconds: float, wait: Callable[[float], None]) -> None:
+        """Let ``seconds`` of bench time pass (a supply settling before it is read).
+
+        On a real bench that is ``wait(seconds)`` of wall time. On a simulated bench the dwell
+        is on the simulator's clock, which is what the simulated physics runs on: its supply
+        settles at once and its thermal model follows that clock. A running clock (scale K)
+        passes the dwell in ``seconds / K`` of wall time; a clock held at 0 (a run nobody
+        paces, ``UNPACED``) is stepped by exactly ``seconds`` with no wall wait at all.
+        ``wait`` is the caller's cancellable wait.
+        """
+        sim = self.bench.simulation
+        if sim is None:
+            wait(seconds)
+            return
+        scale = float(sim.time_scale())
+        if scale > 0:
+            wait(seconds / scale)
+        else:
+            sim.advance_time(seconds)
+
     def soak_clock(self, scale: float) -> SoakClock:
         """The clock a soak log is stamped with (see ``SoakClock``)."""
         sim = self.bench.simulation
-        if sim is None or scale <= 0:
+        if sim is None:
             return SoakClock(scale)
         sim.set_time_scale(0.0)  # held: the soak steps it by each interval
         return SoakClock(scale, sim)

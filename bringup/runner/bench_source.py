@@ -5,11 +5,15 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-__all__ = ["BenchSource", "DEFAULT_SIM_TIME_SCALE"]
+__all__ = ["BenchSource", "DEFAULT_SIM_TIME_SCALE", "UNPACED"]
 
 #: Simulated seconds per real second for a simulated bench started by the runner: a 20-minute
 #: soak passes in 1.2 s of wall time.
 DEFAULT_SIM_TIME_SCALE = 1000.0
+#: A simulated bench nobody watches (a headless run without ``--time-scale``): its clock is held
+#: and moves only by the bench's own waits (supply dwells, soak intervals), with no wall-clock
+#: wait for them: the simulated physics sees the same bench time, the run takes none.
+UNPACED = 0.0
 
 
 @dataclass(frozen=True)
@@ -51,8 +55,9 @@ class BenchSource:
         if not data:
             return None
         if data.get("kind") == "simulated":
+            scale = data.get("time_scale")
             return cls.simulated(str(data.get("scenario") or "healthy"), int(data.get("seed") or 0),
-                                 float(data.get("time_scale") or DEFAULT_SIM_TIME_SCALE))  # fmt: skip
+                                 DEFAULT_SIM_TIME_SCALE if scale is None else float(scale))  # fmt: skip
         if data.get("kind") == "file" and data.get("path"):
             return cls.from_file(data["path"])
         return None

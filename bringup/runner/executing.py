@@ -44,6 +44,7 @@ __all__ = ["StepExecutor", "StepStopped", "now_utc"]
 # settled: the last fits agree within this (K) and the fit's uncertainty is within the guard band.
 _REFIT_EVERY = 4
 _SETTLED_SPREAD_K = 0.3
+_SETTLED_FITS = 3  # how many successive refits must agree
 
 
 class StepStopped(Exception):
@@ -116,7 +117,7 @@ def _answers(ctx: _Context, answers: StepAnswers | None, simulated: bool) -> str
 
 
 # ------------------------------------------------------------------------- bench work
-def _ramp(ctx: _Context, powered, supply: dict) -> None:
+def _ramp(ctx: _Context, bench, powered, supply: dict) -> None:
     """The first-power ramp: each step's current read back; a short stops it at once."""
     from bringup.instruments.supply import Regulation
 
@@ -126,7 +127,7 @@ def _ramp(ctx: _Context, powered, supply: dict) -> None:
     for k, volts in enumerate(steps):
         ctx.check()
         powered.set_voltage(volts)
-        ctx.wait(supply["dwell_s"])
+        bench.dwell(supply["dwell_s"], ctx.wait)
         amps, read_v = powered.measure_current(), powered.measure_voltage()
         limited = powered.regulation() == Regulation.CONSTANT_CURRENT
         ctx.data.ramp.append(RampStep(volts, read_v, amps, limited))
@@ -167,12 +168,16 @@ def _soak_log(ctx: _Context, bench, powered, soak, clock, scale, band, limit, ti
     from bringup.errors import AnalysisError
 
     fit = None
+    # The settling test reads the last three refits, all taken once the minimum duration is
+    # near; earlier refits only feed a live prediction, fitted when someone is shown it.
+    deciding_s = soak["min_duration_s"] - (_SETTLED_FITS + 1) * _REFIT_EVERY * soak["interval_s"]
     while True:
         ctx.check()
         elapsed = clock.elapsed_s()
         temps.append(bench.read_temperature_c())
         times.append(elapsed)
-        if len(temps) >= 8 and len(temps) % _REFIT_EVERY == 0:
+        shown = ctx.on_progress is not None or elapsed >= deciding_s
+        if len(temps) >= 8 and len(temps) % _REFIT_EVERY == 0 and shown:
             try:
                 fit = fit_soak(times, temps)
                 finals.append(fit.final_c)
@@ -183,15 +188,16 @@ def _soak_log(ctx: _Context, bench, powered, soak, clock, scale, band, limit, ti
             and fit.decided  # "undecided": the log cannot tell yet, keep soaking
             and elapsed >= soak["min_duration_s"]
             and fit.final_c_uncertainty <= band
-            and len(finals) >= 3
-            and max(finals[-3:]) - min(finals[-3:]) <= _SETTLED_SPREAD_K
+            and len(finals) >= _SETTLED_FITS
+            and max(finals[-_SETTLED_FITS:]) - min(finals[-_SETTLED_FITS:]) <= _SETTLED_SPREAD_K
         )
         ctx.soak = SoakProgress(tuple(times), tuple(temps),
                                 fit.final_c if fit else None,
                                 fit.final_c_uncertainty / 2 if fit else None,
                                 fit.tau_s if fit else None, settled, limit)  # fmt: skip
         readings = {"temperature_c": temps[-1], "bench_time_s": elapsed}
-        if len(temps) % _REFIT_EVERY == 1:  # the load current now and then, not every reading
+        # the load current now and then, not every reading, for whoever watches the soak
+        if len(temps) % _REFIT_EVERY == 1 and ctx.on_progress is not None:
             readings["supply_voltage_v"] = powered.measure_voltage()
             readings["supply_current_a"] = powered.measure_current()
         ctx.emit("soaking", f"soak {elapsed:.0f} s: {temps[-1]:.1f} degC",
@@ -201,7 +207,8 @@ def _soak_log(ctx: _Context, bench, powered, soak, clock, scale, band, limit, ti
             return
         if ctx.finish.is_set() and elapsed >= soak["min_duration_s"]:
             return
-        ctx.wait(soak["interval_s"] / scale)
+        if scale > 0:  # the pace a person watches; an unpaced simulated bench has none
+            ctx.wait(soak["interval_s"] / scale)
         clock.tick(soak["interval_s"])
 
 
@@ -248,9 +255,9 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
     with bench.energised(first, supply["current_limit_a"], supply["ovp_v"], top,
                          acknowledged) as powered:  # fmt: skip
         if ramp:
-            _ramp(ctx, powered, supply)
+            _ramp(ctx, bench, powered, supply)
         else:
-            ctx.wait(supply["dwell_s"])
+            bench.dwell(supply["dwell_s"], ctx.wait)
             ctx.emit("energising", "supply on",
                      readings={"supply_voltage_v": powered.measure_voltage(),
                                "supply_current_a": powered.measure_current()})  # fmt: skip
