@@ -67,3 +67,12 @@ def visa_rm():
     import pyvisa
 
     return pyvisa.ResourceManager("@py")
+
+
+@pytest.fixture(scope="session")
+def batch_log(tmp_path_factory):
+    """A real log of five simulated boards, one of them weak and one retaken
+    (``tests/batch_logs.py``); built once per run. Tests only read it (copy it to write)."""
+    from batch_logs import build_batch_log
+
+    return build_batch_log(tmp_path_factory.mktemp("batch"))

@@ -48,7 +48,7 @@ MODIFIED_Z_CUTOFF = 3.5
 MIN_OUTLIER_BOARDS = 3
 #: Fewer boards than this and Cp/Cpk are not given: at n = 20 the 95 % interval of Cp already
 #: spans 0.69 to 1.31 times the estimate (chi-square with 19 degrees of freedom), at n = 10
-#: 0.55 to 1.45, at n = 5 0.35 to 1.65: below 20 the index says little more than its interval.
+#: 0.55 to 1.45, at n = 5 0.35 to 1.67: below 20 the index says little more than its interval.
 MIN_CAPABILITY_BOARDS = 20
 #: Phi^-1(0.975): the two-sided 95 % normal quantile
 _Z95 = 1.959963984540054

@@ -13,6 +13,7 @@ COMMANDS = (
     "run",
     "resume",
     "sessions",
+    "batch",
     "analyze",
     "calc",
     "sim",

@@ -17,7 +17,7 @@ import numpy as np
 from bringup.analysis.quantities import format_quantity
 from bringup.literal_text import visible
 
-__all__ = ["Marker", "envelope", "plot_svg"]
+__all__ = ["Marker", "StripPoint", "envelope", "plot_svg", "strip_svg"]
 
 
 def _shown(text: str) -> str:
@@ -258,5 +258,100 @@ def plot_svg(
     if overlay is not None:
         parts += _overlay(frame, overlay)
     parts += _markers(frame, markers)
+    parts.append("</svg>")
+    return "".join(parts)
+
+
+@dataclass(frozen=True)
+class StripPoint:
+    """One board on a strip plot: its value (in the strip's unit), a label (the serial) and
+    whether it is flagged (drawn as a labelled square instead of a dot, not by colour alone)."""
+
+    value: float
+    label: str
+    flagged: bool = False
+
+
+def _strip_range(values: Sequence[float], lines: Sequence[float]) -> tuple[float, float]:
+    """The value range of a strip: every point and every limit line, padded by 6 %."""
+    every = [v for v in (*values, *lines) if math.isfinite(v)]
+    lo, hi = min(every), max(every)
+    pad = (hi - lo) * 0.06 or abs(hi) * 0.05 or 1.0
+    return lo - pad, hi + pad
+
+
+def strip_svg(
+    points: Sequence[StripPoint],
+    *,
+    title: str,
+    unit: str,
+    lower: float | None = None,
+    upper: float | None = None,
+    centre: float | None = None,
+    width: int = 640,
+) -> str:
+    """Every board of a batch on one horizontal strip (value across, in ``unit``), with the
+    limits ``lower``/``upper`` as dashed lines and ``centre`` (the median) as a dotted one.
+    Points are spread over a few rows so that equal values stay visible; each carries its
+    label as an SVG ``<title>``, and flagged points show their label beside them."""
+    left, right, top, rows, pitch = 16, 16, 34, 5, 9
+    height = top + rows * pitch + 40
+    pw = width - left - right
+    parts = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height}" '
+        f'width="{width}" height="{height}" role="img" aria-label="{_shown(title)}">',
+        f"<title>{_shown(title)}</title>",
+        f'<text x="{left}" y="14" font-size="12" font-weight="bold">{_shown(title)}</text>',
+    ]
+    values = [p.value for p in points if math.isfinite(p.value)]
+    if not values:
+        parts.append(f'<text x="{left}" y="{top + 12}" font-size="12">no values</text></svg>')
+        return "".join(parts)
+    lines = [v for v in (lower, upper) if v is not None]
+    lo, hi = _strip_range(values, lines)
+
+    def px(v: float) -> float:
+        return left + (v - lo) / (hi - lo) * pw
+
+    base = top + rows * pitch
+    parts.append(
+        f'<rect x="{left}" y="{top - 6}" width="{pw}" height="{rows * pitch + 6}" '
+        f'fill="#fbfaf7" stroke="#888"/>'
+    )
+    for tick in _nice_ticks(lo, hi, 6):
+        parts.append(
+            f'<text x="{_f(px(tick))}" y="{base + 14}" font-size="10" text-anchor="middle">'
+            f"{_shown(format_quantity(tick, unit))}</text>"
+        )
+    for value, name in ((lower, "min"), (upper, "max")):
+        if value is not None:
+            x = _f(px(value))
+            parts.append(
+                f'<line x1="{x}" x2="{x}" y1="{top - 10}" y2="{base}" {_STYLES["level"]}/>'
+                f'<text x="{x}" y="{top - 12}" font-size="10" text-anchor="middle">{name} '
+                f"{_shown(format_quantity(value, unit))}</text>"
+            )
+    if centre is not None and math.isfinite(centre):
+        x = _f(px(centre))
+        parts.append(
+            f'<line x1="{x}" x2="{x}" y1="{top - 6}" y2="{base}" {_STYLES["time"]}/>'
+            f'<text x="{x}" y="{base + 26}" font-size="10" text-anchor="middle">median</text>'
+        )
+    for i, p in enumerate(points):
+        if not math.isfinite(p.value):
+            continue
+        x, y = px(p.value), top + (i % rows) * pitch
+        tip = f"<title>{_shown(p.label)}: {_shown(format_quantity(p.value, unit))}</title>"
+        if p.flagged:
+            parts.append(
+                f'<rect x="{_f(x - 4)}" y="{_f(y - 4)}" width="8" height="8" fill="#c0392b" '
+                f'stroke="#000">{tip}</rect><text x="{_f(x + 6)}" y="{_f(y + 4)}" '
+                f'font-size="10">{_shown(p.label)}</text>'
+            )
+        else:
+            parts.append(
+                f'<circle cx="{_f(x)}" cy="{_f(y)}" r="3" fill="#1f4e79" fill-opacity="0.6">'
+                f"{tip}</circle>"
+            )
     parts.append("</svg>")
     return "".join(parts)

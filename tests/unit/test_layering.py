@@ -56,6 +56,18 @@ FORBIDDEN = {
     "bringup/checklist": {"textual", "pyvisa", "bringup.tui", "bringup.runner"},
     "bringup/runner": {"textual", "bringup.tui", "bringup.record"},
     "bringup/record": {"textual", "pyvisa", "bringup.tui", "bringup.runner", "bringup.instruments"},
+    # the batch reads through a reader's public methods: no SQL, no UI, no bench
+    "bringup/batch": {
+        "textual",
+        "pyvisa",
+        "sqlite3",
+        "sqlite_utils",
+        "bringup.tui",
+        "bringup.runner",
+        "bringup.instruments",
+        "bringup.store.reading",
+        "bringup.store.log",
+    },
     "sim_instruments": {
         "textual",
         "pyvisa",
