@@ -13,6 +13,12 @@ from typing import TYPE_CHECKING
 from bringup.errors import AnalysisError
 
 if TYPE_CHECKING:
+    from bringup.analysis.bootstrap_refresh import (
+        Refresh,
+        RefreshResult,
+        measure_refresh,
+        shortest_refresh_time,
+    )
     from bringup.analysis.dead_time import (
         Commutations,
         DeadTimeResult,
@@ -96,6 +102,10 @@ _LAZY = {
     "rc_rise_time": "design",
     "size_bootstrap": "design",
     "switching_loss": "design",
+    "Refresh": "bootstrap_refresh",
+    "RefreshResult": "bootstrap_refresh",
+    "measure_refresh": "bootstrap_refresh",
+    "shortest_refresh_time": "bootstrap_refresh",
     "Commutations": "dead_time",
     "DeadTimeResult": "dead_time",
     "OnIntervals": "dead_time",
@@ -164,6 +174,8 @@ __all__ = [
     "LossBudget",
     "PlateauResult",
     "RailMetrics",
+    "Refresh",
+    "RefreshResult",
     "SoakFit",
     "StateLevels",
     "Transitions",
@@ -193,6 +205,7 @@ __all__ = [
     "measure_droop",
     "measure_edges",
     "measure_rail",
+    "measure_refresh",
     "measure_switch_node",
     "gate_on_intervals",
     "measure_dead_time",
@@ -203,6 +216,7 @@ __all__ = [
     "parse_quantity",
     "parse_quantity_unit",
     "rc_rise_time",
+    "shortest_refresh_time",
     "size_bootstrap",
     "state_levels",
     "switching_loss",

@@ -28,6 +28,7 @@ __all__ = [
     "loop_inductance_budget",
     "quantisation",
     "rectangular",
+    "refresh_time_budget",
     "temperature_budget",
     "thermocouple_tolerance",
     "triangular",
@@ -363,4 +364,40 @@ def loop_inductance_budget(
                    "type A (fit)", 2.0 * abs(float(frequency_u_hz)) / f * value),
          Component(f"switch-node capacitance {c:.4g} F +/- {capacitance_u_f:.3g} F",
                    "type B", abs(float(capacitance_u_f)) / c * value)),
+    )  # fmt: skip
+
+
+def refresh_time_budget(
+    tau_s: float,
+    tau_u_s: float,
+    full_v: float,
+    full_u_v: float,
+    droop_v: float,
+    droop_u_v: float,
+    required_v: float,
+    *,
+    quantity: str = "shortest refreshing low-side on-time",
+) -> Budget:
+    """Budget of t = tau ln(H/(H - D)), H = V_f - V_req (s): the shortest low-side on-time that
+    keeps a bootstrap with droop D per period above V_req (``bootstrap_refresh``).
+
+    Sensitivities (GUM §5.1.3, the partial derivatives): dt/dtau = t/tau; dt/dV_f =
+    -tau D/(H (H - D)); dt/dD = tau/(H - D). The value is ``math.inf`` (with infinite
+    components) when D >= H."""
+    tau, h, d = float(tau_s), float(full_v) - float(required_v), max(float(droop_v), 0.0)
+    if h <= d:
+        inf = Component("droop per period at least the headroom above the required level",
+                        "type B", math.inf)  # fmt: skip
+        return Budget(quantity, "s", math.inf, (inf,))
+    t = tau * math.log(h / (h - d)) if d > 0 else 0.0
+    return _budget(
+        quantity,
+        "s",
+        t,
+        (Component(f"time constant {tau:.3g} s +/- {tau_u_s:.3g} s", "type A (fit) or B (design)",
+                   t / tau * abs(float(tau_u_s)) if tau > 0 else 0.0),
+         Component(f"full level {full_v:.4g} V +/- {full_u_v:.3g} V", "type A (fit)",
+                   tau * d / (h * (h - d)) * abs(float(full_u_v))),
+         Component(f"droop per period {d:.3g} V +/- {droop_u_v:.3g} V", "type A",
+                   tau / (h - d) * abs(float(droop_u_v)))),
     )  # fmt: skip
