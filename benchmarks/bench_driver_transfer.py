@@ -6,7 +6,10 @@
 - PyVISA's stock ``query_binary_values``,
 - a plain socket client (header, then ``recv_into`` a preallocated buffer): the reference.
 
-Prints each throughput and its fraction of the plain socket's (target for the driver: >= 0.5).
+The driver asks for this host's byte order (the simulated scope's profile can say both), so
+no record is swapped; the plain socket reads the same bytes. Interleaved repeats, the best of
+each. Prints each throughput and its fraction of the plain socket's (target for the driver:
+>= 0.8).
 Run: ``python benchmarks/bench_driver_transfer.py [--points N] [--repeats R]``.
 """
 
@@ -15,6 +18,7 @@ from __future__ import annotations
 import argparse
 import socket
 import statistics
+import sys
 import tempfile
 import time
 from pathlib import Path
@@ -90,33 +94,39 @@ def main() -> None:
             nbytes = first.codes.nbytes
             session = bench.sessions["scope"]
             raw_client = RawClient("127.0.0.1", int(sim.resources["scope"].split("::")[2]))
-            raw_client.sock.sendall(b"FORM INT,16;:FORM:BORD NORM\n")
+            # the bytes the driver asks for (this host's byte order: the profile can say both),
+            # the format set once: the bare query is the plain client's whole exchange
+            words = bench.profiles["scope"]
+            native = "order_little" if sys.byteorder == "little" else "order_big"
+            here = "<i2" if sys.byteorder == "little" else ">i2"
+            raw_client.sock.sendall(f"FORM INT,16;:FORM:BORD {words.word(native)}\n".encode())
+            ask = b"TRAC? CH1\n"
             # interleaved, so that a busy machine slows every contender alike
             runs: dict[str, list[float]] = {"raw": [], "driver": [], "block": []}
             for _ in range(args.repeats):
-                t, raw = timed(lambda: raw_client.read_block(b"TRAC? CH1\n"), 1)
+                t, raw = timed(lambda: raw_client.read_block(ask), 1)
                 runs["raw"].append(t)
                 t, wf = timed(lambda: scope.fetch_waveform(1), 1)
                 runs["driver"].append(t)
-                t, codes = timed(lambda: session.query_block("TRAC? CH1", ">i2"), 1)
+                t, codes = timed(lambda: session.query_block("TRAC? CH1", here), 1)
                 runs["block"].append(t)
-            t_raw, t_driver, t_block = (
-                statistics.median(runs[k]) for k in ("raw", "driver", "block")
-            )
+            t_raw, t_driver, t_block = (min(runs[k]) for k in ("raw", "driver", "block"))
             raw_client.close()
-            # the same record sent little-endian: native order here, so no byte swap
-            session.configure("byte_order", order=bench.profiles["scope"].word("order_little"))
-            t_native, codes_native = timed(
-                lambda: session.query_block("TRAC? CH1", "<i2"), args.repeats
+            # the same record sent in the other byte order: swapped in place on arrival
+            other = "order_big" if native == "order_little" else "order_little"
+            session.configure("byte_order", order=words.word(other))
+            there = ">i2" if here == "<i2" else "<i2"
+            t_swapped, codes_swapped = timed(
+                lambda: session.query_block("TRAC? CH1", there), args.repeats
             )
-            session.configure("byte_order", order=bench.profiles["scope"].word("order_big"))
+            session.configure("byte_order", order=words.word(native))
 
             slow = InstrumentSession(
                 "scope", sim.resources["scope"], bench.profiles["scope"], fast_reads=False
             )
             slow.open()
             t_public, codes_public = timed(
-                lambda: slow.query_block("TRAC? CH1", ">i2", timeout_ms=60_000), args.repeats
+                lambda: slow.query_block("TRAC? CH1", here, timeout_ms=60_000), args.repeats
             )
             slow.close()
 
@@ -131,7 +141,7 @@ def main() -> None:
                 lambda: res.query_binary_values(
                     "TRAC? CH1",
                     datatype="h",
-                    is_big_endian=True,
+                    is_big_endian=sys.byteorder == "big",
                     container=np.array,
                     chunk_size=1 << 20,
                 ),
@@ -141,10 +151,11 @@ def main() -> None:
     finally:
         sim.stop()
 
-    reference = np.frombuffer(raw, dtype=">i2")
+    reference = np.frombuffer(raw, dtype=here)
     for name, got in (
         ("driver", wf.codes),
         ("block", codes),
+        ("swapped", codes_swapped),
         ("public", codes_public),
         ("stock", stock),
     ):
@@ -157,16 +168,16 @@ def main() -> None:
             f"{label:<44} {seconds * 1000:8.1f} ms {rate:8.0f} MB/s  {t_raw / seconds:5.2f} x raw"
         )
 
-    print(f"block: {args.points:,} int16 points = {nbytes / 1e6:.0f} MB, median of {args.repeats}")
+    print(f"block: {args.points:,} int16 points = {nbytes / 1e6:.0f} MB, best of {args.repeats}")
     print(line("plain socket (reference)", t_raw))
-    print(line("driver fetch_waveform (with preamble)", t_driver))
+    print(line("driver fetch_waveform (with preamble, checks)", t_driver))
     print(line("driver query_block (block read alone)", t_block))
-    print(line("driver query_block, little-endian (no swap)", t_native))
+    print(line("driver query_block, other byte order (swap)", t_swapped))
     print(line("driver on public PyVISA API (fast_reads=False)", t_public))
     print(line("pyvisa query_binary_values (stock)", t_stock))
     ratio = t_raw / t_driver
     print(
-        f"driver / raw socket = {ratio:.2f} (target >= 0.5: {'met' if ratio >= 0.5 else 'NOT met'})"
+        f"driver / raw socket = {ratio:.2f} (target >= 0.8: {'met' if ratio >= 0.8 else 'NOT met'})"
     )
 
 

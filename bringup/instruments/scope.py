@@ -17,6 +17,8 @@ with a wrong scale never becomes a number.
 
 from __future__ import annotations
 
+import dataclasses
+import sys
 import time
 from typing import Any, Literal
 
@@ -56,6 +58,7 @@ class Scope:
         self._full_scale: dict[int, float] = {}  # volts, as last set on each channel
         self._math: tuple[int, int] | None = None
         self._points: int | None = None
+        self._wire_block = _wire_block(self.profile)
 
     def _channel(self, channel: int) -> int:
         if channel not in self.channels:
@@ -279,7 +282,7 @@ class Scope:
     # -- transfer ------------------------------------------------------------------------
     @property
     def _block(self) -> BlockFormat:
-        block = self.profile.block
+        block = self._wire_block
         assert block is not None  # a scope profile always has one (checked on load)
         return block
 
@@ -548,11 +551,42 @@ class Scope:
             )
 
 
+def _wire_block(profile) -> BlockFormat | None:
+    """The profile's block format in the byte order the driver asks for: this host's own
+    where the profile can say both orders, so that no record is byte-swapped on arrival (a
+    whole extra pass over it); the profile's declared order otherwise."""
+    block = profile.block
+    if block is None:
+        return None
+    native_big = sys.byteorder == "big"
+    word = "order_big" if native_big else "order_little"
+    if block.big_endian != native_big and profile.has("byte_order") and profile.has_word(word):
+        return dataclasses.replace(block, big_endian=native_big)
+    return block
+
+
+# Rows of at most 2^15 codes of 16 bits or fewer sum exactly in int32 (2^15 x 2^16 < 2^31).
+_SUM_ROW = 1 << 15
+
+
+def mean_code(codes: np.ndarray) -> float:
+    """The exact mean of a record's codes. Codes of 8 or 16 bits are summed in rows of 2^15
+    in int32 (exact, and twice as fast as converting every code to float64), then the row
+    sums in int64; other codes through float64."""
+    if codes.dtype.kind not in "iu" or codes.dtype.itemsize > 2 or codes.size == 0:
+        return float(codes.mean(dtype=np.float64))
+    flat = codes.reshape(-1)
+    whole = flat.size - flat.size % _SUM_ROW
+    total = int(flat[:whole].reshape(-1, _SUM_ROW).sum(axis=1, dtype=np.int32).sum(dtype=np.int64))
+    total += int(flat[whole:].sum(dtype=np.int64))
+    return total / flat.size
+
+
 def _stats(
     codes: np.ndarray, step: float, origin: float, extremes: tuple[float, float] | None = None
 ) -> tuple[float, float]:
     """(mean, peak-to-peak) in volts; ``extremes`` the codes' (min, max) when already known."""
-    mean = float(codes.mean(dtype=np.float64)) * step + origin
+    mean = mean_code(codes) * step + origin
     lo, hi = extremes if extremes is not None else (float(codes.min()), float(codes.max()))
     return mean, (hi - lo) * abs(step)
 
