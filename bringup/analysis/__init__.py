@@ -77,6 +77,13 @@ if TYPE_CHECKING:
         loop_inductance,
         measure_switch_node,
     )
+    from bringup.analysis.switching_energy import (
+        Deskew,
+        SwitchingEnergy,
+        deskewed,
+        measure_deskew,
+        measure_switching_energy,
+    )
     from bringup.analysis.verdict import Limit, Verdict, judge
 
 # name -> module of bringup.analysis that defines it
@@ -137,6 +144,11 @@ _LAZY = {
     "fit_ring": "switch_node_stress",
     "loop_inductance": "switch_node_stress",
     "measure_switch_node": "switch_node_stress",
+    "Deskew": "switching_energy",
+    "SwitchingEnergy": "switching_energy",
+    "deskewed": "switching_energy",
+    "measure_deskew": "switching_energy",
+    "measure_switching_energy": "switching_energy",
     "Limit": "verdict",
     "Verdict": "verdict",
     "judge": "verdict",
@@ -164,9 +176,11 @@ __all__ = [
     "BootstrapSizing",
     "Commutations",
     "DeadTimeResult",
+    "Deskew",
     "EdgeSet",
     "RingFit",
     "SwitchNodeResult",
+    "SwitchingEnergy",
     "DroopMetrics",
     "EdgeMetrics",
     "GateTiming",
@@ -190,6 +204,7 @@ __all__ = [
     "bootstrap_recharge_time",
     "canonical_unit",
     "conduction_loss",
+    "deskewed",
     "estimate_losses",
     "find_miller_plateau",
     "find_transitions",
@@ -207,8 +222,10 @@ __all__ = [
     "measure_rail",
     "measure_refresh",
     "measure_switch_node",
+    "measure_switching_energy",
     "gate_on_intervals",
     "measure_dead_time",
+    "measure_deskew",
     "negative_excursion",
     "OnIntervals",
     "on_time_at_duty",

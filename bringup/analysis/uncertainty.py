@@ -28,6 +28,7 @@ __all__ = [
     "loop_inductance_budget",
     "quantisation",
     "rectangular",
+    "switching_energy_budget",
     "refresh_time_budget",
     "temperature_budget",
     "thermocouple_tolerance",
@@ -400,4 +401,35 @@ def refresh_time_budget(
                    tau * d / (h * (h - d)) * abs(float(full_u_v))),
          Component(f"droop per period {d:.3g} V +/- {droop_u_v:.3g} V", "type A",
                    tau / (h - d) * abs(float(droop_u_v)))),
+    )  # fmt: skip
+
+
+def switching_energy_budget(
+    energy_j: float,
+    noise_j: float,
+    skew_sensitivity_j_per_s: float,
+    skew_u_s: float,
+    window_ends_j: float = 0.0,
+    gain_u: float = 0.0,
+    *,
+    quantity: str = "switching energy",
+) -> Budget:
+    """Budget of one edge's switching energy E = integral of v i dt (J).
+
+    Components: the channels' noise integrated over the window (``noise_j``, type A, computed
+    by the caller as dt sqrt(sum(v^2 sigma_i^2 + i^2 sigma_v^2))); the deskew's standard
+    uncertainty ``skew_u_s`` times dE/dskew (``skew_sensitivity_j_per_s``, GUM §5.1.3); the
+    window's ends, p(t_end) u(t_end) (``window_ends_j``, type A); the probes' gain accuracy,
+    ``gain_u`` x E (type B)."""
+    return _budget(
+        quantity,
+        "J",
+        energy_j,
+        (Component("noise of both channels over the window", "type A", abs(float(noise_j))),
+         Component(f"deskew +/- {skew_u_s:.3g} s at dE/dskew {skew_sensitivity_j_per_s:.3g} J/s",
+                   "type B", abs(float(skew_sensitivity_j_per_s) * float(skew_u_s))),
+         Component("the window's ends (their crossing instants)", "type A",
+                   abs(float(window_ends_j))),
+         Component(f"probe gain accuracy {100 * gain_u:.3g} %", "type B",
+                   abs(float(gain_u) * float(energy_j)))),
     )  # fmt: skip
