@@ -15,6 +15,7 @@ from bringup.analysis.quantities import format_quantity
 from bringup.errors import BringupError
 from bringup.tui.literal import literal
 from bringup.tui.views import Energise
+from bringup.tui.widgets.key_footer import KeyFooter
 
 __all__ = ["BenchPrompt", "EnergisePrompt", "ReasonPrompt", "ConfirmPrompt"]
 
@@ -62,7 +63,7 @@ class EnergisePrompt(BenchPrompt[bool]):
     """Ask before the supply output is switched on; names the voltage and current limit."""
 
     BINDINGS = [
-        Binding("y", "answer(True)", "yes, energise"),
+        Binding("y", "answer(True)", "yes, switch on"),
         Binding("n,escape", "answer(False)", "no, keep it off"),
     ]
 
@@ -110,6 +111,7 @@ class EnergisePrompt(BenchPrompt[bool]):
                     variant="warning",
                 )
                 yield Button("N  keep it off", id="no", variant="primary")
+        yield KeyFooter()
 
     def on_mount(self) -> None:
         self.query_one("#no", Button).focus()
@@ -125,7 +127,11 @@ class EnergisePrompt(BenchPrompt[bool]):
 class ReasonPrompt(BenchPrompt[tuple[str, str] | None]):
     """Ask for a reason (and, when ``ask_name``, who takes responsibility)."""
 
-    BINDINGS = [Binding("escape", "cancel", "cancel")]
+    BINDINGS = [
+        # Enter in a field submits it (the field's own key); shown here so the foot names it
+        Binding("enter", "submit", "record it"),
+        Binding("escape", "cancel", "cancel"),
+    ]
 
     def __init__(
         self,
@@ -166,6 +172,7 @@ class ReasonPrompt(BenchPrompt[tuple[str, str] | None]):
             with Horizontal(classes="prompt-buttons"):
                 yield Button("Enter  record it", id="ok", variant="primary")
                 yield Button("Esc  cancel", id="cancel")
+        yield KeyFooter()
 
     def on_mount(self) -> None:
         self.query_one("#reason", Input).focus()
@@ -212,6 +219,9 @@ class ReasonPrompt(BenchPrompt[tuple[str, str] | None]):
         else:
             self.dismiss(None)
 
+    def action_submit(self) -> None:
+        self._submit()
+
     def action_cancel(self) -> None:
         self.dismiss(None)
 
@@ -220,8 +230,8 @@ class ConfirmPrompt(BenchPrompt[bool]):
     """A yes/no question the step asks by hand ("Is the load connected?")."""
 
     BINDINGS = [
-        Binding("y", "answer(True)", "yes"),
-        Binding("n,escape", "answer(False)", "no"),
+        Binding("y", "answer(True)", "yes, done"),
+        Binding("n,escape", "answer(False)", "no, stop here"),
     ]
 
     def __init__(self, title: str, question: str) -> None:
@@ -236,6 +246,7 @@ class ConfirmPrompt(BenchPrompt[bool]):
             with Horizontal(classes="prompt-buttons"):
                 yield Button("Y  yes, done", id="yes", variant="primary")
                 yield Button("N  no, stop here", id="no")
+        yield KeyFooter()
 
     def on_button_pressed(self, event: Button.Pressed) -> None:
         event.stop()

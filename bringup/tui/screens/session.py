@@ -16,7 +16,6 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import Screen
 from textual.widgets import (
     DataTable,
-    Footer,
     Input,
     OptionList,
     ProgressBar,
@@ -40,6 +39,7 @@ from bringup.tui.screens.step_actions import StepActions
 from bringup.tui.states import LEGEND, look_of
 from bringup.tui.views import AttemptView, Progress, StepDetail
 from bringup.tui.widgets.checklist_column import ChecklistColumn
+from bringup.tui.widgets.key_footer import KeyFooter
 from bringup.tui.widgets.status_line import StatusLine
 from bringup.tui.widgets.supply_lamp import SupplyLamp
 from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
@@ -62,7 +62,7 @@ class SessionScreen(StepActions, Screen[None]):
     BINDINGS = [
         Binding("r", "take", "run/retake"),
         Binding("x", "cancel", "STOP (supply off)"),
-        Binding("t", "stop_soak", "soak settled: finish"),
+        Binding("t", "stop_soak", "finish soak"),
         Binding("s", "skip", "skip"),
         Binding("w", "waive", "waive"),
         Binding("n", "note", "note"),
@@ -141,7 +141,7 @@ class SessionScreen(StepActions, Screen[None]):
         with Horizontal(id="foot"):
             yield StatusLine(id="status")
             yield SupplyLamp(id="supply-lamp")
-        yield Footer()
+        yield KeyFooter()
 
     def on_mount(self) -> None:
         self.query_one("#live").display = False

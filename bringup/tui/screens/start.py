@@ -8,11 +8,12 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.message import Message
 from textual.screen import Screen
-from textual.widgets import Button, DataTable, Footer, Input, Label, Select, Static
+from textual.widgets import Button, DataTable, Input, Label, Select, Static
 
 from bringup.errors import BringupError
 from bringup.tui.literal import literal
 from bringup.tui.views import SessionRow
+from bringup.tui.widgets.key_footer import KeyFooter
 from bringup.tui.widgets.status_line import StatusLine
 
 __all__ = ["StartScreen", "NewSessionForm"]
@@ -155,7 +156,7 @@ class StartScreen(Screen[None]):
                 self.launcher.scenarios(), self.launcher.default_operator(), id="new-form"
             )
         yield StatusLine(id="status")
-        yield Footer()
+        yield KeyFooter()
 
     def on_mount(self) -> None:
         table = self.query_one("#sessions", DataTable)

@@ -6,11 +6,12 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from bringup.errors import BringupError
 from bringup.tui.literal import literal
 from bringup.tui.states import look_of
+from bringup.tui.widgets.key_footer import KeyFooter
 
 __all__ = ["SummaryScreen"]
 
@@ -28,7 +29,7 @@ class SummaryScreen(Screen[None]):
         yield Static("", id="summary-verdict")
         yield DataTable(id="summary", cursor_type="row", zebra_stripes=True)
         yield Static("", id="summary-hint")
-        yield Footer()
+        yield KeyFooter()
 
     def on_mount(self) -> None:
         link = self.app.link  # type: ignore[attr-defined]

@@ -1,0 +1,111 @@
+"""The notebook stays readable from 100x30 to 200x60: every key of the foot is shown whole
+(on a 100-column terminal the stock one-line footer cut ``q quit, supply off`` off the right
+edge) and each prompt names its keys at its foot.
+
+What is checked is read back from the app's own screenshot (``screen_lines``).
+"""
+
+from __future__ import annotations
+
+import pytest
+from tui_pilot import screen_lines, sync, wait_for_session, wait_until
+
+from bringup.runner import StepAnswers
+from bringup.tui.app import BringupApp
+from bringup.tui.launch import Launcher
+from bringup.tui.screens.prompts import EnergisePrompt
+from bringup.tui.screens.start import StartScreen
+from bringup.tui.screens.summary import SummaryScreen
+
+SIZES = [(100, 30), (200, 60)]
+SOAK = "thermal.soak"
+
+# what each screen's foot must say, whole (the key, then what it does)
+SESSION_KEYS = ("r run/retake", "s skip", "w waive", "n note", "b back", "kj step", "1234 tabs",
+                "p trace", "z zoom", "m summary", "q quit, supply off")  # fmt: skip
+ENERGISE_KEYS = ("y yes, switch on", "n no, keep it off")
+START_KEYS = ("^n start new session", "^o resume selected", "^r reload list", "^q quit")
+SUMMARY_KEYS = ("esc back to the step", "q quit (supply off)")
+
+
+def _foot(app, rows: int = 4) -> str:
+    """The bottom ``rows`` lines of the screen, one string (a wrapped foot reads on)."""
+    return "\n".join(screen_lines(app)[-rows:])
+
+
+def _missing(app, labels: tuple[str, ...]) -> list[str]:
+    foot = _foot(app)
+    return [label for label in labels if label not in foot]
+
+
+def _values(serial: str) -> dict:
+    return {"board": "demo", "checklist": None, "bench_file": None, "scenario": "healthy",
+            "serial": serial, "operator": "tester"}  # fmt: skip
+
+
+@pytest.mark.parametrize("size", SIZES, ids=lambda s: f"{s[0]}x{s[1]}")
+@sync
+async def test_every_key_of_each_foot_is_shown_whole(log_path, size):
+    app = BringupApp(Launcher(log_path))
+    async with app.run_test(size=size) as pilot:
+        await wait_until(pilot, lambda: isinstance(app.screen, StartScreen))
+        await pilot.pause()
+        assert not _missing(app, START_KEYS), _foot(app)
+        await pilot.press("ctrl+q")
+
+    app = BringupApp(Launcher(log_path), open_new=_values("DHS24-0150"))
+    async with app.run_test(size=size) as pilot:
+        screen = await wait_for_session(pilot)
+        assert not _missing(app, SESSION_KEYS), _foot(app)
+        # every key the screen answers now is in its foot (Textual's own list of them)
+        foot = _foot(app)
+        for _node, binding, _enabled, _tip in screen.active_bindings.values():
+            if binding.show:
+                assert app.get_key_display(binding) in foot, (binding, foot)
+
+        await pilot.press("r")  # the energising prompt names its two keys at its foot
+        await wait_until(pilot, lambda: isinstance(app.screen, EnergisePrompt), what="prompt")
+        await pilot.pause()
+        assert not _missing(app, ENERGISE_KEYS), _foot(app)
+        await pilot.press("n")
+        await wait_until(pilot, lambda: not isinstance(app.screen, EnergisePrompt))
+
+        await pilot.press("m")
+        await wait_until(pilot, lambda: isinstance(app.screen, SummaryScreen), what="summary")
+        await pilot.pause()
+        assert not _missing(app, SUMMARY_KEYS), _foot(app)
+        await pilot.press("escape")
+        await wait_until(pilot, lambda: app.screen is screen)
+        await pilot.press("q")
+
+
+@sync
+async def test_a_running_soak_shows_stop_and_finish_at_100_columns(log_path, bench_file):
+    """While a step runs its foot trades the idle keys for x STOP (and, in a soak, t)."""
+    bench, path = bench_file("healthy")
+    bench.clock.set_scale(10.0)  # a soak of minutes: time to read its foot
+    values = {**_values("DHS24-0151"), "bench_file": path, "scenario": None}
+    app = BringupApp(Launcher(log_path), open_new=values)
+    async with app.run_test(size=(100, 30)) as pilot:
+        screen = await wait_for_session(pilot)
+        runner = screen.link.runner
+        for step in runner.checklist.steps():  # setting up: only the soak is exercised here
+            if step.id == SOAK:
+                break
+            typed = "3.30 V" if step.reading else None
+            runner.run_step(step.id, answers=StepAnswers(confirmed=True, reading=typed))
+        screen.refresh_all(select=SOAK)
+        await wait_until(pilot, lambda: screen.viewed == SOAK, what="the soak step")
+        await pilot.press("r")
+        await wait_until(pilot, lambda: isinstance(app.screen, EnergisePrompt), what="prompt")
+        await pilot.press("y")
+        await wait_until(pilot, lambda: screen.running == SOAK, what="the soak to run")
+        await wait_until(pilot, lambda: "x STOP (supply off)" in _foot(app), what="x in the foot")
+        foot = _foot(app)
+        assert "t finish soak" in foot and "q quit, supply off" in foot, foot
+        assert "r run/retake" not in foot
+        await pilot.press("x")
+        await wait_until(pilot, lambda: screen.running is None, what="the soak to stop")
+        await app.workers.wait_for_complete()
+        await pilot.press("q")
+    assert not bench.supply.output_on
