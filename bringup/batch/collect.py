@@ -321,11 +321,13 @@ def collect_batch(
     by_serial: dict[str, list[SessionSummary]] = {}
     for summary in sorted(chosen, key=lambda s: (s.created_utc, s.id)):
         by_serial.setdefault(summary.serial, []).append(summary)
-    attempts = {s.id: reader.attempts(s.id) for s in chosen}
     columns = _Columns()
-    rows = [
-        _row(serial, by_serial[serial], attempts, reader, columns) for serial in sorted(by_serial)
-    ]
+    rows = []
+    for serial in sorted(by_serial):
+        # one serial's attempts at a time: a row keeps only its readings and a short
+        # history, so a log of thousands of sessions is never held in memory whole
+        attempts = {s.id: reader.attempts(s.id) for s in by_serial[serial]}
+        rows.append(_row(serial, by_serial[serial], attempts, reader, columns))
     made = _make_columns(columns, rows)
     stats: dict[str, Distribution] = {}
     serials_of: dict[str, tuple[str, ...]] = {}
