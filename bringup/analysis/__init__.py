@@ -17,7 +17,6 @@ if TYPE_CHECKING:
         Refresh,
         RefreshResult,
         measure_refresh,
-        shortest_refresh_time,
     )
     from bringup.analysis.dead_time import (
         Commutations,
@@ -47,6 +46,7 @@ if TYPE_CHECKING:
         junction_temperature,
         on_time_at_duty,
         rc_rise_time,
+        shortest_refresh_time,
         size_bootstrap,
         switching_loss,
     )
@@ -112,7 +112,7 @@ _LAZY = {
     "Refresh": "bootstrap_refresh",
     "RefreshResult": "bootstrap_refresh",
     "measure_refresh": "bootstrap_refresh",
-    "shortest_refresh_time": "bootstrap_refresh",
+    "shortest_refresh_time": "design",
     "Commutations": "dead_time",
     "DeadTimeResult": "dead_time",
     "OnIntervals": "dead_time",

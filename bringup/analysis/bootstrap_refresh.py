@@ -52,6 +52,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from bringup.analysis.dead_time import OnIntervals
+from bringup.analysis.design import shortest_refresh_time
 from bringup.analysis.edges import code_step, noise_rms
 from bringup.analysis.uncertainty import COVERAGE_K, refresh_time_budget
 from bringup.errors import AnalysisError
@@ -61,21 +62,6 @@ __all__ = ["Refresh", "RefreshResult", "measure_refresh", "shortest_refresh_time
 GUARD_FRACTION = 0.10
 END_FIT_FRACTION = 0.10
 MAX_TAU_RELATIVE_U = 0.3
-
-
-def shortest_refresh_time(tau_s: float, full_v: float, droop_v: float, required_v: float) -> float:
-    """Shortest low-side on-time (s) that keeps the bootstrap at or above ``required_v`` (V) in
-    steady state: tau ln((V_f - V_req)/(V_f - V_req - D)) with ``tau_s`` the recharge time
-    constant (s), ``full_v`` V_f the level it charges towards (V) and ``droop_v`` D the level
-    lost per period while the high side is on (V). ``math.inf`` when D >= V_f - V_req (no
-    on-time is long enough); 0 when there is no droop. See the module doc for the derivation."""
-    head = float(full_v) - float(required_v)
-    d = max(float(droop_v), 0.0)
-    if head <= d:
-        return math.inf
-    if d == 0.0:
-        return 0.0
-    return float(tau_s) * math.log(head / (head - d))
 
 
 @dataclass(frozen=True)

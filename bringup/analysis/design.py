@@ -25,14 +25,19 @@ __all__ = [
     "bootstrap_on_time_max",
     "bootstrap_precharge_time",
     "bootstrap_recharge_time",
+    "body_diode_loss",
     "conduction_loss",
     "estimate_losses",
     "gate_drive_current",
+    "gate_delay_off",
+    "gate_delay_on",
     "gate_drive_loss",
     "gate_timing",
     "junction_temperature",
+    "lc_excursion",
     "on_time_at_duty",
     "rc_rise_time",
+    "shortest_refresh_time",
     "size_bootstrap",
     "switching_loss",
 ]
@@ -435,3 +440,68 @@ def estimate_losses(
     elif need("t_junction_c", r_th_k_per_w=r_th_k_per_w, t_ambient_c=t_ambient_c):
         t_j = junction_temperature(p_fet, r_th_k_per_w, t_ambient_c)  # type: ignore[arg-type]
     return LossBudget(p_sw, p_cond, p_gate, p_fet, t_j, reasons)
+
+
+# ------------------------------------------------------------------------------ half-bridge
+def shortest_refresh_time(tau_s: float, full_v: float, droop_v: float, required_v: float) -> float:
+    """Shortest low-side on-time (s) that keeps a bootstrap at or above ``required_v`` (V) in
+    steady state: tau ln((V_f - V_req)/(V_f - V_req - D)), with ``tau_s`` the recharge time
+    constant (R_BOOT + R_diode + R_DS(on),LS) C_BOOT (s), ``full_v`` V_f the level it charges
+    towards (V) and ``droop_v`` D the level lost per period while the high side is on (V).
+
+    From the RC charge law V(t) = V_f - (V_f - V_0) exp(-t/tau) (REFERENCES §3 "Refresh"): in
+    steady state V_f - V_end = (V_f - V_end + D) exp(-t/tau), so V_f - V_end = D/(exp(t/tau) - 1),
+    and the bottom V_end - D >= V_req gives the bound [computed]. ``math.inf`` when
+    D >= V_f - V_req (no on-time is long enough); 0 without droop."""
+    head = float(full_v) - float(required_v)
+    d = max(float(droop_v), 0.0)
+    if head <= d:
+        return math.inf
+    if d == 0.0:
+        return 0.0
+    return float(tau_s) * math.log(head / (head - d))
+
+
+def gate_delay_on(v_drv_v: float, v_th_v: float, r_on_ohm: float, c_iss_f: float) -> float:
+    """Time (s) for a gate driven to ``v_drv_v`` through ``r_on_ohm`` (driver source + gate
+    resistors) to rise from 0 to its threshold ``v_th_v``: R C_iss ln(V_drv/(V_drv - V_th))
+    (the RC charge of C_iss before the plateau; TI SLUA618's gate-charge picture [memory for
+    the form])."""
+    _check("threshold", v_th_v, positive=True)
+    if not v_drv_v > v_th_v:
+        raise InputError(f"drive voltage {v_drv_v!r} V must exceed the threshold {v_th_v!r} V")
+    return r_on_ohm * c_iss_f * math.log(v_drv_v / (v_drv_v - v_th_v))
+
+
+def gate_delay_off(
+    v_drv_v: float, v_pl_v: float, v_th_v: float, q_gd_c: float, r_off_ohm: float, c_iss_f: float
+) -> float:
+    """Time (s) for a gate at ``v_drv_v`` pulled down through ``r_off_ohm`` (driver sink + gate
+    resistors) to fall through its threshold ``v_th_v``: R C_iss ln(V_drv/V_pl) to the plateau,
+    Q_gd R / V_pl across it, R C_iss ln(V_pl/V_th) down to the threshold (TI SLUA618: the
+    turn-off gate current on the plateau is V_pl/R [read, REFERENCES §4]; the RC discharge
+    either side [memory for the form])."""
+    if not v_drv_v > v_pl_v > v_th_v > 0:
+        raise InputError("need drive > plateau > threshold > 0 V for the turn-off delay")
+    tau = r_off_ohm * c_iss_f
+    return (
+        tau * math.log(v_drv_v / v_pl_v)
+        + q_gd_c * r_off_ohm / v_pl_v
+        + tau * math.log(v_pl_v / v_th_v)
+    )
+
+
+def body_diode_loss(v_f_v: float, i_load_a: float, dead_times_s: float, fsw_hz: float) -> float:
+    """Body-diode conduction loss (W) of the dead times: V_F I_load (t_dead,1 + t_dead,2) f_sw,
+    ``dead_times_s`` the sum of both dead times of a period (REFERENCES §12 [read]: V_F I 2
+    t_dead f_sw for two equal dead times)."""
+    return float(v_f_v) * float(i_load_a) * max(float(dead_times_s), 0.0) * float(fsw_hz)
+
+
+def lc_excursion(i_a: float, l_h: float, c_f: float) -> float:
+    """Peak excursion (V) of an undamped L-C loop interrupting ``i_a``: I sqrt(L/C), the current
+    step times the loop's characteristic impedance (the inductor's 1/2 L I^2 handed to the
+    capacitor's 1/2 C V^2 [computed]); damping makes the real one smaller."""
+    if not (l_h > 0 and c_f > 0):
+        raise InputError("inductance and capacitance must be > 0")
+    return abs(float(i_a)) * math.sqrt(float(l_h) / float(c_f))

@@ -7,7 +7,11 @@ the bench, in plain words. Pure: plain floats and dicts in (SI units, temperatur
 a ``Diagnosis`` out; no I/O.
 
 The inferences invert the design equations of ``bringup.analysis.design``; each function
-below names its source. They are first-order models: an effective value says how the circuit
+below names its source. The half-bridge rules (dead time, bootstrap refresh, switch node,
+switching energy) read the dead-time setting back through the design's gate delays to
+threshold, the recharge path's R from the measured time constant (tau = R C), the bootstrap
+capacitor from the droop per period (C = Q/dV), the loop inductance from the ring
+(L = 1/((2 pi f)^2 C)) and the crossover time from the switching energy (E = 1/2 V I t_c). They are first-order models: an effective value says how the circuit
 *behaves*, and the check says how to confirm it with the power off.
 """
 
@@ -18,6 +22,7 @@ from collections.abc import Mapping
 from dataclasses import asdict, dataclass, field
 
 from bringup.analysis.quantities import format_quantity as _q
+from bringup.errors import InputError
 
 __all__ = [
     "Cause",
@@ -584,6 +589,239 @@ def _rails(m, d, earlier, failed, loaded) -> Diagnosis | None:
     return Diagnosis("rail-levels", tuple(causes)) if causes else None
 
 
+# ------------------------------------------------------------------------------ half-bridge
+# Metric ids are the catalogue's (bringup/checklist/catalogue.py); design keys the board's
+# [design]. Each rule returns None when the keys it needs are missing (never a guess).
+def _gate_delays(d: Mapping[str, float]) -> tuple[float, float]:
+    """(turn-on delay to threshold, turn-off delay to threshold) (s) of the design's gate loop:
+    ``design.gate_delay_on``/``gate_delay_off`` (TI SLUA618's gate-charge picture)."""
+    from bringup.analysis.design import gate_delay_off, gate_delay_on
+
+    r_int, r_g = d.get("gate_resistance_internal", 0.0), d["gate_resistor"]
+    v_drv = d["gate_drive_voltage"] - d.get("bootstrap_diode_drop", 0.0)
+    on = gate_delay_on(v_drv, d["mosfet_threshold"], d["driver_source_resistance"] + r_g + r_int,
+                       d["mosfet_ciss"])  # fmt: skip
+    off = gate_delay_off(v_drv, d["mosfet_plateau"], d["mosfet_threshold"], d["mosfet_qgd"],
+                         d["driver_sink_resistance"] + r_g + r_int, d["mosfet_ciss"])  # fmt: skip
+    return on, off
+
+
+def _dead_time_setting(dead_s: float, on_s: float, off_s: float) -> float:
+    """The dead-time setting (s) a dead time measured at threshold implies with the design's
+    gate delays: measured = setting + turn-on delay - turn-off delay, solved for the setting."""
+    return dead_s + off_s - on_s
+
+
+def _dead_time(m, d, failed) -> Diagnosis | None:
+    from bringup.analysis.design import body_diode_loss
+
+    hl, lh = _get(m, "dead_time_high_to_low"), _get(m, "dead_time_low_to_high")
+    overlap = _get(m, "gate_overlap") or 0.0
+    measured = [(w, v) for w, v in (("high-to-low", hl), ("low-to-high", lh)) if v is not None]
+    if not measured:
+        return None
+    setting = d["dead_time"]
+    t_on, t_off = _gate_delays(d)
+    at_thr = setting + t_on - t_off  # the design's dead time seen at the threshold
+    worst_w, worst = min(measured, key=lambda x: x[1])
+    if overlap > 0 or worst < 0:
+        return _overlap(worst_w, min(worst, -overlap), setting, t_on, t_off, at_thr,
+                        _get(m, "shoot_through_current"))  # fmt: skip
+    longest_w, longest = max(measured, key=lambda x: x[1])
+    if longest <= 1.5 * max(at_thr, 0.0) and not {"dead_time_high_to_low", "dead_time_low_to_high",
+                                                   "body_diode_loss"} & set(failed):  # fmt: skip
+        return None
+    eff = _dead_time_setting(longest, t_on, t_off)
+    total = sum(v for _, v in measured) * (2 / len(measured))
+    p = body_diode_loss(d.get("body_diode_drop", 0.8), d.get("load_current", 0.0), total,
+                        d["switching_frequency"])  # fmt: skip
+    p_design = body_diode_loss(d.get("body_diode_drop", 0.8), d.get("load_current", 0.0),
+                               2 * max(at_thr, 0.0), d["switching_frequency"])  # fmt: skip
+    ev = (f"dead time {longest_w} {_q(longest, 's')} at threshold; the design's {_q(setting, 's')} "
+          f"setting gives {_q(at_thr, 's')} there (turn-on delay {_q(t_on, 's')}, turn-off "
+          f"{_q(t_off, 's')} to threshold)",
+          f"the body diodes conduct for the dead times: V_F I (t_1 + t_2) f_sw = {_q(p, 'W')} "
+          f"(design {_q(p_design, 'W')})")  # fmt: skip
+    return Diagnosis("dead-time", (
+        Cause("dead_time", f"dead time set too long: it behaves like a {_q(eff, 's')} setting "
+              f"against the design's {_q(setting, 's')} (the dead-time resistor too large)", 0.6, ev,
+              "power off: measure the driver's dead-time resistor against its datasheet's "
+              "dead-time curve; check the dead time programmed in the PWM controller",
+              {"dead_time_setting_s": eff, "body_diode_loss_w": p}),
+        Cause("gate_resistor", "the gate turning on is slow (gate resistor or the driver's "
+              "source side), which stretches the dead time at threshold", 0.4, ev,
+              "probe the gate that turns on: its rise to threshold should take about "
+              f"{_q(t_on, 's')}", {}),
+    ))  # fmt: skip
+
+
+def _overlap(which, dead, setting, t_on, t_off, at_thr, spike) -> Diagnosis:
+    """Shoot-through: the dead time's sign says the gates overlapped at ``which``."""
+    eff = _dead_time_setting(dead, t_on, t_off)
+    off_side = "high" if which == "high-to-low" else "low"
+    ev = [f"the gates overlap by {_q(-dead, 's')} at the {which} commutation (both above "
+          f"threshold: shoot-through)",
+          f"the design's {_q(setting, 's')} setting should leave {_q(at_thr, 's')} at threshold "
+          f"(turn-on delay {_q(t_on, 's')}, turn-off delay {_q(t_off, 's')})"]  # fmt: skip
+    if spike is not None:
+        ev.append(f"a {_q(spike, 'A')} current spike goes with it")
+    small = eff < 0.5 * setting
+    return Diagnosis("dead-time", tuple(sorted((
+        Cause("dead_time", f"dead time set too short: it behaves like a {_q(eff, 's')} setting "
+              f"against the design's {_q(setting, 's')} (the dead-time resistor too small)",
+              0.7 if small else 0.4, tuple(ev),
+              "power off: measure the driver's dead-time resistor against its datasheet's "
+              "dead-time curve; check the dead time programmed in the PWM controller",
+              {"dead_time_setting_s": eff}),
+        Cause("driver_sink_resistance", f"the {off_side}-side gate turns off too slowly (gate "
+              "resistor, the driver's sink side, a missing turn-off diode)",
+              0.3 if small else 0.6, tuple(ev),
+              f"probe the {off_side}-side gate at turn-off: from the plateau to threshold it "
+              f"should take about {_q(t_off, 's')}; a slower fall points at the gate path", {}),
+    ), key=lambda c: -c.weight)), ("stop switching at full bus until this is fixed: "
+                                   "shoot-through heats both switches",))  # fmt: skip
+
+
+def _design_refresh(d) -> tuple[float, float, float, float]:
+    """(tau s, V_f V, droop per period V, low-side on-time at max duty s) of the design:
+    tau = (R_BOOT + R_DS(on)) C (REFERENCES §3), droop = (Q_G + Q_LS + I t_on,max)/C (SLUA887),
+    on-time (1 - D_max)/f_sw less both dead times."""
+    c = d["bootstrap_capacitance"]
+    tau = (d["bootstrap_resistor"] + d.get("mosfet_rds_on", 0.0)) * c
+    vf = d["gate_drive_voltage"] - d.get("bootstrap_diode_drop", 0.0)
+    i_rest, _ = _design_drain_current(d, vf)
+    f = d["switching_frequency"]
+    q = d.get("mosfet_gate_charge", 0.0) + d.get("level_shift_charge", 0.0)
+    droop = (q + i_rest * d["duty_max"] / f) / c
+    return tau, vf, droop, (1.0 - d["duty_max"]) / f - 2.0 * d.get("dead_time", 0.0)
+
+
+def _refresh(m, d) -> Diagnosis | None:
+    from bringup.analysis.design import shortest_refresh_time
+
+    margin, need = _get(m, "vbs_uvlo_margin"), _get(m, "refresh_on_time_min")
+    if margin is None and need is None:
+        return None
+    tau_d, vf_d, droop_d, on_d = _design_refresh(d)
+    uvlo = d["driver_uvlo_falling"]
+    need_d = shortest_refresh_time(tau_d, vf_d, droop_d, uvlo)
+    on = _get(m, "refresh_on_time") or on_d
+    tau, droop = _get(m, "refresh_tau"), _get(m, "refresh_droop")
+    need_txt = "no on-time" if math.isinf(need_d) else _q(need_d, "s")
+    ev = [f"low-side on-time at the largest duty {_q(on, 's')}; the design needs {need_txt} "
+          f"(tau {_q(tau_d, 's')}, droop {_q(droop_d, 'V')} per period, UVLO {_q(uvlo, 'V')})"]  # fmt: skip
+    if margin is not None:
+        ev.append(f"VB - VS falls to {_q(margin, 'V')} from the UVLO at its lowest")
+    if need is not None:
+        ev.append(f"from the measured recharge it needs {_q(need, 's')} of low-side on-time")
+    causes = [Cause("duty_max", "the largest duty leaves the low side on too briefly to "
+                    "refresh the bootstrap", 0.6 if on < (need or need_d) else 0.3, tuple(ev),
+                    "lower the controller's maximum duty (or add a minimum low-side on-time) "
+                    "and repeat the step", {"low_side_on_time_s": on})]  # fmt: skip
+    c = d["bootstrap_capacitance"]
+    if tau is not None:
+        r_eff = tau / c - d.get("mosfet_rds_on", 0.0)
+        slow = tau > 1.5 * tau_d
+        causes.append(Cause("bootstrap_resistor", f"the recharge path is too resistive: it "
+                            f"behaves like {_q(r_eff, 'ohm')} (design {_q(d['bootstrap_resistor'], 'ohm')})",
+                            0.7 if slow else 0.2,
+                            (f"recharge time constant {_q(tau, 's')} against the design's "
+                             f"{_q(tau_d, 's')} (tau = R C)",),
+                            "power off: measure the bootstrap resistor and the diode's forward "
+                            "drop at a few mA; check the diode part (a slow or high-drop one)",
+                            {"bootstrap_resistance_ohm": r_eff}))  # fmt: skip
+    if droop is not None:
+        q_period = droop_d * c
+        c_eff = q_period / droop if droop > 0 else math.inf
+        causes.append(Cause("bootstrap_capacitance", f"the bootstrap capacitor is too small: it "
+                            f"behaves like {_q(c_eff, 'F')} (design {_q(c, 'F')})",
+                            0.6 if droop > 1.5 * droop_d else 0.15,
+                            (f"droop {_q(droop, 'V')} per period against the design's "
+                             f"{_q(droop_d, 'V')} (C = Q / dV)",),
+                            "read the capacitor's marking and measure it out of circuit; check "
+                            "its DC-bias derating at the gate-drive voltage",
+                            {"bootstrap_capacitance_f": c_eff}))  # fmt: skip
+    return Diagnosis("bootstrap-refresh", tuple(sorted(causes, key=lambda x: -x.weight)))
+
+
+def _switch_node(m, d) -> Diagnosis | None:
+    from bringup.analysis.design import lc_excursion
+
+    low, margin = _get(m, "switch_min"), _get(m, "switch_negative_margin")
+    f, zeta, l_meas = _get(m, "ring_frequency"), _get(m, "ring_damping"), _get(m, "loop_inductance")
+    if low is None and margin is None and f is None:
+        return None
+    c, l_design = d["switch_node_capacitance"], d["stray_inductance"]
+    if l_meas is None and f is not None:
+        l_meas = 1.0 / ((2 * math.pi * f) ** 2 * c)  # L = 1/((2 pi f)^2 C), REFERENCES §12
+    i = d.get("load_current", 0.0)
+    ev = []
+    if low is not None:
+        rating = d.get("driver_negative_swing")
+        rated = f" (driver rated to {_q(-abs(rating), 'V')})" if rating else ""
+        ev.append(f"the switch node reaches {_q(low, 'V')}{rated}")
+    weight_l = 0.4
+    if l_meas is not None:
+        ev.append(f"the ring implies {_q(l_meas, 'H')} of loop inductance with the switch node's "
+                  f"{_q(c, 'F')} (design {_q(l_design, 'H')}); I sqrt(L/C) = "
+                  f"{_q(lc_excursion(i, l_meas, c), 'V')} at {_q(i, 'A')}")  # fmt: skip
+        weight_l = 0.7 if l_meas > 1.5 * l_design else 0.35
+    causes = [Cause("stray_inductance", "too much loop inductance in the layout (the "
+                    "high-side drain to the low-side source through the bus capacitor)",
+                    weight_l, tuple(ev),
+                    "check the ceramic bus capacitor sits next to the phase leg with short, wide "
+                    "return paths; probe with the tip-and-barrel method so the probe's own "
+                    "ground lead does not ring", {} if l_meas is None else {"loop_inductance_h": l_meas})]  # fmt: skip
+    if zeta is not None:
+        causes.append(Cause("snubber", f"too little damping: the ring decays with zeta "
+                            f"{zeta:.3g} (a snubber missing or wrong)", 0.5 if zeta < 0.1 else 0.15,
+                            (f"damping ratio {zeta:.3g} from the ring's decay",),
+                            "fit an RC snubber across the low-side switch (C a few times the "
+                            "switch node's, R near sqrt(L/C), common practice) and repeat"))  # fmt: skip
+    causes.append(Cause("body_diode", "a slow body diode: its reverse recovery adds to the "
+                        "spike at the low side's turn-off", 0.2, tuple(ev),
+                        "check the MOSFET part's reverse-recovery charge; a Schottky across the "
+                        "low side, or a slower high-side turn-on, shows whether it is the cause"))  # fmt: skip
+    return Diagnosis("switch-node", tuple(sorted(causes, key=lambda x: -x.weight)))
+
+
+def _switching_energy(m, d) -> Diagnosis | None:
+    e_on, e_off = _get(m, "switching_energy_on"), _get(m, "switching_energy_off")
+    p, p_pred = _get(m, "switching_power"), _get(m, "switching_power_predicted")
+    if e_on is None and e_off is None:
+        return None
+    if (e_on is not None and e_on < 0) or (e_off is not None and e_off < 0):
+        return Diagnosis("switching-energy", (Cause(
+            "current_probe_deskew", "a negative switching energy: the current and voltage "
+            "channels are skewed (or a probe reversed)", 0.9,
+            (f"E_on {_q(e_on, 'J')}, E_off {_q(e_off, 'J')}",),
+            "measure the deskew again on a resistive step and put it in the bench file; check "
+            "the current probe's arrow points along the drain current"),))  # fmt: skip
+    v, i = d["bus_voltage"], d.get("load_current", 0.0)
+    ev = [f"E_on {_q(e_on, 'J')}, E_off {_q(e_off, 'J')}"]
+    t_c = None
+    if e_on is not None and e_off is not None and v * i > 0:
+        # Linear clamped crossover: E = 1/2 V I t_c (Mohan et al., ch. 2 [memory]).
+        t_c = 2.0 * (e_on + e_off) / (v * i)
+        ev.append(f"as a linear crossover that is {_q(t_c, 's')} of switching per period "
+                  "(E = 1/2 V I t_c)")  # fmt: skip
+    if p is not None and p_pred is not None:
+        ev.append(f"switching loss {_q(p, 'W')} against the predicted {_q(p_pred, 'W')}")
+    ratio = (e_on / e_off) if e_on and e_off else 1.0
+    causes = [
+        Cause("gate_resistor", "slow edges: the gate loop (gate resistor, the driver) "
+              "switches the MOSFET slower than designed", 0.5, tuple(ev),
+              "compare the switch-node edges with the design's (edge-speed step); measure the "
+              "gate resistor", {} if t_c is None else {"crossover_time_s": t_c}),
+        Cause("body_diode", "the opposite switch's body-diode reverse recovery adds to the "
+              "turn-on", 0.6 if ratio > 2.0 else 0.2,
+              (*ev, f"E_on / E_off = {ratio:.3g}"),
+              "look at the current's turn-on spike above the load current: its area is the "
+              "diode's recovered charge; a faster-recovery part or a slower turn-on cuts it"),
+    ]  # fmt: skip
+    return Diagnosis("switching-energy", tuple(sorted(causes, key=lambda x: -x.weight)))
+
+
 def diagnose(
     analysis: str,
     measured: Mapping[str, float | None],
@@ -596,6 +834,14 @@ def diagnose(
     loaded: bool = False,
 ) -> Diagnosis | None:
     """Ranked causes for a step of ``analysis`` (the catalogue's analysis names).
+
+    Half-bridge stages (metric ids of the catalogue): "dead-time" (``dead_time_high_to_low``,
+    ``dead_time_low_to_high``, ``gate_overlap``, ``shoot_through_current``),
+    "bootstrap-refresh" (``vbs_uvlo_margin``, ``refresh_on_time_min``; optional
+    ``refresh_on_time`` the low-side on-time measured, ``refresh_tau``, ``refresh_droop``),
+    "switch-node" (``switch_min``, ``switch_negative_margin``, ``ring_frequency``,
+    ``ring_damping``, ``loop_inductance``) and "switching-energy" (``switching_energy_on``,
+    ``switching_energy_off``, ``switching_power``, ``switching_power_predicted``).
 
     ``measured``: the step's metrics (SI, degC); ``design``: the board's ``[design]`` values;
     ``failed``: the metrics that failed or disagreed with their prediction; ``predicted``: the
@@ -616,6 +862,14 @@ def diagnose(
             return _soak(measured, design, earlier)
         if analysis == "rail-levels":
             return _rails(measured, design, earlier, frozenset(failed), loaded)
-    except (KeyError, ValueError, ZeroDivisionError):
+        if analysis == "dead-time":
+            return _dead_time(measured, design, frozenset(failed))
+        if analysis == "bootstrap-refresh":
+            return _refresh(measured, design)
+        if analysis == "switch-node":
+            return _switch_node(measured, design)
+        if analysis == "switching-energy":
+            return _switching_energy(measured, design)
+    except (KeyError, ValueError, ZeroDivisionError, InputError):
         return None  # a design the rules cannot use gives no diagnosis, never a wrong one
     return None
