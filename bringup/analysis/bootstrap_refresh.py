@@ -5,6 +5,7 @@ Public API (pure numpy, scipy imported lazily for the fit; no I/O; SI units)::
     measure_refresh(vbs, dt, t0=0.0, *, low_on, uvlo_v, high_on=None, tau_s=None,
                     tau_u_s=0.0, full_v=None, margin_v=0.0) -> RefreshResult
     shortest_refresh_time(tau_s, full_v, droop_v, required_v) -> float   # s, inf if none
+                                                       # (defined in design.py, re-exported)
 
 ``low_on``: the low side's on-intervals (``dead_time.gate_on_intervals`` of the low-side gate,
 or any ``OnIntervals``). ``RefreshResult``: per low-side on-time (``Refresh``) its start, length,
@@ -13,9 +14,10 @@ reached at an end (``lowest_end_v``), the lowest level between refreshes (``lowe
 bottom of the droop while the high side is on) and its margin to the UVLO
 (``uvlo_margin_v``), the droop per period, the recharge time constant and full level (from the
 data or the design, ``tau_source``), and the shortest low-side on-time that still refreshes it
-(``shortest_on_time_s``) beside the shortest one in the record (``on_time_margin_s``). Each
-with an expanded (k = 2) uncertainty; None with a reason in ``reasons`` where it cannot be
-given.
+(``refresh_on_time_min_s``) beside the shortest low-side on-time in the record
+(``low_on_time_min_s``; ``on_time_margin_s`` = the second less the first, > 0 when it
+refreshes). Each with an expanded (k = 2) uncertainty; None with a reason in ``reasons`` where
+it cannot be given. ``RefreshResult.refreshed``: the lowest level stays above the UVLO.
 
 Method and sources:
 
@@ -78,7 +80,9 @@ class Refresh:
 
 @dataclass(frozen=True)
 class RefreshResult:
-    """The bootstrap's refresh over a record (V, s). ``*_uncertainty_*``: expanded (k = 2)."""
+    """The bootstrap's refresh over a record (V, s). ``*_uncertainty_*``: expanded (k = 2).
+    ``required_v``: the UVLO plus the margin asked for; ``tau_source``: "data", "design" or
+    "none". See the module doc for each field."""
 
     refreshes: tuple[Refresh, ...]
     lowest_end_v: float | None
@@ -95,9 +99,9 @@ class RefreshResult:
     full_v: float | None
     full_uncertainty_v: float | None
     required_v: float
-    shortest_on_time_s: float | None
-    shortest_on_time_uncertainty_s: float | None
-    on_time_min_s: float | None
+    refresh_on_time_min_s: float | None
+    refresh_on_time_min_uncertainty_s: float | None
+    low_on_time_min_s: float | None
     on_time_margin_s: float | None
     reasons: dict[str, str] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
@@ -335,14 +339,14 @@ def _result(refreshes, ends, k_end, bottoms, bottoms_u, droops, uvlo, margin, ta
         b = refresh_time_budget(tau, u_tau, vf, u_vf, droop, u_droop, required)
         t_min, u_t = b.value, b.expanded
         if math.isinf(t_min):
-            reasons["shortest_on_time_s"] = (
+            reasons["refresh_on_time_min_s"] = (
                 f"no low-side on-time refreshes it: the bootstrap loses {droop:.3g} V per period, "
                 f"at least the {vf - required:.3g} V between its full level {vf:.4g} V and "
                 f"{required:.4g} V (capacitor too small, or the high side on too long)"
             )
             t_min = u_t = None
-    elif "shortest_on_time_s" not in reasons:
-        reasons["shortest_on_time_s"] = reasons.get("tau_s") or reasons.get("droop_v", "")
+    elif "refresh_on_time_min_s" not in reasons:
+        reasons["refresh_on_time_min_s"] = reasons.get("tau_s") or reasons.get("droop_v", "")
     return RefreshResult(
         refreshes=tuple(refreshes),
         lowest_end_v=float(ends[k_end]),
@@ -357,8 +361,8 @@ def _result(refreshes, ends, k_end, bottoms, bottoms_u, droops, uvlo, margin, ta
         tau_source=source,
         full_v=vf, full_uncertainty_v=None if u_vf is None else COVERAGE_K * u_vf,
         required_v=required,
-        shortest_on_time_s=t_min, shortest_on_time_uncertainty_s=u_t,
-        on_time_min_s=float(on_times.min()),
+        refresh_on_time_min_s=t_min, refresh_on_time_min_uncertainty_s=u_t,
+        low_on_time_min_s=float(on_times.min()),
         on_time_margin_s=None if t_min is None else float(on_times.min()) - t_min,
         reasons=reasons,
     )  # fmt: skip

@@ -50,7 +50,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from bringup.analysis.edges import code_step, noise_rms
-from bringup.analysis.uncertainty import COVERAGE_K, crossing_budget
+from bringup.analysis.uncertainty import COVERAGE_K, crossing_budget, dead_time_budget
 from bringup.errors import AnalysisError
 
 __all__ = [
@@ -325,13 +325,15 @@ def _pair(off: OnIntervals, on: OnIntervals, skew_u_s: float):
             end, end_u = min((h_end, h_end_u, off_open), (on.end_s[m], on.end_u_s[m], on_open))[:2]
             if (off_open and end == h_end) or (on_open and end == on.end_s[m]):
                 continue  # the overlap runs past the record: its length is unknown
-            rows.append((end, s, -(end - s), math.hypot(end_u, on.start_u_s[m], skew_u_s)))
+            u = dead_time_budget(-(end - s), end_u, on.start_u_s[m], skew_u_s).combined
+            rows.append((end, s, -(end - s), u))
             continue
         if m > 0 and on.end_s[m - 1] > h_end:
             continue  # the turning-on gate switched since: not a commutation from ``off``
         if off.open_end and h == len(off) - 1:
             continue
-        rows.append((h_end, s, s - h_end, math.hypot(h_end_u, on.start_u_s[m], skew_u_s)))
+        u = dead_time_budget(s - h_end, h_end_u, on.start_u_s[m], skew_u_s).combined
+        rows.append((h_end, s, s - h_end, u))
     if not rows:
         return (np.empty(0),) * 4
     return tuple(np.array(c) for c in zip(*rows, strict=True))

@@ -22,6 +22,7 @@ __all__ = [
     "Budget",
     "Component",
     "crossing_budget",
+    "dead_time_budget",
     "duration_budget",
     "excursion_budget",
     "level_budget",
@@ -432,4 +433,26 @@ def switching_energy_budget(
                    abs(float(window_ends_j))),
          Component(f"probe gain accuracy {100 * gain_u:.3g} %", "type B",
                    abs(float(gain_u) * float(energy_j)))),
+    )  # fmt: skip
+
+
+def dead_time_budget(
+    dead_time_s: float,
+    off_u_s: float,
+    on_u_s: float,
+    skew_u_s: float = 0.0,
+    *,
+    quantity: str = "dead time",
+) -> Budget:
+    """Budget of one dead time t_on,other - t_off,this (s) between two gates' threshold
+    crossings: each crossing's standard uncertainty (``crossing_budget``'s combined value, a
+    difference of two uncorrelated instants, GUM §5.1.2) and the skew between the two gate
+    channels (``skew_u_s``, type B, from the bench's deskew)."""
+    return _budget(
+        quantity,
+        "s",
+        dead_time_s,
+        (Component("the turning-off gate's threshold crossing", "type A and B", abs(float(off_u_s))),
+         Component("the turning-on gate's threshold crossing", "type A and B", abs(float(on_u_s))),
+         Component("skew between the two gate channels", "type B", abs(float(skew_u_s)))),
     )  # fmt: skip

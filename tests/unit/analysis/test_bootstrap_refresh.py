@@ -55,8 +55,8 @@ def test_healthy_refresh_levels_time_constant_and_margins():
     assert r.uvlo_margin_v == pytest.approx(r.lowest_v - 8.2)
     assert r.refreshed
     truth = shortest_refresh_time(b.tau_s, b.full_v, b.droop_v, 8.2)  # about 0.43 us
-    assert abs(r.shortest_on_time_s - truth) <= r.shortest_on_time_uncertainty_s
-    assert r.on_time_min_s == pytest.approx(b.on_time_s, abs=2e-9)
+    assert abs(r.refresh_on_time_min_s - truth) <= r.refresh_on_time_min_uncertainty_s
+    assert r.low_on_time_min_s == pytest.approx(b.on_time_s, abs=2e-9)
     assert r.on_time_margin_s > 0.3e-6
 
 
@@ -76,7 +76,7 @@ def test_a_low_side_on_time_too_short_to_refresh():
     r = _measure(b, tau_s=0.5e-6, tau_u_s=0.02e-6)
     assert r.uvlo_margin_v < -2.0 and not r.refreshed
     assert r.on_time_margin_s < -0.2e-6
-    assert r.shortest_on_time_s == pytest.approx(
+    assert r.refresh_on_time_min_s == pytest.approx(
         shortest_refresh_time(b.tau_s, b.full_v, b.droop_v, 8.2), rel=0.15
     )
 
@@ -84,19 +84,19 @@ def test_a_low_side_on_time_too_short_to_refresh():
 def test_a_droop_larger_than_the_headroom_has_no_refreshing_on_time():
     b = bootstrap(seed=3, droop_rate_v_per_s=0.4e6)  # 3.6 V per period > 11.3 - 8.2 V
     r = _measure(b)
-    assert r.shortest_on_time_s is None
-    assert "no low-side on-time refreshes it" in r.reasons["shortest_on_time_s"]
+    assert r.refresh_on_time_min_s is None
+    assert "no low-side on-time refreshes it" in r.reasons["refresh_on_time_min_s"]
 
 
 def test_a_recovery_too_straight_to_tell_tau_uses_the_design_or_says_why():
     b = bootstrap(seed=4, tau_s=40e-6, ls_on_s=0.5e-6, droop_rate_v_per_s=0.02e6)
     r = _measure(b)
-    assert r.tau_s is None and r.shortest_on_time_s is None
+    assert r.tau_s is None and r.refresh_on_time_min_s is None
     assert "no design time constant" in r.reasons["tau_s"]
     r = _measure(b, tau_s=40e-6, tau_u_s=4e-6)
     assert r.tau_source == "design" and r.tau_s == 40e-6
     assert abs(r.full_v - 11.3) <= max(r.full_uncertainty_v, 0.3)
-    assert r.shortest_on_time_s is not None
+    assert r.refresh_on_time_min_s is not None
 
 
 def test_no_low_side_on_time_is_refused():
@@ -122,7 +122,7 @@ def test_stated_uncertainty_covers_the_truth_in_95_percent_of_trials():
         hits["tau"] += abs(r.tau_s - b.tau_s) <= r.tau_uncertainty_s
         hits["full"] += abs(r.full_v - b.full_v) <= r.full_uncertainty_v
         hits["droop"] += abs(r.droop_v - b.droop_v) <= r.droop_uncertainty_v
-        hits["tmin"] += abs(r.shortest_on_time_s - tmin) <= r.shortest_on_time_uncertainty_s
+        hits["tmin"] += abs(r.refresh_on_time_min_s - tmin) <= r.refresh_on_time_min_uncertainty_s
         hits["end"] += abs(r.lowest_end_v - min(b.ends)) <= r.lowest_end_uncertainty_v
         hits["low"] += abs(r.lowest_v - min(b.bottoms[1:])) <= r.lowest_uncertainty_v
     assert sum(hits.values()) >= 0.95 * n * len(hits), hits

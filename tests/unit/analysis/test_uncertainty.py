@@ -9,10 +9,15 @@ from analysis_synth import rc_pwm, scope
 from bringup.analysis.edges import code_step, measure_edges, noise_rms, state_levels
 from bringup.analysis.uncertainty import (
     crossing_budget,
+    dead_time_budget,
     duration_budget,
+    excursion_budget,
     level_budget,
+    loop_inductance_budget,
     quantisation,
     rectangular,
+    refresh_time_budget,
+    switching_energy_budget,
     temperature_budget,
     thermocouple_tolerance,
     triangular,
@@ -121,3 +126,41 @@ def test_crossing_budget_by_hand():
     )
     assert b.dominant().evaluation == "type A"
     assert crossing_budget(0.05, 0.0).combined == math.inf  # a flat "edge" cannot be timed
+
+
+def test_half_bridge_budgets_by_hand():
+    # Dead time: two crossings of 0.1 ns and 0.2 ns and a 0.1 ns channel skew, root sum of
+    # squares (GUM §5.1.2): sqrt(0.01 + 0.04 + 0.01) = 0.2449 ns [computed].
+    assert dead_time_budget(90e-9, 0.1e-9, 0.2e-9, 0.1e-9).combined == pytest.approx(
+        0.2449e-9, rel=1e-3
+    )
+    # Excursion: 0.3 V noise on 10 000 samples, 0.375 V codes, a ring peak missed by up to
+    # 0.1 V: sqrt(0.09 + (0.3 sqrt(2 ln 1e4))^2/3 + 0.375^2/12 + 0.1^2/3) [computed].
+    b = excursion_budget(-12.0, 0.3, 10_000, 0.375, 0.1)
+    want = math.sqrt(
+        0.09 + (0.3 * math.sqrt(2 * math.log(1e4))) ** 2 / 3 + 0.375**2 / 12 + 0.01 / 3
+    )
+    assert b.combined == pytest.approx(want, rel=1e-12) and b.value == -12.0
+    # L = 1/((2 pi f)^2 C): 1 % on f and 5 % on C give sqrt(2^2 + 5^2) = 5.385 % (GUM §5.1.6).
+    b = loop_inductance_budget(80e6, 0.8e6, 1e-9, 0.05e-9)
+    assert b.value == pytest.approx(1 / ((2 * math.pi * 80e6) ** 2 * 1e-9))
+    assert b.combined / b.value == pytest.approx(0.05385, rel=1e-3)
+    # Refresh time t = tau ln(H/(H - D)): tau 0.5 us, V_f 11.3 V, D 1.8 V, V_req 8.2 V; the
+    # partial derivatives against a central difference of the formula itself (GUM §5.1.3).
+    b = refresh_time_budget(0.5e-6, 0.01e-6, 11.3, 0.05, 1.8, 0.02, 8.2)
+
+    def t(tau, vf, d):
+        return tau * math.log((vf - 8.2) / (vf - 8.2 - d))
+
+    h = 1e-6
+    parts = [
+        (t(0.5e-6 * (1 + h), 11.3, 1.8) - t(0.5e-6 * (1 - h), 11.3, 1.8)) / (1e-6 * h) * 0.01e-6,
+        (t(0.5e-6, 11.3 + h, 1.8) - t(0.5e-6, 11.3 - h, 1.8)) / (2 * h) * 0.05,
+        (t(0.5e-6, 11.3, 1.8 + h) - t(0.5e-6, 11.3, 1.8 - h)) / (2 * h) * 0.02,
+    ]
+    assert b.value == pytest.approx(t(0.5e-6, 11.3, 1.8))
+    assert b.combined == pytest.approx(math.sqrt(sum(p * p for p in parts)), rel=1e-5)
+    assert refresh_time_budget(0.5e-6, 0, 11.3, 0, 3.2, 0, 8.2).value == math.inf
+    # Switching energy: components add in quadrature, the skew's through its sensitivity.
+    b = switching_energy_budget(8e-6, 0.02e-6, 400.0, 0.1e-9, 0.01e-6, 0.01)
+    assert b.combined == pytest.approx(math.sqrt(0.02**2 + 0.04**2 + 0.01**2 + 0.08**2) * 1e-6)
