@@ -123,6 +123,27 @@ class Launcher:
             )
         return tuple(rows)
 
+    def batch_boards(self) -> tuple[tuple[str, str | None], ...]:
+        """The (board name, revision) pairs in the log, the most recently active first: the
+        batches the batch screen can show."""
+        from bringup.store import SessionLog
+
+        with SessionLog.open(self.db_path, create=False, read_only=True) as log:
+            summaries = log.sessions()  # most recent activity first
+        pairs: dict[tuple[str, str | None], None] = {}
+        for s in summaries:
+            pairs.setdefault((s.board_name, s.board_revision), None)
+        return tuple(pairs)
+
+    def batch(self, board: str | None, revision: str | None):
+        """The ``bringup.batch.collect.Batch`` of ``board`` at ``revision`` in this log (read
+        only; ``StoreError``/``InputError`` in one line when the log or the board is not there)."""
+        from bringup.batch.collect import collect_batch
+        from bringup.store import SessionLog
+
+        with SessionLog.open(self.db_path, create=False, read_only=True) as log:
+            return collect_batch(log, board, revision, self.db_label())
+
     def _bench(self, bench_file: str | None, scenario: str | None):
         from bringup.runner import BenchSource
 

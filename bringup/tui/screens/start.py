@@ -129,6 +129,7 @@ class StartScreen(Screen[None]):
         Binding("ctrl+n", "new_session", "start new session", priority=True),
         Binding("ctrl+o", "resume", "resume selected", priority=True),
         Binding("ctrl+r", "reload", "reload list"),
+        Binding("ctrl+b", "batch", "batch of boards", priority=True),
         Binding("ctrl+q", "app.quit_safely", "quit"),
     ]
 
@@ -203,6 +204,12 @@ class StartScreen(Screen[None]):
         row = self._rows[table.cursor_row]
         self.say(f"Opening session {row.id}: connecting to the bench…")
         self._open(("resume", row.id))
+
+    def action_batch(self) -> None:
+        """The batch screen: the serials of a board revision side by side (Ctrl+B)."""
+        from bringup.tui.screens.batch import BatchScreen
+
+        self.app.push_screen(BatchScreen())
 
     def action_new_session(self) -> None:
         """Start a session from the form (Ctrl+N)."""
