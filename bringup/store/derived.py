@@ -159,10 +159,14 @@ def derive(
     return Derived(state, worst(every), stage_verdicts, None, last)
 
 
-def disagreements(row: Mapping[str, Any], derived: Derived) -> list[str]:
+def disagreements(
+    row: Mapping[str, Any], derived: Derived, stage_verdicts_text: str | None = None
+) -> list[str]:
     """Each stored listing column of the ``sessions`` ``row`` that says something other than the
     chain, as ``"verdict: stored 'pass', the chain says 'fail'"``. A column never written
-    (NULL verdicts of a session nothing was logged in) is not a disagreement."""
+    (NULL verdicts of a session nothing was logged in) is not a disagreement.
+    ``stage_verdicts_text``: the stage verdicts as the log writes them in their column, when
+    known; a column holding exactly that text agrees without being parsed."""
     found = []
 
     def differs(name: str, stored: Any, chained: Any) -> None:
@@ -172,7 +176,8 @@ def disagreements(row: Mapping[str, Any], derived: Derived) -> list[str]:
     differs("state", row["state"], derived.state)
     if row["verdict"] is not None:
         differs("verdict", row["verdict"], derived.verdict)
-    if row["stage_verdicts_json"] is not None:
-        differs("stage verdicts", loads(row["stage_verdicts_json"]), derived.stage_verdicts)
+    stored = row["stage_verdicts_json"]
+    if stored is not None and (stage_verdicts_text is None or stored != stage_verdicts_text):
+        differs("stage verdicts", loads(stored), derived.stage_verdicts)
     differs("finished_utc", row["finished_utc"], derived.finished_utc)
     return found

@@ -52,14 +52,14 @@ from bringup.store.content import (
     required,
     time_text,
 )
-from bringup.store.derived import Derived
+from bringup.store.derived import ENTRY_ROWS_SQL, Derived, derive
 from bringup.store.entries import (
     ATTEMPT_OUTCOMES,
     EVENT_KINDS,
     FAILED_OUTCOMES,
 )
 from bringup.store.opening import connect, connect_read_only, default_db_path, translate
-from bringup.store.reading import LogReading
+from bringup.store.reading import LogReading, listing_row
 from bringup.store.waveforms import StoredWaveform, encode_waveform
 
 __all__ = ["SessionLog"]
@@ -239,6 +239,7 @@ class SessionLog(LogReading):
                     "last_activity_utc": created,
                 }
             )
+            self._refresh_listing(self._session_row(session_id))
         return session_id
 
     def _new_session_id(self) -> str:
@@ -267,8 +268,20 @@ class SessionLog(LogReading):
             self._refresh_listing(self._session_row(session_id))
 
     def _refresh_listing(self, row: dict[str, Any]) -> Derived:
-        """Inside a write: store the chain's state, verdicts and times in the listing columns."""
-        derived = self._derived_locked(row)
+        """Inside a write: store the chain's state, verdicts and times in the listing columns,
+        and the session's summary as of its chain's head in ``listings`` (schema 2)."""
+        entries = self._rows(ENTRY_ROWS_SQL, [row["id"], row["id"]])
+        checklist = loads(row["checklist_json"])
+        derived = derive(row["created_utc"], checklist, entries)
+        seq, head = self._chain_tail(row["id"], row["genesis_hash"])
+        # once per head: rewriting the columns without a new entry adds nothing here
+        columns = {"session_id": row["id"], "seq": seq, "chain_hash": head,
+                   **listing_row(checklist, entries, derived)}  # fmt: skip
+        self._conn.execute(
+            f"INSERT OR IGNORE INTO listings ({', '.join(columns)}) "
+            f"VALUES ({', '.join('?' * len(columns))})",
+            list(columns.values()),
+        )
         self._db["sessions"].update(
             row["id"],
             {

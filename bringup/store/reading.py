@@ -7,6 +7,7 @@ transaction, so it sees a consistent snapshot even while another process is writ
 from __future__ import annotations
 
 import contextlib
+import json
 import sqlite3
 import threading
 from collections.abc import Iterator
@@ -18,7 +19,7 @@ import sqlite_utils
 from bringup.errors import StoreError
 from bringup.store import chain
 from bringup.store.chain import ChainReport
-from bringup.store.chain_json import loads
+from bringup.store.chain_json import dumps, loads
 from bringup.store.content import (
     WAVEFORM_SCALE_COLUMNS,
     attempt_content_from_rows,
@@ -188,59 +189,51 @@ class LogReading:
         ``ENTRY_ROWS_SQL``, in chain order) and its parsed checklist snapshot (and that
         snapshot's ``checklist_layout``, when already worked out)."""
         derived = derive(row["created_utc"], checklist, entries, layout)
-        # Each step's latest entry: an attempt's outcome, or a skip or waiver after it.
-        latest: dict[tuple[str, str], str] = {}
-        attempts = 0
-        for entry in entries:
-            kind = entry["kind"]
-            if kind == "attempt":
-                attempts += 1
-                latest[(entry["stage_id"], entry["step_id"])] = entry["outcome"]
-            elif kind in ("skip", "waive"):
-                latest[(entry["stage_id"], entry["step_id"])] = (
-                    "skipped" if kind == "skip" else "waived"
-                )
-        progress: dict[str, int] = {}
-        for outcome in latest.values():
-            progress[outcome] = progress.get(outcome, 0) + 1
-        return SessionSummary(
-            id=row["id"],
-            created_utc=row["created_utc"],
-            board_name=row["board_name"],
-            board_revision=row["board_revision"],
-            serial=row["serial"],
-            operator=row["operator"],
-            checklist_id=row["checklist_id"],
-            state=derived.state,
-            verdict=derived.verdict,
-            stage_verdicts=derived.stage_verdicts,
-            progress=progress,
-            steps_total=_count_steps(checklist),
-            attempts=attempts,
-            last_activity_utc=derived.last_activity_utc,
-            altered=tuple(disagreements(row, derived)),
-            rehearsal=_rehearsal_of(row),
-        )
+        progress, attempts = _progress(entries)
+        return _make_summary(row, derived, progress, _count_steps(checklist), attempts)
 
     def sessions(self) -> list[SessionSummary]:
         """Every session, most recent activity first (state, verdicts and activity from each
         session's chain, not from the stored listing columns).
 
-        A few queries for the whole log, whatever its size: the sessions' listing columns;
-        every chained entry of every session (two table scans), replayed session by session
-        in chain order with ``derive`` as ``session()`` does; and the checklist snapshots, read once
+        A few queries for the whole log, whatever its size. The sessions' listing columns
+        and, for each session, its latest ``listings`` row (its chain's summary, written with
+        each entry) while that row still names the chain's head: the entry at its ``seq``
+        has its ``chain_hash`` and none follows (SQLite checks it through the covering
+        indexes). Any other session (a log written before schema 2) is replayed from its
+        entries: every chained entry (two table scans), replayed session by session in chain
+        order with ``derive`` as ``session()`` does, with the checklist snapshots read once
         per distinct text (sessions of one checklist share it: SQLite compares the others
         with it, and only a session whose snapshot differs sends its own). Only a ``finish``
         event's payload is read (the one ``derive`` opens)."""
         with self._read():
-            rows = self._rows(f"SELECT {_LISTING_COLUMNS} FROM sessions ORDER BY id")
-            texts = self._checklist_texts({row["checklist_id"] for row in rows})
-            by_session: dict[str, list[dict[str, Any]]] = {}
-            for sql in _ALL_ENTRIES_SQL:
-                cursor = self._db.conn.execute(sql)
-                columns = [d[0] for d in cursor.description]
-                for values in cursor:
-                    entry = dict(zip(columns, values, strict=True))
+            cursor = self._db.conn.execute(_LISTED_SQL)
+            names = [d[0] for d in cursor.description]
+            summaries, slow, texts = [], [], _Texts()
+            for values in cursor:
+                row = dict(zip(names, values, strict=True))
+                if row["l_state"] is None:
+                    slow.append(row)
+                else:
+                    summaries.append(_summary_from_listing(row, texts))
+            summaries.extend(self._replayed_locked(slow))
+        summaries.sort(key=lambda s: s.id)
+        summaries.sort(key=lambda s: s.last_activity_utc, reverse=True)
+        return summaries
+
+    def _replayed_locked(self, rows: list[dict[str, Any]]) -> list[SessionSummary]:
+        """The summaries of the sessions ``rows`` replayed from their chained entries."""
+        if not rows:
+            return []
+        wanted = {row["id"] for row in rows}
+        texts = self._checklist_texts({row["checklist_id"] for row in rows})
+        by_session: dict[str, list[dict[str, Any]]] = {}
+        for sql in _ALL_ENTRIES_SQL:
+            cursor = self._db.conn.execute(sql)
+            columns = [d[0] for d in cursor.description]
+            for values in cursor:
+                entry = dict(zip(columns, values, strict=True))
+                if entry["session_id"] in wanted:
                     by_session.setdefault(entry["session_id"], []).append(entry)
         for listed in by_session.values():
             listed.sort(key=lambda entry: entry["seq"])  # chain order
@@ -254,8 +247,6 @@ class LogReading:
             snapshot, layout = parsed[text]
             entries_of = by_session.get(row["id"], [])
             summaries.append(self._summary_of(row, snapshot, entries_of, layout))
-        summaries.sort(key=lambda s: s.id)
-        summaries.sort(key=lambda s: s.last_activity_utc, reverse=True)
         return summaries
 
     def _waveform_descriptions(self, attempt_id: int) -> dict[str, dict[str, Any]]:
@@ -445,13 +436,39 @@ def _rehearsal_of(row: dict[str, Any]) -> bool:
 
 
 _LISTING_COLUMNS = (
-    "id, created_utc, board_name, board_revision, serial, operator, checklist_id, "
-    "state, verdict, stage_verdicts_json, finished_utc, "
+    "sessions.id AS id, created_utc, board_name, board_revision, serial, operator, "
+    "checklist_id, sessions.state AS state, sessions.verdict AS verdict, "
+    "sessions.stage_verdicts_json AS stage_verdicts_json, "
+    "sessions.finished_utc AS finished_utc, "
     # a session on a simulated bench is a rehearsal (the rule of ``rehearsal_bench``)
     "(CASE WHEN json_valid(bench_json) THEN (json_extract(bench_json, '$.kind') IS 'simulated' "
     "OR json_extract(bench_json, '$.simulation.enabled') IS 1) ELSE 0 END) AS rehearsal"
 )
 _SHARED = object()  # key of a checklist id's shared snapshot text in ``_checklist_texts``
+# Each session's listing columns with its latest ``listings`` row (as ``l_*``; NULL when it
+# has none), kept only while that row names the chain's head: the entry at its seq (the
+# genesis at seq 0) has its chain hash, and no entry follows it.
+_LISTED_SQL = (
+    f"SELECT {_LISTING_COLUMNS}, l.state AS l_state, l.verdict AS l_verdict, "
+    "l.stage_verdicts_json AS l_stage_verdicts_json, l.finished_utc AS l_finished_utc, "
+    "l.last_activity_utc AS l_last_activity_utc, l.progress_json AS l_progress_json, "
+    "l.attempts AS l_attempts, l.steps_total AS l_steps_total "
+    # the covering indexes: the listing never reads a row's snapshots (before its other
+    # columns in the row: every overflow page of them would be read)
+    "FROM sessions INDEXED BY sessions_listing "
+    "LEFT JOIN (SELECT session_id, MAX(seq) AS seq FROM listings GROUP BY session_id) h "
+    "ON h.session_id = sessions.id "
+    "LEFT JOIN listings l ON l.session_id = h.session_id AND l.seq = h.seq "
+    "AND l.chain_hash IS COALESCE("
+    "(SELECT a.chain_hash FROM attempts a INDEXED BY attempts_heads "
+    "WHERE a.session_id = l.session_id AND a.seq = l.seq), "
+    "(SELECT e.chain_hash FROM events e INDEXED BY events_heads "
+    "WHERE e.session_id = l.session_id AND e.seq = l.seq), "
+    "CASE WHEN l.seq = 0 THEN sessions.genesis_hash END) "
+    "AND NOT EXISTS (SELECT 1 FROM attempts a WHERE a.session_id = l.session_id AND a.seq > l.seq) "
+    "AND NOT EXISTS (SELECT 1 FROM events e WHERE e.session_id = l.session_id AND e.seq > l.seq) "
+    "ORDER BY sessions.id"
+)
 # ``ENTRY_ROWS_SQL``'s columns for every session at once: each table read in its stored order
 # (a scan; ordering by session would look every row up through the index), grouped by
 # session and put in chain order in Python. An event's payload only where ``derive`` reads it
@@ -462,6 +479,106 @@ _ALL_ENTRIES_SQL = (
     "SELECT session_id, seq, kind, stage_id, step_id, NULL AS outcome, "
     "CASE kind WHEN 'finish' THEN payload_json END AS payload_json, recorded_utc FROM events",
 )
+
+
+def _progress(entries: list) -> tuple[dict[str, int], int]:
+    """Steps counted by their latest entry (an attempt's outcome, or a skip or waiver after
+    it), and the number of attempts, from a session's chained entries in chain order."""
+    latest: dict[tuple[str, str], str] = {}
+    attempts = 0
+    for entry in entries:
+        kind = entry["kind"]
+        if kind == "attempt":
+            attempts += 1
+            latest[(entry["stage_id"], entry["step_id"])] = entry["outcome"]
+        elif kind in ("skip", "waive"):
+            latest[(entry["stage_id"], entry["step_id"])] = (
+                "skipped" if kind == "skip" else "waived"
+            )
+    progress: dict[str, int] = {}
+    for outcome in latest.values():
+        progress[outcome] = progress.get(outcome, 0) + 1
+    return progress, attempts
+
+
+def listing_row(checklist: Any, entries: list, derived: Derived) -> dict[str, Any]:
+    """A ``listings`` row's summary columns: what ``sessions()`` shows of a session, from its
+    chained ``entries`` (``ENTRY_ROWS_SQL``'s, in chain order), its checklist snapshot and
+    ``derive``'s result. The dicts as plain JSON in their order (stages as the checklist lists
+    them); outside the chain, like every listing column, and tied to it by its row."""
+    progress, attempts = _progress(entries)
+    stages = derived.stage_verdicts
+    return {
+        "state": derived.state,
+        "verdict": derived.verdict,
+        "stage_verdicts_json": None if stages is None else json.dumps(stages),
+        "finished_utc": derived.finished_utc,
+        "last_activity_utc": derived.last_activity_utc,
+        "progress_json": json.dumps(progress),
+        "attempts": attempts,
+        "steps_total": _count_steps(checklist),
+    }
+
+
+class _Texts:
+    """Each distinct JSON text of the listing parsed once (sessions of one checklist mostly end
+    in a few shapes), handed out as a copy; a stage-verdicts text also as the log writes it in
+    the ``sessions`` column (canonical), so that an unedited column is compared as text."""
+
+    def __init__(self) -> None:
+        self._parsed: dict[str, Any] = {}
+        self._canonical: dict[str, str] = {}
+
+    def value(self, text: str | None) -> Any:
+        if text is None:
+            return None
+        if text not in self._parsed:
+            self._parsed[text] = json.loads(text)
+        return dict(self._parsed[text])
+
+    def canonical(self, text: str | None) -> str | None:
+        if text is None:
+            return None
+        if text not in self._canonical:
+            self._canonical[text] = dumps(json.loads(text))
+        return self._canonical[text]
+
+
+def _summary_from_listing(row: dict[str, Any], texts: _Texts) -> SessionSummary:
+    """A session's summary from its current ``listings`` row (columns ``l_*`` of ``row``)."""
+    stage_text = row["l_stage_verdicts_json"]
+    derived = Derived(row["l_state"], row["l_verdict"], texts.value(stage_text),
+                      row["l_finished_utc"], row["l_last_activity_utc"])  # fmt: skip
+    return _make_summary(row, derived, texts.value(row["l_progress_json"]), row["l_steps_total"],
+                         row["l_attempts"], texts.canonical(stage_text))  # fmt: skip
+
+
+def _make_summary(
+    row: dict[str, Any],
+    derived: Derived,
+    progress: dict[str, int],
+    steps_total: int | None,
+    attempts: int,
+    stage_verdicts_text: str | None = None,
+) -> SessionSummary:
+    return SessionSummary(
+        id=row["id"],
+        created_utc=row["created_utc"],
+        board_name=row["board_name"],
+        board_revision=row["board_revision"],
+        serial=row["serial"],
+        operator=row["operator"],
+        checklist_id=row["checklist_id"],
+        state=derived.state,
+        verdict=derived.verdict,
+        stage_verdicts=derived.stage_verdicts,
+        progress=progress,
+        steps_total=steps_total,
+        attempts=attempts,
+        last_activity_utc=derived.last_activity_utc,
+        altered=tuple(disagreements(row, derived, stage_verdicts_text)),
+        rehearsal=_rehearsal_of(row),
+    )
 
 
 def _count_steps(checklist: Any) -> int | None:

@@ -20,6 +20,9 @@ Schema 1, in brief (every ``*_json`` column holds strict JSON; ``*_utc`` columns
 - ``waveforms``: (attempt_id, name): raw codes compressed (see ``waveforms.py``) plus scale.
 - ``events``: skip, waive, note, go-back, abort, resume, finish: chained like attempts.
 - ``signatures``: sign-offs added by the record (not part of the chain: they seal its head).
+
+Schema 2 adds ``listings`` (each session's summary as of each chained entry, tied to it by
+``seq`` and ``chain_hash``; append-only) and covering indexes for the session listing.
 """
 
 from __future__ import annotations
@@ -157,8 +160,50 @@ def _to_version_1(conn: sqlite3.Connection) -> None:
         conn.execute(sql)
 
 
+def _to_version_2(conn: sqlite3.Connection) -> None:
+    """The session listing without a replay of every session's chain on every read.
+
+    ``listings``: one row per chained entry (and one at ``seq`` 0 for a new session), written
+    in the entry's own transaction: the session's summary as the chain says it after that
+    entry (state, verdict, stage verdicts in the checklist's order, finish and last-activity
+    times, progress by latest outcome in first-seen order, attempts, steps in the checklist),
+    tied to the entry by its ``seq`` and ``chain_hash``. Append-only like the log. ``sessions()`` uses a
+    session's latest row only while it still names the chain's head (the entry at its ``seq``
+    has its ``chain_hash`` and none follows); any other session is replayed as before, so a
+    log written before this schema lists as it did. Covering indexes give the listing's
+    columns and each chain's head without reading the rows' snapshots."""
+    statements = [
+        """CREATE TABLE listings (
+            session_id TEXT NOT NULL REFERENCES sessions(id),
+            seq INTEGER NOT NULL,
+            chain_hash TEXT NOT NULL,
+            state TEXT NOT NULL,
+            verdict TEXT,
+            stage_verdicts_json TEXT,
+            finished_utc TEXT,
+            last_activity_utc TEXT NOT NULL,
+            progress_json TEXT NOT NULL,
+            attempts INTEGER NOT NULL,
+            steps_total INTEGER,
+            PRIMARY KEY (session_id, seq)
+        )""",
+        "CREATE INDEX attempts_heads ON attempts (session_id, seq, chain_hash)",
+        "CREATE INDEX events_heads ON events (session_id, seq, chain_hash)",
+        "CREATE INDEX sessions_listing ON sessions (id, created_utc, board_name, board_revision, "
+        "serial, operator, checklist_id, state, verdict, stage_verdicts_json, finished_utc, "
+        "last_activity_utc, bench_json, genesis_hash)",
+    ]
+    for action in ("UPDATE", "DELETE"):
+        statements.append(
+            f"CREATE TRIGGER listings_no_{action.lower()} BEFORE {action} ON listings "
+            "BEGIN SELECT RAISE(ABORT, 'listings are append-only: nothing logged is changed'); END"
+        )
+    for sql in statements:
+        conn.execute(sql)
+
+
 #: ``MIGRATIONS[n - 1]`` takes a database from version n - 1 to n.
-MIGRATIONS: list[Callable[[sqlite3.Connection], None]] = [_to_version_1]
+MIGRATIONS: list[Callable[[sqlite3.Connection], None]] = [_to_version_1, _to_version_2]
 CURRENT_VERSION = len(MIGRATIONS)
 
 

@@ -1,7 +1,9 @@
-"""`sessions()` reads the whole log in two queries; each summary equals the one-session read."""
+"""`sessions()` reads the whole log in a few queries; each summary equals the one-session read."""
 
+import json
 import sqlite3
 
+import pytest
 from store_samples import BENCH, BOARD, CHECKLIST, record
 
 OTHER_CHECKLIST = {
@@ -57,3 +59,74 @@ def test_the_listing_equals_each_session_read_on_its_own(log, db_path):
     assert listed[aborted].state == "aborted"
     assert listed[aborted].verdict == "conditional-fail"
     assert any(line.startswith("verdict:") for line in listed[aborted].altered)
+
+
+def _listing_row_count(db_path, sid) -> int:
+    conn = sqlite3.connect(db_path)
+    try:
+        return conn.execute("SELECT count(*) FROM listings WHERE session_id = ?", [sid]).fetchone()[
+            0
+        ]
+    finally:
+        conn.close()
+
+
+def test_each_entry_leaves_a_listing_row_that_is_never_changed(log, db_path):
+    sid = _new(log, "DHS24-0005")
+    record(log, sid, step="first-power")
+    log.record_event(sid, kind="note", operator="Ana Ortiz", reason="probe on TP3")
+    log.set_session_state(sid)  # the columns rewritten without a new entry: no new row
+    # one row at creation (seq 0) and one per chained entry
+    assert _listing_row_count(db_path, sid) == 3
+    conn = sqlite3.connect(db_path)
+    for sql in ("UPDATE listings SET verdict = 'pass'", "DELETE FROM listings"):
+        with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+            with conn:
+                conn.execute(sql)
+    conn.close()
+    assert log.sessions()[0] == log.session(sid).summary
+
+
+def test_a_listing_row_that_does_not_name_the_chain_head_is_not_shown(log, db_path):
+    sid = _new(log, "DHS24-0006")
+    record(log, sid, step="first-power", outcome="fail")
+    # a row added outside bringup, past the chain's head, saying the board passed
+    conn = sqlite3.connect(db_path)
+    with conn:
+        conn.execute(
+            "INSERT INTO listings (session_id, seq, chain_hash, state, verdict, last_activity_utc, "
+            "progress_json, attempts, steps_total) VALUES (?, 99, 'forged', 'finished', 'pass', "
+            "'2099-01-01T00:00:00Z', ?, 3, 3)",
+            [sid, json.dumps({"pass": 3})],
+        )
+    conn.close()
+    (summary,) = log.sessions()
+    assert summary == log.session(sid).summary
+    assert summary.verdict == "fail" and summary.state == "open" and summary.attempts == 1
+
+
+def test_a_log_from_before_the_listings_lists_by_replay_then_by_its_new_rows(tmp_path):
+    from bringup.store import SessionLog
+
+    path = tmp_path / "old.db"
+    with SessionLog.open(path) as log:
+        old = _new(log, "DHS24-0007")
+        record(log, old, step="first-power", outcome="fail")
+        other = _new(log, "DHS24-0008")
+    # the log as schema 1 left it (no listings, no covering indexes)
+    conn = sqlite3.connect(path)
+    with conn:
+        conn.execute("DROP TABLE listings")
+        for index in ("attempts_heads", "events_heads", "sessions_listing"):
+            conn.execute(f"DROP INDEX {index}")
+        conn.execute("PRAGMA user_version = 1")
+    conn.close()
+    with SessionLog.open(path) as log:  # a writer upgrades it: no listing rows yet
+        assert _listing_row_count(path, old) == 0
+        before = {s.id: s for s in log.sessions()}
+        assert before[old] == log.session(old).summary and before[old].verdict == "fail"
+        log.record_event(other, kind="note", operator="Ana Ortiz", reason="after the upgrade")
+        assert _listing_row_count(path, other) == 1 and _listing_row_count(path, old) == 0
+        after = {s.id: s for s in log.sessions()}  # one listed from its row, one replayed
+        for sid in (old, other):
+            assert after[sid] == log.session(sid).summary, sid

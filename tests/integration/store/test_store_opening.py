@@ -54,43 +54,57 @@ def test_a_missing_log_is_not_created_when_reading_only(tmp_path):
     assert not missing.exists()
 
 
-def _v1_log_with_a_session(db_path):
+def _v1_log_with_a_session(db_path, monkeypatch=None):
     with SessionLog.open(db_path) as log:
         sid = log.create_session(
             board=BOARD, checklist=CHECKLIST, bench=BENCH, serial="DHS24-0007", operator="Ana"
         )
         record(log, sid, outcome="fail")
         log.record_event(sid, kind="note", operator="Ana", reason="before the upgrade")
+    if monkeypatch is not None:
+        _back_to_schema_1(db_path)
     return sid
 
 
-def test_migration_from_version_1_keeps_every_entry(db_path, monkeypatch):
-    sid = _v1_log_with_a_session(db_path)
+def _back_to_schema_1(db_path) -> None:
+    """The log as the first release would have left it: what schema 2 added taken away."""
+    conn = sqlite3.connect(db_path)
+    with conn:
+        conn.execute("DROP TABLE listings")
+        for index in ("attempts_heads", "events_heads", "sessions_listing"):
+            conn.execute(f"DROP INDEX {index}")
+        conn.execute("PRAGMA user_version = 1")
+    conn.close()
 
-    def to_version_2(conn: sqlite3.Connection) -> None:
+
+def test_migration_from_version_1_keeps_every_entry(db_path, monkeypatch):
+    sid = _v1_log_with_a_session(db_path, monkeypatch)
+
+    def to_next(conn: sqlite3.Connection) -> None:
         conn.execute("ALTER TABLE attempts ADD COLUMN probe_serial TEXT")
 
-    monkeypatch.setattr(schema_module, "MIGRATIONS", [*schema_module.MIGRATIONS, to_version_2])
+    monkeypatch.setattr(schema_module, "MIGRATIONS", [*schema_module.MIGRATIONS, to_next])
     with SessionLog.open(db_path) as log:
         assert log.verify_chain(sid).ok
         assert [a.outcome for a in log.attempts(sid)] == ["fail"]
         record(log, sid, outcome="pass")
         assert log.verify_chain(sid).ok
     conn = sqlite3.connect(db_path)
-    assert conn.execute("PRAGMA user_version").fetchone()[0] == 2
+    assert conn.execute("PRAGMA user_version").fetchone()[0] == CURRENT_VERSION + 1
     assert "probe_serial" in [c[1] for c in conn.execute("PRAGMA table_info(attempts)")]
     conn.close()
 
 
 def test_a_failing_migration_leaves_version_1_and_its_data(db_path, monkeypatch):
-    sid = _v1_log_with_a_session(db_path)
+    sid = _v1_log_with_a_session(db_path, monkeypatch)
 
     def broken(conn: sqlite3.Connection) -> None:
         conn.execute("ALTER TABLE attempts ADD COLUMN half_done TEXT")
         conn.execute("THIS IS NOT SQL")
 
     monkeypatch.setattr(schema_module, "MIGRATIONS", [*schema_module.MIGRATIONS, broken])
-    with pytest.raises(StoreError, match="from schema 1 to 2 failed .*left at schema 1"):
+    failing = f"from schema 1 to {CURRENT_VERSION + 1} failed .*left at schema 1"
+    with pytest.raises(StoreError, match=failing):
         SessionLog.open(db_path)
     conn = sqlite3.connect(db_path)
     assert conn.execute("PRAGMA user_version").fetchone()[0] == 1
@@ -117,7 +131,10 @@ def test_newer_schema_is_refused_and_left_byte_identical(db_path):
     conn.execute(f"PRAGMA user_version = {CURRENT_VERSION + 1}")
     conn.commit()
     conn.close()
-    _assert_refused_untouched(db_path, r"newer bringup \(log schema 2; this one reads up to 1\)")
+    newer, ours = CURRENT_VERSION + 1, CURRENT_VERSION
+    _assert_refused_untouched(
+        db_path, rf"newer bringup \(log schema {newer}; this one reads up to {ours}\)"
+    )
 
 
 def test_garbage_bytes_are_refused_and_left_byte_identical(tmp_path):
