@@ -16,6 +16,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any, Protocol
 
 from bringup.analysis.batch import Distribution, distribution
@@ -128,22 +129,33 @@ class Batch:
     serials_of: dict[str, tuple[str, ...]]
     notes: tuple[str, ...] = field(default=())
 
+    @cached_property
+    def _index(self) -> tuple[dict[str, Row], dict[str, dict[str, int]]]:
+        """Rows by serial, and each column's position of each serial (built once: a report
+        asks for every cell, and a search per cell would make a large batch quadratic)."""
+        rows = {r.serial: r for r in self.rows}
+        where = {
+            key: {s: i for i, s in enumerate(serials)} for key, serials in self.serials_of.items()
+        }
+        return rows, where
+
     def cell(self, serial: str, key: str) -> tuple[Reading, float, bool] | None:
         """(reading, modified z-score, outlier) of ``serial`` in column ``key``, or None."""
-        row = next((r for r in self.rows if r.serial == serial), None)
-        if row is None or key not in row.readings:
+        rows, where = self._index
+        row = rows.get(serial)
+        if row is None or key not in row.readings or key not in self.stats:
             return None
-        i = self.serials_of[key].index(serial)
+        i = where[key][serial]
         d = self.stats[key]
         return row.readings[key], d.z_scores[i], d.outliers[i]
 
     def outliers_of(self, serial: str) -> list[str]:
         """The column keys where ``serial`` is flagged."""
+        _, where = self._index
         return [
             key
-            for key in self.stats
-            if serial in self.serials_of[key]
-            and self.stats[key].outliers[self.serials_of[key].index(serial)]
+            for key, d in self.stats.items()
+            if serial in where[key] and d.outliers[where[key][serial]]
         ]
 
 

@@ -198,7 +198,8 @@ def _serial_lines(batch: Batch) -> list[str]:
     for row in batch.rows:
         s = row.summary
         total = s.steps_total if s.steps_total is not None else "?"
-        flagged = [c.name for c in batch.columns if c.key in batch.outliers_of(row.serial)]
+        keys = set(batch.outliers_of(row.serial))
+        flagged = [c.name for c in batch.columns if c.key in keys]
         retake = f" (retaken: {len(row.sessions)} sessions)" if row.retaken else ""
         state = "" if s.state == "open" else f" ({s.state})"
         lines.append(
