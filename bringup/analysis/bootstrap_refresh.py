@@ -3,7 +3,7 @@
 Public API (pure numpy, scipy imported lazily for the fit; no I/O; SI units)::
 
     measure_refresh(vbs, dt, t0=0.0, *, low_on, uvlo_v, high_on=None, tau_s=None,
-                    tau_u_s=0.0, full_v=None, margin_v=0.0) -> RefreshResult
+                    tau_u_s=0.0, full_v=None, full_u_v=0.0, margin_v=0.0) -> RefreshResult
     shortest_refresh_time(tau_s, full_v, droop_v, required_v) -> float   # s, inf if none
                                                        # (defined in design.py, re-exported)
 
@@ -28,9 +28,11 @@ Method and sources:
 * tau and V_f from the data: the recoveries of every on-time, each from its start (after a
   guard of 10 % of it for the switching glitch), aligned and averaged, then fitted by least
   squares (``scipy.optimize.curve_fit``, its covariance for u). When the recovery is too
-  nearly straight to tell tau (relative u over 30 %, or V_f's u over 10 % of the swing it
-  recovers), the design's tau is used (``tau_s``,
-  from R and C) and V_f fitted with it (a linear least-squares fit); without one, none.
+  nearly straight to tell both (tau's u over 30 %, or V_f's over 10 % of the swing it
+  recovers), tau is fitted with the design's V_f (``full_v``: the slope (V_f - V_0)/tau
+  still tells it; ``tau_source`` "data with the design's full level"); failing that the
+  design's tau is used (``tau_s``, from R and C; V_f given or fitted with it, a linear
+  least-squares fit); without either, none.
 * Level at an on-time's end: a least-squares quadratic through its last 10 % (at least 8
   samples) evaluated at the end (its standard error for u). Lowest level between refreshes: a
   least-squares line through the middle 90 % of the time from one on-time's end to the high
@@ -216,6 +218,30 @@ def _fit_tau(seg: np.ndarray, dt: float):
     return tau, u_tau, vf, u_vf
 
 
+def _fit_tau_given_full(seg: np.ndarray, dt: float, vf: float, vf_u: float):
+    """(tau, u_tau) with V_f known (the design's full level): V = V_f - (V_f - V_0) exp(-s/tau)
+    in V_0 and tau. A nearly straight recovery still tells tau through its slope,
+    (V_f - V_0)/tau, so this holds where the free fit cannot. u adds V_f's own: dtau/dV_f =
+    tau/(V_f - V_0) (GUM §5.1.3). None when tau is not determined to 30 %."""
+    from scipy.optimize import curve_fit
+
+    s = np.arange(seg.size) * dt
+    k = max(seg.size // 4, 2)
+    slope = (float(seg[k]) - float(seg[0])) / (k * dt)
+    if not (slope > 0 and vf > seg[0]):
+        return None
+    try:
+        popt, pcov = curve_fit(lambda x, v0, tau: _rc(x, vf, v0, tau), s, seg,
+                               p0=(float(seg[0]), (vf - float(seg[0])) / slope), maxfev=4000)  # fmt: skip
+    except (RuntimeError, ValueError):
+        return None
+    v0, tau = float(popt[0]), float(popt[1])
+    if not (np.all(np.isfinite(pcov)) and tau > 0 and vf > v0):
+        return None
+    u_tau = math.hypot(math.sqrt(pcov[1, 1]), tau / (vf - v0) * vf_u)
+    return (tau, u_tau) if u_tau <= MAX_TAU_RELATIVE_U * tau else None
+
+
 def _fit_full(seg: np.ndarray, dt: float, tau: float, sigma: float) -> tuple[float, float]:
     """(V_f, u) with tau known: V = V_f (1 - e) + V_0 e, e = exp(-s/tau), is linear."""
     e = np.exp(-np.arange(seg.size) * dt / tau)
@@ -225,21 +251,32 @@ def _fit_full(seg: np.ndarray, dt: float, tau: float, sigma: float) -> tuple[flo
     return float(coef[0]), math.sqrt(float(cov[0, 0]))
 
 
-def _time_constant(y, refreshes, dt, t0, sigma, n, tau_s, tau_u_s, full_v, reasons):
-    """(tau, u_tau, source, V_f, u_V_f): from the data where it tells, else the design."""
+def _time_constant(y, refreshes, dt, t0, sigma, n, tau_s, tau_u_s, full_v, full_u_v, reasons):
+    """(tau, u_tau, source, V_f, u_V_f): a free fit where the data tell both; else tau from the
+    data with the design's V_f; else the design's tau; else none (with the reason)."""
     seg = _recovery(y, refreshes, dt, t0)
     fit = None if seg is None else _fit_tau(seg, dt)
     if fit is not None:
         return fit[0], fit[1], "data", fit[2], fit[3]
+    if seg is not None and full_v is not None:
+        given = _fit_tau_given_full(seg, dt, float(full_v), float(full_u_v))
+        if given is not None:
+            return (
+                given[0],
+                given[1],
+                "data with the design's full level",
+                float(full_v),
+                float(full_u_v),
+            )
     why = "the recovery is too short or too straight to tell its time constant"
     if tau_s is None:
         reasons["tau_s"] = f"{why}, and no design time constant was given (R and C)"
         return None, None, "none", None, None
     if full_v is not None:
-        return float(tau_s), float(tau_u_s), "design", float(full_v), 0.0
-    vf, u_vf = (
-        _fit_full(seg, dt, float(tau_s), sigma / math.sqrt(n)) if seg is not None else (None, None)
-    )
+        return float(tau_s), float(tau_u_s), "design", float(full_v), float(full_u_v)
+    if seg is None:
+        return float(tau_s), float(tau_u_s), "design", None, None
+    vf, u_vf = _fit_full(seg, dt, float(tau_s), sigma / math.sqrt(n))
     return float(tau_s), float(tau_u_s), "design", vf, u_vf
 
 
@@ -254,6 +291,7 @@ def measure_refresh(
     tau_s: float | None = None,
     tau_u_s: float = 0.0,
     full_v: float | None = None,
+    full_u_v: float = 0.0,
     margin_v: float = 0.0,
 ) -> RefreshResult:
     """Measure the bootstrap's refresh from ``vbs`` (VB - VS, V, ``dt`` s apart from ``t0``).
@@ -282,7 +320,7 @@ def measure_refresh(
     k_end = int(np.argmin(ends))
     bottoms, bottoms_u, droops = _droops(y, refreshes, dt, t0, sigma, high_on)
     tau, u_tau, source, vf, u_vf = _time_constant(
-        y, refreshes, dt, t0, sigma, len(refreshes), tau_s, tau_u_s, full_v, reasons
+        y, refreshes, dt, t0, sigma, len(refreshes), tau_s, tau_u_s, full_v, full_u_v, reasons
     )
     return _result(refreshes, ends, k_end, bottoms, bottoms_u, droops, float(uvlo_v),
                    float(margin_v), tau, u_tau, source, vf, u_vf, reasons)  # fmt: skip

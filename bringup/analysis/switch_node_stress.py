@@ -29,16 +29,21 @@ Methods and sources:
   parabola through it and its neighbours) and the decay from the logarithmic decrement of
   successive half-cycle peaks, delta = ln(x_n/x_{n+1}) (REFERENCES §12 [read]). The fit starts
   at the ring's first peak and ends where the envelope reaches 2 sigma of the noise (at least
-  3 cycles) or at the next edge. zeta = alpha/sqrt(alpha^2 + w_d^2), the natural frequency
+  3 cycles) or at the next edge. The first peak is the largest excursion after the record
+  first crosses the settling level (before it, the edge's own tail); the half cycle to the
+  next opposite extreme bounds the FFT's search (0.5x to 2x its frequency) over about 8
+  cycles, so a later step or a flat tail cannot pull the peak off the ring. zeta = alpha/sqrt(alpha^2 + w_d^2), the natural frequency
   f_n = sqrt(alpha^2 + w_d^2)/(2 pi) (so f_d = f_n sqrt(1 - zeta^2)).
 * Loop inductance: the ring is the loop's L with the switch node's C (C_oss of the switch
   that is off plus the board's), f_n = 1/(2 pi sqrt(L C)), so L = 1/((2 pi f_n)^2 C)
   (REFERENCES §12 [computed from the LC resonance]); u(L)/L = sqrt((2 u(f)/f)^2 + (u(C)/C)^2)
   (GUM §5.1.6, a product of powers).
+* A record whose two levels are within 10 sigma of its noise is refused (no switching).
 * A ring is refused (with the reason) when: fewer than 3 cycles fit between the edges; fewer
   than 4 samples per cycle; its first peak is under 4 sigma of the noise; the fit does not
-  converge, gives a growing or overdamped ring, or leaves residuals over 2.5x the noise (not
-  one damped sinusoid: two loops ringing, or a clipped record).
+  converge, gives a growing or overdamped ring, leaves residuals over 2.5x the noise (not
+  one damped sinusoid: two loops ringing, or a clipped record), or does not stand out of its
+  own uncertainty (amplitude under 5 u, frequency's u over 10 %: a fit to noise).
 * Excursions: the record's extreme samples. Their uncertainty (GUM): one sample's noise
   (type A), the highest of N noisy samples reading high by up to sigma sqrt(2 ln N)
   (rectangular), one ADC code (q/sqrt(12)) and, with a fitted ring, the peak falling between
@@ -73,8 +78,11 @@ MIN_RING_CYCLES = 3.0
 MIN_SAMPLES_PER_CYCLE = 4.0
 MIN_RING_SIGMAS = 4.0
 MAX_RESIDUAL_RATIO = 2.5
+MIN_AMPLITUDE_U = 5.0  # the fitted amplitude over its standard uncertainty, at least
+MAX_FREQUENCY_U = 0.1  # the fitted frequency's relative standard uncertainty, at most
 MAX_RING_SAMPLES = 16384
 MAX_FITS = 64  # rings fitted per direction (evenly spread over the record)
+MIN_SWING_SIGMAS = 10.0  # levels closer than this many noise sigmas: no switching
 
 
 def loop_inductance(natural_frequency_hz: float, capacitance_f: float) -> float:
@@ -191,14 +199,19 @@ class SwitchNodeResult:
 
 
 # ------------------------------------------------------------------------------ ring fit
-def _fft_frequency(d: np.ndarray, dt: float) -> float:
-    """Frequency (Hz) of the highest FFT bin of ``d`` (mean removed, zero-padded 8x), refined
-    by a parabola through the peak bin and its neighbours (common practice)."""
+def _fft_frequency(d: np.ndarray, dt: float, f_lo: float = 0.0, f_hi: float = math.inf) -> float:
+    """Frequency (Hz) of the highest FFT bin of ``d`` between ``f_lo`` and ``f_hi`` (mean
+    removed, zero-padded 8x), refined by a parabola through the peak bin and its neighbours
+    (common practice). 0 when the band holds no bin."""
     n = 8 * d.size
     spec = np.abs(np.fft.rfft(d - d.mean(), n))
-    spec[0] = 0.0
+    freqs = np.arange(spec.size) / (n * dt)
+    band = (freqs >= f_lo) & (freqs <= f_hi) & (freqs > 0)
+    if not band.any():
+        return 0.0
+    spec = np.where(band, spec, 0.0)
     k = int(np.argmax(spec))
-    if 0 < k < spec.size - 1:
+    if 0 < k < spec.size - 1 and spec[k - 1] > 0 and spec[k + 1] > 0:
         a, b, c = spec[k - 1], spec[k], spec[k + 1]
         den = a - 2 * b + c
         k = k + (0.5 * (a - c) / den if den != 0 else 0.0)
@@ -224,6 +237,32 @@ def _log_decrement(d: np.ndarray, half: int, noise_v: float) -> float | None:
     return float(-slope) if slope < 0 else None
 
 
+def _first_peak(d: np.ndarray) -> int:
+    """Index of the ring's first extremum: the largest |d| after ``d`` first crosses the
+    settling level (before that crossing it is still the edge's own tail; after it the ring
+    only decays, so its first extreme is its largest)."""
+    crossed = np.flatnonzero(d * np.sign(d[0]) < 0) if d[0] != 0 else np.array([0])
+    z = int(crossed[0]) if crossed.size else 0
+    # Within the first quarter of the record after the edge: a ring starts at once, and the
+    # extreme of a long flat tail is only noise.
+    span = max(d.size // 4, 16)
+    return z + int(np.argmax(np.abs(d[z : z + span])))
+
+
+def _half_cycle(d: np.ndarray, p: int) -> int | None:
+    """Samples from the first extremum ``p`` to the next one of the other sign (half a ring
+    cycle): found between the crossing back through the settling level and three quarter
+    cycles after it. None when the record never swings back."""
+    sign = 1.0 if d[p] > 0 else -1.0
+    back = np.flatnonzero(d[p + 1 :] * sign < 0)
+    if back.size == 0:
+        return None
+    c1 = p + 1 + int(back[0])
+    quarter = max(c1 - p, 1)
+    q = c1 + int(np.argmax(-sign * d[c1 : c1 + 3 * quarter + 2]))
+    return max(q - p, 1)
+
+
 def _ring_model(s, c, a, b, alpha, w):
     e = np.exp(-alpha * s)
     return c + e * (a * np.cos(w * s) + b * np.sin(w * s))
@@ -234,24 +273,29 @@ def fit_ring(y: np.ndarray, dt: float, settle_v: float, noise_v: float, t0: floa
     the first at ``t0``) around the level it settles to, ``settle_v``, with ``noise_v`` the
     record's noise (V rms). See the module doc for the method and the refusals."""
     y = np.asarray(y, dtype=np.float64)[:MAX_RING_SAMPLES]
-    d = y - settle_v
     floor = max(noise_v, 1e-15)
     if y.size < 16:
         return RingFit(t0, reason=f"only {y.size} samples before the next edge")
-    f0 = _fft_frequency(d, dt)
-    if not f0 > 0:
-        return RingFit(t0, reason="no ring: the record after the edge has no oscillation")
-    per = 1.0 / (f0 * dt)
-    if per < MIN_SAMPLES_PER_CYCLE:
-        return RingFit(t0, reason=f"sampled too slowly: {per:.1f} samples per ring cycle at "
-                       f"{f0:.3g} Hz (need {MIN_SAMPLES_PER_CYCLE:g})")  # fmt: skip
-    p = int(np.argmax(np.abs(d[: max(int(per), 2)])))  # the first peak
+    d = y - settle_v
+    p = _first_peak(d)
     start = t0 + p * dt
-    d = d[p:]
-    if abs(d[0]) < MIN_RING_SIGMAS * floor:
-        return RingFit(start, reason=f"no ring above the noise: first peak {abs(d[0]):.3g} V, "
+    if abs(d[p]) < MIN_RING_SIGMAS * floor:
+        return RingFit(start, reason=f"no ring above the noise: first peak {abs(d[p]):.3g} V, "
                        f"noise {noise_v:.3g} V rms")  # fmt: skip
-    alpha = _log_decrement(d, max(int(round(per / 2)), 1), floor)
+    half0 = _half_cycle(d, p)
+    if half0 is None:
+        return RingFit(start, reason="no ring: the record does not swing back through its "
+                       "settling level after the first peak")  # fmt: skip
+    d = d[p:]
+    # About 8 cycles from the first peak: enough for the FFT and the decrement, and short of a
+    # later step (the body diode handing over to the low side's channel).
+    w = d[: min(d.size, 16 * half0)]
+    f0 = _fft_frequency(w, dt, 0.5 / (2 * half0 * dt), 2.0 / (2 * half0 * dt))
+    per = 1.0 / (f0 * dt) if f0 > 0 else 2.0 * half0
+    if per < MIN_SAMPLES_PER_CYCLE:
+        return RingFit(start, reason=f"sampled too slowly: {per:.1f} samples per ring cycle at "
+                       f"{1 / (per * dt):.3g} Hz (need {MIN_SAMPLES_PER_CYCLE:g})")  # fmt: skip
+    alpha = _log_decrement(w - float(np.median(w)), max(int(round(per / 2)), 1), floor)
     if alpha is None:
         return RingFit(start, reason="no ring above the noise: fewer than two successive "
                        "half-cycle peaks over 3 sigma of the noise (overdamped or too small)")  # fmt: skip
@@ -283,6 +327,17 @@ def _fit(d, dt, settle_v, noise_v, start, f0, alpha0, cycles) -> RingFit:
     if resid > MAX_RESIDUAL_RATIO * noise_v:
         return RingFit(start, residual_v=resid, reason=f"not one damped sinusoid: residuals "
                        f"{resid:.3g} V rms against {noise_v:.3g} V of noise")  # fmt: skip
+    amp = math.hypot(a, b)
+    ab = np.array([a, b]) / max(amp, 1e-300)
+    u_amp = math.sqrt(max(float(ab @ pcov[np.ix_([1, 2], [1, 2])] @ ab), 0.0))
+    u_f = math.sqrt(float(pcov[4, 4])) / (2.0 * math.pi)
+    f_d = w / (2.0 * math.pi)
+    # A fit to noise also leaves noise-sized residuals: the ring must stand out of its own
+    # uncertainty (amplitude over 5 u, frequency to 10 %) to be a ring.
+    if amp < MIN_AMPLITUDE_U * u_amp or u_f > MAX_FREQUENCY_U * f_d:
+        return RingFit(start, residual_v=resid, reason=f"no ring above the noise: the fit's "
+                       f"amplitude {amp:.3g} V +/- {u_amp:.3g} V, frequency {f_d:.3g} Hz "
+                       f"+/- {u_f:.3g} Hz")  # fmt: skip
     wn = math.hypot(alpha, w)
     zeta = alpha / wn
     # d zeta/d alpha = w^2/wn^3, d zeta/d w = -alpha w/wn^3 (GUM §5.2, the fit's covariance).
@@ -290,13 +345,13 @@ def _fit(d, dt, settle_v, noise_v, start, f0, alpha0, cycles) -> RingFit:
     cov = pcov[np.ix_([3, 4], [3, 4])]
     return RingFit(
         start_s=start,
-        frequency_hz=w / (2.0 * math.pi),
-        frequency_u_hz=math.sqrt(float(pcov[4, 4])) / (2.0 * math.pi),
+        frequency_hz=f_d,
+        frequency_u_hz=u_f,
         natural_frequency_hz=wn / (2.0 * math.pi),
         zeta=zeta,
         zeta_u=math.sqrt(max(float(g @ cov @ g), 0.0)),
         decay_s=1.0 / alpha,
-        amplitude_v=math.hypot(a, b),
+        amplitude_v=amp,
         cycles=cycles,
         residual_v=resid,
     )
@@ -407,6 +462,17 @@ def _extremes(y, dt, noise_v, rings, negative_rating_v, reasons):
     return lo, hi, margin
 
 
+def _check_swing(y, low_v: float, high_v: float, what: str) -> None:
+    """Refuse a record whose two levels lie within the noise: a quantised flat record can
+    split into two "levels" one code apart, and its "edges" are noise, not switching."""
+    sigma = noise_rms(np.asarray(y, dtype=np.float64))
+    if high_v - low_v < MIN_SWING_SIGMAS * sigma:
+        raise AnalysisError(
+            f"{what}: no switching: its levels {low_v:.4g} V and {high_v:.4g} V are within "
+            f"{MIN_SWING_SIGMAS:g} x its noise ({sigma:.3g} V rms)"
+        )
+
+
 def measure_switch_node(
     v_sw: np.ndarray,
     dt: float,
@@ -426,6 +492,7 @@ def measure_switch_node(
     excursion of its floating return (V, negative); ``levels``: the IEEE 181 reference levels
     (%) the dv/dt is taken between (outer two) and the edges are timed at."""
     tr, state = find_transitions(v_sw, dt, t0, levels)
+    _check_swing(v_sw, state.low_v, state.high_v, "switch node")
     if len(tr) == 0:
         raise AnalysisError(
             f"no complete switch-node edge between {state.low_v:.4g} V and {state.high_v:.4g} V"

@@ -23,6 +23,9 @@ Method and sources:
   interpolated: sub-sample), each current edge paired with the nearest voltage edge; the
   median over the edges, u = sqrt(pi/2) x max(scatter, one pair's crossing u)/sqrt(n).
 * Deskewing: i_corrected(t) = i(t + skew) by linear interpolation between samples.
+* Levels of each channel: IEEE 181 histogram levels of the record clipped to its 0.5th/99.5th
+  percentiles (a shoot-through spike must not become a "state"); a channel whose levels lie
+  within 10 sigma of its noise is refused (no switching).
 * Energy: E = integral of v_DS i_D dt (REFERENCES §12) by the trapezoid rule, the window's ends
   interpolated. Window rule (``window_pct`` = x, 10 % by default): turn-on from the current
   rising through x % of its on-state level to the voltage falling through x % of its off-state
@@ -49,7 +52,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from bringup.analysis.edges import find_transitions, noise_rms
+from bringup.analysis.edges import find_transitions, noise_rms, state_levels
 from bringup.analysis.uncertainty import COVERAGE_K, switching_energy_budget
 from bringup.errors import AnalysisError
 
@@ -114,11 +117,31 @@ def _median_u(values: np.ndarray, u: np.ndarray) -> tuple[float, float]:
     ) / math.sqrt(n)
 
 
+def _transitions(y: np.ndarray, dt: float, t0: float, pct, what: str):
+    """Transitions of ``y`` with its state levels found on the record clipped to its 0.5th
+    and 99.5th percentiles: a shoot-through or recovery spike (a few samples per period)
+    would otherwise stretch the histogram until the on-state and the off-state share its
+    lower half. Refuses a record whose levels lie within 10 sigma of its noise."""
+    y = np.asarray(y, dtype=np.float64)
+    lo, hi = (float(v) for v in np.percentile(y, [0.5, 99.5]))
+    try:
+        state = state_levels(np.clip(y, lo, hi))
+    except AnalysisError as exc:
+        raise AnalysisError(f"{what}: {exc}") from None
+    sigma = noise_rms(y)
+    if state.amplitude_v < 10.0 * sigma:
+        raise AnalysisError(
+            f"{what}: no switching: its levels {state.low_v:.4g} and {state.high_v:.4g} lie "
+            f"within 10 x its noise ({sigma:.3g} rms)"
+        )
+    return find_transitions(y, dt, t0, pct, state=state)
+
+
 def measure_deskew(v: np.ndarray, i: np.ndarray, dt: float, t0: float = 0.0) -> Deskew:
     """The current channel's delay (s) against the voltage channel from a resistive step
     (``v`` V and ``i`` A, same time base): 50 % instants, paired, median (module doc)."""
-    tv, sv = find_transitions(v, dt, t0)
-    ti, si = find_transitions(i, dt, t0)
+    tv, sv = _transitions(v, dt, t0, (10.0, 50.0, 90.0), "deskew voltage")
+    ti, si = _transitions(i, dt, t0, (10.0, 50.0, 90.0), "deskew current")
     if len(tv) == 0 or len(ti) == 0:
         raise AnalysisError("deskew: no complete edge on the voltage or the current channel")
     k = np.clip(np.searchsorted(tv.t_mid_s, ti.t_mid_s), 1, len(tv) - 1) if len(tv) > 1 else None
@@ -233,8 +256,8 @@ def measure_switching_energy(
         raise AnalysisError("switching energy: the voltage and current records differ in length")
     pct = (float(window_pct), 50.0, 100.0 - float(window_pct))
     i_c = deskewed(i_raw, dt, skew_s)
-    tv, _ = find_transitions(v, dt, t0, pct)
-    ti, _ = find_transitions(i_c, dt, t0, pct)
+    tv, _ = _transitions(v, dt, t0, pct, "switching energy, voltage")
+    ti, _ = _transitions(i_c, dt, t0, pct, "switching energy, current")
     sig_v, sig_i = noise_rms(v), noise_rms(i_raw)
     common = (
         v,

@@ -99,6 +99,17 @@ def test_a_recovery_too_straight_to_tell_tau_uses_the_design_or_says_why():
     assert r.refresh_on_time_min_s is not None
 
 
+def test_a_straight_recovery_reads_tau_through_the_design_full_level():
+    # A 10x too resistive recharge path (tau 7 us where the design says 0.7 us): over a
+    # 0.5 us on-time the recovery is nearly straight, but with V_f = 11.3 V known its slope
+    # (V_f - V_0)/tau still tells tau; the design's (wrong) tau is not used.
+    b = bootstrap(seed=6, tau_s=7e-6, ls_on_s=0.5e-6, droop_rate_v_per_s=0.05e6, periods=20)
+    r = _measure(b, tau_s=0.7e-6, full_v=11.3, full_u_v=0.05)
+    assert r.tau_source == "data with the design's full level"
+    assert abs(r.tau_s - 7e-6) <= r.tau_uncertainty_s
+    assert r.tau_s == pytest.approx(7e-6, rel=0.15)
+
+
 def test_no_low_side_on_time_is_refused():
     b = bootstrap(seed=1)
     lo = gate_on_intervals(np.where(np.arange(b.low.size) > 100, 12.0, 0.0)
