@@ -7,12 +7,14 @@ import pytest
 from bringup.boards.board_file import load_board
 from bringup.checklist.load import load_checklist
 from bringup.runner import BenchSource, SessionRunner
+from bringup.runner.bench_source import UNPACED
 
 
 @pytest.fixture
 def make_runner(tmp_path):
-    """``make_runner(scenario="healthy", bench=None, time_scale=...)``: a new session; closed
-    (supply off, bench stopped) at the end of the test."""
+    """``make_runner(scenario="healthy", bench=None, time_scale=...)``: a new session (on an
+    unpaced simulated bench unless ``time_scale`` is given); closed (supply off, bench
+    stopped) at the end of the test."""
     made = []
 
     def make(
@@ -22,7 +24,9 @@ def make_runner(tmp_path):
         board=None,
         **kw,
     ) -> SessionRunner:
-        source = bench or BenchSource.simulated(scenario, **kw)
+        # unpaced unless a test asks for a pace: the bench's dwells and soak intervals pass on
+        # the simulator's clock, as in a headless run (a paced clock waits wall time for them)
+        source = bench or BenchSource.simulated(scenario, **{"time_scale": UNPACED, **kw})
         runner = SessionRunner.create(board=board or load_board("demo"),
                                       checklist=checklist or load_checklist(),
                                       serial="DHS24-0100", operator="tester", bench=source,

@@ -112,8 +112,15 @@ def test_the_offset_is_the_local_zone_s_in_iso_8601_form():
     # five and a half hours east [memory: POSIX.1, the TZ environment variable]; written as
     # ISO 8601's time shift ±hh:mm [memory: ISO 8601].
     cases = {"IST-5:30": "+05:30", "EST5": "-05:00", "UTC0": "+00:00", "NPT-5:45": "+05:45"}
-    code = "from bringup.runner.bench_link import local_utc_offset; print(local_utc_offset())"
-    for tz, expected in cases.items():
-        out = subprocess.run([sys.executable, "-c", code], env={**os.environ, "TZ": tz},
-                             capture_output=True, text=True, check=True, timeout=60)  # fmt: skip
-        assert out.stdout.strip() == expected, tz
+    # one child process for every zone (time.tzset re-reads TZ), not one per zone
+    code = (
+        "import os, sys, time\n"
+        "from bringup.runner.bench_link import local_utc_offset\n"
+        "for tz in sys.argv[1:]:\n"
+        "    os.environ['TZ'] = tz\n"
+        "    time.tzset()\n"
+        "    print(local_utc_offset())\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code, *cases], env=dict(os.environ),
+                         capture_output=True, text=True, check=True, timeout=60)  # fmt: skip
+    assert out.stdout.split() == list(cases.values())
