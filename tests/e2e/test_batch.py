@@ -157,6 +157,8 @@ def test_html_report(batch_log, batch_json, tmp_path):
     assert droop.count("<circle") == len(HEALTHY) and droop.count("<rect x=") == 2  # + frame
     assert f">{WEAK}</text>" in droop  # the outlier named beside its mark
     assert "max 300 mV" in droop  # the limit drawn and labelled
+    # the retaken serial's history, folded under its name
+    assert "<summary>DHS24-0004: 2 sessions, 16 attempts</summary>" in page
 
 
 def test_board_file_and_revision_select_the_same_batch(batch_log, batch_json):
@@ -197,3 +199,53 @@ def test_missing_or_empty_log_is_one_line(tmp_path):
     bad_board = _bringup("batch", "--db", str(empty), "--board", str(tmp_path / "b.toml"))
     assert bad_board.returncode == 2 and "b.toml" in bad_board.stderr
     assert "Traceback" not in bad_board.stderr + done.stderr + missing.stderr
+
+
+def test_capability_from_twenty_boards(batch_log, tmp_path):
+    # 24 boards: copies of a real healthy session's attempts through the log's write API,
+    # each metric moved by about 1 % (the spread of a batch); Cp/Cpk checked against numpy
+    # with the NIST/SEMATECH 6.1.6 formulas [read; REFERENCES §13], one-sided for a max only
+    rng = np.random.default_rng(24)
+    db = tmp_path / "twenty.db"
+    with SessionLog.open(batch_log.db, create=False, read_only=True) as log:
+        source = log.session(next(s.id for s in log.sessions() if s.serial == "DHS24-0001"))
+    with SessionLog.open(db) as log:
+        for k in range(24):
+            sid = log.create_session(board=source.board, checklist=source.checklist,
+                                     bench=source.bench, serial=f"DHS24-{k + 100:04d}",
+                                     operator="T. Bench")  # fmt: skip
+            for a in source.attempts:
+                metrics = {
+                    name: {**m, "value": m["value"] * (1 + 0.01 * rng.standard_normal())}
+                    if isinstance(m.get("value"), float) else m
+                    for name, m in a.metrics.items()
+                }  # fmt: skip
+                log.record_attempt(sid, stage_id=a.stage_id, step_id=a.step_id,
+                                   operator=a.operator, started_utc=a.started_utc,
+                                   finished_utc=a.finished_utc, instruments=a.instruments,
+                                   settings=a.settings, metrics=metrics,
+                                   predictions=a.predictions, verdicts=a.verdicts,
+                                   outcome=a.outcome)  # fmt: skip
+    done = _bringup("batch", "--db", str(db), "--json")
+    assert done.returncode == 0, done.stderr
+    doc = json.loads(done.stdout)
+    by_key = {m["key"]: m for m in doc["metrics"]}
+
+    def values(key):
+        return np.array([s["values"][key]["value"] for s in doc["serials"]])
+
+    bus = by_key["power-rails.rails-unloaded.bus_level"]  # 22.8 V .. 25.2 V
+    x, s = values(bus["key"]), np.std(values(bus["key"]), ddof=1)
+    cap = bus["capability"]
+    assert cap["n"] == 24
+    assert cap["cp"] == pytest.approx((25.2 - 22.8) / (6 * s))
+    assert cap["cpk"] == pytest.approx(min(25.2 - x.mean(), x.mean() - 22.8) / (3 * s))
+    lo, hi = cap["cp_interval_95"]
+    assert lo < cap["cp"] < hi
+    rise = by_key["edge-speed.edges.switch_rise"]  # <= 200 ns only
+    x = values(rise["key"])
+    assert rise["capability"]["cp"] is None and rise["capability"]["cpl"] is None
+    assert rise["capability"]["cpk"] == pytest.approx((200e-9 - x.mean()) / (3 * np.std(x, ddof=1)))
+    text = _bringup("batch", "--db", str(db)).stdout
+    assert re.search(r"^bus_level \(rails-unloaded\) .* \d+\.\d\d \(\d+\.\d\d\.\.\d+\.\d\d\)", text,
+                     flags=re.M)  # fmt: skip
