@@ -1,8 +1,8 @@
 """The error family every user-facing failure belongs to, in one place for every package.
 
 ``InputError`` and ``ConfigError`` for what the user supplies, ``AnalysisError`` for data the
-measurement core cannot measure, ``StoreError`` for the session log (the instrument faults live
-with the instruments, in ``bringup.instruments.faults``).
+measurement core cannot measure, ``StoreError`` for the session log, ``LabError`` for the shared
+lab database (the instrument faults live with the instruments, in ``bringup.instruments.faults``).
 
 A ``BringupError`` carries a one-line message that names what was wrong and where (file and
 line, option, instrument and command). The command line prints it and exits with status 2; the
@@ -55,4 +55,12 @@ class StoreError(BringupError):
 
     Raised by ``bringup.store``. ``str(err)`` is one line naming the database file (or the
     session) and the problem. When it is raised while opening, the file has not been modified.
+    """
+
+
+class LabError(BringupError):
+    """The lab database cannot do what was asked: unreachable, refused login, a refused push.
+
+    Raised by ``bringup.lab``. ``str(err)`` is one line naming the lab (user, host, port and
+    database: never a password) and the problem. The bench's own log is never changed by it.
     """

@@ -23,4 +23,5 @@ COMMANDS = (
     "keygen",
     "sign",
     "verify",
+    "push",
 )

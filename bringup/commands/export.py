@@ -1,4 +1,5 @@
-"""``bringup export SESSION|--last --format html|pdf|json [--out PATH] [--db PATH]``: the record."""
+"""``bringup export SESSION|--last --format html|pdf|json [--out PATH] [--db PATH | --lab URL]``:
+the record."""
 
 from __future__ import annotations
 
@@ -32,6 +33,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         help="file to write ('-' for standard output; default record-SESSION.FORMAT here)",
     )
     parser.add_argument("--db", type=Path, metavar="PATH", help="the session log (SQLite)")
+    from bringup.commands.log_source import add_lab_option
+
+    add_lab_option(parser)
     parser.set_defaults(func=run)
 
 
@@ -52,9 +56,10 @@ def render(record: dict, fmt: str) -> bytes:
 
 def run(args: argparse.Namespace) -> int:
     """Build the record from the log and write it."""
-    from bringup.record.from_log import open_log, record_from_log
+    from bringup.commands.log_source import open_reader
+    from bringup.record.from_log import record_from_log
 
-    with open_log(args.db, read_only=True) as log:
+    with open_reader(args) as log:
         record = record_from_log(log, chosen_session(log, args))
     data = render(record, args.format)
     session_id = record["content"]["session"]["id"]

@@ -1,4 +1,5 @@
-"""``bringup sessions [--db PATH] [--json] [--last]``: the sessions in the log, most recent first."""
+"""``bringup sessions [--db PATH | --lab URL] [--json] [--last]``: the sessions in the log (or
+the lab database), most recent first."""
 
 from __future__ import annotations
 
@@ -17,6 +18,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         "Reads the log only; never changes it.",
     )
     parser.add_argument("--db", metavar="PATH", help="session log (default: your data directory)")
+    from bringup.commands.log_source import add_lab_option
+
+    add_lab_option(parser)
     parser.add_argument("--json", action="store_true", help="a JSON list of objects")
     parser.add_argument(
         "--last", action="store_true", help="only the session started last (what --last names)"
@@ -56,16 +60,22 @@ def run(args: argparse.Namespace) -> int:
     import json
     from pathlib import Path
 
+    from bringup.commands.log_source import open_reader
     from bringup.commands.run import check_db_option
-    from bringup.store import SessionLog, default_db_path
+    from bringup.store import default_db_path
 
     check_db_option(args)
     path = Path(args.db).expanduser() if args.db else default_db_path()
-    if not path.exists():
+    where = str(path)
+    if args.lab is None and not path.exists():
         rows: list[dict] = []
     else:
-        with SessionLog.open(path, create=False, read_only=True) as log:
+        with open_reader(args) as log:
+            where = str(log.path)
             rows = [_row(s) for s in log.sessions()]
+            if args.lab is not None:  # which bench each came from
+                for r in rows:
+                    r["bench_name"] = log.bench_of(r["id"])
             if args.last and rows:
                 latest = log.latest_session()
                 rows = [r for r in rows if r["id"] == latest]
@@ -73,9 +83,10 @@ def run(args: argparse.Namespace) -> int:
         print(json.dumps(rows))
         return 0
     if not rows:
-        print(f"no sessions in {path}")
+        print(f"no sessions in {where}")
         return 0
-    head = f"{'id':<12} {'board':<34} {'serial':<12} {'progress':>8}  {'verdict':<22} last activity"
+    lead = f"{'bench':<12} " if args.lab is not None else ""
+    head = lead + f"{'id':<12} {'board':<34} {'serial':<12} {'progress':>8}  {'verdict':<22} last activity"
     print(head)
     for r in rows:
         total = r["steps_total"] if r["steps_total"] is not None else "?"
@@ -85,6 +96,7 @@ def run(args: argparse.Namespace) -> int:
             names = ", ".join(line.split(":", 1)[0] for line in r["altered"])
             state += f" [summary columns edited outside bringup: {names}; shown from the chain]"
         verdict = f"rehearsal: {r['verdict']}" if r["rehearsal"] else r["verdict"]
-        print(f"{r['id']:<12} {board[:34]:<34} {r['serial']:<12} {r['steps_done']:>4}/{total:<3}  "
+        lead = f"{r['bench_name'][:12]:<12} " if args.lab is not None else ""
+        print(f"{lead}{r['id']:<12} {board[:34]:<34} {r['serial']:<12} {r['steps_done']:>4}/{total:<3}  "
               f"{verdict:<22} {r['last_activity']}{state}")  # fmt: skip
     return 0

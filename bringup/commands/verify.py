@@ -1,4 +1,4 @@
-"""``bringup verify RECORD [--db PATH] [--key PUB ...]``: check a signed record (JSON, or the
+"""``bringup verify RECORD [--db PATH | --lab URL] [--key PUB ...]``: check a signed record (JSON, or the
 HTML or PDF record carrying it)."""
 
 from __future__ import annotations
@@ -15,13 +15,16 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
         description="Check a record (the .json file, or the .html or .pdf record, which carry "
         "it embedded: then also that every visible page is exactly what the embedded record "
         "renders, so an edited page is named): its canonical form, its content against its seal, "
-        "every signature, and with --db that the log's hash chain is intact, ends at the "
+        "every signature, and with --db (or --lab) that the log's hash chain is intact, ends at the "
         "record's chain head and holds the same content, and that the session's stored state "
         "and verdict agree with its chain. Exit 0 only when all of it holds; "
         "otherwise one line per finding and exit 1.",
     )
     parser.add_argument("record", type=Path, metavar="RECORD", help="a .json, .html or .pdf record")
     parser.add_argument("--db", type=Path, metavar="PATH", help="the session log to compare with")
+    from bringup.commands.log_source import add_lab_option
+
+    add_lab_option(parser)
     parser.add_argument(
         "--key",
         type=Path,
@@ -42,10 +45,12 @@ def run(args: argparse.Namespace) -> int:
     trusted = [load_public_key(p) for p in args.key]
     carried = read_carried(args.record)
     record, data = carried.record, carried.data
-    if args.db is not None:
-        from bringup.record.from_log import open_log
+    compared = None  # where the log compared with came from
+    if args.db is not None or args.lab is not None:
+        from bringup.commands.log_source import open_reader, source_name
 
-        with open_log(args.db, read_only=True) as log:
+        with open_reader(args) as log:
+            compared = source_name(args, log)
             findings = verify_record(record, data, log=log, trusted=trusted)
     else:
         findings = verify_record(record, data, trusted=trusted)
@@ -67,8 +72,8 @@ def run(args: argparse.Namespace) -> int:
         print("bench: SIMULATED, a rehearsal: no board was measured")
     else:
         print("bench: real instruments")
-    if args.db is not None:
-        print(f"log {args.db}: chain intact, head matches, content matches, summary matches")
+    if compared is not None:
+        print(f"{compared}: chain intact, head matches, content matches, summary matches")
     if not trusted:
         print("note: no --key given, so the signers' keys were not checked against trusted keys")
     return 0
