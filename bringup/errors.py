@@ -58,8 +58,11 @@ class StoreError(BringupError):
     """
 
 
-class LabError(BringupError):
+class LabError(StoreError):
     """The lab database cannot do what was asked: unreachable, refused login, a refused push.
+
+    A ``StoreError``: the lab is a log too, and code that reads "a log" (the record's checks)
+    treats both alike.
 
     Raised by ``bringup.lab``. ``str(err)`` is one line naming the lab (user, host, port and
     database: never a password) and the problem. The bench's own log is never changed by it.

@@ -86,7 +86,10 @@ def run(args: argparse.Namespace) -> int:
         print(f"no sessions in {where}")
         return 0
     lead = f"{'bench':<12} " if args.lab is not None else ""
-    head = lead + f"{'id':<12} {'board':<34} {'serial':<12} {'progress':>8}  {'verdict':<22} last activity"
+    head = (
+        lead
+        + f"{'id':<12} {'board':<34} {'serial':<12} {'progress':>8}  {'verdict':<22} last activity"
+    )
     print(head)
     for r in rows:
         total = r["steps_total"] if r["steps_total"] is not None else "?"

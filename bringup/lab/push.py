@@ -144,7 +144,9 @@ def push_log(
         problem, rows = _send_session(log, conn, target, log_id, session_id)
         if problem is not None:
             report.refused.append(problem)
-        elif rows is not None:
+        elif rows is None:  # another push of this log sent it meanwhile
+            report.unchanged += 1
+        else:
             report.sent.append((session_id, rows.entries(), len(rows.signatures)))
             if on_sent is not None:
                 on_sent(session_id, rows.entries(), len(rows.signatures))
@@ -162,7 +164,8 @@ def _send_session(
     log: Any, conn: Any, target: LabTarget, log_id: str, session_id: str
 ) -> tuple[str | None, SessionRows | None]:
     """Verify the session's chain here, then send what the lab lacks in one transaction.
-    Returns (a refusal, None) or (None, the rows sent)."""
+    Returns (a refusal, None), (None, the rows sent) or (None, None) when the lab already
+    holds it all (another push of the same log got there first)."""
     verified = log.verify_chain(session_id)
     if not verified.ok:
         return f"{verified.problem} (field {verified.field}); the session was not sent", None
@@ -185,6 +188,8 @@ def _send_session(
             up_to_seq=verified.entries,
             with_snapshot=held is None,
         )
+        if rows.is_empty():
+            return None, None
         _insert_rows(conn, log_id, rows)
     return None, rows
 

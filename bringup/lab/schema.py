@@ -221,13 +221,20 @@ def installed_version(conn: Any) -> int | None:
 def ensure_schema(conn: Any) -> bool:
     """Create the lab tables when the database has none (one transaction, under an advisory
     lock so that two benches' first pushes do not both try). Returns True when it created
-    them. A newer version of the tables is refused by the caller (``installed_version``)."""
+    them. A newer version of the tables is refused by the caller (``installed_version``).
+
+    ``conn`` is in autocommit mode: the lock is taken in a statement of its own, so the check
+    after it runs in a new transaction, which sees tables another push committed meanwhile
+    (inside one transaction the catalog seen after an advisory lock may be older)."""
     if installed_version(conn) is not None:
         return False
-    with conn.transaction():
-        conn.execute("SELECT pg_advisory_xact_lock(%s)", [_SETUP_LOCK])
+    conn.execute("SELECT pg_advisory_lock(%s)", [_SETUP_LOCK])
+    try:
         if installed_version(conn) is not None:  # the other bench made them meanwhile
             return False
-        for sql in _statements():
-            conn.execute(sql)
+        with conn.transaction():
+            for sql in _statements():
+                conn.execute(sql)
+    finally:
+        conn.execute("SELECT pg_advisory_unlock(%s)", [_SETUP_LOCK])
     return True

@@ -192,9 +192,7 @@ def positions(log: LogReading) -> dict[str, Position]:
     tail = {row["session_id"]: (row["seq"], row["chain_hash"]) for row in tails}
     top = {row["session_id"]: row["top"] for row in signed}
     return {
-        row["id"]: Position(
-            *tail.get(row["id"], (0, row["genesis_hash"])), top.get(row["id"], 0)
-        )
+        row["id"]: Position(*tail.get(row["id"], (0, row["genesis_hash"])), top.get(row["id"], 0))
         for row in sessions
     }
 
@@ -208,9 +206,7 @@ def log_identity(log: LogReading) -> str | None:
     for its whole life, wherever the file is copied, and two logs started apart never share
     it. It lets a lab keep two benches' sessions apart even when their short ids are equal."""
     with log._read():
-        first = log._rows(
-            "SELECT genesis_hash FROM sessions ORDER BY created_utc, rowid LIMIT 1"
-        )
+        first = log._rows("SELECT genesis_hash FROM sessions ORDER BY created_utc, rowid LIMIT 1")
     if not first:
         return None
     value = first[0]["genesis_hash"]
