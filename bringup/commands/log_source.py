@@ -32,11 +32,12 @@ def open_reader(args: argparse.Namespace) -> Any:
     else the log opened read-only (``--db``, or the default log). Never creates anything."""
     lab = getattr(args, "lab", None)
     if lab is not None:
-        if getattr(args, "db", None) is not None:
-            raise InputError("--db and --lab: give one (the bench's log or the lab database)")
         from bringup.lab import LabReading, resolve_lab
 
-        return LabReading.open(resolve_lab(lab))
+        target = resolve_lab(lab)  # first: a password typed there is the thing to say
+        if getattr(args, "db", None) is not None:
+            raise InputError("--db and --lab: give one (the bench's log or the lab database)")
+        return LabReading.open(target)
     from bringup.record.from_log import open_log
 
     return open_log(args.db, read_only=True)

@@ -68,6 +68,15 @@ FORBIDDEN = {
         "bringup.store.reading",
         "bringup.store.log",
     },
+    # the lab database: the log's rows to and from PostgreSQL, nothing of the bench or the UI
+    "bringup/lab": {
+        "textual",
+        "pyvisa",
+        "bringup.tui",
+        "bringup.runner",
+        "bringup.instruments",
+        "bringup.record",
+    },
     "sim_instruments": {
         "textual",
         "pyvisa",
@@ -102,6 +111,24 @@ def test_package_respects_its_layer(package):
             for bad in FORBIDDEN[package]:
                 if name == bad or name.startswith(bad if bad.endswith(".") else bad + "."):
                     offenders.append(f"{path.relative_to(ROOT)} imports {name}")
+    assert not offenders, "\n".join(offenders)
+
+
+def test_only_the_lab_package_imports_the_postgresql_driver():
+    """psycopg lives in bringup/lab only: a bench without the lab (or its network) never loads
+    it, and the SQL of the lab's tables is in one place."""
+    lab = ROOT / "bringup" / "lab"
+    files = [
+        p for top in ("bringup", "sim_instruments") for p in sorted((ROOT / top).rglob("*.py"))
+    ]
+    assert any(p.is_relative_to(lab) for p in files), "no bringup/lab: the rule checks nothing"
+    offenders = [
+        f"{path.relative_to(ROOT)} imports {name}"
+        for path in files
+        if not path.is_relative_to(lab)
+        for name in _imports(path)
+        if name.split(".")[0] in ("psycopg", "psycopg2", "psycopg_binary")
+    ]
     assert not offenders, "\n".join(offenders)
 
 
