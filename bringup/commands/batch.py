@@ -1,4 +1,4 @@
-"""``bringup batch [--board NAME|FILE] [--revision R] [--db PATH] [--json] [--html FILE]``: the
+"""``bringup batch [--board NAME|FILE] [--revision R] [--db PATH | --lab URL] [--json] [--html FILE]``: the
 serials of one board revision side by side, per metric the spread across the batch, the
 outliers and (from enough boards) Cp/Cpk. Reads the log only."""
 
@@ -35,6 +35,9 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         "--revision", metavar="R", help="the board revision (default: the only one)"
     )
     parser.add_argument("--db", metavar="PATH", help="session log (default: your data directory)")
+    from bringup.commands.log_source import add_lab_option
+
+    add_lab_option(parser)
     parser.add_argument("--json", action="store_true", help="one JSON object")
     parser.add_argument(
         "--html", metavar="FILE", help="also write a self-contained HTML report (no script)"
@@ -48,14 +51,21 @@ def open_reader(args: argparse.Namespace) -> Iterator[tuple[Any, str]]:
     """The log the batch reads, and its name for messages: ``(reader, where)``.
 
     The one place that knows where sessions come from: the SQLite log of ``--db`` (read-only,
-    never created). A reader is any object with ``LogReading``'s ``sessions()``,
-    ``attempts(id)`` and ``signatures(id)`` (``bringup.batch.collect.BatchReader``): another
-    source (a lab database) plugs in here, chosen from ``args``.
+    never created), or with ``--lab`` the lab database (``bringup.lab.LabReading``: every
+    bench's sessions, each chain re-checked on what was read). A reader is any object with
+    ``LogReading``'s ``sessions()``, ``attempts(id)`` and ``signatures(id)``
+    (``bringup.batch.collect.BatchReader``).
     """
     from bringup.commands.run import check_db_option
     from bringup.store import SessionLog, default_db_path
 
     check_db_option(args)
+    if args.lab is not None:
+        from bringup.commands.log_source import open_reader as open_source
+
+        with open_source(args) as lab:
+            yield lab, str(lab.path)
+        return
     path = Path(args.db).expanduser() if args.db else default_db_path()
     with SessionLog.open(path, create=False, read_only=True) as log:
         yield log, str(path)

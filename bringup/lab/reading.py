@@ -178,6 +178,10 @@ class LabReading:
     def _snapshot(self, log_id: str) -> SessionLog:
         if log_id not in self._snapshots:
             snapshot = SessionLog.open(self._folder / f"{log_id[:16]}.db", create=True)
+            # a throwaway copy: no journal file and no waiting for the disk (a crash loses
+            # nothing: the lab still holds every row); measured 2.7 s -> 1.8 s for 20 sessions
+            snapshot._conn.execute("PRAGMA journal_mode = MEMORY")
+            snapshot._conn.execute("PRAGMA synchronous = OFF")
             bench = next(s.bench for s in self._index if s.log_id == log_id)
             # what the snapshot's own messages name: the lab and the bench, not a temporary file
             snapshot._path = f"lab {self._target.label}, bench {bench}"  # type: ignore[assignment]
