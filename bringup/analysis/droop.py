@@ -48,6 +48,9 @@ class DroopMetrics:
     ``extrapolation`` is t_on_max_s / on_time_s. ``droop_rate_uncertainty_v_per_s`` is the
     standard error (k = 1) of the fitted slope. ``warnings``: what the reader should know
     (no edge in the record, a top that bends, a fit covering little of the on-time).
+    ``on_start_uncertainty_s``/``on_end_uncertainty_s``: standard uncertainty of the two
+    instants (0 where the record's start or end, or a given window, sets them);
+    ``bend_rates_v_per_s``: the two halves' droop rates when the top bends, else None.
     """
 
     start_v: float
@@ -68,6 +71,9 @@ class DroopMetrics:
     window: str
     reasons: dict[str, str] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    on_start_uncertainty_s: float = 0.0
+    on_end_uncertainty_s: float = 0.0
+    bend_rates_v_per_s: tuple[float, float] | None = None
 
     def to_dict(self) -> dict:
         out = {f.name: getattr(self, f.name) for f in fields(self)}
@@ -167,10 +173,13 @@ def _departed_index(y: np.ndarray, a: int, b: int, line: _Line) -> int:
 _EDGE_MAX_FRACTION = 0.05
 
 
-def _bend(y: np.ndarray, a: int, b: int, line: _Line, dt: float) -> str | None:
-    """A warning when the top is not straight: the slopes of its two halves differ by more
-    than 25 % of the whole top's and by more than 4 standard errors (a constant-current sag
-    is a line; an RC discharge through a pull-down or a leakage that grows bends it)."""
+def _bend_rates(
+    y: np.ndarray, a: int, b: int, line: _Line, dt: float
+) -> tuple[float, float] | None:
+    """The droop rates (V/s) of the top's two halves when it is not straight: they differ by
+    more than 25 % of the whole top's and by more than 4 standard errors (a constant-current
+    sag is a line; an RC discharge through a pull-down or a leakage that grows bends it);
+    None for a straight top."""
     n = b - a
     if n < 4 * _MIN_TOP_SAMPLES or line.slope == 0:
         return None
@@ -179,9 +188,17 @@ def _bend(y: np.ndarray, a: int, b: int, line: _Line, dt: float) -> str | None:
     se = math.hypot(early.slope_se, late.slope_se)
     if abs(diff) <= 0.25 * abs(line.slope) or abs(diff) <= 4.0 * se:
         return None
+    return -early.slope / dt, -late.slope / dt
+
+
+def _bend(y: np.ndarray, a: int, b: int, line: _Line, dt: float) -> str | None:
+    """A warning when the top is not straight (``_bend_rates``)."""
+    rates = _bend_rates(y, a, b, line, dt)
+    if rates is None:
+        return None
     return (
-        f"the top is not a straight sag ({-early.slope / dt:.4g} V/s then "
-        f"{-late.slope / dt:.4g} V/s over its two halves): not a constant current, "
+        f"the top is not a straight sag ({rates[0]:.4g} V/s then "
+        f"{rates[1]:.4g} V/s over its two halves): not a constant current, "
         "so the longest on-time extrapolated from the line is only a first estimate"
     )
 
@@ -191,7 +208,7 @@ def _find_pulse(y: np.ndarray, dt: float, t0: float, n: int):
     longest high pulse of ``y``; the on-pulse runs between 50 % instants (IEEE 181 pulse
     duration), the top between the edges' ends."""
     try:
-        tr, _ = find_transitions(y, dt, t0, levels=(40.0, 50.0, 60.0))
+        tr, state = find_transitions(y, dt, t0, levels=(40.0, 50.0, 60.0))
     except AnalysisError as exc:
         if not str(exc).startswith("one level only"):
             raise
@@ -201,24 +218,38 @@ def _find_pulse(y: np.ndarray, dt: float, t0: float, n: int):
     pulses = []
     if tr is not None and len(tr):
         rising = tr.direction > 0
+        u = _crossing_u(tr, state, dt)
         for k in range(len(tr)):
             start_idx = int(math.ceil((tr.t_mid_s[k] - t0) / dt))
             if rising[k]:
                 if k + 1 < len(tr):
                     end_idx = int(math.floor((tr.t_mid_s[k + 1] - t0) / dt)) + 1
-                    pulses.append(
-                        (tr.t_mid_s[k], start_idx, end_idx, tr.t_mid_s[k + 1], "edge-to-edge")
-                    )
+                    pulses.append((tr.t_mid_s[k], start_idx, end_idx, tr.t_mid_s[k + 1],
+                                   "edge-to-edge", (u[k], u[k + 1])))  # fmt: skip
                 else:
-                    pulses.append((tr.t_mid_s[k], start_idx, n, t0 + n * dt, "edge-to-end"))
+                    pulses.append((tr.t_mid_s[k], start_idx, n, t0 + n * dt, "edge-to-end",
+                                   (u[k], 0.0)))  # fmt: skip
             elif k == 0:
                 end_idx = int(math.floor((tr.t_mid_s[k] - t0) / dt)) + 1
-                pulses.append((t0, 0, end_idx, tr.t_mid_s[k], "start-to-edge"))
+                pulses.append((t0, 0, end_idx, tr.t_mid_s[k], "start-to-edge", (0.0, u[k])))
     else:
-        pulses.append((t0, 0, n, t0 + n * dt, "whole-record"))
+        pulses.append((t0, 0, n, t0 + n * dt, "whole-record", (0.0, 0.0)))
     if not pulses:
         raise AnalysisError("no on-pulse in the record")
     return max(pulses, key=lambda p: p[3] - p[0])
+
+
+def _crossing_u(tr, state, dt: float) -> list[float]:
+    """Standard uncertainty (s) of each edge's 50 % instant: the noise at the level over the
+    edge's slope there (a time error of u(y)/slope, REFERENCES §10 [computed]), the slope
+    taken over the 40-60 % span, and the interpolation within one sample interval
+    (rectangular, dt/sqrt(12)), in quadrature."""
+    noise = max(state.low_noise_v, state.high_noise_v)
+    out = []
+    for duration in tr.duration_s:
+        slope = 0.2 * abs(state.amplitude_v) / max(float(duration), dt)
+        out.append(math.hypot(noise / slope if slope > 0 else 0.0, dt / math.sqrt(12.0)))
+    return out
 
 
 def _given_window(on_window_s, dt: float, t0: float, n: int):
@@ -235,7 +266,7 @@ def _given_window(on_window_s, dt: float, t0: float, n: int):
             f"the on-window {on_start:g} s to {on_end:g} s is outside the record "
             f"({t0:g} s to {t0 + n * dt:g} s)"
         )
-    return on_start, a, b, on_end, "given"
+    return on_start, a, b, on_end, "given", (0.0, 0.0)
 
 
 def _top_span(
@@ -353,9 +384,9 @@ def measure_droop(
     y = np.asarray(y)
     dt, t0, n = float(dt), float(t0), int(np.asarray(y).size)
     if on_window_s is not None:
-        on_start, a, b, on_end, window = _given_window(on_window_s, dt, t0, n)
+        on_start, a, b, on_end, window, on_u = _given_window(on_window_s, dt, t0, n)
     else:
-        on_start, a, b, on_end, window = _find_pulse(y, dt, t0, n)
+        on_start, a, b, on_end, window, on_u = _find_pulse(y, dt, t0, n)
     a_fit, b_fit = _top_span(y, dt, a, b, window, settle_s)
     line = _fit_line(y, a_fit, b_fit)
 
@@ -389,4 +420,7 @@ def measure_droop(
         window=window,
         reasons=reasons,
         warnings=warnings,
+        on_start_uncertainty_s=float(on_u[0]),
+        on_end_uncertainty_s=float(on_u[1]),
+        bend_rates_v_per_s=_bend_rates(y, a_fit, b_fit, line, dt),
     )

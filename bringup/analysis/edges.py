@@ -49,10 +49,12 @@ __all__ = [
     "EdgeMetrics",
     "StateLevels",
     "Transitions",
+    "Trough",
     "find_transitions",
     "measure_edges",
     "negative_excursion",
     "noise_rms",
+    "settled_trough",
     "slow_reading_fraction",
     "state_levels",
 ]
@@ -182,6 +184,7 @@ class EdgeMetrics:
     overshoot_max_uncertainty_pct: float | None = None
     undershoot_uncertainty_pct: float | None = None
     undershoot_max_uncertainty_pct: float | None = None
+    level_uncertainty_pct: float | None = None
     warnings: list[str] = field(default_factory=list)
 
     def to_dict(self, per_edge: bool = False) -> dict:
@@ -551,6 +554,49 @@ def negative_excursion(y: np.ndarray) -> float:
     return min(low, 0.0)
 
 
+@dataclass(frozen=True)
+class Trough:
+    """The lowest point of a record's settled response (V): ``value_v``, the standard
+    uncertainty of its fit ``u_fit_v`` (V, k = 1), the record's noise ``noise_v`` (V rms),
+    how many troughs it is the lowest of (``candidates``) and ``method``: "settled" (after a
+    falling edge, by the settled-peak method) or "lowest sample" (a dip no edge explains)."""
+
+    value_v: float
+    u_fit_v: float
+    noise_v: float
+    candidates: int
+    method: str
+
+
+def settled_trough(y: np.ndarray, m: EdgeMetrics) -> Trough:
+    """The lowest point of the record's settled response (V), not its lowest noisy sample.
+
+    After each falling edge the trough is the undershoot found by the settled-peak method
+    (``_settled_peak``: located and estimated on disjoint samples, so the noise that chose it
+    does not bias it), or the low state level when the edge does not undershoot; the lowest
+    of them is taken. The lowest noisy sample of N reads about sigma sqrt(2 ln N) low (the
+    expected extreme of N normal draws, common practice): if the record dips further below
+    that trough than 3 sigma more, the dip is something no falling edge explains (a spike
+    elsewhere) and the lowest sample itself is reported."""
+    tr = m.transitions
+    sigma = noise_rms(np.asarray(y))
+    amp = m.amplitude_v
+    u_level = (m.level_uncertainty_pct or 0.0) * amp / 100.0
+    values, us = [], []
+    if tr is not None:
+        falling = tr.direction < 0
+        for ab, u in zip(tr.aberration_pct[falling], tr.aberration_u_pct[falling], strict=True):
+            values.append(m.low_level_v - float(ab) * amp / 100.0)
+            u_fit = float(u) * amp / 100.0 if ab > 0 else sigma / math.sqrt(max(m.samples, 1))
+            us.append(math.hypot(u_fit, u_level))
+    n = max(int(np.asarray(y).size), 2)
+    lowest = float(m.min_v)
+    if not values or lowest < min(values) - sigma * (math.sqrt(2.0 * math.log(n)) + 3.0):
+        return Trough(lowest, sigma, sigma, n, "lowest sample")
+    k = int(np.argmin(values))
+    return Trough(float(values[k]), float(us[k]), sigma, len(values), "settled")
+
+
 def _stats(values: np.ndarray) -> tuple[float | None, float | None, float | None]:
     if values.size == 0:
         return None, None, None
@@ -724,6 +770,7 @@ def _edge_shape(
         "overshoot_max_uncertainty_pct": u_over[1],
         "undershoot_uncertainty_pct": u_under[0],
         "undershoot_max_uncertainty_pct": u_under[1],
+        "level_uncertainty_pct": u_level,
     }
 
 

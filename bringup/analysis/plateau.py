@@ -34,7 +34,11 @@ _MIN_RUN_SAMPLES = 3
 class PlateauResult:
     """A Miller plateau: ``voltage_v`` (V), ``duration_s`` (s), ``start_s`` of the first one.
 
-    ``edges_with_plateau`` of ``edges_examined`` rising edges showed a shelf.
+    ``edges_with_plateau`` of ``edges_examined`` rising edges showed a shelf. For its
+    uncertainty (``budgets.plateau_budget``): each shelf's voltage ``edge_voltages_v``, its
+    sample count ``shelf_samples``, the largest drift along a shelf ``drift_v`` (V, a line
+    fitted over it), the largest gap between a shelf's median and its middle half's
+    ``edge_bias_v`` (V: the ramps' samples counted in), the record's noise ``noise_v``.
     """
 
     voltage_v: float
@@ -42,6 +46,11 @@ class PlateauResult:
     start_s: float
     edges_with_plateau: int
     edges_examined: int
+    edge_voltages_v: tuple[float, ...] = ()
+    shelf_samples: tuple[int, ...] = ()
+    drift_v: float = 0.0
+    edge_bias_v: float = 0.0
+    noise_v: float = 0.0
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -103,6 +112,15 @@ def _shelf(seg: np.ndarray, amp: float, slope_mean: float, dt: float, noise: flo
     while e < n and inside[e]:
         e += 1
     volts = float(np.median(seg[s:e]))
+    # For the budget: the shelf's drift along it (a least-squares line through it) and how far
+    # its median sits from the median of its middle half (where no ramp sample reaches).
+    shelf = seg[s:e].astype(np.float64)
+    x = np.arange(shelf.size) - (shelf.size - 1) / 2.0
+    sxx = float(np.dot(x, x))
+    drift = abs(float(np.dot(x, shelf)) / sxx * shelf.size) if sxx > 0 else 0.0
+    quarter = shelf.size // 4
+    core = shelf[quarter : shelf.size - quarter] if shelf.size >= 8 else shelf
+    bias = abs(volts - float(np.median(core)))
     # The shelf starts where the incoming ramp, extended, meets the plateau voltage (and ends
     # where the outgoing ramp leaves it): remove the time the ramps spend inside the band.
     m = max(2, width // 2)
@@ -115,7 +133,7 @@ def _shelf(seg: np.ndarray, amp: float, slope_mean: float, dt: float, noise: flo
         rate = (light[e + m] - light[e]) / m
         if rate > 0:
             end = max(min(e - (light[e] - volts) / rate, float(e)), start + 1.0)
-    return start, end, volts
+    return start, end, volts, (drift, bias, e - s)
 
 
 def find_miller_plateau(vgs: np.ndarray, dt: float, t0: float = 0.0) -> PlateauResult | None:
@@ -139,15 +157,20 @@ def find_miller_plateau(vgs: np.ndarray, dt: float, t0: float = 0.0) -> PlateauR
         slope_mean = 0.8 * amp / max(tr.duration_s[k], dt)
         hit = _shelf(vgs[i0:i1], amp, slope_mean, dt, noise)
         if hit is not None:
-            s, e, volts = hit
-            found.append((volts, (e - s) * dt, t0 + (i0 + s) * dt))
+            s, e, volts, extra = hit
+            found.append((volts, (e - s) * dt, t0 + (i0 + s) * dt, *extra))
     if not found:
         return None
-    volts, durations, starts = (np.array(v) for v in zip(*found, strict=True))
+    volts, durations, starts, drift, bias, count = (np.array(v) for v in zip(*found, strict=True))
     return PlateauResult(
         voltage_v=float(np.median(volts)),
         duration_s=float(np.median(durations)),
         start_s=float(starts[0]),
         edges_with_plateau=len(found),
         edges_examined=int(rising.size),
+        edge_voltages_v=tuple(float(v) for v in volts),
+        shelf_samples=tuple(int(c) for c in count),
+        drift_v=float(drift.max()),
+        edge_bias_v=float(bias.max()),
+        noise_v=float(noise),
     )

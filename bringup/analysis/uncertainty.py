@@ -69,15 +69,46 @@ def type_a(std: float, n: int) -> float:
 @dataclass(frozen=True)
 class Component:
     """One line of a budget: ``name`` (what it is, with the figures it came from),
-    ``evaluation`` ("type A" or "type B, rectangular"...), ``u`` its standard uncertainty in
-    the result's unit (sensitivity coefficient applied)."""
+    ``evaluation`` ("type A" or "type B, rectangular"...), ``u`` its contribution to the
+    result's standard uncertainty, |c_i| u(x_i), in the result's unit (GUM §5.1.3).
+
+    ``u_input`` is the input's own standard uncertainty u(x_i) in ``input_unit`` and
+    ``sensitivity`` the coefficient c_i = df/dx_i (result unit per input unit); a component
+    evaluated directly in the result's unit has c_i = 1 and u_input = u (``Component.of``
+    builds one from u(x_i) and c_i)."""
 
     name: str
     evaluation: str
     u: float
+    sensitivity: float = 1.0
+    u_input: float | None = None
+    input_unit: str = ""
+
+    @classmethod
+    def of(
+        cls, name: str, evaluation: str, u_input: float, sensitivity: float, input_unit: str
+    ) -> Component:
+        """A component from its input's standard uncertainty ``u_input`` (``input_unit``) and
+        its sensitivity coefficient (GUM §5.1.3: contribution = |c_i| u(x_i))."""
+        u_x = abs(float(u_input))
+        c = float(sensitivity)
+        return cls(name, evaluation, abs(c) * u_x, c, u_x, input_unit)
+
+    @property
+    def kind(self) -> str:
+        """ "A" (statistical, GUM §4.2) or "B" (other means, GUM §4.3)."""
+        return "A" if self.evaluation.lower().startswith("type a") else "B"
 
     def to_dict(self) -> dict:
-        return {"name": self.name, "evaluation": self.evaluation, "u": self.u}
+        return {
+            "name": self.name,
+            "evaluation": self.evaluation,
+            "type": self.kind,
+            "u": self.u,
+            "sensitivity": self.sensitivity,
+            "u_input": self.u if self.u_input is None else self.u_input,
+            "input_unit": self.input_unit,
+        }
 
 
 @dataclass(frozen=True)
@@ -106,6 +137,7 @@ class Budget:
         return max(self.components, key=lambda c: c.u, default=None)
 
     def to_dict(self) -> dict:
+        main = self.dominant()
         return {
             "quantity": self.quantity,
             "unit": self.unit,
@@ -114,6 +146,7 @@ class Budget:
             "combined": self.combined,
             "k": self.k,
             "expanded": self.expanded,
+            "main": None if main is None else main.name,
         }
 
 

@@ -21,6 +21,8 @@ resource = "TCPIP::192.168.1.21::5025::SOCKET"
 profile = "sim-supply"
 channel = 2                         # the output feeding the board (multi-channel supplies)
 remote_sense = false                # sense leads wired to the board? (where it can be set)
+voltage_accuracy = [0.0005, 0.010]  # optional: read-back +/-(fraction of reading + volts)
+current_accuracy = [0.001, 0.002]   # optional: read-back +/-(fraction of reading + amperes)
 
 [thermometer]
 resource = "TCPIP::192.168.1.22::5025::SOCKET"
@@ -64,7 +66,7 @@ _RESOURCE = re.compile(
 )
 _ROLE_KEYS = {
     "scope": {"channels", "bandwidth_hz", "dc_accuracy"},
-    "supply": {"channel", "remote_sense"},
+    "supply": {"channel", "remote_sense", "voltage_accuracy", "current_accuracy"},
     "thermometer": {"channel", "thermocouple"},
 }
 THERMOCOUPLES = ("B", "E", "J", "K", "N", "R", "S", "T")
@@ -85,6 +87,9 @@ class InstrumentEntry:
     bandwidth_hz: float | None = None  # scope only: its -3 dB bandwidth, when given
     # scope only: DC vertical accuracy as a fraction of full scale (its datasheet), when given
     dc_accuracy: float | None = None
+    # supply only: read-back accuracy +/-(fraction of reading + offset in V or A), when given
+    voltage_accuracy: tuple[float, float] | None = None
+    current_accuracy: tuple[float, float] | None = None
 
     def calibration_overdue(self, today: dt.date) -> bool:
         """Whether the calibration due date has passed on ``today``."""
@@ -175,8 +180,28 @@ def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
         )
     bandwidth = _bandwidth(src, (role, "bandwidth_hz"), table.get("bandwidth_hz"))
     accuracy = _fraction(src, (role, "dc_accuracy"), table.get("dc_accuracy"))
+    volts = _readback(src, (role, "voltage_accuracy"), table.get("voltage_accuracy"), "V")
+    amps = _readback(src, (role, "current_accuracy"), table.get("current_accuracy"), "A")
     return InstrumentEntry(role, resource, table["profile"].strip(), due, channel, sense,
-                           tc.strip().upper(), bandwidth, accuracy)  # fmt: skip
+                           tc.strip().upper(), bandwidth, accuracy, volts, amps)  # fmt: skip
+
+
+def _readback(
+    src: TomlDocument, where: tuple[str, ...], value: Any, unit: str
+) -> tuple[float, float] | None:
+    """An optional read-back accuracy from the supply's datasheet, +/-(fraction of reading +
+    offset): a fraction alone (0.0005), or [fraction, offset in ``unit``]; it enters the GUM
+    budget of every read-back the checklist judges (the bus, the first-power ramp)."""
+    if value is None:
+        return None
+    pair = value if isinstance(value, list) else [value, 0.0]
+    ok = len(pair) == 2 and all(
+        isinstance(v, int | float) and not isinstance(v, bool) and v >= 0 for v in pair
+    )
+    if not ok or pair[0] > 0.5:
+        raise src.error(where, f"must be a fraction of the reading (0 to 0.5), or [fraction, "
+                               f"offset in {unit}] with neither negative, not {value!r}")  # fmt: skip
+    return float(pair[0]), float(pair[1])
 
 
 def _fraction(src: TomlDocument, where: tuple[str, ...], value: Any) -> float | None:

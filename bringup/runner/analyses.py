@@ -92,6 +92,9 @@ class AnalysisInput:
     reading: float | None = None
     reading_metric: str | None = None
     supply_v: float | None = None  # supply output read back during the acquisition (V)
+    # the supply's read-back accuracy by unit ("V", "A"): (fraction of reading, offset), from
+    # the bench file; absent: only the reading's last digit enters its budget
+    supply_accuracy: dict[str, tuple[float, float]] = field(default_factory=dict)
     clipped: dict[str, str] = field(default_factory=dict)  # net -> why its trace is unusable
 
 
@@ -112,6 +115,8 @@ class AnalysisOutput:
     # Expanded uncertainty (k = 2, the metric's unit) computed from the measurement itself;
     # the decision uses the larger of it and the target's declared uncertainty.
     uncertainties: dict[str, float] = field(default_factory=dict)
+    # the GUM budgets behind them (``bringup.analysis.uncertainty.Budget``), by metric
+    budgets: dict = field(default_factory=dict)
 
     def set(self, metric: str, value: float | None, reason: str = "") -> None:
         if value is not None and not math.isfinite(value):
@@ -176,6 +181,36 @@ def _trace(data: AnalysisInput, net: str) -> Trace:
         raise AnalysisError(f"no trace of net {net!r} was acquired") from None
 
 
+def _keep(out: AnalysisOutput, metric: str, budget) -> None:
+    """A metric's GUM budget: its expanded uncertainty (k = 2) to ``out.uncertainties`` (the
+    decision uses the larger of it and the declared one), the budget to
+    ``details["budgets"]`` (the notebook's budget view, the log and the record)."""
+    if out.metrics.get(metric) is None:
+        return
+    out.budgets[metric] = budget
+    out.uncertainties[metric] = budget.expanded
+    out.details.setdefault("budgets", {})[metric] = budget.to_dict()
+
+
+def _spec(trace: Trace):
+    """What the trace's channel is good to (``bringup.analysis.budgets.ChannelSpec``)."""
+    from bringup.analysis.budgets import ChannelSpec
+
+    return ChannelSpec(trace.code_step_v, trace.dc_accuracy_v, trace.ratio_tolerance)
+
+
+def _reading(data: AnalysisInput, metric: str, value: float, unit: str, instrument: str):
+    """The budget of one read-back of the supply (``budgets.reading_budget``): its last digit
+    and the bench file's read-back accuracy for ``unit`` when it gives one."""
+    from bringup.analysis.budgets import last_digit, reading_budget
+
+    fraction, offset = data.supply_accuracy.get(unit, (0.0, 0.0))
+    if unit not in data.supply_accuracy:
+        instrument += " (its accuracy is not in the bench file)"
+    return reading_budget(value, unit, resolution=last_digit(value), accuracy_fraction=fraction,
+                          accuracy_offset=offset, instrument=instrument, quantity=metric)  # fmt: skip
+
+
 # --------------------------------------------------------------------------- analyses
 def first_power(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     """Highest input current over the ramp's steps (A) and the last read-back voltage (V).
@@ -186,37 +221,51 @@ def first_power(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.set("ramp_current", None, data.ramp_stopped or "the ramp did not run")
         out.set("ramp_voltage", None, data.ramp_stopped or "the ramp did not run")
         return
-    out.set("ramp_current", max(s.current_a for s in data.ramp))
+    peak = max(s.current_a for s in data.ramp)
+    out.set("ramp_current", peak)
     out.set("ramp_voltage", data.ramp[-1].voltage_v)
+    _keep(
+        out, "ramp_current", _reading(data, "ramp_current", peak, "A", "supply current read-back")
+    )
+    _keep(out, "ramp_voltage", _reading(data, "ramp_voltage", data.ramp[-1].voltage_v, "V",
+                                        "supply voltage read-back"))  # fmt: skip
     out.details["ramp"] = [s.__dict__ for s in data.ramp]
     if data.ramp_stopped:
         out.warnings.append(data.ramp_stopped)
 
 
-def _level_uncertainty(metric: str, value: float, samples: np.ndarray, trace: Trace,
-                       out: AnalysisOutput) -> None:  # fmt: skip
+def _level_budget(metric: str, value: float, samples: np.ndarray, trace: Trace):
     """The GUM budget of a level (V) read as the mean of ``samples``
     (``bringup.analysis.uncertainty.level_budget``): their scatter (type A), the code step,
-    the channel's DC accuracy and the probe's ratio tolerance from the bench file. The
-    expanded value goes to ``out.uncertainties``, the budget to ``details["budgets"]``.
-    Scatter is taken as independent samples: ripple averaged over whole periods cancels, so
-    this is a fair figure for a mean over many periods."""
+    the channel's DC accuracy and the probe's ratio tolerance from the bench file; None for
+    fewer than 2 samples. Scatter is taken as independent samples: ripple averaged over whole
+    periods cancels, so this is a fair figure for a mean over many periods."""
     from bringup.analysis.uncertainty import level_budget
 
     if samples.size < 2:
-        return
-    budget = level_budget(value, noise_rms_v=float(np.std(samples, dtype=np.float64)),
-                          samples=int(samples.size), code_step_v=trace.code_step_v,
-                          offset_accuracy_v=trace.dc_accuracy_v,
-                          probe_ratio_tolerance=trace.ratio_tolerance,
-                          quantity=metric)  # fmt: skip
-    out.uncertainties[metric] = budget.expanded
-    out.details.setdefault("budgets", {})[metric] = budget.to_dict()
+        return None
+    return level_budget(value, noise_rms_v=float(np.std(samples, dtype=np.float64)),
+                        samples=int(samples.size), code_step_v=trace.code_step_v,
+                        offset_accuracy_v=trace.dc_accuracy_v,
+                        probe_ratio_tolerance=trace.ratio_tolerance, quantity=metric)  # fmt: skip
+
+
+def _level_uncertainty(metric: str, value: float, samples: np.ndarray, trace: Trace,
+                       out: AnalysisOutput) -> None:  # fmt: skip
+    """``_level_budget`` kept for ``metric`` (``_keep``)."""
+    budget = _level_budget(metric, value, samples, trace)
+    if budget is not None:
+        _keep(out, metric, budget)
 
 
 def rail_levels(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
-    """Mean (V) and peak-to-peak ripple (V) of each rail trace (``<net>_level``/``_ripple``)."""
-    from bringup.analysis.rails import measure_rail
+    """Mean (V) and peak-to-peak ripple (V) of each rail trace (``<net>_level``/``_ripple``).
+
+    The ripple is the peak-to-peak of the rail's waveform with the record's random noise
+    taken out (``rails.ripple_estimate``): a raw max - min reads high by some 4 sigma of noise
+    on a 10 000-point record; the raw figure stays in ``details["ripple"]``."""
+    from bringup.analysis.budgets import ripple_budget
+    from bringup.analysis.rails import measure_rail, ripple_estimate
 
     for net in RAIL_NETS:
         if net not in data.traces:
@@ -230,7 +279,10 @@ def rail_levels(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
             continue
         out.set(f"{net}_level", rail.mean_v)
         _level_uncertainty(f"{net}_level", rail.mean_v, trace.volts, trace, out)
-        out.set(f"{net}_ripple", rail.ripple_pp_v)
+        ripple = ripple_estimate(trace.volts)
+        out.set(f"{net}_ripple", ripple.value_v)
+        _keep(out, f"{net}_ripple", ripple_budget(ripple, _spec(trace), f"{net}_ripple"))
+        out.details.setdefault("ripple", {})[net] = ripple.to_dict()
         out.views.append(
             _view(net, trace, {"mean": rail.mean_v, "min": rail.min_v, "max": rail.max_v})
         )
@@ -238,8 +290,16 @@ def rail_levels(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
 
 def meter_reading(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     """The value read on the meter, as the step's reading metric."""
+    from bringup.analysis.budgets import last_digit, reading_budget
+
     metric = data.reading_metric or ""
     out.set(metric, data.reading, "no reading was given")
+    if data.reading is not None:
+        # The meter's own accuracy is not in the bench file: its last digit only (the
+        # decision still uses the larger of this and the target's declared uncertainty).
+        _keep(out, metric, reading_budget(data.reading, "V", resolution=last_digit(data.reading),
+                                          instrument="meter reading (its last digit; the "
+                                          "meter's accuracy not given)", quantity=metric))  # fmt: skip
 
 
 def gate_overdrive(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
@@ -256,27 +316,44 @@ def gate_overdrive(data: AnalysisInput, board: Board, out: AnalysisOutput) -> No
     try:
         v = state_levels(vgs.volts)
         out.set("vgs_on", v.high_v)
-        # the high state's samples: within a tenth of the amplitude of its level
-        top = vgs.volts[np.abs(vgs.volts - v.high_v) < 0.1 * abs(v.high_v - v.low_v)]
-        _level_uncertainty("vgs_on", v.high_v, top, vgs, out)
+        _level_uncertainty("vgs_on", v.high_v, _high_samples(vgs, v.high_v, v.low_v), vgs, out)
         out.views.append(_view("vgs", vgs, {"low": v.low_v, "high": v.high_v}))
     except AnalysisError as exc:
         out.set("vgs_on", None, f"vgs: {exc}")
     if data.supply_v is not None:
         bus_v = data.supply_v
+        out.set("bus_level", bus_v)
+        _keep(out, "bus_level", _reading(data, "bus_level", bus_v, "V", "supply voltage read-back"))
     elif "bus" in data.traces:
-        bus_v = float(np.mean(data.traces["bus"].volts, dtype=np.float64))
+        bus = data.traces["bus"]
+        bus_v = float(np.mean(bus.volts, dtype=np.float64))
+        out.set("bus_level", bus_v)
+        _level_uncertainty("bus_level", bus_v, bus.volts, bus, out)
     else:
         raise AnalysisError("no bus voltage: neither a supply read-back nor a bus trace")
-    out.set("bus_level", bus_v)
     try:
         s = state_levels(sw.volts)
         out.set("switch_high", s.high_v)
         out.set("switch_drop", bus_v - s.high_v)
+        _level_uncertainty("switch_high", s.high_v, _high_samples(sw, s.high_v, s.low_v), sw, out)
+        _switch_drop_budget(out)
         out.views.append(_view("switch", sw, {"low": s.low_v, "high": s.high_v, "bus": bus_v}))
     except AnalysisError as exc:
         out.set("switch_high", None, f"switch: {exc}")
         out.set("switch_drop", None, f"switch: {exc}")
+
+
+def _switch_drop_budget(out: AnalysisOutput) -> None:
+    """switch_drop = bus - switch high: the two budgets with sensitivities +1 and -1 (GUM
+    §5.1.2; the supply's read-back and the scope channel are separate instruments)."""
+    from bringup.analysis.budgets import propagate
+
+    bus, high = out.budgets.get("bus_level"), out.budgets.get("switch_high")
+    value = out.metrics.get("switch_drop")
+    if bus is None or high is None or value is None:
+        return
+    _keep(out, "switch_drop", propagate("switch_drop", "V", value,
+                                        (("bus", bus, 1.0), ("switch high", high, -1.0))))  # fmt: skip
 
 
 def _chain_corrected(
@@ -319,8 +396,8 @@ def _edge_time(metric: str, m: EdgeMetrics, rising: bool, trace: Trace, out: Ana
     budget = duration_budget(value, durations.tolist(), dt_s=trace.dt_s, statistic="max",
                              interpolation_bias=slow_reading_fraction(samples or 0.0),
                              chain_s=chain, quantity=metric)  # fmt: skip
-    out.uncertainties[metric] = budget.expanded
-    out.details.setdefault("budgets", {})[metric] = budget.to_dict()
+    out.metrics[metric] = value  # set again by the caller, with its reason if None
+    _keep(out, metric, budget)
     return value
 
 
@@ -332,9 +409,16 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     node's high level and I = V / R_load from the design's load resistance. When the bench
     file gives the scope's and probes' bandwidths, the 10-90 times have the chain's own rise
     time taken out, and an edge faster than 1.4x it is not judged (``_chain_corrected``)."""
-    from bringup.analysis.plateau import find_miller_plateau
-
     sw, vgs = _trace(data, "switch"), _trace(data, "vgs")
+    _switch_edges(sw, board, out)
+    _vgs_edges(vgs, out)
+
+
+def _switch_edges(sw: Trace, board: Board, out: AnalysisOutput) -> None:
+    """The switch node's part of ``edges``: 10-90 times, overshoot, lowest point, loss."""
+    from bringup.analysis.budgets import overshoot_budget, trough_budget
+    from bringup.analysis.edges import settled_trough
+
     try:
         m = measure_edges(sw.volts, sw.dt_s, sw.t0_s)
         out.warnings.extend(f"switch: {w}" for w in m.warnings)
@@ -347,23 +431,67 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
             "switch_fall", fall, out.reasons.get("switch_fall") or m.reasons.get("fall_time_s", "")
         )
         out.set("switch_overshoot", m.overshoot_max_pct, m.reasons.get("overshoot_pct", ""))
-        if m.overshoot_max_uncertainty_pct is not None:
-            out.uncertainties["switch_overshoot"] = m.overshoot_max_uncertainty_pct
-        out.set("switch_negative_excursion", m.min_v)
-        if rise is not None and fall is not None:
-            volts = m.high_level_v
-            amps = volts / board.design["load_resistance"]
-            out.set("switching_loss", switching_loss(volts, amps, rise, fall,
-                                                     board.design["switching_frequency"]))  # fmt: skip
-        else:
-            out.set("switching_loss", None, "needs both a rising and a falling switch-node edge")
+        if m.overshoot_max_pct is not None and m.transitions is not None:
+            tr = m.transitions
+            up = tr.direction > 0
+            u_fit = float(tr.aberration_u_pct[up][int(np.argmax(tr.aberration_pct[up]))])
+            _keep(out, "switch_overshoot", overshoot_budget(
+                m.overshoot_max_pct, u_fit, m.level_uncertainty_pct or 0.0, "switch_overshoot"))  # fmt: skip
+        # the lowest point of the settled response, not the lowest noisy sample (which reads
+        # some 4 sigma low on a long record)
+        trough = settled_trough(sw.volts, m)
+        out.set("switch_negative_excursion", trough.value_v)
+        _keep(out, "switch_negative_excursion",
+              trough_budget(trough, _spec(sw), "switch_negative_excursion"))  # fmt: skip
+        out.details["switch_trough"] = {"method": trough.method, "lowest_sample_v": m.min_v}
+        _switching_loss(m, sw, rise, fall, board, out)
         out.views.append(
-            _view("switch", sw, {**_edge_levels(m), "min": m.min_v}, _edge_crossings(m))
+            _view("switch", sw, {**_edge_levels(m), "min": trough.value_v}, _edge_crossings(m))
         )
     except AnalysisError as exc:
         for metric in ("switch_rise", "switch_fall", "switch_overshoot", "switching_loss"):
             out.set(metric, None, f"switch: {exc}")
         out.set("switch_negative_excursion", float(np.min(sw.volts)))
+
+
+def _switching_loss(
+    m: EdgeMetrics, sw: Trace, rise, fall, board: Board, out: AnalysisOutput
+) -> None:
+    """P_sw = 1/2 V I (t_r + t_f) f_sw with I = V/R_load (ST A5972D datasheet eq. 23), so
+    P = V^2 (t_r + t_f) f_sw / (2 R_load): its budget carries the rise and fall times'
+    budgets (dP/dt = P/(t_r + t_f)) and the high level's noise and code step (dP/dV = 2P/V);
+    R_load and f_sw are the design's values the prediction is made at (constants here)."""
+    from bringup.analysis.budgets import propagate
+
+    if rise is None or fall is None:
+        out.set("switching_loss", None, "needs both a rising and a falling switch-node edge")
+        return
+    volts = m.high_level_v
+    amps = volts / board.design["load_resistance"]
+    loss = switching_loss(volts, amps, rise, fall, board.design["switching_frequency"])
+    out.set("switching_loss", loss)
+    if "switch_rise" not in out.budgets or "switch_fall" not in out.budgets or volts <= 0:
+        return
+    high = _level_budget("switch high level", volts, _high_samples(sw, volts, m.low_level_v), sw)
+    if high is None:
+        return
+    _keep(out, "switching_loss", propagate("switching_loss", "W", loss, (
+        ("rise time", out.budgets["switch_rise"], loss / (rise + fall)),
+        ("fall time", out.budgets["switch_fall"], loss / (rise + fall)),
+        ("high level", high, 2.0 * loss / volts),
+    )))  # fmt: skip
+
+
+def _high_samples(trace: Trace, high_v: float, low_v: float) -> np.ndarray:
+    """The high state's samples: within a tenth of the amplitude of its level."""
+    return trace.volts[np.abs(trace.volts - high_v) < 0.1 * abs(high_v - low_v)]
+
+
+def _vgs_edges(vgs: Trace, out: AnalysisOutput) -> None:
+    """Vgs's part of ``edges``: 10-90 times and the Miller plateau, with their budgets."""
+    from bringup.analysis.budgets import plateau_budget
+    from bringup.analysis.plateau import find_miller_plateau
+
     try:
         g = measure_edges(vgs.volts, vgs.dt_s, vgs.t0_s)
         out.warnings.extend(f"vgs: {w}" for w in g.warnings)
@@ -379,6 +507,7 @@ def edges(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
             out.reasons["miller_plateau"] = str(exc)
         if plateau is not None:
             out.set("miller_plateau", plateau.voltage_v)
+            _keep(out, "miller_plateau", plateau_budget(plateau, _spec(vgs), "miller_plateau"))
             levels["plateau"] = plateau.voltage_v
         else:
             out.set("miller_plateau", None, out.reasons.get("miller_plateau", "no plateau found"))
@@ -416,7 +545,9 @@ def _supported_on_time(d, floor: float, out: AnalysisOutput) -> None:
 
 def _bootstrap_droop(vbs: Trace, uvlo: float, on_window, out: AnalysisOutput) -> None:
     """V_BS at the end of the on-time found on V_GS (V) and its margin over the driver's
-    falling UVLO ``uvlo`` (V)."""
+    falling UVLO ``uvlo`` (V). The margin's budget is V_BS's: the UVLO is the datasheet's
+    figure the margin is measured against, a constant of the limit."""
+    from bringup.analysis.budgets import droop_budgets, renamed
     from bringup.analysis.droop import measure_droop
 
     if on_window is None:
@@ -428,6 +559,13 @@ def _bootstrap_droop(vbs: Trace, uvlo: float, on_window, out: AnalysisOutput) ->
         b = measure_droop(vbs.volts, vbs.dt_s, uvlo, vbs.t0_s, on_window_s=on_window)
         out.set("vbs_end", b.end_v)
         out.set("uvlo_margin", b.end_v - uvlo)
+        # the instants come from Vgs: their uncertainty carries over
+        vgs_droop = out.details.get("vgs_droop") or {}
+        on_u = (float(vgs_droop.get("on_start_uncertainty_s") or 0.0),
+                float(vgs_droop.get("on_end_uncertainty_s") or 0.0))  # fmt: skip
+        end = droop_budgets(b, vbs.dt_s, _spec(vbs), {"end": "vbs_end"}, on_u)["end"]
+        _keep(out, "vbs_end", end)
+        _keep(out, "uvlo_margin", renamed(end, "uvlo_margin", b.end_v - uvlo))
         out.spans["vbs_end"] = out.spans["uvlo_margin"] = ((b.top_start_s, b.top_end_s),)
         out.views.append(_view("vbs", vbs, {"start": b.start_v, "end": b.end_v, "uvlo": uvlo},
                                window=(b.top_start_s, b.top_end_s)))  # fmt: skip
@@ -477,6 +615,7 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         # The on-time uses the samples that bracket its two crossings (interpolated between).
         out.spans["on_time"] = tuple((t - vgs.dt_s, t + vgs.dt_s) for t in on_window)
         _supported_on_time(d, floor, out)
+        _droop_budgets(d, vgs, out)
         out.views.append(_view("vgs", vgs, {"start": d.start_v, "end": d.end_v, "floor": floor},
                                window=(d.top_start_s, d.top_end_s)))  # fmt: skip
         out.details["vgs_droop"] = d.to_dict()
@@ -485,6 +624,18 @@ def droop(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         for metric in ("vgs_droop", "vgs_start", "vgs_end", "on_time", "on_time_supported"):
             out.set(metric, None, f"vgs: {exc}")
     _bootstrap_droop(vbs, board.design["driver_uvlo_falling"], on_window, out)
+
+
+def _droop_budgets(d, vgs: Trace, out: AnalysisOutput) -> None:
+    """The droop metrics' GUM budgets (``bringup.analysis.budgets.droop_budgets``: the line
+    fit's covariance, the on-pulse's instants, the channel's accuracy)."""
+    from bringup.analysis.budgets import droop_budgets
+
+    names = {"start": "vgs_start", "end": "vgs_end", "droop": "vgs_droop", "on_time": "on_time",
+             "supported": "on_time_supported"}  # fmt: skip
+    on_u = (d.on_start_uncertainty_s, d.on_end_uncertainty_s)
+    for key, budget in droop_budgets(d, vgs.dt_s, _spec(vgs), names, on_u).items():
+        _keep(out, names[key], budget)
 
 
 def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
@@ -497,6 +648,7 @@ def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     t, temp = np.asarray(data.soak_times_s), np.asarray(data.soak_temps_c)
     if temp.size:
         out.set("heatsink_last", float(temp[-1]))
+        _keep(out, "heatsink_last", _last_reading_budget(temp))
     else:
         out.set("heatsink_last", None, "no temperature was read")
     try:
@@ -506,6 +658,10 @@ def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
         out.set("soak_time_constant", None, str(exc))
         return
     out.set("soak_time_constant", fit.tau_s)
+    from bringup.analysis.budgets import time_constant_budget
+
+    _keep(out, "soak_time_constant",
+          time_constant_budget(fit.tau_s, fit.tau_uncertainty_s, "soak_time_constant"))  # fmt: skip
     out.warnings.extend(fit.warnings)
     out.details["soak_fit"] = fit.to_dict()
     if not fit.decided:
@@ -518,18 +674,36 @@ def soak(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     # file does not name a class: the wider, usual one) and the reader's resolution.
     from bringup.analysis.uncertainty import temperature_budget
 
-    steps = np.abs(np.diff(temp))
-    resolution = float(steps[steps > 0].min()) if np.any(steps > 0) else 0.0
-    budget = temperature_budget(fit.final_c, fit.final_c_uncertainty, resolution_c=resolution,
+    budget = temperature_budget(fit.final_c, fit.final_c_uncertainty, resolution_c=_resolution(temp),
                                 quantity="heatsink_final")  # fmt: skip
-    out.uncertainties["heatsink_final"] = budget.expanded
-    out.details.setdefault("budgets", {})["heatsink_final"] = budget.to_dict()
+    _keep(out, "heatsink_final", budget)
     target = board.targets.get("heatsink_final")
     if target is not None and fit.final_c_uncertainty > target.uncertainty:
         out.warnings.append(
             f"the fit's uncertainty ({fit.final_c_uncertainty:.2g} K, k = 2) is wider than the "
             f"target's guard band ({target.uncertainty:.2g} K): soak longer for a firmer verdict"
         )
+
+
+def _resolution(temp: np.ndarray) -> float:
+    """The thermometer's resolution (K): the smallest step between successive readings."""
+    steps = np.abs(np.diff(temp))
+    return float(steps[steps > 0].min()) if np.any(steps > 0) else 0.0
+
+
+def _last_reading_budget(temp: np.ndarray):
+    """The last temperature read (degC): the thermocouple's class 2 tolerance at it, the
+    reader's resolution, and the log's noise (second differences of the readings, type A:
+    one reading; ``edges.noise_rms``)."""
+    from bringup.analysis.edges import noise_rms
+    from bringup.analysis.uncertainty import Component, temperature_budget
+
+    last = float(temp[-1])
+    b = temperature_budget(last, 0.0, resolution_c=_resolution(temp), quantity="heatsink_last")
+    noise = noise_rms(temp) if temp.size >= 3 else 0.0
+    parts = (*b.components, Component(f"the log's noise {noise:.3g} K rms, one reading",
+                                      "type A", noise))  # fmt: skip
+    return type(b)(b.quantity, b.unit, b.value, tuple(c for c in parts if c.u > 0), b.k)
 
 
 ANALYSE: dict[str, Callable[[AnalysisInput, Board, AnalysisOutput], None]] = {

@@ -340,6 +340,17 @@ class BenchLink:
                     clipped[net] = why
         return traces, raw, clipped
 
+    def supply_accuracy(self) -> dict[str, tuple[float, float]]:
+        """The supply's read-back accuracy by unit ("V", "A"): (fraction of reading, offset),
+        as the bench file gives it (absent where it does not)."""
+        entry = self.bench.config.instruments.get("supply")
+        out: dict[str, tuple[float, float]] = {}
+        for unit, name in (("V", "voltage_accuracy"), ("A", "current_accuracy")):
+            value = getattr(entry, name, None)
+            if value is not None:
+                out[unit] = value
+        return out
+
     def _level_accuracy(self, plan: StepPlan) -> dict[str, tuple[float, float]]:
         """Per net of a scope channel: (DC accuracy in V at the channel's range, the probe's
         ratio tolerance as a fraction), from the bench file (0 where it does not say)."""

@@ -233,6 +233,7 @@ def _on_bench(ctx: _Context, answers: StepAnswers | None) -> dict[str, str]:
         if step.reading is not None and ctx.data.reading is None:
             ctx.data.reading = bench.read_meter_volts()
         return identities
+    ctx.data.supply_accuracy = bench.supply_accuracy()
     ramp = supply["ramp_v"]
     first = ramp[0] if ramp else supply["voltage_v"]
     top = max([supply["voltage_v"], *ramp])
@@ -336,9 +337,11 @@ def _judge(ctx: _Context, out: AnalysisOutput) -> tuple[str, tuple[MetricResult,
                                         disagreement(value, p, t.unit, u)))  # fmt: skip
         else:
             unit = units[metric]
+            # reported only: its computed uncertainty is shown, nothing is decided with it
+            u = out.uncertainties.get(metric)
             results.append(MetricResult(metric, metric.replace("_", " "), unit, value, p,
-                                        reason=out.reasons.get(metric),
-                                        disagreement=disagreement(value, p, unit, 0.0)))  # fmt: skip
+                                        uncertainty=u, reason=out.reasons.get(metric),
+                                        disagreement=disagreement(value, p, unit, u or 0.0)))  # fmt: skip
     state = worst_state(outcomes) if outcomes else "pass"
     return state, tuple(results)
 
@@ -494,6 +497,7 @@ class StepExecutor:
             fault=ran.fault,
             absorbed=absorbed,
             diagnosis=ran.diagnosis,
+            budgets=dict(ran.out.details.get("budgets") or {}),
         )
         stored = self.recorder.store(step, result, ctx.raw, ran.out)
         if ran.signalled is not None:

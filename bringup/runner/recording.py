@@ -88,7 +88,12 @@ def _extra(step: Step, result: AttemptResult, out: AnalysisOutput) -> dict:
         "step": step.id,
         "views": [_view_note(v) for v in result.waveforms],
         "reported": {
-            m.id: {"label": m.label, "reason": m.reason, "disagreement": m.disagreement}
+            m.id: {
+                "label": m.label,
+                "reason": m.reason,
+                "disagreement": m.disagreement,
+                "uncertainty": m.uncertainty,
+            }
             for m in result.metrics
             if not m.judged
         },
@@ -198,7 +203,8 @@ def attempt_from_record(record, step: Step) -> AttemptResult:
                                         v.get("reason"), v.get("disagreement")))  # fmt: skip
         else:
             r = reported.get(metric_id, {})
-            metrics.append(MetricResult(metric_id, label, unit, value, p, reason=r.get("reason"),
+            metrics.append(MetricResult(metric_id, label, unit, value, p,
+                                        uncertainty=r.get("uncertainty"), reason=r.get("reason"),
                                         disagreement=r.get("disagreement")))  # fmt: skip
     soak = None
     if extra.get("soak"):
@@ -227,6 +233,7 @@ def attempt_from_record(record, step: Step) -> AttemptResult:
         fault=str(extra.get("fault") or ""),
         absorbed=tuple(extra.get("absorbed") or ()),
         diagnosis=dict((extra.get("details") or {}).get("diagnosis") or {}),
+        budgets=dict((extra.get("details") or {}).get("budgets") or {}),
     )
 
 

@@ -288,6 +288,9 @@ class AttemptResult:
     ``diagnosis``: for a failed step (or a metric far from its prediction), the likely causes
     ranked with their evidence and the next bench check (``Diagnosis.to_dict()`` of
     ``bringup.analysis.diagnosis``: "summary", "notes", "causes"); {} when there is none.
+    ``budgets``: each measured metric's GUM budget by metric id (``Budget.to_dict()`` of
+    ``bringup.analysis.uncertainty``: components with type, standard uncertainty, sensitivity
+    coefficient; combined, k, expanded), {} when none was computed.
     """
 
     step_id: str
@@ -309,6 +312,7 @@ class AttemptResult:
     fault: str = ""
     absorbed: tuple[str, ...] = ()
     diagnosis: dict = field(default_factory=dict)
+    budgets: dict = field(default_factory=dict)
 
     def metric(self, metric_id: str) -> MetricResult:
         """The metric with id ``metric_id``; KeyError if the attempt has none."""
