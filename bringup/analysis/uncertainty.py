@@ -207,6 +207,7 @@ def duration_budget(
     timebase_ppm: float = 0.0,
     interpolation_bias: float = 0.0,
     chain_s: float = 0.0,
+    noise_floor_s: float = 0.0,
     quantity: str = "10-90 % duration",
 ) -> Budget:
     """Budget of an edge duration (s) from ``edge_durations_s`` (every edge of the record).
@@ -222,6 +223,11 @@ def duration_budget(
     between the two corrections (rectangular over half their difference). With one edge
     only, its scatter is unknown: one sample interval / sqrt(6) stands in (two crossings each
     within a triangular +/- dt/2, common practice) and the budget says so.
+
+    ``noise_floor_s``: one edge's standard uncertainty from the record's noise over the
+    edge's local slopes (``edges.crossing_noise``, type B from the noise estimate). The
+    scatter of a few edges is itself uncertain (two edges give s with one degree of freedom,
+    GUM annex G), so the larger of the two stands for one edge's scatter.
     """
     if statistic not in ("median", "max"):
         raise ValueError(f"statistic must be 'median' or 'max', got {statistic!r}")
@@ -230,12 +236,13 @@ def duration_budget(
     parts: list[Component] = []
     if n >= 2:
         mean = sum(d) / n
-        s = math.sqrt(sum((v - mean) ** 2 for v in d) / (n - 1))
+        s = max(math.sqrt(sum((v - mean) ** 2 for v in d) / (n - 1)), float(noise_floor_s))
         if statistic == "median":
-            parts.append(Component(f"scatter of {n} edges, s = {s:.3g} s (median)", "type A",
+            parts.append(Component(f"scatter of {n} edges (or the noise), s = {s:.3g} s (median)", "type A",
                                    math.sqrt(math.pi / 2.0) * type_a(s, n)))  # fmt: skip
         else:
-            parts.append(Component(f"scatter of {n} edges, s = {s:.3g} s (one edge)", "type A", s))
+            parts.append(Component(f"scatter of {n} edges (or the noise), s = {s:.3g} s (one edge)",
+                                   "type A", s))  # fmt: skip
             # The largest of n noisy readings of like edges reads high by about
             # s sqrt(2 ln n) (the expected maximum of n normal draws, common practice).
             parts.append(Component(f"the slowest of {n} noisy edges reads high",
@@ -249,6 +256,11 @@ def duration_budget(
     else:
         parts.append(Component("one edge only: two crossings within +/- dt/2 each",
                                "type B, triangular", math.sqrt(2.0) * triangular(dt_s / 2.0)))  # fmt: skip
+        parts.append(Component("one edge only: noise over the edge's slopes", "type A",
+                               float(noise_floor_s)))  # fmt: skip
+        # the last crossing of each level is taken: biased late by up to the noise's share
+        parts.append(Component("crossing choice under noise", "type B, rectangular",
+                               rectangular(float(noise_floor_s))))  # fmt: skip
     value = float(duration_s)
     parts.append(Component(f"timebase accuracy {timebase_ppm:.3g} ppm", "type B, rectangular",
                            rectangular(timebase_ppm * 1e-6 * value)))  # fmt: skip

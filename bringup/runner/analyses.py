@@ -382,7 +382,7 @@ def _edge_time(metric: str, m: EdgeMetrics, rising: bool, trace: Trace, out: Ana
     its GUM budget (``bringup.analysis.uncertainty.duration_budget``, the slowest of the
     record's edges): the expanded uncertainty goes to ``out.uncertainties``, the budget to
     ``details["budgets"]``."""
-    from bringup.analysis.edges import slow_reading_fraction
+    from bringup.analysis.edges import crossing_noise, noise_rms, slow_reading_fraction
     from bringup.analysis.uncertainty import duration_budget
 
     value = _chain_corrected(metric, m.rise_time_max_s if rising else m.fall_time_max_s,
@@ -393,9 +393,11 @@ def _edge_time(metric: str, m: EdgeMetrics, rising: bool, trace: Trace, out: Ana
     durations = tr.duration_s[(tr.direction > 0) == rising]
     samples = m.rise_time_samples if rising else m.fall_time_samples
     chain = out.details.get("chain", {}).get(metric, {}).get("chain_s", 0.0)
+    sigma = noise_rms(trace.volts)
+    floor = crossing_noise(trace.volts, trace.dt_s, trace.t0_s, tr, rising, sigma)
     budget = duration_budget(value, durations.tolist(), dt_s=trace.dt_s, statistic="max",
                              interpolation_bias=slow_reading_fraction(samples or 0.0),
-                             chain_s=chain, quantity=metric)  # fmt: skip
+                             chain_s=chain, noise_floor_s=floor, quantity=metric)  # fmt: skip
     out.metrics[metric] = value  # set again by the caller, with its reason if None
     _keep(out, metric, budget)
     return value
