@@ -109,7 +109,12 @@ class RunningBench:
             dialect = DIALECTS[name][self.dialects[name]]
             lines += [f"[{name}]", f'resource = "{self.resources[name]}"']
             lines += [f'profile = "{dialect.profile}"']
-            lines += [f"{key} = {value}" for key, value in dialect.bench_keys] + [""]
+            lines += [f"{key} = {value}" for key, value in dialect.bench_keys]
+            if name == "supply":
+                # the simulated supply's read-back specification (its readings lie within it):
+                # +/-(0.05 % + 10 mV) and +/-(0.1 % + 2 mA), for the read-backs' GUM budgets
+                lines += ["voltage_accuracy = [0.0005, 0.010]", "current_accuracy = [0.001, 0.002]"]
+            lines += [""]
             if name == "scope":
                 for n, probe in sorted(self.scope.probes.items()):
                     lines += [f"[scope.channels.{n}]", f'net = "{probe.net}"']

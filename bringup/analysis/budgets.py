@@ -25,7 +25,7 @@ from bringup.analysis.uncertainty import (
 __all__ = [
     "ChannelSpec",
     "droop_budgets",
-    "last_digit",
+    "typed_resolution",
     "plateau_budget",
     "propagate",
     "reading_budget",
@@ -86,45 +86,52 @@ def propagate(
     return _budget(quantity, unit, value, parts)
 
 
-def last_digit(value: float) -> float:
-    """The step of the last digit of a reading as it was written: 23.98 -> 0.01, 12 -> 1,
-    0.5 -> 0.1 (the shortest decimal that gives the same float; an instrument that sent more
-    digits than that gives a smaller step, so this errs wide)."""
-    text = repr(abs(float(value)))
-    if not math.isfinite(float(value)):
-        return 0.0
-    if "e" in text:
-        mantissa, exp = text.split("e")
-        decimals = len(mantissa.split(".")[1]) if "." in mantissa else 0
-        if mantissa.endswith(".0"):
-            decimals = 0
-        return 10.0 ** (int(exp) - decimals)
-    whole, _, frac = text.partition(".")
-    if frac in ("", "0"):
-        digits = len(whole) - len(whole.rstrip("0")) if whole != "0" else 0
-        return 10.0**digits
-    return 10.0 ** (-len(frac))
-
-
 def reading_budget(
     value: float,
     unit: str,
     *,
-    resolution: float,
-    accuracy_fraction: float = 0.0,
-    accuracy_offset: float = 0.0,
+    resolution: float = 0.0,
+    accuracy: tuple[float, float] | None = None,
     instrument: str = "read-back",
     quantity: str = "reading",
 ) -> Budget:
-    """Budget of one instrument reading (a supply's read-back, a meter): its resolution (one
-    step of the last digit, rectangular over +/- half a step: q/sqrt(12), GUM §4.3.7) and its
-    accuracy specification +/-(fraction x |reading| + offset), rectangular (GUM §4.3.7)."""
-    a = accuracy_fraction * abs(float(value)) + accuracy_offset
-    return _budget(quantity, unit, value, (
-        Component(f"{instrument} resolution {resolution:.3g} {unit}", _B, quantisation(resolution)),
-        Component(f"{instrument} accuracy +/-({100 * accuracy_fraction:.3g} % + "
-                  f"{accuracy_offset:.3g} {unit})", _B, rectangular(a)),
-    ))  # fmt: skip
+    """Budget of one instrument reading (a supply's read-back, a typed meter reading): its
+    accuracy specification +/-(fraction x |reading| + offset), rectangular (GUM §4.3.7), and
+    the resolution of the digits shown (one step of the last digit, q/sqrt(12)) when known.
+
+    With no specification (``accuracy`` None) the budget says so in a line of zero: nothing
+    is invented, the expanded uncertainty is 0 and the decision keeps the board file's
+    declared uncertainty."""
+    parts = []
+    if resolution > 0:
+        parts.append(Component(f"{instrument}: resolution {resolution:.3g} {unit} (last digit)",
+                               _B, quantisation(resolution)))  # fmt: skip
+    if accuracy is not None:
+        fraction, offset = accuracy
+        a = fraction * abs(float(value)) + offset
+        parts.append(Component(f"{instrument}: accuracy +/-({100 * fraction:.3g} % + "
+                               f"{offset:.3g} {unit})", _B, rectangular(a)))  # fmt: skip
+    budget = _budget(quantity, unit, value, parts)
+    if accuracy is None:
+        note = Component(f"{instrument}: accuracy not given in the bench file", _B, 0.0)
+        budget = Budget(budget.quantity, unit, budget.value, (*budget.components, note))
+    return budget
+
+
+def typed_resolution(text: str, value: float) -> float:
+    """The step of the last digit a person typed, in the value's SI unit: "3.300 V" -> 1 mV,
+    "3300 mV" -> 1 mV, "3.3" -> 0.1 (the number's mantissa and the prefix or exponent that
+    scaled it to ``value``); 0 when the text holds no number or the number is 0."""
+    import re
+
+    found = re.search(r"[-+]?(\d+)(?:\.(\d*))?", str(text))
+    if found is None:
+        return 0.0
+    mantissa = float(found.group(0))
+    if mantissa == 0:
+        return 0.0
+    decimals = len(found.group(2) or "")
+    return abs(float(value) / mantissa) * 10.0 ** (-decimals)
 
 
 def ripple_budget(estimate, channel: ChannelSpec, quantity: str = "ripple") -> Budget:

@@ -294,7 +294,11 @@ def _uncertainty(attempt: dict, name: str) -> tuple[str, str]:
             if isinstance(c, dict)
         ]
         how = f"GUM budget, k = {k:g}" if _number(k) else "GUM budget"
-        return fmt_value(budget["expanded"], unit), how + (": " + "; ".join(parts) if parts else "")
+        how += ": " + "; ".join(parts) if parts else ""
+        if _number(budget.get("combined")):
+            how += f" (u_c = {fmt_value(budget['combined'], unit)}"
+            how += f"; largest: {_text(budget['main'])})" if budget.get("main") else ")"
+        return fmt_value(budget["expanded"], unit), how
     for v in attempt.get("verdicts") or []:
         if v.get("target") == name and _number(v.get("uncertainty")):
             return (
@@ -363,6 +367,33 @@ def _scope(attempt: dict, bench: dict) -> list[Block]:
     return blocks
 
 
+def _budget_rows(attempt: dict):
+    """Each logged GUM budget (JCGM 100:2008) of the attempt, one row per contribution: the
+    quantity, what the contribution is, its type and evaluation, the input's standard
+    uncertainty u(x_i), the sensitivity coefficient c_i and |c_i| u(x_i); then a row with the
+    combined u_c, k and the expanded U = k u_c."""
+    budgets = ((attempt.get("extra") or {}).get("details") or {}).get("budgets") or {}
+    if not isinstance(budgets, dict):
+        return
+    for name in sorted(budgets):
+        b = budgets[name]
+        if not isinstance(b, dict) or not _number(b.get("expanded")):
+            continue
+        label, unit = _label(attempt, str(name)), _text(b.get("unit"))
+        for c in b.get("components") or []:
+            if not isinstance(c, dict):
+                continue
+            in_unit = _text(c.get("input_unit") or unit)
+            u_x = c.get("u_input", c.get("u"))
+            sens = c.get("sensitivity")
+            yield (label, _text(c.get("name")), _text(c.get("evaluation")),
+                   fmt_value(u_x, "" if in_unit == "1" else in_unit),
+                   f"{sens:.4g}" if _number(sens) else "1", fmt_value(c.get("u"), unit))  # fmt: skip
+        k = b.get("k")
+        yield (label, "combined u_c; expanded U = k u_c", f"k = {k:g}" if _number(k) else "",
+               fmt_value(b.get("combined"), unit), "", fmt_value(b["expanded"], unit))  # fmt: skip
+
+
 def _results(attempt: dict, bench: dict | None = None) -> list[Block]:
     """The attempt's verdicts, its metrics with their uncertainty, the scope as set and read
     back, its other settings and its notes."""
@@ -390,6 +421,11 @@ def _results(attempt: dict, bench: dict | None = None) -> list[Block]:
     if metrics:
         head = ("Quantity", "Value", "Uncertainty U", "How U was found")
         blocks.append(Table(head, metrics, (52, 28, 28, 82), fold="All metrics"))
+    budget_rows = tuple(_budget_rows(attempt))
+    if budget_rows:
+        head = ("Quantity", "Contribution", "Type", "u(xᵢ)", "cᵢ", "|cᵢ|·u(xᵢ)")
+        blocks.append(Table(head, budget_rows, (34, 70, 22, 22, 20, 22),
+                            fold="Uncertainty budgets (GUM)", folded=True))  # fmt: skip
     blocks += _scope(attempt, bench or {})
     settings = tuple(_setting_rows(attempt.get("settings") or {}))
     if settings:

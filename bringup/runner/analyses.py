@@ -91,6 +91,7 @@ class AnalysisInput:
     soak_temps_c: list[float] = field(default_factory=list)
     reading: float | None = None
     reading_metric: str | None = None
+    reading_resolution: float = 0.0  # the last digit typed (V), 0 when not typed
     supply_v: float | None = None  # supply output read back during the acquisition (V)
     # the supply's read-back accuracy by unit ("V", "A"): (fraction of reading, offset), from
     # the bench file; absent: only the reading's last digit enters its budget
@@ -188,8 +189,9 @@ def _keep(out: AnalysisOutput, metric: str, budget) -> None:
     if out.metrics.get(metric) is None:
         return
     out.budgets[metric] = budget
-    out.uncertainties[metric] = budget.expanded
     out.details.setdefault("budgets", {})[metric] = budget.to_dict()
+    if budget.expanded > 0:  # a budget of zero (no specification given) decides nothing
+        out.uncertainties[metric] = budget.expanded
 
 
 def _spec(trace: Trace):
@@ -200,15 +202,15 @@ def _spec(trace: Trace):
 
 
 def _reading(data: AnalysisInput, metric: str, value: float, unit: str, instrument: str):
-    """The budget of one read-back of the supply (``budgets.reading_budget``): its last digit
-    and the bench file's read-back accuracy for ``unit`` when it gives one."""
-    from bringup.analysis.budgets import last_digit, reading_budget
+    """The budget of one read-back of the supply (``budgets.reading_budget``): the bench
+    file's read-back accuracy for ``unit``, or a line saying it gives none."""
+    from bringup.analysis.budgets import reading_budget
 
-    fraction, offset = data.supply_accuracy.get(unit, (0.0, 0.0))
     if unit not in data.supply_accuracy:
-        instrument += " (its accuracy is not in the bench file)"
-    return reading_budget(value, unit, resolution=last_digit(value), accuracy_fraction=fraction,
-                          accuracy_offset=offset, instrument=instrument, quantity=metric)  # fmt: skip
+        key = "voltage_accuracy" if unit == "V" else "current_accuracy"
+        instrument += f" ([supply] {key})"
+    return reading_budget(value, unit, accuracy=data.supply_accuracy.get(unit),
+                          instrument=instrument, quantity=metric)  # fmt: skip
 
 
 # --------------------------------------------------------------------------- analyses
@@ -290,16 +292,15 @@ def rail_levels(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
 
 def meter_reading(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:
     """The value read on the meter, as the step's reading metric."""
-    from bringup.analysis.budgets import last_digit, reading_budget
+    from bringup.analysis.budgets import reading_budget
 
     metric = data.reading_metric or ""
     out.set(metric, data.reading, "no reading was given")
     if data.reading is not None:
-        # The meter's own accuracy is not in the bench file: its last digit only (the
+        # The meter's own accuracy is not in the bench file: the digits typed only (the
         # decision still uses the larger of this and the target's declared uncertainty).
-        _keep(out, metric, reading_budget(data.reading, "V", resolution=last_digit(data.reading),
-                                          instrument="meter reading (its last digit; the "
-                                          "meter's accuracy not given)", quantity=metric))  # fmt: skip
+        _keep(out, metric, reading_budget(data.reading, "V", resolution=data.reading_resolution,
+                                          instrument="meter reading", quantity=metric))  # fmt: skip
 
 
 def gate_overdrive(data: AnalysisInput, board: Board, out: AnalysisOutput) -> None:

@@ -15,6 +15,7 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
+from bringup.analysis.budgets import typed_resolution
 from bringup.analysis.quantities import format_quantity, parse_quantity
 from bringup.analysis.verdict import judge
 from bringup.checklist.catalogue import metrics_of
@@ -110,6 +111,7 @@ def _answers(ctx: _Context, answers: StepAnswers | None, simulated: bool) -> str
         later = answers is not None and answers.read_now is not None
         if text is not None:
             ctx.data.reading = parse_quantity(text, step.reading.unit, where=f"{step.id} reading")
+            ctx.data.reading_resolution = typed_resolution(text, ctx.data.reading)
         elif not simulated and not (later and plan.energise is not None):
             return f"needs a reading typed in: {step.reading.prompt} ({step.reading.unit})"
         ctx.data.reading_metric = step.reading.metric
@@ -306,7 +308,9 @@ def _read_powered(ctx: _Context, bench, answers: StepAnswers | None) -> float:
         if bench.simulated:  # left empty on a simulated bench: its meter reads
             return bench.read_meter_volts()
         raise StepStopped("no reading typed")
-    return parse_quantity(str(text), step.reading.unit, where=f"{step.id} reading")
+    value = parse_quantity(str(text), step.reading.unit, where=f"{step.id} reading")
+    ctx.data.reading_resolution = typed_resolution(str(text), value)
+    return value
 
 
 # ------------------------------------------------------------------------- judging

@@ -6,13 +6,23 @@ Pure formatting: no measurement, no storage. Every number is printed with its un
 
 from __future__ import annotations
 
+import dataclasses
 from typing import Any
 
 from bringup.analysis.quantities import format_quantity
-from bringup.tui.views import AttemptView, Energise, MetricRow, Progress, StepDetail, TraceView
+from bringup.tui.views import (
+    AttemptView,
+    BudgetView,
+    Energise,
+    MetricRow,
+    Progress,
+    StepDetail,
+    TraceView,
+)
 
 __all__ = [
     "metric_row",
+    "budget_view",
     "attempt_view",
     "trace_view",
     "progress_view",
@@ -37,11 +47,76 @@ def _plus_minus(m: Any) -> str:
     u = getattr(m, "uncertainty", None)
     if m.measured is None or u is None or not u > 0:
         return ""
-    return f" ± {format_quantity(u, m.unit)}"
+    # two significant digits at most: an uncertainty is not known better (GUM §7.2.6)
+    return f" ± {format_quantity(u, m.unit, 2)}"
 
 
-def metric_row(m: Any) -> MetricRow:
-    """A ``MetricResult`` as a table row (margin signed: + inside the limits)."""
+def _number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _amount(value: Any, unit: str) -> str:
+    """A budget's figure with its unit ("1" for a dimensionless input: a bare number)."""
+    if not _number(value):
+        return "—"
+    return format_quantity(float(value), "" if unit in ("1", "") else unit, 3)
+
+
+def _sensitivity(c: Any, unit: str, input_unit: str) -> str:
+    """c_i with its unit: "1" when input and result share a unit, else "unit/input_unit"."""
+    if not _number(c):
+        return "—"
+    if not input_unit or input_unit == unit:
+        return f"{float(c):.4g}"
+    per = unit if input_unit == "1" else f"{unit}/{input_unit}"
+    return f"{float(c):.4g} {per}"
+
+
+def budget_view(label: str, budget: Any) -> BudgetView | None:
+    """A logged GUM budget (``Budget.to_dict()`` of ``bringup.analysis.uncertainty``) for the
+    budget view; None when there is none or it is not a budget (an older log's entry)."""
+    if not isinstance(budget, dict) or not _number(budget.get("expanded")):
+        return None
+    unit = str(budget.get("unit") or "")
+    rows = []
+    for c in budget.get("components") or []:
+        if not isinstance(c, dict):
+            continue
+        in_unit = str(c.get("input_unit") or unit)
+        evaluation = str(c.get("evaluation", ""))
+        # "type B, rectangular" -> "B, rectangular": the type first, then how it was evaluated
+        kind = evaluation[5:] if evaluation.lower().startswith("type ") else evaluation
+        rows.append((str(c.get("name", "")), kind or str(c.get("type") or ""),
+                     _amount(c.get("u_input", c.get("u")), in_unit),
+                     _sensitivity(c.get("sensitivity", 1.0), unit, in_unit),
+                     _amount(c.get("u"), unit)))  # fmt: skip
+    k = budget.get("k")
+    value = budget.get("value")
+    title = (f"{label}: {_amount(value, unit)} ± {_amount(budget['expanded'], unit)}"
+             f" (k = {k:g})" if _number(k) else f"{label}")  # fmt: skip
+    return BudgetView(title=title, rows=tuple(rows), combined=_amount(budget.get("combined"), unit),
+                      k=f"{k:g}" if _number(k) else "—", expanded=_amount(budget["expanded"], unit),
+                      main=str(budget.get("main") or ""))  # fmt: skip
+
+
+def _used(m: Any, view: BudgetView | None, budget: Any) -> BudgetView | None:
+    """``view`` with the line saying which expanded uncertainty the decision used."""
+    if view is None:
+        return None
+    u = getattr(m, "uncertainty", None)
+    if m.outcome is None:
+        used = "reported only: no decision is made with it"
+    elif _number(u) and u > float(budget["expanded"]) * (1 + 1e-9):
+        used = (f"the decision used U = {format_quantity(u, m.unit)}: the board file's declared "
+                "uncertainty, larger than the computed one (ILAC-G8 guard band)")  # fmt: skip
+    else:
+        used = "the decision used this U as its guard band (ILAC-G8)"
+    return dataclasses.replace(view, used=used)
+
+
+def metric_row(m: Any, budget: Any = None) -> MetricRow:
+    """A ``MetricResult`` as a table row (margin signed: + inside the limits), with its GUM
+    budget when one was computed."""
     if m.margin is None:
         margin = "—"
     else:
@@ -56,6 +131,7 @@ def metric_row(m: Any) -> MetricRow:
         margin=margin,
         verdict=m.outcome or "reported",
         reason=reason,
+        budget=_used(m, budget_view(m.label, budget), budget),
     )
 
 
@@ -111,7 +187,9 @@ def attempt_view(a: Any) -> AttemptView:
         verdict=a.state,
         when=when_text(a.finished_utc or a.started_utc),
         operator=a.operator,
-        metrics=tuple(metric_row(m) for m in a.metrics),
+        metrics=tuple(
+            metric_row(m, (getattr(a, "budgets", None) or {}).get(m.id)) for m in a.metrics
+        ),  # fmt: skip
         traces=traces,
         notes=tuple(n for n in a.notes.splitlines() if n.strip()) if a.notes else (),
         message=message,

@@ -16,6 +16,7 @@ __all__ = [
     "StepDetail",
     "Energise",
     "MetricRow",
+    "BudgetView",
     "TraceView",
     "AttemptView",
     "Progress",
@@ -81,6 +82,22 @@ class StepDetail:
 
 
 @dataclass(frozen=True)
+class BudgetView:
+    """A metric's GUM uncertainty budget, formatted: one row per contribution (what it is,
+    type A or B, the input's standard uncertainty u(x_i), the sensitivity coefficient c_i,
+    the contribution |c_i| u(x_i) to the result), then the combined standard uncertainty, k
+    and the expanded uncertainty U, and the main contributor."""
+
+    title: str  # "switch rise: 26.84 ns ± 1.2 ns (k = 2)"
+    rows: tuple[tuple[str, str, str, str, str], ...]
+    combined: str
+    k: str
+    expanded: str
+    main: str = ""
+    used: str = ""  # which U the decision used (the computed one or the declared, larger one)
+
+
+@dataclass(frozen=True)
 class MetricRow:
     """A metric judged against its target; values already formatted with units."""
 
@@ -91,6 +108,7 @@ class MetricRow:
     margin: str
     verdict: str
     reason: str = ""
+    budget: BudgetView | None = None
 
 
 @dataclass(frozen=True)

@@ -75,6 +75,7 @@ class SessionScreen(StepActions, Screen[None]):
         Binding("4", "tab('tab-notes')", "notes", group=_TABS),
         Binding("p", "next_trace", "trace"),
         Binding("z", "zoom", "zoom"),
+        Binding("u", "budget", "budget"),
         Binding("m", "summary", "summary"),
         Binding("q", "app.quit_safely", "quit, supply off"),
     ]
@@ -354,6 +355,22 @@ class SessionScreen(StepActions, Screen[None]):
         self._trace_index += 1
         self._show_trace()
         self.action_tab("tab-trace")
+
+    def action_budget(self) -> None:
+        """The uncertainty budget of the metric under the result table's cursor."""
+        from bringup.tui.screens.budget import BudgetScreen
+
+        attempt = self._attempt
+        row = self.query_one("#results", DataTable).cursor_row
+        if attempt is None or not (0 <= row < len(attempt.metrics)):
+            self.say("No result yet: run the step first (r).")
+            return
+        m = attempt.metrics[row]
+        if m.budget is None:
+            self.say(f"{visible(m.label)}: no computed uncertainty budget (the declared "
+                     "uncertainty of the board file stands).")  # fmt: skip
+            return
+        self.app.push_screen(BudgetScreen(m.budget))
 
     def action_summary(self) -> None:
         from bringup.tui.screens.summary import SummaryScreen

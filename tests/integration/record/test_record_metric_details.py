@@ -129,3 +129,38 @@ def test_design_table_names_steps_and_metrics_as_people_read_them(tmp_path: Path
     # deviation (24.07 - 24) / 24 = +0.29 %
     assert [title, "Bus level, mean", "24 V", "design bus_voltage", "24.07 V", "+0.3 %",
             ""] in design  # fmt: skip
+
+
+def test_the_record_carries_each_budget_with_its_main_contribution(tmp_path: Path) -> None:
+    # A budget as the runner now logs it: each component with its type, u(x_i) in the input's
+    # unit and the sensitivity c_i (GUM §5.1.3: contribution |c_i| u(x_i)), and the largest.
+    budget = dict(BUDGET, main="scatter of 3 edges")
+    budget["components"] = [dict(c) for c in BUDGET["components"]]
+    budget["components"][0].update(type="A", sensitivity=0.5, u_input=2 * _U[0], input_unit="s")
+    board = board_snapshot()
+    with SessionLog.open(tmp_path / "log.db") as log:
+        sid = log.create_session(
+            board=board, checklist=CHECKLIST, bench=BENCH, serial="DHS24-0118", operator="R. Okafor"
+        )
+        end = dt.datetime.now(dt.UTC)
+        verdicts = {"switch_rise": _verdict(board, "switch_rise", 2.06e-7)}
+        log.record_attempt(
+            sid, stage_id="edge-speed", step_id="switch-rise", operator="R. Okafor",
+            started_utc=end - dt.timedelta(milliseconds=5), finished_utc=end, instruments=IDN,
+            settings={}, metrics={"switch_rise": {"value": 2.06e-7, "unit": "s",
+                                                  "label": "Switch node rise time, 10-90 %"}},
+            predictions={}, verdicts=verdicts, outcome=verdicts["switch_rise"]["outcome"],
+            extra={"details": {"budgets": {"switch_rise": budget}}},
+        )  # fmt: skip
+        record = record_from_log(log, sid)
+    html = render_html(record)
+    page = html[html.index('id="stage-edge-speed"') : html.index('id="identity"')]
+    rows = _cells(page)
+    rise = next(r for r in rows if r and r[0] == "Switch node rise time, 10-90 %" and len(r) == 4)
+    # u_c = sqrt(119.5^2 + 102.3^2 + 69^2) ps = 171.8 ps [computed]
+    assert rise[3].endswith("(u_c = 171.8 ps; largest: scatter of 3 edges)"), rise[3]
+    assert "Uncertainty budgets (GUM)" in page
+    label = "Switch node rise time, 10-90 %"
+    assert [label, "scatter of 3 edges", "type A", "239 ps", "0.5", "119.5 ps"] in rows
+    assert [label, "combined u_c; expanded U = k u_c", "k = 2", "171.8 ps", "",
+            "343.5 ps"] in rows  # fmt: skip

@@ -18,6 +18,7 @@ import numpy as np
 import pytest
 from analysis_synth import damped_ring, gate_with_plateau, ringing_pwm
 
+from bringup.analysis.budgets import typed_resolution
 from bringup.boards.board_file import load_board
 from bringup.runner.analyses import AnalysisInput, RampStep, Trace, analyse
 
@@ -150,7 +151,9 @@ def test_supply_and_meter_readings_cover_the_truth(board):
         # a meter showing millivolts: the last digit is all its budget knows (the bench file
         # gives no meter accuracy), so the truth is drawn within that digit
         logic = 3.3 + rng.uniform(-0.05, 0.05)
-        data = AnalysisInput(reading=round(logic, 3), reading_metric="logic_level")
+        typed = f"{logic:.3f} V"
+        data = AnalysisInput(reading=round(logic, 3), reading_metric="logic_level",
+                             reading_resolution=typed_resolution(typed, round(logic, 3)))  # fmt: skip
         tally.check(analyse("meter-reading", data, board), "logic_level", logic)
     tally.assert_covered()
 
