@@ -203,8 +203,27 @@ def _level_on_line(d, t_s: float, dt: float, channel: ChannelSpec, value: float,
     return _budget(quantity, "V", value, parts + ([bend] if bend else []))
 
 
+def _zoomed_instants(d, off_level_v: float) -> Component:
+    """A record zoomed on the top (its off level below the screen) has its on-pulse instants
+    read at the middle of what the screen shows, ``d.mid_level_v``, not at 50 % of the full
+    swing from ``off_level_v``: each edge's instant moves by (mid - 50 % level)/slope, the
+    on-time reads short by their sum (a linear edge, common practice). A one-sided shift
+    whose size rests on the edge staying straight below the screen: a rectangular bound of
+    that size, not a correction."""
+    full_mid = 0.5 * (off_level_v + d.start_v)
+    shift = sum(abs(d.mid_level_v - full_mid) / s for s in d.edge_slopes_v_per_s if s > 0)
+    return Component(f"zoomed screen: the instants read at {d.mid_level_v:.3g} V, not at "
+                     f"{full_mid:.3g} V (50 % from an off level of {off_level_v:.3g} V)",
+                     _B, rectangular(shift))  # fmt: skip
+
+
 def droop_budgets(
-    d, dt: float, channel: ChannelSpec, names: dict[str, str], on_u: tuple[float, float]
+    d,
+    dt: float,
+    channel: ChannelSpec,
+    names: dict[str, str],
+    on_u: tuple[float, float],
+    off_level_v: float | None = None,
 ) -> dict[str, Budget]:
     """Budgets of what ``droop.measure_droop`` found (a ``DroopMetrics``), by metric name:
     ``names`` maps "start", "end", "droop", "on_time", "supported" to the metric ids wanted.
@@ -217,7 +236,8 @@ def droop_budgets(
     supported on-time t = t_c - t_start + (mean - floor)/rate: d t/d mean = 1/rate,
     d t/d rate = -(mean - floor)/rate^2, d t/d gain = floor/rate, d t/d offset = 1/rate,
     d t/d t_start = -1 (the floor is the target's limit: a constant). A bent top adds the
-    line's model error."""
+    line's model error. ``off_level_v``: the off level when it lies below a zoomed screen
+    (the on-time then gains ``_zoomed_instants``)."""
     u_mean, u_rate, t_c, n = _line_u(d, dt)
     rate, out = d.droop_rate_v_per_s, {}
     if "start" in names:
@@ -227,11 +247,14 @@ def droop_budgets(
         out["end"] = _level_on_line(d, d.on_end_s, dt, channel, d.end_v, names["end"], on_u[1])
     u_on = math.hypot(*on_u)
     if "on_time" in names:
-        out["on_time"] = _budget(names["on_time"], "s", d.on_time_s, (
+        parts = [
             Component.of("on-pulse start instant (noise over the edge's slope, sample interval)",
                          "type A", on_u[0], -1.0, "s"),
             Component.of("on-pulse end instant", "type A", on_u[1], 1.0, "s"),
-        ))  # fmt: skip
+        ]  # fmt: skip
+        if off_level_v is not None and d.mid_level_v is not None:
+            parts.append(_zoomed_instants(d, off_level_v))
+        out["on_time"] = _budget(names["on_time"], "s", d.on_time_s, parts)
     if "droop" in names:
         bend = _bend_component(d, d.on_time_s, "over the on-time")
         out["droop"] = _budget(names["droop"], "V", d.droop_v, [

@@ -51,6 +51,9 @@ class DroopMetrics:
     ``on_start_uncertainty_s``/``on_end_uncertainty_s``: standard uncertainty of the two
     instants (0 where the record's start or end, or a given window, sets them);
     ``bend_rates_v_per_s``: the two halves' droop rates when the top bends, else None.
+    ``edge_slopes_v_per_s``: the rising and falling edges' slopes at their 50 % instants (0
+    where the record's start or end sets the instant); ``mid_level_v``: the level the instants
+    were read at (None for a given window or a record without edges).
     """
 
     start_v: float
@@ -74,6 +77,8 @@ class DroopMetrics:
     on_start_uncertainty_s: float = 0.0
     on_end_uncertainty_s: float = 0.0
     bend_rates_v_per_s: tuple[float, float] | None = None
+    edge_slopes_v_per_s: tuple[float, float] = (0.0, 0.0)
+    mid_level_v: float | None = None
 
     def to_dict(self) -> dict:
         out = {f.name: getattr(self, f.name) for f in fields(self)}
@@ -219,24 +224,30 @@ def _find_pulse(y: np.ndarray, dt: float, t0: float, n: int):
     if tr is not None and len(tr):
         rising = tr.direction > 0
         u = _crossing_u(tr, state, dt)
+        # each edge's slope at its 50 % instant (V/s), over its 40-60 % span
+        slopes = [0.2 * abs(state.amplitude_v) / max(float(d), dt) for d in tr.duration_s]
+        mid_v = state.reference(50.0)
         for k in range(len(tr)):
             start_idx = int(math.ceil((tr.t_mid_s[k] - t0) / dt))
             if rising[k]:
                 if k + 1 < len(tr):
                     end_idx = int(math.floor((tr.t_mid_s[k + 1] - t0) / dt)) + 1
                     pulses.append((tr.t_mid_s[k], start_idx, end_idx, tr.t_mid_s[k + 1],
-                                   "edge-to-edge", (u[k], u[k + 1])))  # fmt: skip
+                                   "edge-to-edge", (u[k], u[k + 1]),
+                                   (slopes[k], slopes[k + 1])))  # fmt: skip
                 else:
                     pulses.append((tr.t_mid_s[k], start_idx, n, t0 + n * dt, "edge-to-end",
-                                   (u[k], 0.0)))  # fmt: skip
+                                   (u[k], 0.0), (slopes[k], 0.0)))  # fmt: skip
             elif k == 0:
                 end_idx = int(math.floor((tr.t_mid_s[k] - t0) / dt)) + 1
-                pulses.append((t0, 0, end_idx, tr.t_mid_s[k], "start-to-edge", (0.0, u[k])))
+                pulses.append((t0, 0, end_idx, tr.t_mid_s[k], "start-to-edge", (0.0, u[k]),
+                               (0.0, slopes[k])))  # fmt: skip
     else:
-        pulses.append((t0, 0, n, t0 + n * dt, "whole-record", (0.0, 0.0)))
+        pulses.append((t0, 0, n, t0 + n * dt, "whole-record", (0.0, 0.0), (0.0, 0.0)))
     if not pulses:
         raise AnalysisError("no on-pulse in the record")
-    return max(pulses, key=lambda p: p[3] - p[0])
+    best = max(pulses, key=lambda p: p[3] - p[0])
+    return (*best, mid_v if tr is not None and len(tr) else None)
 
 
 def _crossing_u(tr, state, dt: float) -> list[float]:
@@ -266,7 +277,7 @@ def _given_window(on_window_s, dt: float, t0: float, n: int):
             f"the on-window {on_start:g} s to {on_end:g} s is outside the record "
             f"({t0:g} s to {t0 + n * dt:g} s)"
         )
-    return on_start, a, b, on_end, "given", (0.0, 0.0)
+    return on_start, a, b, on_end, "given", (0.0, 0.0), (0.0, 0.0), None
 
 
 def _top_span(
@@ -384,9 +395,10 @@ def measure_droop(
     y = np.asarray(y)
     dt, t0, n = float(dt), float(t0), int(np.asarray(y).size)
     if on_window_s is not None:
-        on_start, a, b, on_end, window, on_u = _given_window(on_window_s, dt, t0, n)
+        pulse = _given_window(on_window_s, dt, t0, n)
     else:
-        on_start, a, b, on_end, window, on_u = _find_pulse(y, dt, t0, n)
+        pulse = _find_pulse(y, dt, t0, n)
+    on_start, a, b, on_end, window, on_u, slopes, mid_v = pulse
     a_fit, b_fit = _top_span(y, dt, a, b, window, settle_s)
     line = _fit_line(y, a_fit, b_fit)
 
@@ -423,4 +435,6 @@ def measure_droop(
         on_start_uncertainty_s=float(on_u[0]),
         on_end_uncertainty_s=float(on_u[1]),
         bend_rates_v_per_s=_bend_rates(y, a_fit, b_fit, line, dt),
+        edge_slopes_v_per_s=(float(slopes[0]), float(slopes[1])),
+        mid_level_v=None if mid_v is None else float(mid_v),
     )

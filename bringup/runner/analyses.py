@@ -637,7 +637,14 @@ def _droop_budgets(d, vgs: Trace, out: AnalysisOutput) -> None:
     names = {"start": "vgs_start", "end": "vgs_end", "droop": "vgs_droop", "on_time": "on_time",
              "supported": "on_time_supported"}  # fmt: skip
     on_u = (d.on_start_uncertainty_s, d.on_end_uncertainty_s)
-    for key, budget in droop_budgets(d, vgs.dt_s, _spec(vgs), names, on_u).items():
+    off = None
+    if vgs.screen_v is not None:
+        bottom = vgs.screen_v[0] - vgs.screen_v[1] / 2
+        if float(np.min(vgs.volts)) <= bottom + vgs.screen_v[1] / 100:
+            # the off level lies below the zoomed screen: Vgs is off at 0 V (gate pulled to
+            # its source), the level the full swing's 50 % is taken from
+            off = 0.0
+    for key, budget in droop_budgets(d, vgs.dt_s, _spec(vgs), names, on_u, off).items():
         _keep(out, names[key], budget)
 
 
