@@ -31,7 +31,10 @@ SCENARIOS = (
 
 def _sim_text(source) -> str:
     """'sim bench (healthy, clock ×20)': the scenario and how fast the simulated thermal clock
-    runs (simulated seconds per real second), so a soak's pace is explained on screen."""
+    runs (simulated seconds per real second), so a soak's pace is explained on screen; an
+    unpaced bench (a session started headless) passes its waits on its own clock at once."""
+    if not source.time_scale:
+        return f"sim bench ({source.scenario}, unpaced clock)"
     return f"sim bench ({source.scenario}, clock ×{source.time_scale:g})"
 
 

@@ -53,3 +53,15 @@ def test_unpaced_soak_is_logged_on_its_grid_and_judged(make_runner):
     final = result.metric("heatsink_final")
     # the healthy board's design predicts about 37.5 degC (see test_plans_predictions.py)
     assert final.measured == pytest.approx(final.predicted, abs=2.0)
+
+
+def test_the_notebook_names_an_unpaced_clock_rather_than_a_zero_speed_up():
+    from bringup.runner import BenchSource
+    from bringup.tui.launch import _sim_text
+
+    assert _sim_text(BenchSource.simulated("healthy", time_scale=UNPACED)) == (
+        "sim bench (healthy, unpaced clock)"
+    )
+    assert _sim_text(BenchSource.simulated("healthy", time_scale=20.0)) == (
+        "sim bench (healthy, clock ×20)"
+    )
