@@ -118,7 +118,12 @@ class RunningBench:
             if name == "scope":
                 for n, probe in sorted(self.scope.probes.items()):
                     lines += [f"[scope.channels.{n}]", f'net = "{probe.net}"']
-                    lines += [f"probe_ratio = {probe.ratio:g}", ""]
+                    lines += [f"probe_ratio = {probe.ratio:g}"]
+                    if probe.kind == "CURR":
+                        # a current probe: its ratio in A/V, and its lag behind the voltage
+                        # probes as a bench measures it on a resistive step
+                        lines += [f"deskew_s = {probe.skew_s:.3g}"]
+                    lines += [""]
         lines += ["[simulation]", "enabled = true", ""]
         return "\n".join(lines)
 
@@ -155,7 +160,7 @@ def start_bench(
     simulator's own, "nullpoint", where not given). Raises ``ValueError`` for an unknown scenario (from the
     model) and ``OSError`` when a port cannot be bound.
     """
-    from sim_instruments.model import StageModel
+    from sim_instruments.half_bridge import build_model
 
     chosen = {kind: "nullpoint" for kind in DIALECTS} | dict(dialects or {})
     for kind, name in chosen.items():
@@ -164,7 +169,7 @@ def start_bench(
         if name not in DIALECTS[kind]:
             known = ", ".join(DIALECTS[kind])
             raise ValueError(f"no {kind} dialect {name!r} (one of {known})")
-    model = StageModel(design, scenario=scenario, seed=seed)
+    model = build_model(design, scenario=scenario, seed=seed)
     lock = threading.RLock()
     board = SharedBoard(model, design, SimClock(time_scale), lock)
     scope = DIALECTS["scope"][chosen["scope"]].cls(f"SC{seed:05d}", board, FaultInjector(), seed)

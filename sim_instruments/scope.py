@@ -25,6 +25,7 @@ import numpy as np
 
 from sim_instruments.clock import SharedBoard, add_board_commands
 from sim_instruments.faults import OVERRANGE, FaultInjector, add_fault_commands
+from sim_instruments.model import NETS as NETS_OF_STAGE
 from sim_instruments.scpi import (
     Block,
     CommandTree,
@@ -46,12 +47,21 @@ MIN_POINTS, MAX_POINTS = 1000, 20_000_000
 FULL_BANDWIDTH_HZ = 350e6
 LIMIT_BANDWIDTH_HZ = 20e6
 NOISE_FRACTION = 0.0015  # rms noise / full-scale range at full bandwidth
-NETS = ("GATE", "SWITCH", "VGS", "VBS", "BUS", "VDRV", "LOGIC")
+NETS = ("GATE", "SWITCH", "VGS", "VBS", "BUS", "VDRV", "LOGIC", "VGS_LOW", "I_SWITCH")
 FLOATING_NETS = ("vgs", "vbs")  # not referred to ground: differential probe only
+CURRENT_NETS = ("i_switch",)  # a current (amperes at the tip): current probe only
+#: A current probe's own delay behind a voltage probe, s: what a bench measures on a resistive
+#: step and writes in the bench file as the channel's deskew (current probes' amplifiers lag
+#: passive voltage probes by a few ns: common practice).
+CURRENT_PROBE_SKEW_S = 7.0e-9
 CONTINUOUS_REFRESH_S = 0.1  # wall seconds: a running scope's record is at most this old
 _DEFAULT_PROBES = {1: ("gate", "SING", 10.0), 2: ("switch", "SING", 10.0)}
 _DEFAULT_PROBES |= {3: ("vgs", "DIFF", 50.0), 4: ("vbs", "DIFF", 50.0)}
 _DEFAULT_VERTICAL = {1: (48.0, 18.0), 2: (48.0, 18.0), 3: (24.0, 6.0), 4: (24.0, 6.0)}
+# A half-bridge board's default wiring: the low gate (ground-referenced), the switch node, the
+# high side's Vgs (differential) and a current probe (10 A/V) on the high side's drain.
+_HALF_BRIDGE_PROBES = {1: ("vgs_low", "SING", 10.0), 2: ("switch", "SING", 10.0)}
+_HALF_BRIDGE_PROBES |= {3: ("vgs", "DIFF", 50.0), 4: ("i_switch", "CURR", 10.0)}
 
 
 @dataclass
@@ -59,9 +69,10 @@ class Probe:
     """The physical probe on a channel (simulation only): its net, kind, real ratio, gain error."""
 
     net: str
-    kind: str  # "SING" or "DIFF"
+    kind: str  # "SING", "DIFF" or "CURR" (a current probe: ratio in A/V)
     ratio: float
     gain_error: float  # fraction, e.g. 0.004 = reads 0.4 % high
+    skew_s: float = 0.0  # the probe's delay behind a voltage probe, s
 
 
 @dataclass
@@ -194,9 +205,14 @@ class Scope(Instrument):
         self._single_gain = {n: float(single[n - 1]) for n in CHANNELS}
         diff = gains.uniform(-0.001, 0.001, 4)
         self._diff_gain = {n: float(diff[n - 1]) for n in CHANNELS}
+        current = gains.uniform(-0.01, 0.01, 4)
+        self._current_gain = {n: float(current[n - 1]) for n in CHANNELS}
         self.probes: dict[int, Probe] = {}
-        for n, (net, kind, ratio) in _DEFAULT_PROBES.items():
-            self.probes[n] = Probe(net, kind, ratio, self._gain_for(n, kind))
+        wiring = _DEFAULT_PROBES
+        if "i_switch" in getattr(board.model, "nets", ()):
+            wiring = _HALF_BRIDGE_PROBES
+        for n, (net, kind, ratio) in wiring.items():
+            self.probes[n] = Probe(net, kind, ratio, self._gain_for(n, kind), _skew(kind))
         self.record: Record | None = None
         self.single_thread: threading.Thread | None = None  # a single shot under way
         self.acquisitions = 0
@@ -205,6 +221,8 @@ class Scope(Instrument):
         self.reset()
 
     def _gain_for(self, n: int, kind: str) -> float:
+        if kind == "CURR":
+            return self._current_gain[n]
         return self._diff_gain[n] if kind == "DIFF" else self._single_gain[n]
 
     def reset(self) -> None:
@@ -268,7 +286,8 @@ class Scope(Instrument):
         if ch.coupling == "GND":
             return np.zeros(n, np.float32)
         with self.lock:
-            wave = self.board.model.waveform(probe.net, t0, dt, n)
+            # a probe that lags shows at scope time t what happened at t - skew
+            wave = self.board.model.waveform(probe.net, t0 - probe.skew_s, dt, n)
         scale = (1.0 + probe.gain_error) * ch.attenuation / probe.ratio
         out = np.multiply(wave, scale, dtype=np.float32)
         if ch.coupling == "AC":
@@ -577,18 +596,29 @@ class Scope(Instrument):
         def probe_net(s, p, n):
             net = parse_choice(one_param(p), NETS).lower()
             probe = self._probe(n[0])
+            if net not in getattr(self.board.model, "nets", NETS_OF_STAGE):
+                raise ScpiError(-221, f"{net.upper()}: this board has no such net")
             if probe.kind == "SING" and net in FLOATING_NETS:
                 raise ScpiError(
                     -221, f"{net.upper()} floats: a single-ended probe's ground lead would short it"
                 )
+            if (probe.kind == "CURR") != (net in CURRENT_NETS):
+                what = (
+                    "a current needs a current probe"
+                    if net in CURRENT_NETS
+                    else ("a current probe measures a current, not a voltage")
+                )
+                raise ScpiError(-221, f"{net.upper()}: {what} (SIMulation:PROBe{n[0]}:TYPE)")
             probe.net = net
 
         def probe_type(s, p, n):
             probe = self._probe(n[0])
-            kind = parse_choice(one_param(p), ["SINGle", "DIFFerential"])
+            kind = parse_choice(one_param(p), ["SINGle", "DIFFerential", "CURRent"])
             if kind == "SING" and probe.net in FLOATING_NETS:
                 raise ScpiError(-221, f"probe {n[0]} sits on floating net {probe.net.upper()}")
+            # another kind of probe swapped in: NET puts it where it belongs
             probe.kind, probe.gain_error = kind, self._gain_for(n[0], kind)
+            probe.skew_s = _skew(kind)
 
         def probe_ratio(s, p, n):
             ratio = parse_number(one_param(p), 0.001, 10000.0)
@@ -665,6 +695,11 @@ class Scope(Instrument):
 # Block length of ``one_pole``: each block is one row of a matrix product (BLAS), so the
 # recursion runs over n / 32 block ends instead of n samples.
 _POLE_BLOCK = 32
+
+
+def _skew(kind: str) -> float:
+    """A probe's delay behind a passive voltage probe (s): only the current probe lags."""
+    return CURRENT_PROBE_SKEW_S if kind == "CURR" else 0.0
 
 
 def one_pole(x: np.ndarray, p: float) -> np.ndarray:

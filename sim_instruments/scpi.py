@@ -194,7 +194,8 @@ def _short(mnemonic: str) -> str:
     """The short form: the upper-case letters (and digits) of a mnemonic written as ``VOLTage``."""
     if mnemonic.startswith("*"):
         return mnemonic.upper()
-    return "".join(c for c in mnemonic if c.isupper() or c.isdigit())
+    # underscores belong to the mnemonic (IEEE 488.2 7.6.1: letters, digits and "_")
+    return "".join(c for c in mnemonic if c.isupper() or c.isdigit() or c == "_")
 
 
 @dataclass
