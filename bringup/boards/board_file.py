@@ -40,6 +40,7 @@ __all__ = [
     "Board",
     "Target",
     "DESIGN_UNITS",
+    "HALF_BRIDGE_UNITS",
     "DESIGN_RANGES",
     "control_character",
     "MAX_SERIAL_LENGTH",
@@ -93,6 +94,18 @@ DESIGN_UNITS: dict[str, str] = {
     "temperature_limit": "degC",
 }
 
+#: The [design] keys of a half-bridge board (a synchronous buck or a phase leg: the high side
+#: and a low side of the same MOSFET type, one bootstrap driver with dead time): all of them, or
+#: none (a lone high-side switch). ``checklists/demo-half-bridge.toml`` is the shipped example.
+HALF_BRIDGE_UNITS: dict[str, str] = {
+    "load_current": "A",  # the electronic load's constant current (the inductor's mean)
+    "dead_time": "s",  # the driver's dead-time setting at each edge, command to command
+    "body_diode_drop": "V",  # the body diode's forward drop at the load current
+    "bootstrap_resistor": "ohm",  # series resistor of the bootstrap charge path
+    "driver_uvlo_rising": "V",  # the floating supply's rising UVLO (the output comes back on)
+    "driver_negative_swing": "V",  # how far below ground the driver's switch pin may go
+}
+
 #: Absolute zero in degrees Celsius.
 ABSOLUTE_ZERO_C = -273.15
 
@@ -136,6 +149,13 @@ DESIGN_RANGES: dict[str, tuple[float, bool, float]] = {
     "thermal_resistance": (0.0, False, 1e4),
     "thermal_time_constant": (0.0, False, 1e6),
     "temperature_limit": (ABSOLUTE_ZERO_C, False, 1000.0),
+    # half-bridge boards only
+    "load_current": (0.0, False, 1e4),
+    "dead_time": (0.0, True, 1e-3),
+    "body_diode_drop": (0.0, False, 10.0),
+    "bootstrap_resistor": (0.0, True, 1e6),
+    "driver_uvlo_rising": (0.0, False, 50.0),
+    "driver_negative_swing": (0.0, True, 1000.0),
 }
 
 #: Longest serial number read (characters): a longer one is refused before the board's
@@ -186,6 +206,11 @@ class Board:
     source: dict
     path: Path
     text: str
+
+    @property
+    def is_half_bridge(self) -> bool:
+        """True for a half-bridge board (its [design] has the ``HALF_BRIDGE_UNITS`` keys)."""
+        return all(key in self.design for key in HALF_BRIDGE_UNITS)
 
     def check_serial(self, serial: str) -> None:
         """Raise ``InputError`` unless ``serial`` matches the board's serial pattern (fully).
@@ -291,6 +316,11 @@ def _load_target(doc: TomlDocument, tid: str, raw: object) -> Target:
     return Target(tid, label, unit, Limit(low, high, unit), uncertainty, rule)
 
 
+def _unit_of(key: str) -> str:
+    """The unit of a [design] key, a high-side or a half-bridge one."""
+    return DESIGN_UNITS.get(key) or HALF_BRIDGE_UNITS.get(key, "")
+
+
 def _range_text(key: str, unit: str) -> str:
     low, low_allowed, high = DESIGN_RANGES[key]
     show = unit or ""
@@ -306,16 +336,17 @@ def _range_text(key: str, unit: str) -> str:
 def _check_design(doc: TomlDocument, design: dict[str, float]) -> None:
     """Each [design] value within its physical range, and the values consistent."""
     for key, (low, low_allowed, high) in DESIGN_RANGES.items():
+        if key not in design:
+            continue  # a half-bridge key of a high-side board
         value = design[key]
         inside = math.isfinite(value) and (value >= low if low_allowed else value > low)
         if not inside or value > high:
-            shown = format_quantity(value, DESIGN_UNITS[key])
-            raise doc.error(
-                ("design", key), f"{shown} is out of range: {_range_text(key, DESIGN_UNITS[key])}"
-            )
+            unit = _unit_of(key)
+            shown = format_quantity(value, unit)
+            raise doc.error(("design", key), f"{shown} is out of range: {_range_text(key, unit)}")
 
     def v(key: str) -> str:
-        return format_quantity(design[key], DESIGN_UNITS[key])
+        return format_quantity(design[key], _unit_of(key))
 
     d = design
     if not d["mosfet_threshold"] < d["mosfet_plateau"]:
@@ -342,6 +373,13 @@ def _check_design(doc: TomlDocument, design: dict[str, float]) -> None:
         raise doc.error(("design", "on_time_max"),
                         f"{v('on_time_max')} is longer than one switching period "
                         f"({format_quantity(period, 's')} at {v('switching_frequency')})")  # fmt: skip
+    if "driver_uvlo_rising" in d and not (
+        d["driver_uvlo_falling"] <= d["driver_uvlo_rising"] < d["gate_drive_voltage"]
+    ):
+        raise doc.error(("design", "driver_uvlo_rising"),
+                        f"{v('driver_uvlo_rising')} must lie between the falling UVLO "
+                        f"driver_uvlo_falling = {v('driver_uvlo_falling')} and the gate drive "
+                        f"gate_drive_voltage = {v('gate_drive_voltage')}")  # fmt: skip
     if not d["temperature_limit"] > d["ambient_temperature"]:
         raise doc.error(("design", "temperature_limit"),
                         f"{v('temperature_limit')} must be above the ambient "
@@ -421,10 +459,17 @@ def board_from_document(doc: TomlDocument) -> Board:
     if not isinstance(description, str):
         raise doc.error(("board", "description"), "must be a string")
 
-    raw_design = check_table(doc, ("design",), data["design"], dict.fromkeys(DESIGN_UNITS, True))
+    raw_design = check_table(doc, ("design",), data["design"],
+                             dict.fromkeys(DESIGN_UNITS, True) | dict.fromkeys(HALF_BRIDGE_UNITS, False))  # fmt: skip
+    half = [key for key in HALF_BRIDGE_UNITS if key in raw_design]
+    if half and len(half) < len(HALF_BRIDGE_UNITS):
+        lacking = next(key for key in HALF_BRIDGE_UNITS if key not in raw_design)
+        raise doc.error(("design",), f"has the half-bridge key {half[0]!r} but lacks {lacking!r} "
+                        "(a half-bridge board gives every one of them)")  # fmt: skip
+    units = DESIGN_UNITS | {key: HALF_BRIDGE_UNITS[key] for key in half}
     design = {
         key: read_quantity(doc, ("design", key), raw_design[key], unit)
-        for key, unit in DESIGN_UNITS.items()
+        for key, unit in units.items()
     }
     for key in ("duty_min", "duty_max"):
         if not 0.0 < design[key] < 1.0:
@@ -450,13 +495,18 @@ def board_from_document(doc: TomlDocument) -> Board:
     )
 
 
+#: Shipped board files by the name that addresses them (``--board demo-half-bridge``).
+SHIPPED_BOARDS = {"demo": "demo-board.toml", "demo-half-bridge": "demo-half-bridge.toml"}
+
+
 def load_board(path: str | Path) -> Board:
-    """Load and validate a board file; ``"demo"`` names the shipped demo board.
+    """Load and validate a board file; ``"demo"`` names the shipped demo board and
+    ``"demo-half-bridge"`` the shipped half-bridge one (``SHIPPED_BOARDS``).
 
     Raises ``ConfigError`` (one line: file, line, key, problem) on the first problem found:
     a missing or unknown key, a quantity that does not read in its unit, a min above its max,
     an unknown decision rule, an unreadable file.
     """
-    if str(path) == "demo":
-        path = demo_board_path()
+    if str(path) in SHIPPED_BOARDS:
+        path = checklists_dir() / SHIPPED_BOARDS[str(path)]
     return board_from_document(read_toml(path))

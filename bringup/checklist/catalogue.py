@@ -3,18 +3,21 @@
 The runner implements each analysis (``bringup.runner.analyses``); this catalogue is what the
 checklist loader validates against, so a step that names an unknown analysis, or a target its
 analysis cannot produce, is refused on load. Metric ids are the target ids of a board file.
-Nets are those of DEVELOPERS.md: gate, switch, vgs, vbs, bus, vdrv, logic.
+Nets are those of DEVELOPERS.md: gate, switch, vgs, vbs, bus, vdrv, logic, vgs_low, i_switch.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["AnalysisSpec", "ANALYSES", "NETS", "FLOATING_NETS", "RAIL_NETS", "metrics_of"]
+__all__ = ["AnalysisSpec", "ANALYSES", "NETS", "FLOATING_NETS", "CURRENT_NETS", "RAIL_NETS",
+           "metrics_of"]  # fmt: skip
 
-NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
+NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic", "vgs_low", "i_switch")
 #: Nets that float (not referred to ground): only a differential probe may measure them.
 FLOATING_NETS = ("vgs", "vbs")
+#: Nets that carry a current (amperes): only a current probe measures them.
+CURRENT_NETS = ("i_switch",)
 #: Nets that are supply rails (a level and a ripple each).
 RAIL_NETS = ("bus", "vdrv", "logic")
 
@@ -90,6 +93,69 @@ ANALYSES: dict[str, AnalysisSpec] = {
                 "on_time": "s",
             },
             needs_nets=("vgs", "vbs"),
+        ),
+        AnalysisSpec(
+            "low-side-gate",
+            "low-side Vgs high and low levels while switching; the switch node's low level "
+            "while the low side conducts",
+            {"vgs_low_on": "V", "vgs_low_off": "V", "switch_low": "V"},
+            needs_nets=("vgs_low", "switch"),
+        ),
+        AnalysisSpec(
+            "dead-time",
+            "dead time at both commutations (threshold to threshold) over every edge, gate "
+            "overlap (shoot-through) with its current spike, body-diode loss of the dead times",
+            {
+                "dead_time_high_to_low": "s",
+                "dead_time_low_to_high": "s",
+                "dead_time_high_to_low_median": "s",
+                "dead_time_low_to_high_median": "s",
+                "gate_overlap": "s",
+                "shoot_through_current": "A",
+                "body_diode_loss": "W",
+            },
+            needs_nets=("vgs", "vgs_low"),
+        ),
+        AnalysisSpec(
+            "bootstrap-refresh",
+            "the bootstrap voltage over many periods at the longest on-time: its lowest level "
+            "against the driver's falling UVLO, its recovery during the low-side on-time",
+            {
+                "vbs_uvlo_margin": "V",
+                "vbs_min": "V",
+                "vbs_refreshed": "V",
+                "refresh_on_time_min": "s",
+                "refresh_on_time": "s",
+            },
+            needs_nets=("vbs", "vgs_low"),
+        ),
+        AnalysisSpec(
+            "switch-node",
+            "switch-node undershoot and overshoot, ringing frequency and damping, the loop "
+            "inductance they imply, dv/dt of each edge",
+            {
+                "switch_min": "V",
+                "switch_max": "V",
+                "switch_negative_margin": "V",
+                "ring_frequency": "Hz",
+                "ring_damping": "",
+                "loop_inductance": "H",
+                "switch_dv_dt_rise": "V/s",
+                "switch_dv_dt_fall": "V/s",
+            },
+            needs_nets=("switch",),
+        ),
+        AnalysisSpec(
+            "switching-energy",
+            "turn-on and turn-off energy of the switch, integral of v_DS i_D after deskew, and "
+            "the switching loss (E_on + E_off) f_sw beside the predicted one",
+            {
+                "switching_energy_on": "J",
+                "switching_energy_off": "J",
+                "switching_power": "W",
+                "switching_power_predicted": "W",
+            },
+            needs_nets=("switch", "i_switch"),
         ),
         AnalysisSpec(
             "soak",

@@ -35,13 +35,14 @@ from pathlib import Path
 
 from bringup.boards.board_file import (
     DESIGN_UNITS,
+    HALF_BRIDGE_UNITS,
     Board,
     check_table,
     checklists_dir,
     expect_str,
     read_quantity,
 )
-from bringup.checklist.catalogue import ANALYSES, FLOATING_NETS, NETS
+from bringup.checklist.catalogue import ANALYSES, CURRENT_NETS, FLOATING_NETS, NETS
 from bringup.checklist.model import (
     Checklist,
     NetCapture,
@@ -96,7 +97,7 @@ _SUPPLY = {"voltage": True, "current_limit": True, "ramp": False, "dwell": False
 _PWM = {"enabled": True, "duty": False}
 _SOAK = {"duration": True, "interval": True, "min_duration": False}
 _READING = {"prompt": True, "unit": True, "metric": True, "net": True}
-_PROBES = ("single-ended", "differential", "math")
+_PROBES = ("single-ended", "differential", "math", "current")
 #: Record lengths the simulated and real scopes accept (points).
 MIN_POINTS, MAX_POINTS = 1000, 20_000_000
 #: Sane bounds of a step's supply settings (V, A) and durations (s): far beyond a bench supply
@@ -117,12 +118,11 @@ def _setting(doc: TomlDocument, keys: tuple[str, ...], value: object, unit: str)
         ref = _DESIGN_REF_RE.match(value)
         if ref:
             factor, key = ref.groups()
-            if key not in DESIGN_UNITS:
+            units = DESIGN_UNITS | HALF_BRIDGE_UNITS
+            if key not in units:
                 raise doc.error(keys, f"unknown design value {key!r}")
-            if DESIGN_UNITS[key] != unit:
-                raise doc.error(
-                    keys, f"design.{key} is in {DESIGN_UNITS[key] or 'ratio'}, not {unit}"
-                )
+            if units[key] != unit:
+                raise doc.error(keys, f"design.{key} is in {units[key] or 'ratio'}, not {unit}")
             return Setting(design_key=key, factor=float(factor) if factor else 1.0)
     return Setting(value=read_quantity(doc, keys, value, unit))
 
@@ -177,7 +177,8 @@ def _scope(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> ScopeSetup:
         if net not in NETS:
             raise doc.error(k, f"unknown net (expected one of: {', '.join(NETS)})")
         n = check_table(doc, k, spec, _NET)
-        span = _setting(doc, (*k, "range"), n["range"], "V")
+        unit = "A" if net in CURRENT_NETS else "V"  # a current probe's screen is in amperes
+        span = _setting(doc, (*k, "range"), n["range"], unit)
         if span.design_key is None and span.value <= 0:  # type: ignore[operator]
             raise doc.error((*k, "range"), "must be positive")
         probe = _choice(doc, (*k, "probe"), n.get("probe", "single-ended"), _PROBES)
@@ -187,6 +188,13 @@ def _scope(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> ScopeSetup:
                 f"{net} floats: a single-ended probe's ground lead would short it "
                 '(use probe = "differential" or, for vgs, "math")',
             )
+        if (probe == "current") != (net in CURRENT_NETS):
+            raise doc.error(
+                (*k, "probe"),
+                f'{net} is a current: it needs probe = "current"'
+                if net in CURRENT_NETS
+                else "a current probe measures a current net (i_switch)",
+            )
         if probe == "math" and net != "vgs":
             raise doc.error(
                 (*k, "probe"), "a math difference is only defined for vgs (gate - switch)"
@@ -195,7 +203,7 @@ def _scope(doc: TomlDocument, keys: tuple[str, ...], raw: object) -> ScopeSetup:
             NetCapture(
                 net,
                 span,
-                _setting(doc, (*k, "offset"), n.get("offset", 0), "V"),
+                _setting(doc, (*k, "offset"), n.get("offset", 0), unit),
                 _choice(doc, (*k, "coupling"), n.get("coupling", "DC"), ("DC", "AC")),
                 _bool(doc, (*k, "bandwidth_limit"), n.get("bandwidth_limit", False)),
                 probe,
@@ -507,10 +515,17 @@ def _version(doc: TomlDocument, head: dict) -> str | None:
     return value
 
 
+#: Shipped checklists by the name that addresses them (``--checklist half-bridge-bootstrap``).
+SHIPPED_CHECKLISTS = ("high-side-bootstrap", "half-bridge-bootstrap")
+
+
 def load_checklist(path: str | Path | None = None) -> Checklist:
-    """Load and validate a checklist; ``None`` or ``"standard"`` is the shipped standard one."""
+    """Load and validate a checklist; ``None`` or ``"standard"`` is the shipped standard one,
+    and a name of ``SHIPPED_CHECKLISTS`` the shipped file of that name."""
     if path is None or str(path) == "standard":
         path = standard_checklist_path()
+    elif str(path) in SHIPPED_CHECKLISTS:
+        path = checklists_dir() / f"{path}.toml"
     return checklist_from_document(read_toml(path))
 
 

@@ -11,10 +11,12 @@ bandwidth_hz = 350e6                # optional: its -3 dB bandwidth (rise times 
 dc_accuracy = 0.02                  # optional: DC vertical accuracy, a fraction of full scale
 
 [scope.channels.1]
-net = "gate"                        # gate, switch, vgs, vbs, bus, vdrv, logic
-probe_ratio = 10
+net = "gate"                        # gate, switch, vgs, vbs, bus, vdrv, logic, vgs_low, i_switch
+probe_ratio = 10                    # a current net (i_switch): the current probe's A/V
 probe_bandwidth_hz = 500e6          # optional: the probe's -3 dB bandwidth
 probe_ratio_tolerance = 0.01        # optional: the probe's attenuation tolerance, a fraction
+deskew_s = 7e-9                     # optional: how far this channel lags the voltage probes (s),
+                                    # measured on a resistive step; taken out before v * i
 
 [supply]
 resource = "TCPIP::192.168.1.21::5025::SOCKET"
@@ -58,7 +60,11 @@ if TYPE_CHECKING:
 
 ROLES = ("scope", "supply", "thermometer")
 MAX_CHANNELS = 8  # the most any scope profile declares; each profile says its own count
-NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic")
+NETS = ("gate", "switch", "vgs", "vbs", "bus", "vdrv", "logic", "vgs_low", "i_switch")
+#: Nets that carry a current (amperes at the tip): a current probe, its ratio in A/V.
+CURRENT_NETS = ("i_switch",)
+#: Largest deskew a bench file may give a channel, s (a probe's delay is nanoseconds).
+MAX_DESKEW_S = 1e-6
 _RESOURCE = re.compile(
     r"^(TCPIP\d*::[^:\s]+::\d{1,5}::SOCKET|TCPIP\d*::[^:\s]+(::[^:\s]+)?::INSTR"
     r"|USB\d*::[^\s]+::INSTR|GPIB\d*::\d+(::\d+)?::INSTR|ASRL[^\s]+::INSTR)$",
@@ -105,6 +111,17 @@ class ChannelWiring:
     probe_ratio: float
     probe_bandwidth_hz: float | None = None  # the probe's -3 dB bandwidth, when given
     probe_ratio_tolerance: float | None = None  # its attenuation tolerance (fraction), when given
+    #: how far this channel's record lags the voltage probes' (s), measured at the bench on a
+    #: resistive step (voltage and current rise together there); 0 when the file does not say
+    deskew_s: float = 0.0
+
+    @property
+    def kind(self) -> str:
+        """The probe this wiring implies: "current" on a current net, "differential" on a
+        floating one (vgs, vbs), else "single-ended"."""
+        if self.net in CURRENT_NETS:
+            return "current"
+        return "differential" if self.net in ("vgs", "vbs") else "single-ended"
 
 
 @dataclass(frozen=True)
@@ -224,6 +241,21 @@ def _bandwidth(src: TomlDocument, where: tuple[str, ...], value: Any) -> float |
     return float(value)
 
 
+def _deskew(src: TomlDocument, where: tuple[str, ...], value: Any) -> float:
+    """An optional channel deskew in seconds (default 0), at most ``MAX_DESKEW_S`` either way."""
+    if value is None:
+        return 0.0
+    if (
+        isinstance(value, bool)
+        or not isinstance(value, int | float)
+        or not (abs(value) <= MAX_DESKEW_S)
+    ):
+        raise src.error(
+            where, f"must be a time in seconds within +/- 1e-6 (e.g. 7e-9), not {value!r}"
+        )
+    return float(value)
+
+
 def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
     raw = src.data.get("scope", {}).get("channels", {})
     if not isinstance(raw, dict):
@@ -244,11 +276,12 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
                 src.path, f"scope.channels.{key}", "must be a table", src.line_of(*where)
             )
         for item in table:
-            if item not in ("net", "probe_ratio", "probe_bandwidth_hz", "probe_ratio_tolerance"):
+            if item not in ("net", "probe_ratio", "probe_bandwidth_hz", "probe_ratio_tolerance",
+                            "deskew_s"):  # fmt: skip
                 raise src.error(
                     (*where, item),
                     "unknown key (expected net, probe_ratio, probe_bandwidth_hz, "
-                    "probe_ratio_tolerance)",
+                    "probe_ratio_tolerance, deskew_s)",
                 )
         net = table.get("net")
         if net is None:
@@ -270,7 +303,8 @@ def _channels(src: TomlDocument) -> dict[int, ChannelWiring]:
         probe_bw = _bandwidth(src, (*where, "probe_bandwidth_hz"), table.get("probe_bandwidth_hz"))
         tolerance = _fraction(src, (*where, "probe_ratio_tolerance"),
                               table.get("probe_ratio_tolerance"))  # fmt: skip
-        out[int(key)] = ChannelWiring(int(key), net, float(ratio), probe_bw, tolerance)
+        deskew = _deskew(src, (*where, "deskew_s"), table.get("deskew_s"))
+        out[int(key)] = ChannelWiring(int(key), net, float(ratio), probe_bw, tolerance, deskew)
     return dict(sorted(out.items()))
 
 
@@ -335,7 +369,8 @@ class Bench:
                 del self.wiring[ch]  # a net is on one channel at a time
         self.wiring[channel] = ChannelWiring(channel, net, old.probe_ratio if old else 1.0,
                                              old.probe_bandwidth_hz if old else None,
-                                             old.probe_ratio_tolerance if old else None)  # fmt: skip
+                                             old.probe_ratio_tolerance if old else None,
+                                             old.deskew_s if old else 0.0)  # fmt: skip
 
     def close(self) -> None:
         """Make the supply safe (output OFF, confirmed) and close every connection; a second
@@ -494,7 +529,7 @@ def open_bench(
                 sessions["scope"], sessions["thermometer"], NETS, bench.note_probe_moved
             )
             for wiring in config.channels.values():
-                bench.simulation.move_probe(wiring.channel, wiring.net)
+                bench.simulation.move_probe(wiring.channel, wiring.net, wiring.kind)
         return bench
     except BaseException:
         if "supply" in sessions and make_safe_on_open:

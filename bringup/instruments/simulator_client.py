@@ -22,6 +22,9 @@ if TYPE_CHECKING:
     from bringup.instruments.visa import InstrumentSession
 
 
+_SIM_KINDS = {"single-ended": "SING", "differential": "DIFF", "current": "CURR"}
+
+
 class SimulationControl:
     """Drives the sim's own subsystem through the scope's and the meter's sessions.
 
@@ -55,8 +58,14 @@ class SimulationControl:
         """The name of the scenario the sim runs."""
         return self._scope.query("SIM:SCEN?").strip('"')
 
-    def move_probe(self, channel: int, net: str) -> None:
-        """Put scope channel ``channel``'s probe on ``net`` (and note it in the bench wiring)."""
+    def move_probe(self, channel: int, net: str, kind: str | None = None) -> None:
+        """Put scope channel ``channel``'s probe on ``net`` (and note it in the bench wiring);
+        ``kind`` ("single-ended", "differential", "current") swaps in that kind of probe first
+        when the channel has another."""
+        if kind is not None:
+            want = _SIM_KINDS[kind]
+            if self._scope.query(f"SIM:PROB{int(channel)}:TYPE?").strip() != want:
+                self._set(self._scope, f"SIM:PROB{int(channel)}:TYPE {want}")
         self._set(self._scope, f"SIM:PROB{int(channel)}:NET {self._net(net).upper()}")
         self._on_probe_moved(int(channel), net)
 

@@ -10,6 +10,7 @@ from bringup.boards.board_file import DESIGN_UNITS, demo_board_path, load_board
 from bringup.errors import ConfigError, InputError
 
 DEMO_TEXT = demo_board_path().read_text(encoding="utf-8")
+CHECKLISTS = demo_board_path().parent
 
 
 def _line_of(text: str, needle: str) -> int:
@@ -179,12 +180,39 @@ def test_design_values_outside_their_physical_range_are_refused(tmp_path, line, 
 
 
 def test_every_design_key_has_a_range_and_the_demo_board_is_inside():
-    from bringup.boards.board_file import DESIGN_RANGES
+    from bringup.boards.board_file import DESIGN_RANGES, HALF_BRIDGE_UNITS
 
-    assert set(DESIGN_RANGES) | {"duty_min", "duty_max"} == set(DESIGN_UNITS)
+    keys = set(DESIGN_UNITS) | set(HALF_BRIDGE_UNITS)
+    assert set(DESIGN_RANGES) | {"duty_min", "duty_max"} == keys
     design = load_board("demo").design
     for key, (low, _, high) in DESIGN_RANGES.items():
-        assert low < design[key] <= high, key
+        if key not in HALF_BRIDGE_UNITS:
+            assert low < design[key] <= high, key
+    half = load_board("demo-half-bridge").design
+    for key, (low, _, high) in DESIGN_RANGES.items():
+        assert low < half[key] <= high, key
+
+
+def test_the_half_bridge_keys_come_all_together(tmp_path):
+    """A board with some half-bridge keys and not the others is refused in one line naming the
+    first one missing: the simulator and the half-bridge analyses need every one."""
+    text = (CHECKLISTS / "demo-half-bridge.toml").read_text()
+    line = 'bootstrap_resistor = "3.3 ohm"\n'
+    assert line in text
+    path = tmp_path / "half.toml"
+    path.write_text(text.replace(line, ""))
+    with pytest.raises(ConfigError, match="lacks 'bootstrap_resistor'"):
+        load_board(path)
+    assert load_board("demo-half-bridge").is_half_bridge
+    assert not load_board("demo").is_half_bridge
+
+
+def test_the_rising_uvlo_lies_between_the_falling_one_and_the_drive(tmp_path):
+    text = (CHECKLISTS / "demo-half-bridge.toml").read_text()
+    path = tmp_path / "half.toml"
+    path.write_text(text.replace('driver_uvlo_rising = "8.7 V"', 'driver_uvlo_rising = "7.9 V"'))
+    with pytest.raises(ConfigError, match="between the falling UVLO"):
+        load_board(path)
 
 
 def test_a_long_serial_is_refused_before_the_pattern_is_tried():
