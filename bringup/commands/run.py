@@ -32,6 +32,8 @@ __all__ = [
 MIN_TIME_SCALE, MAX_TIME_SCALE = 1.0, 1e4
 
 SCENARIOS = ("healthy", "weak-bootstrap", "no-overdrive", "slow-gate", "hot-switch", "sagging-rail")
+#: A half-bridge board's scenarios (``sim_instruments.half_bridge_scenarios``; healthy too).
+HALF_BRIDGE_SCENARIOS = ("shoot-through", "long-dead-time", "no-refresh", "switch-node-spike")
 
 
 def add_scpi_log_option(parser: argparse.ArgumentParser) -> None:
@@ -50,7 +52,8 @@ def add_bench_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--bench", metavar="FILE", help="bench file naming the instruments")
     group.add_argument("--sim", action="store_true", help="a simulated bench on 127.0.0.1")
     parser.add_argument("--scenario", metavar="NAME", default=None,
-                        help=f"simulated board behaviour with --sim: {', '.join(SCENARIOS)} "
+                        help=f"simulated board behaviour with --sim: {', '.join(SCENARIOS)}; "
+                        f"a half-bridge board: {', '.join(HALF_BRIDGE_SCENARIOS)} "
                         "(default healthy)")  # fmt: skip
     parser.add_argument(
         "--seed", type=int, default=0, help="simulated bench's noise seed (default 0)"
@@ -87,9 +90,11 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         "passed, 1 something failed or was not run, 2 an error.",
     )
     parser.add_argument("--board", metavar="FILE",
-                        help="board file ('demo' = the shipped demo board; default with --sim)")  # fmt: skip
+                        help="board file ('demo' = the shipped demo board, 'demo-half-bridge' "
+                        "the shipped half-bridge; default with --sim: demo)")  # fmt: skip
     parser.add_argument("--checklist", metavar="FILE",
-                        help="checklist file (default: the standard high-side bootstrap one)")  # fmt: skip
+                        help="checklist file (default: the standard high-side bootstrap one; "
+                        "'half-bridge-bootstrap' names the shipped half-bridge one)")  # fmt: skip
     add_bench_options(parser)
     parser.add_argument("--serial", metavar="SN", help="the board's serial number")
     parser.add_argument("--operator", metavar="NAME",
@@ -136,8 +141,9 @@ def check_headless_options(args: argparse.Namespace) -> None:
         )
     if args.seed < 0:
         raise InputError(f"--seed {args.seed}: must be a non-negative integer")
-    if args.scenario is not None and args.scenario not in SCENARIOS:
-        raise InputError(f"--scenario {args.scenario}: unknown (one of {', '.join(SCENARIOS)})")
+    known = SCENARIOS + HALF_BRIDGE_SCENARIOS
+    if args.scenario is not None and args.scenario not in known:
+        raise InputError(f"--scenario {args.scenario}: unknown (one of {', '.join(known)})")
 
 
 def bench_source(args: argparse.Namespace):

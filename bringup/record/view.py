@@ -185,11 +185,11 @@ def decode_trace(wave: dict) -> Trace | None:
 
 def design_rows(board: dict) -> list[list[str]]:
     """[name, value with unit] for each design value of the board (units from the board schema)."""
-    from bringup.boards.board_file import DESIGN_UNITS
+    from bringup.boards.board_file import DESIGN_UNITS, HALF_BRIDGE_UNITS
 
     rows = []
     for key, value in sorted((board.get("design") or {}).items()):
-        unit = DESIGN_UNITS.get(key, "")
+        unit = DESIGN_UNITS.get(key) or HALF_BRIDGE_UNITS.get(key, "")
         if unit == "" and isinstance(value, float) and key.startswith("duty"):
             rows.append([key, f"{value * 100:g} %"])
         else:

@@ -11,6 +11,8 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import partial
+from types import SimpleNamespace
 
 import numpy as np
 
@@ -19,6 +21,7 @@ from bringup.analysis.edges import EdgeMetrics, measure_edges, state_levels
 from bringup.boards.board_file import Board
 from bringup.checklist.catalogue import RAIL_NETS
 from bringup.errors import AnalysisError
+from bringup.runner.half_bridge_analyses import HALF_BRIDGE_ANALYSE, HALF_BRIDGE_METRIC_NETS
 from bringup.runner.results import Crossing, SoakProgress, WaveformView
 
 __all__ = ["Trace", "clipping", "RampStep", "AnalysisInput", "AnalysisOutput", "ANALYSE", "analyse"]
@@ -46,6 +49,9 @@ class Trace:
     code_step_v: float = 0.0
     dc_accuracy_v: float = 0.0
     ratio_tolerance: float = 0.0
+    # How far this channel's record lags the voltage probes' (s), from the bench file's
+    # ``deskew_s`` (a current probe's, measured on a resistive step); 0 when not given.
+    deskew_s: float = 0.0
 
     def span(self, start_s: float, end_s: float) -> np.ndarray:
         """The samples from ``start_s`` to ``end_s`` (s), both included."""
@@ -725,6 +731,10 @@ ANALYSE: dict[str, Callable[[AnalysisInput, Board, AnalysisOutput], None]] = {
     "droop": droop,
     "soak": soak,
 }
+# The half-bridge checklist's analyses (``half_bridge_analyses``), handed this module's helpers
+# (it cannot import them: this module imports it).
+_KIT = SimpleNamespace(trace=_trace, view=_view, level_uncertainty=_level_uncertainty)
+ANALYSE.update({name: partial(fn, kit=_KIT) for name, fn in HALF_BRIDGE_ANALYSE.items()})
 
 
 # Metrics that come from a net other than the one their name starts with.
@@ -734,6 +744,7 @@ _METRIC_NET = {
     "on_time": "vgs",
     "miller_plateau": "vgs",
     "switching_loss": "switch",
+    **HALF_BRIDGE_METRIC_NETS,
 }
 
 

@@ -163,13 +163,9 @@ class BenchLink:
 
     def probe_kinds(self) -> dict[int, str]:
         """The kind of probe on each wired scope channel, as the bench file wires it: a channel
-        wired to a floating net (vgs, vbs) carries a differential probe."""
-        from bringup.checklist.catalogue import FLOATING_NETS
-
-        return {
-            n: "differential" if w.net in FLOATING_NETS else "single-ended"
-            for n, w in self.bench.config.channels.items()
-        }
+        wired to a floating net (vgs, vbs) carries a differential probe, one wired to a current
+        net (i_switch) a current probe."""
+        return {n: w.kind for n, w in self.bench.config.channels.items()}
 
     def time_scale(self) -> float:
         """Bench seconds per wall second: 1 on a real bench, the sim's speed-up otherwise."""
@@ -325,6 +321,8 @@ class BenchLink:
         windows = {ch.net: (ch.offset_v, ch.range_v) for ch in plan.channels}
         chains = self._chains(plan, by_net, math_nets)
         accuracy = self._level_accuracy(plan)
+        deskew = {ch.net: getattr(self.bench.wiring.get(ch.channel), "deskew_s", 0.0) or 0.0
+                  for ch in plan.channels}  # fmt: skip
         for net, source in wanted:
             wf = scope.fetch_waveform(source)
             raw[net] = wf
@@ -333,7 +331,8 @@ class BenchLink:
             step_v = abs(wf.y_increment) if wf.codes.dtype.kind in "iu" else 0.0  # float: unknown
             traces[net] = Trace(net, volts, wf.x_increment, wf.x_origin, windows.get(net),
                                 chains.get(net, ()), code_step_v=step_v,
-                                dc_accuracy_v=dc_accuracy_v, ratio_tolerance=tolerance)  # fmt: skip
+                                dc_accuracy_v=dc_accuracy_v, ratio_tolerance=tolerance,
+                                deskew_s=deskew.get(net, 0.0))  # fmt: skip
             if net in windows:
                 why = _clipping(net, source, volts, *windows[net])
                 if why:

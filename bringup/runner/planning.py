@@ -29,6 +29,8 @@ def _v(value: float) -> str:
 #: Probe kind per scope channel when the bench is not open yet: the simulated bench's layout
 #: (single-ended probes on CH1-CH2, differential ones on CH3-CH4).
 DEFAULT_PROBE_KINDS = {1: "single-ended", 2: "single-ended", 3: "differential", 4: "differential"}
+#: The same for a half-bridge board: a current probe on CH4 instead of a second differential one.
+HALF_BRIDGE_PROBE_KINDS = {1: "single-ended", 2: "single-ended", 3: "differential", 4: "current"}
 
 
 def _channels(
@@ -40,6 +42,7 @@ def _channels(
         return ()
     free_single = [n for n in sorted(kinds) if kinds[n] == "single-ended"]
     free_diff = [n for n in sorted(kinds) if kinds[n] == "differential"]
+    free_current = [n for n in sorted(kinds) if kinds[n] == "current"]
     # One channel per net (net -> probe, range, offset, coupling, bandwidth limit). A net the
     # step acquires itself keeps its own setup when the math difference needs it too.
     wanted: dict[str, tuple[str, str, float, float, str, bool]] = {}
@@ -60,6 +63,8 @@ def _channels(
     ):
         if probe == "differential":
             pool = free_diff
+        elif probe == "current":
+            pool = free_current
         else:
             pool = free_single if free_single else free_diff
         if not pool:
@@ -220,7 +225,8 @@ def plan_step(
     earlier safety gates waived or not passed, with their states (the energising prompt names
     them)."""
     design = board.design
-    channels = _channels(step, design, dict(probe_kinds or DEFAULT_PROBE_KINDS))
+    default = HALF_BRIDGE_PROBE_KINDS if board.is_half_bridge else DEFAULT_PROBE_KINDS
+    channels = _channels(step, design, dict(probe_kinds or default))
     energise = _energise(step, design)
     if energise is not None:
         energise = _with_gates(energise, gates)

@@ -21,8 +21,19 @@ DISAGREE_FRACTION = 0.3
 
 
 def _load_current(d: dict[str, float]) -> float:
-    """Load current (A) of the resistive load at the bus voltage, switch drop neglected."""
+    """Load current (A): a half-bridge board's electronic load (``load_current``), else the
+    resistive load's at the bus voltage, switch drop neglected."""
+    if "load_current" in d:
+        return d["load_current"]
     return d["bus_voltage"] / d["load_resistance"]
+
+
+def switching_power(d: dict[str, float]) -> float:
+    """Predicted switching loss (W) of the switch, 1/2 V I (t_r + t_f) f_sw [read: ST A5972D
+    eq. 23] with the drain-source transitions Q_gd / I_gate of the gate timing (TI SLUA618)."""
+    t = _timing(d)
+    return eq.switching_loss(d["bus_voltage"], _load_current(d), t.t_vds_on_s, t.t_vds_off_s,
+                             d["switching_frequency"])  # fmt: skip
 
 
 def _bootstrap_start(d: dict[str, float]) -> float:
@@ -122,6 +133,8 @@ def predict(analysis: str, board: Board) -> dict[str, float]:
             supported = eq.bootstrap_on_time_max(d["bootstrap_capacitance"], start, floor, current)
             if math.isfinite(supported):
                 out["on_time_supported"] = supported
+        elif analysis == "switching-energy":
+            out["switching_power"] = switching_power(d)
         elif analysis == "soak":
             t = _timing(d)
             i = _load_current(d)

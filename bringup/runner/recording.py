@@ -61,6 +61,7 @@ def _verdicts(result: AttemptResult) -> dict:
 
 def _stored_waveforms(raw: dict) -> dict:
     """Raw records by net (the instrument's codes plus scale) as the store keeps them."""
+    from bringup.checklist.catalogue import CURRENT_NETS
     from bringup.store.waveforms import StoredWaveform
 
     return {
@@ -72,6 +73,8 @@ def _stored_waveforms(raw: dict) -> dict:
             x_origin=wf.x_origin,
             y_increment=wf.y_increment,
             y_origin=wf.y_origin,
+            # a current probe's channel reads amperes (its ratio is in A/V)
+            y_unit="A" if net in CURRENT_NETS else "V",
             meta={"net": net, "source": wf.source},
         )
         for net, wf in raw.items()

@@ -27,6 +27,8 @@ SCENARIOS = (
     "hot-switch",
     "sagging-rail",
 )
+#: A half-bridge board's scenarios (``sim_instruments.half_bridge_scenarios``; healthy too).
+HALF_BRIDGE_SCENARIOS = ("shoot-through", "long-dead-time", "no-refresh", "switch-node-spike")
 
 
 def _sim_text(source) -> str:
@@ -156,8 +158,9 @@ class Launcher:
                 raise InputError(f"bench file {bench_file}: no such file")
             return BenchSource.from_file(path), f"bench {path.name}"
         name = scenario or "healthy"
-        if name not in SCENARIOS:
-            raise InputError(f"--scenario {name}: unknown (one of {', '.join(SCENARIOS)})")
+        if name not in SCENARIOS + HALF_BRIDGE_SCENARIOS:
+            known = ", ".join(SCENARIOS + HALF_BRIDGE_SCENARIOS)
+            raise InputError(f"--scenario {name}: unknown (one of {known})")
         if self.sim_time_scale is None:
             source = BenchSource.simulated(name)
         else:
@@ -175,16 +178,17 @@ class Launcher:
         operator: str,
     ):
         """Create a session (validating every file) and return its ``SessionLink``."""
-        from bringup.boards.board_file import load_board
-        from bringup.checklist.load import load_checklist
+        from bringup.boards.board_file import SHIPPED_BOARDS, load_board
+        from bringup.checklist.load import SHIPPED_CHECKLISTS, load_checklist
         from bringup.runner import SessionRunner
         from bringup.tui.link import SessionLink
 
         if not board:
             raise InputError("board file: type a path, or 'demo' for the demo board")
-        if board != "demo" and not Path(board).expanduser().is_file():
+        if board not in SHIPPED_BOARDS and not Path(board).expanduser().is_file():
             raise InputError(f"board file {board}: no such file")
-        if checklist and not Path(checklist).expanduser().is_file():
+        shipped = checklist in SHIPPED_CHECKLISTS
+        if checklist and not shipped and not Path(checklist).expanduser().is_file():
             raise InputError(f"checklist file {checklist}: no such file")
         source, text = self._bench(bench_file, scenario)
         runner = SessionRunner.create(

@@ -136,7 +136,10 @@ def metric_row(m: Any, budget: Any = None) -> MetricRow:
 
 
 def trace_view(w: Any) -> TraceView:
-    """A ``WaveformView`` with its levels, crossings and on-time window."""
+    """A ``WaveformView`` with its levels, crossings and on-time window (amperes on a current
+    net)."""
+    from bringup.checklist.catalogue import CURRENT_NETS
+
     crossings = tuple(
         (f"{c.name}{'↑' if c.direction.startswith('r') else '↓'}", float(c.time_s))
         for c in w.crossings
@@ -145,7 +148,7 @@ def trace_view(w: Any) -> TraceView:
         title=f"{w.name} ({w.net})" if w.net and w.net not in w.name else w.name,
         t=w.times(),
         v=w.volts,
-        unit="V",
+        unit="A" if w.net in CURRENT_NETS else "V",
         levels=tuple((name, float(v)) for name, v in w.levels.items()),
         crossings=crossings,
         window=tuple(w.window_s) if w.window_s is not None else None,
