@@ -58,6 +58,7 @@ class LabSession:
     bench: str
     id: str
     created_utc: str
+    genesis_hash: str
     address: str = ""
 
 
@@ -90,6 +91,7 @@ class LabReading:
         self._snapshots: dict[str, SessionLog] = {}
         self._copied: dict[tuple[str, str], str | None] = {}  # -> chain problem, or None
         self._attempt_log: dict[int, str] = {}  # a snapshot's attempt id (the lab's) -> log
+        self._pinned: dict[str, str] = {}  # a bare id -> the address a record named
 
     @classmethod
     def open(cls, target: LabTarget) -> LabReading:
@@ -104,7 +106,8 @@ class LabReading:
                         "`bringup push --lab` creates them)"
                     )
                 rows = conn.execute(
-                    "SELECT s.log_id, l.bench, s.id, s.created_utc FROM bringup.sessions AS s "
+                    "SELECT s.log_id, l.bench, s.id, s.created_utc, s.genesis_hash "
+                    "FROM bringup.sessions AS s "
                     "JOIN bringup.logs AS l USING (log_id) ORDER BY s.created_utc, s.pushed, s.id"
                 ).fetchall()
         except BaseException:
@@ -149,6 +152,8 @@ class LabReading:
             raise LabError(f"{self.path}: no session id given")
         if text in self._by_address:
             return text
+        if text in self._pinned:
+            return self._pinned[text]
         pool, wanted = self._index, text
         if "/" in text:
             bench, wanted = text.split("/", 1)
@@ -164,6 +169,19 @@ class LabReading:
             f"{self.path}: {text!r} matches {len(found)} sessions ({names}); name one as "
             "BENCH/ID or type more of the id"
         )
+
+    def pin_record(self, content: object) -> None:
+        """Let a record's bare session id name the lab session it was exported from (its
+        genesis hash picks it when two benches hold that id), so that ``verify --lab``
+        compares a record with its own session. A record naming no such session changes
+        nothing (the comparison then says what is missing)."""
+        session = content.get("session") if isinstance(content, dict) else None
+        log = content.get("log") if isinstance(content, dict) else None
+        sid = session.get("id") if isinstance(session, dict) else None
+        genesis = log.get("genesis_hash") if isinstance(log, dict) else None
+        found = [s for s in self._index if s.id == sid and s.genesis_hash == genesis]
+        if isinstance(sid, str) and len(found) == 1:
+            self._pinned[sid] = found[0].address
 
     def latest_session(self) -> str:
         """The address of the session started last in the lab."""

@@ -146,3 +146,27 @@ def test_the_server_refuses_changes_removals_and_entries_that_do_not_link(lab_db
         with pytest.raises(psycopg.Error, match="does not follow"):
             conn.execute(insert, [row[0], row[1], row[2] + 5, "a" * 64, "b" * 64])
         assert lab_counts(conn) == before
+
+
+def test_a_lab_that_grants_the_benches_only_select_and_insert(lab_db, tmp_path):
+    """The stricter setup the schema's notes describe: an administrator made the tables, the
+    benches' role may only read and add. A push works; switching a trigger off does not."""
+    from bringup.lab.schema import ensure_schema
+
+    with lab_db.server.admin(lab_db.name) as admin:
+        assert ensure_schema(admin)
+        admin.execute("GRANT USAGE ON SCHEMA bringup TO bench")
+        admin.execute("GRANT SELECT, INSERT ON ALL TABLES IN SCHEMA bringup TO bench")
+    db = tmp_path / "bench.db"
+    make_log(db, 2)
+    result = _push(lab_db, db)
+    assert result.returncode == 0, result.stderr
+    with psycopg.connect(lab_db.url, autocommit=True) as conn:
+        assert lab_counts(conn) == log_counts(db)
+        for sql in (
+            "ALTER TABLE bringup.metrics DISABLE TRIGGER USER",
+            "DROP TRIGGER metrics_append_only ON bringup.metrics",
+            "DELETE FROM bringup.metrics",
+        ):
+            with pytest.raises(psycopg.Error, match="must be owner|permission denied"):
+                conn.execute(sql)
