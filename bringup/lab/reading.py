@@ -34,7 +34,7 @@ from typing import Any
 from bringup.errors import LabError
 from bringup.lab.config import LabTarget
 from bringup.lab.connection import connect, lab_errors
-from bringup.lab.schema import installed_version
+from bringup.lab.schema import LAB_SCHEMA_VERSION, installed_version
 from bringup.store import SessionLog
 from bringup.store.copying import (
     ATTEMPT_COLUMNS,
@@ -47,7 +47,11 @@ from bringup.store.copying import (
     add_session_rows,
 )
 
-__all__ = ["LabReading", "LabSession"]
+__all__ = ["LabReading", "LabSession", "COPY_GROUP"]
+
+#: Sessions copied from the lab per transaction (a session with its waveforms is ~0.5 MB in
+#: a simulated run; a real scope's records are larger).
+COPY_GROUP = 20
 
 
 @dataclasses.dataclass(frozen=True)
@@ -100,10 +104,16 @@ class LabReading:
         conn = connect(target)
         try:
             with lab_errors(target, "reading the sessions it holds"):
-                if installed_version(conn) is None:
+                version = installed_version(conn)
+                if version is None:
                     raise LabError(
                         f"lab {target.label}: no bringup tables there yet (a bench's "
                         "`bringup push --lab` creates them)"
+                    )
+                if version > LAB_SCHEMA_VERSION:
+                    raise LabError(
+                        f"lab {target.label}: its tables are version {version}, this bringup "
+                        f"reads up to {LAB_SCHEMA_VERSION}: upgrade bringup to read them"
                     )
                 rows = conn.execute(
                     "SELECT s.log_id, l.bench, s.id, s.created_utc, s.genesis_hash "
@@ -207,24 +217,31 @@ class LabReading:
         return self._snapshots[log_id]
 
     def _copy(self, wanted: list[LabSession]) -> None:
-        """Copy the ``wanted`` sessions not copied yet into their logs' snapshots (one
-        read-only repeatable-read transaction), then chain-check each one there."""
+        """Copy the ``wanted`` sessions not copied yet into their logs' snapshots, at most
+        ``COPY_GROUP`` sessions per read-only repeatable-read transaction (so a large lab is
+        never held in memory whole; a push commits a session whole, so each one is read as
+        one consistent state), then chain-check each one there."""
         missing = [s for s in wanted if (s.log_id, s.id) not in self._copied]
-        if not missing:
-            return
-        by_log: dict[str, list[str]] = {}
-        for s in missing:
-            by_log.setdefault(s.log_id, []).append(s.id)
-        with lab_errors(self._target, "reading sessions"), self._conn.transaction():
-            self._conn.execute("SET TRANSACTION ISOLATION LEVEL REPEATABLE READ, READ ONLY")
-            fetched = {log_id: _fetch(self._conn, log_id, ids) for log_id, ids in by_log.items()}
-        for log_id, sessions in fetched.items():
-            snapshot = self._snapshot(log_id)
-            for rows in sessions:
-                add_session_rows(snapshot, rows)
-                self._attempt_log.update({a["id"]: log_id for a in rows.attempts})
-                report = snapshot.verify_chain(rows.session_id)
-                self._copied[log_id, rows.session_id] = None if report.ok else report.problem
+        for start in range(0, len(missing), COPY_GROUP):
+            by_log: dict[str, list[str]] = {}
+            for s in missing[start : start + COPY_GROUP]:
+                by_log.setdefault(s.log_id, []).append(s.id)
+            with lab_errors(self._target, "reading sessions"), self._conn.transaction():
+                self._conn.execute("SET TRANSACTION ISOLATION LEVEL REPEATABLE READ, READ ONLY")
+                fetched = {
+                    log_id: _fetch(self._conn, log_id, ids) for log_id, ids in by_log.items()
+                }
+            for log_id, sessions in fetched.items():
+                self._keep(log_id, sessions)
+
+    def _keep(self, log_id: str, sessions: list[SessionRows]) -> None:
+        """Write copied sessions into the log's snapshot and chain-check each one there."""
+        snapshot = self._snapshot(log_id)
+        for rows in sessions:
+            add_session_rows(snapshot, rows)
+            self._attempt_log.update({a["id"]: log_id for a in rows.attempts})
+            report = snapshot.verify_chain(rows.session_id)
+            self._copied[log_id, rows.session_id] = None if report.ok else report.problem
 
     def _reader(self, text: str) -> tuple[SessionLog, str]:
         """The snapshot holding the session at ``text`` (copied now if it was not) and the

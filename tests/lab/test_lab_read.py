@@ -166,3 +166,33 @@ def test_an_empty_lab_and_a_lab_without_tables_say_so_in_one_line(lab_db, tmp_pa
     assert code == 0 and [row["serial"] for row in json.loads(out)] == ["DHS24-0000"]
     with psycopg.connect(lab_db.url) as conn:
         assert conn.execute("SELECT count(*) FROM bringup.logs").fetchone()[0] == 1
+
+
+def test_a_large_lab_is_copied_in_groups_and_lists_as_the_log_does(
+    lab_db, tmp_path, capsys, monkeypatch
+):
+    import bringup.lab.reading as lab_reading
+
+    db = tmp_path / "bench.db"
+    make_log(db, 5)
+    assert _cli(capsys, "push", "--lab", lab_db.url, "--db", str(db))[0] == 0
+    monkeypatch.setattr(lab_reading, "COPY_GROUP", 2)  # five sessions in three transactions
+    code, lab_json, err = _cli(capsys, "sessions", "--json", "--lab", lab_db.url)
+    assert code == 0, err
+    code, bench_json, _ = _cli(capsys, "sessions", "--json", "--db", str(db))
+    listed = json.loads(lab_json)
+    for row in listed:
+        row.pop("bench_name")
+    assert listed == json.loads(bench_json) and len(listed) == 5
+
+
+def test_tables_of_a_newer_bringup_are_refused_in_one_line(lab_db, tmp_path, capsys):
+    db = tmp_path / "bench.db"
+    make_log(db, 1)
+    assert _cli(capsys, "push", "--lab", lab_db.url, "--db", str(db))[0] == 0
+    with lab_db.server.admin(lab_db.name) as admin:
+        admin.execute("INSERT INTO bringup.lab_version (version) VALUES (99)")
+    for args in (("sessions",), ("push", "--db", str(db))):
+        code, out, err = _cli(capsys, *args, "--lab", lab_db.url)
+        assert code == 2 and len(err.strip().splitlines()) == 1, err
+        assert "tables are version 99" in err and "upgrade bringup" in err
