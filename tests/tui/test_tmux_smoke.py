@@ -7,52 +7,14 @@ outlives the demo's process and its supply can be asked afterwards over its own 
 from __future__ import annotations
 
 import os
-import shutil
-import subprocess
 import sys
 import time
-import uuid
 from pathlib import Path
 
 import pytest
+from tmux_pane import TMUX, Pane
 
-TMUX = shutil.which("tmux") or ("/usr/bin/tmux" if Path("/usr/bin/tmux").exists() else None)
 pytestmark = pytest.mark.skipif(TMUX is None, reason="tmux is not installed on this machine")
-
-
-class Pane:
-    """One detached tmux session on its own server socket."""
-
-    def __init__(self, command: str, env: dict[str, str]) -> None:
-        self.socket = f"bringup-smoke-{uuid.uuid4().hex[:8]}"
-        self.env = env
-        self._tmux("new-session", "-d", "-s", "smoke", "-x", "130", "-y", "40", command)
-
-    def _tmux(self, *args: str) -> str:
-        out = subprocess.run([TMUX, "-L", self.socket, *args], capture_output=True, text=True,
-                             env=self.env, timeout=10, check=True)  # fmt: skip
-        return out.stdout
-
-    def keys(self, *keys: str) -> None:
-        self._tmux("send-keys", "-t", "smoke", *keys)
-
-    def screen(self) -> str:
-        return self._tmux("capture-pane", "-p", "-t", "smoke")
-
-    def wait_for(self, *texts: str, timeout: float = 30.0) -> str:
-        """The screen once every one of ``texts`` is on it."""
-        deadline = time.monotonic() + timeout
-        while True:
-            screen = self.screen()
-            if all(text in screen for text in texts):
-                return screen
-            if time.monotonic() > deadline:
-                raise AssertionError(f"{texts!r} never all appeared; the screen:\n{screen}")
-            time.sleep(0.1)  # polling the terminal, not a fixed wait for the app
-
-    def kill(self) -> None:
-        subprocess.run([TMUX, "-L", self.socket, "kill-server"], capture_output=True,
-                       env=self.env, timeout=10)  # fmt: skip
 
 
 def _wait(predicate, timeout: float, what: str) -> None:

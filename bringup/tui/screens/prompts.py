@@ -124,12 +124,20 @@ class EnergisePrompt(BenchPrompt[bool]):
         self.dismiss(yes)
 
 
+class _Field(Input):
+    """A prompt's text field: its Enter (submit) is shown at the foot of the prompt. Not a
+    priority binding on the screen: that would act on Enter before the field has taken the
+    characters typed just before it."""
+
+    BINDINGS = [Binding("enter", "submit", "record it", key_display="enter")]
+
+
 class ReasonPrompt(BenchPrompt[tuple[str, str] | None]):
     """Ask for a reason (and, when ``ask_name``, who takes responsibility)."""
 
     BINDINGS = [
-        # Enter in a field submits it (the field's own key); shown here so the foot names it
-        Binding("enter", "submit", "record it"),
+        # Enter: a focused field takes it (``_Field``: so the foot names it there too)
+        Binding("enter", "submit", "record it", key_display="enter"),
         Binding("escape", "cancel", "cancel"),
     ]
 
@@ -161,9 +169,9 @@ class ReasonPrompt(BenchPrompt[tuple[str, str] | None]):
         with Vertical(classes="prompt-box"):
             yield Label(literal(self.title_text), classes="prompt-title")
             yield Static(literal(self.explain))
-            yield Input(placeholder=self.placeholder, id="reason")
+            yield _Field(placeholder=self.placeholder, id="reason")
             if self.ask_name:
-                yield Input(
+                yield _Field(
                     value=self.name_default,
                     placeholder="who accepts it (not the operator)",
                     id="who",
@@ -220,7 +228,15 @@ class ReasonPrompt(BenchPrompt[tuple[str, str] | None]):
             self.dismiss(None)
 
     def action_submit(self) -> None:
-        self._submit()
+        """Enter: on a button, that button; in the reason field of a waiver, on to the name;
+        otherwise record the answer."""
+        focused = self.focused
+        if isinstance(focused, Button):
+            focused.press()
+        elif self.ask_name and focused is self.query_one("#reason", Input):
+            self.query_one("#who", Input).focus()
+        else:
+            self._submit()
 
     def action_cancel(self) -> None:
         self.dismiss(None)
