@@ -165,6 +165,15 @@ async def test_step_names_wrap_in_the_checklist_from_100x30_to_200x60(log_path):
             for title in titles[:4]:
                 assert title in column, (size, title, column)
             assert "…" not in column
+            # a name's further lines start under the name (at 100x30 the column's scroll bar
+            # once took two cells after the names were wrapped, and a word fell to the edge)
+            rows = [line.split("▎")[0][1:] for line in screen_lines(app)[1:] if "▎" in line]
+            rows = rows[rows.index(next(r for r in rows if "CHECKLIST" in r)) + 1 :]
+            rows = rows[: next(i for i, r in enumerate(rows) if r.startswith("──"))]
+            for row in rows:
+                text = row.rstrip("▁▂▃▄▅▆▇█ ")
+                assert not text or text[0] in " ➤", (size, row)
+                assert text[:2].strip() or not text.strip() or text[:19] == " " * 19, (size, row)
             session_id = screen.link.session_id
             await pilot.press("q")
         app = BringupApp(Launcher(log_path), resume=session_id)

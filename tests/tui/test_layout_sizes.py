@@ -8,7 +8,7 @@ What is checked is read back from the app's own screenshot (``screen_lines``).
 from __future__ import annotations
 
 import pytest
-from tui_pilot import screen_lines, sync, wait_for_session, wait_until
+from tui_pilot import screen_lines, sync, take_step, wait_for_session, wait_until
 
 from bringup.runner import StepAnswers
 from bringup.tui.app import BringupApp
@@ -16,9 +16,11 @@ from bringup.tui.launch import Launcher
 from bringup.tui.screens.prompts import EnergisePrompt
 from bringup.tui.screens.start import StartScreen
 from bringup.tui.screens.summary import SummaryScreen
+from bringup.tui.states import look_of
 
 SIZES = [(100, 30), (200, 60)]
 SOAK = "thermal.soak"
+RAILS = "power-rails.rails-unloaded"
 
 # what each screen's foot must say, whole (the key, then what it does)
 SESSION_KEYS = ("r run/retake", "s skip", "w waive", "n note", "b back", "kj step", "1234 tabs",
@@ -109,3 +111,37 @@ async def test_a_running_soak_shows_stop_and_finish_at_100_columns(log_path, ben
         await app.workers.wait_for_complete()
         await pilot.press("q")
     assert not bench.supply.output_on
+
+
+@pytest.mark.parametrize("size", SIZES, ids=lambda s: f"{s[0]}x{s[1]}")
+@sync
+async def test_every_result_column_is_shown_whole(log_path, size):
+    """The rails' result (six metrics with values, limits and margins) at 100x30 and 200x60:
+    each header and each metric's verdict, values, limits and margin whole on the screen (at
+    100 columns the limits and margin columns were cut off the right edge)."""
+    app = BringupApp(Launcher(log_path), open_new=_values("DHS24-0152"))
+    async with app.run_test(size=size) as pilot:
+        screen = await wait_for_session(pilot)
+        await take_step(pilot)  # first power
+        await wait_until(pilot, lambda: screen.viewed == RAILS, what="the rails step")
+        await take_step(pilot)
+        await pilot.press("k")  # back to the rails' result
+        await wait_until(pilot, lambda: screen.viewed == RAILS, what="the rails step")
+        table = screen.query_one("#results")
+        metrics = screen.link.attempts(RAILS)[-1].metrics
+        assert len(metrics) >= 5 and table.row_count == len(metrics)
+        table.focus()
+        for row, m in enumerate(metrics):
+            table.move_cursor(row=row)  # the row scrolls into view, as with the arrow keys
+            await pilot.pause()
+            lines = screen_lines(app)
+            text = "\n".join(lines)
+            for header in ("metric", "verdict", "measured", "predicted", "limits", "margin"):
+                assert header in text, (size, header)
+            look = look_of(m.verdict)
+            for value in (f"{look.symbol} {look.brief}", m.measured, m.predicted, m.limits,
+                          m.margin):  # fmt: skip
+                assert any(value in line for line in lines), (size, m.label, value, text)
+            words = " ".join(" ".join(line.split()) for line in lines)
+            assert all(word in words for word in m.label.split()), (size, m.label)
+        await pilot.press("q")

@@ -101,3 +101,15 @@ def test_summary(snap_compare, log_path):
 
     app = BringupApp(FixedLauncher(log_path), open_new=_values("no-overdrive"))
     assert snap_compare(app, terminal_size=SIZE, run_before=run_before)
+
+
+def test_passed_step_100x30(snap_compare, log_path):
+    """The smallest terminal the notebook is laid out for: the result in three two-line
+    columns beside the checklist, the keys wrapped onto two lines at the foot."""
+
+    async def run_before(pilot) -> None:
+        await pilot.pause()
+        await _take_gate_step(pilot)
+
+    app = BringupApp(FixedLauncher(log_path), open_new=_values("healthy"))
+    assert snap_compare(app, terminal_size=(100, 30), run_before=run_before)

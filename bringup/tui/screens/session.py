@@ -40,14 +40,12 @@ from bringup.tui.states import LEGEND, look_of
 from bringup.tui.views import AttemptView, Progress, StepDetail
 from bringup.tui.widgets.checklist_column import ChecklistColumn
 from bringup.tui.widgets.key_footer import KeyFooter
+from bringup.tui.widgets.results_table import ResultsTable
 from bringup.tui.widgets.status_line import StatusLine
 from bringup.tui.widgets.supply_lamp import SupplyLamp
 from bringup.tui.widgets.waveform_plot import PlotMarks, WaveformPlot
 
 __all__ = ["SessionScreen"]
-
-#: width of the result table's metric column, cells: a longer name wraps onto more lines
-METRIC_COLUMN = 26
 
 
 def _verdict_text(verdict: str) -> Text:
@@ -123,12 +121,9 @@ class SessionScreen(StepActions, Screen[None]):
                 with TabbedContent(initial="tab-result", id="tabs"):
                     with TabPane("1 result", id="tab-result"):
                         yield Static("", id="verdict-banner")
-                        results = DataTable(id="results", cursor_type="row", zebra_stripes=True)
-                        # the verdict second: it must never scroll off a narrow terminal
-                        # a metric's name wraps in its column (never cut): the rows grow
-                        results.add_column("metric", width=METRIC_COLUMN)
-                        results.add_columns("verdict", "measured", "predicted", "limits", "margin")
-                        yield results
+                        # six columns, or three of two lines on a narrow terminal; the verdict
+                        # beside the name either way, so it never scrolls off
+                        yield ResultsTable(id="results")
                         yield Static("", id="metric-detail")
                     with TabPane("2 trace", id="tab-trace"):
                         yield WaveformPlot(id="plot")
@@ -238,8 +233,8 @@ class SessionScreen(StepActions, Screen[None]):
     def _show_attempt(self, attempt: AttemptView | None) -> None:
         self._attempt = attempt
         self._trace_index = 0
-        table = self.query_one("#results", DataTable)
-        table.clear()
+        table = self.query_one("#results", ResultsTable)
+        table.show_metrics(attempt.metrics if attempt is not None else ())
         banner = self.query_one("#verdict-banner", Static)
         if attempt is None:
             banner.update("No attempt yet: r runs the step.")
@@ -257,16 +252,6 @@ class SessionScreen(StepActions, Screen[None]):
         if attempt is None:
             self.query_one("#plot", WaveformPlot).clear("no attempt yet: press r to run the step")
             return
-        for m in attempt.metrics:
-            look = look_of(m.verdict)
-            verdict = Text(f"{look.symbol} {look.brief}", style=look.style)
-            cells = (m.measured, m.predicted, m.limits, m.margin)
-            table.add_row(
-                literal(m.label, multiline=False),
-                verdict,
-                *(literal(c, multiline=False) for c in cells),
-                height=None,  # as many lines as the wrapped name needs
-            )
         self._show_metric_detail(0)
         self._show_trace()
 

@@ -96,7 +96,13 @@ class ChecklistColumn(OptionList):
                 for stage in stages
             )  # fmt: skip
         self._args = (stages, current)
-        width = self.scrollable_content_region.width or self.size.width or 40
+        width = self.scrollable_content_region.width
+        laid_out = width > 0
+        if not laid_out:
+            # not laid out yet: the rows are wrapped once the column's width is known (rows
+            # wrapped at a guessed width showed, for a moment, a word at the column's edge)
+            width = 40
+            self.call_after_refresh(self._wrap_again)
         shape = [(s.id, [p.id for p in s.steps]) for s in stages]
         rows: list[tuple[str, Text, bool]] = []
         numbers: dict[str, str] = {}
@@ -108,6 +114,9 @@ class ChecklistColumn(OptionList):
                 prompt = _row(f"{i}.{j}", step.title, step.state, width, step.attempts,
                               step.id == current)  # fmt: skip
                 rows.append((step.id, prompt, False))
+        if not laid_out:
+            self._numbers = numbers
+            return
         if shape != [(s.id, [p.id for p in s.steps]) for s in self._shown] or not self.option_count:
             highlighted = self.highlighted_step
             self.clear_options()
@@ -122,6 +131,14 @@ class ChecklistColumn(OptionList):
     def on_resize(self) -> None:
         # the names are wrapped to the column's width: wrap them again at the new one
         if self._args is not None:
+            self.show_stages(*self._args)
+
+    def watch_show_vertical_scrollbar(self) -> None:
+        # the scroll bar comes and goes without a resize, taking or giving back two cells
+        self.call_after_refresh(self._wrap_again)
+
+    def _wrap_again(self) -> None:
+        if self._args is not None and self.scrollable_content_region.width > 0:
             self.show_stages(*self._args)
 
     @property
