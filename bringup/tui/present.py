@@ -247,13 +247,19 @@ def progress_view(p: Any) -> Progress:
         settled = bool(soak.settled)
         if soak.predicted_final_c is not None:
             predicted = format_quantity(soak.predicted_final_c, "degC")
+            notes = []
             if soak.predicted_sigma_c is not None:
-                predicted += f" ± {format_quantity(soak.predicted_sigma_c, 'K', 2)}"
+                # the fit's expanded uncertainty (k = 2): the band the plot draws
+                predicted += f" ± {format_quantity(2 * soak.predicted_sigma_c, 'K', 2)}"
+                notes.append("k = 2, from the fit alone")
             if soak.limit_c is not None:
-                predicted += f" (limit {format_quantity(soak.limit_c, 'degC')})"
+                notes.append(f"limit {format_quantity(soak.limit_c, 'degC')}")
+            if notes:
+                predicted += f" ({'; '.join(notes)})"
     return Progress(
         soak_limit_c=soak.limit_c if soak is not None else None,
         soak_final_c=soak.predicted_final_c if soak is not None else None,
+        soak_sigma_c=soak.predicted_sigma_c if soak is not None else None,
         fraction=p.fraction,
         text=_phase_text(p.phase, p.message),
         readings=tuple(readings),

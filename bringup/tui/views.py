@@ -151,6 +151,8 @@ class Progress:
     settled: bool = False
     soak_limit_c: float | None = None
     soak_final_c: float | None = None
+    #: the prediction's standard uncertainty from the fit alone (K): the band is twice it
+    soak_sigma_c: float | None = None
 
 
 @dataclass(frozen=True)

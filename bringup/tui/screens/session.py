@@ -92,6 +92,9 @@ class SessionScreen(StepActions, Screen[None]):
         self._soak_t: list[float] = []
         self._running_kind = ""
         self._finals: list[float] = []  # the soak's successive predictions of its final value
+        self._predictions: list[tuple[float, float, float]] = []  # (s, °C, ± K) of each fit
+        self._soak_view = "prediction"  # or "log": what the trace tab shows while soaking
+        self._soak_shown: Progress | None = None
         self._history: dict[str, AttemptView] = {}
         self._stopping = False  # STOP pressed during the running step
         self._writing = 0  # log writes in flight (StepActions)
@@ -337,6 +340,12 @@ class SessionScreen(StepActions, Screen[None]):
         self.query_one("#tabs", TabbedContent).active = tab
 
     def action_next_trace(self) -> None:
+        if self.running is not None and self._running_kind == "soak":
+            # a soak running: between its prediction and its temperature log
+            self._soak_view = "log" if self._soak_view == "prediction" else "prediction"
+            self._show_soak()
+            self.action_tab("tab-trace")
+            return
         self._trace_index += 1
         self._show_trace()
         self.action_tab("tab-trace")
@@ -374,6 +383,9 @@ class SessionScreen(StepActions, Screen[None]):
         self._stop_soak = threading.Event()
         self._soak_t, self._soak_temp = [], []
         self._finals = []
+        self._predictions: list[tuple[float, float, float]] = []  # (s, °C, ± K) of each fit
+        self._soak_view = "prediction"
+        self._soak_shown = None
         self._found = ()  # the last step's bench notices have been seen by now
         live = self.query_one("#live")
         live.display = True
@@ -441,29 +453,70 @@ class SessionScreen(StepActions, Screen[None]):
         readings = "   ".join(f"{name}: {value}" for name, value in p.readings)
         text = p.text + (f"\n{readings}" if readings else "")
         if p.predicted_final:
-            settled = "settled: finishing" if p.settled else "converging; t finishes early"
-            if p.soak_final_c is not None and (
-                not self._finals or abs(self._finals[-1] - p.soak_final_c) > 1e-9
+            settled = (
+                "settled: finishing"
+                if p.settled
+                else "not settled: it ends by itself once settled; t ends it sooner, after "
+                "the minimum soak, and an unsettled prediction fails"
+            )
+            if (
+                p.soak_final_c is not None
+                and p.soak_t
+                and (not self._finals or abs(self._finals[-1] - p.soak_final_c) > 1e-9)
             ):
                 self._finals.append(float(p.soak_final_c))
+                sigma = p.soak_sigma_c if p.soak_sigma_c is not None else float("nan")
+                self._predictions.append((p.soak_t[-1], float(p.soak_final_c), 2 * sigma))
             trail = " → ".join(f"{v:.2f}" for v in self._finals[-4:])
-            text += f"\npredicted final {p.predicted_final}  ({settled})\n  so far: {trail} °C"
+            text += f"\npredicted final {p.predicted_final}\n  so far: {trail} °C  ({settled})"
         self.query_one("#live-text", Static).update(literal(text))
         if p.soak_t:
-            import numpy as np
+            self._soak_shown = p
+            self._show_soak()
 
-            levels = []
-            if p.soak_limit_c is not None:
-                levels.append(("limit", float(p.soak_limit_c)))
-            if p.soak_final_c is not None:
-                levels.append(("→ final", float(p.soak_final_c)))
-            self.query_one("#plot", WaveformPlot).show(
-                np.asarray(p.soak_t, dtype=float),
-                np.asarray(p.soak_temp, dtype=float),
-                PlotMarks(levels=tuple(levels)),
-                title=f"heatsink temperature, live: {len(p.soak_t)} readings",
-                unit="degC",
+    def _show_soak(self) -> None:
+        """The live soak on the trace tab: the predicted final temperature at each refit with
+        its ± band (k = 2) narrowing as the log grows, or (p) the temperature log itself."""
+        import numpy as np
+
+        p, plot = self._soak_shown, self.query_one("#plot", WaveformPlot)
+        if p is None:
+            return
+        if self._soak_view == "prediction":
+            if not self._predictions:
+                plot.clear("predicted final temperature: no fit yet, the first comes once a "
+                           "few readings are in   (p: the temperature log)")  # fmt: skip
+                return
+            t, final, u = np.asarray(self._predictions, dtype=float).T
+            # the view: the latest prediction ± 4 U, at least ± 1 K; the first fits' bands (up
+            # to thousands of kelvin) would otherwise flatten the rest into one line
+            half = max(1.0, 4.0 * u[-1]) if np.isfinite(u[-1]) else 1.0
+            lo, hi = final[-1] - half, final[-1] + half
+            clipped = bool(np.any(final - u < lo) or np.any(final + u > hi))
+            note = f"view ± {half:.2g} K around the latest" + (
+                "; a band beyond it is drawn at its edge" if clipped else ""
             )
+            plot.show(t, np.clip(final, lo, hi),
+                      PlotMarks(edges=(tuple(np.clip(final - u, lo, hi)),
+                                       tuple(np.clip(final + u, lo, hi))),
+                                extra_legend=("bright: the prediction at each fit; dim: its "
+                                              f"± U (k = 2, from the fit alone); {note}",)),
+                      title=f"predicted final temperature and its band, {len(t)} fits"
+                            "   (p: the temperature log)",
+                      unit="degC")  # fmt: skip
+            return
+        levels = []
+        if p.soak_limit_c is not None:
+            levels.append(("limit", float(p.soak_limit_c)))
+        if p.soak_final_c is not None:
+            levels.append(("→ final", float(p.soak_final_c)))
+        plot.show(
+            np.asarray(p.soak_t, dtype=float),
+            np.asarray(p.soak_temp, dtype=float),
+            PlotMarks(levels=tuple(levels)),
+            title=f"heatsink temperature, live: {len(p.soak_t)} readings   (p: the prediction)",
+            unit="degC",
+        )
 
     def _finish(self, select_next: bool) -> None:
         self.running = None

@@ -58,6 +58,9 @@ class PlotMarks:
     #: a level with ripple on it (a rail): drawn as a band in the middle of the plot with its
     #: highest and lowest values marked and its peak-to-peak in the legend
     band: bool = False
+    #: (lower, upper) values at each sample of the trace: an uncertainty band drawn as its two
+    #: edges around the trace (a prediction and its ±)
+    edges: tuple[tuple[float, ...], tuple[float, ...]] | None = None
 
 
 def _value_ticks(y0: float, y1: float, rows: int, unit: str) -> dict[int, str]:
@@ -262,7 +265,10 @@ class WaveformPlot(Widget):
         if x1 <= x0:
             x1 = x0 + 1e-12
         marks, extra_legend = self._banded(self._marks, v)
+        lower, upper = self._edges(t)
         values = [float(v.min()), float(v.max())] + [lv for _, lv in marks.levels]
+        if lower is not None:
+            values += [float(lower.min()), float(upper.max())]
         y0, y1 = min(values), max(values)
         # a band sits in the middle half of the plot (its width readable against the frame);
         # an edge uses nearly the whole height
@@ -270,6 +276,11 @@ class WaveformPlot(Widget):
         y0, y1 = y0 - pad, y1 + pad
         dots = braille_envelope(t, v, cols, rows, (x0, x1), (y0, y1))
         codes = _cells(dots)
+        edge_codes = None
+        if lower is not None:
+            edge_dots = braille_envelope(t, lower, cols, rows, (x0, x1), (y0, y1))
+            edge_dots |= braille_envelope(t, upper, cols, rows, (x0, x1), (y0, y1))
+            edge_codes = _cells(edge_dots & ~dots)
 
         def col_of(ts: float) -> int:
             return int(np.clip((ts - x0) / (x1 - x0) * cols, 0, cols - 1))
@@ -287,11 +298,22 @@ class WaveformPlot(Widget):
             win = (col_of(max(w0, x0)), col_of(min(w1, x1)))
 
         ticks = _value_ticks(y0, y1, rows, self._unit)
-        lines.extend(self._trace_rows(codes, ticks, level_rows, cross_cols, win))
+        lines.extend(self._trace_rows(codes, ticks, level_rows, cross_cols, win, edge_codes))
         lines.append(self._marker_row(cols, win, marks.window_label, cross_cols))
         lines.append(self._time_axis(cols, x0, x1))
         lines.append(self._legend(width, marks, x0, x1, extra_legend))
         return lines[:height]
+
+    def _edges(self, t: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | None]:
+        """The band's lower and upper edges at the samples in view (None: no band)."""
+        edges = self._marks.edges
+        if edges is None or len(edges[0]) != self._t.size or len(edges[1]) != self._t.size:
+            return None, None
+        lo, hi = np.asarray(edges[0], dtype=float), np.asarray(edges[1], dtype=float)
+        keep = np.isin(self._t, t)  # the view is a slice of the samples
+        if not keep.any() or not (np.isfinite(lo[keep]).all() and np.isfinite(hi[keep]).all()):
+            return None, None
+        return lo[keep], hi[keep]
 
     def _banded(self, marks: PlotMarks, v: np.ndarray) -> tuple[PlotMarks, list[str]]:
         """A band's marks gain its max and min levels and its peak-to-peak in the legend."""
@@ -312,9 +334,10 @@ class WaveformPlot(Widget):
         level_rows: dict[int, str],
         cross_cols: dict[int, str],
         win: tuple[int, int] | None,
+        edge_codes: np.ndarray | None = None,
     ) -> list[Strip]:
-        """One line per text row: the value axis, the braille trace over the level and
-        crossing marks (the window shaded), and the level's label."""
+        """One line per text row: the value axis, the braille trace over a band's edges, the
+        level and crossing marks (the window shaded), and the level's label."""
         base = self.rich_style
         axis = self._style("plot--axis")
         trace, level, cross = (
@@ -333,8 +356,11 @@ class WaveformPlot(Widget):
                 code = int(codes[r, c])
                 in_win = win is not None and win[0] <= c <= win[1]
                 bg = shade if in_win else Style()
+                edge = int(edge_codes[r, c]) if edge_codes is not None else 0
                 if code:
                     segs.append(Segment(chr(0x2800 + code), trace + bg))
+                elif edge:
+                    segs.append(Segment(chr(0x2800 + edge), level + bg))
                 elif c in cross_cols:
                     segs.append(Segment("┆", cross + bg))
                 elif r in level_rows:
