@@ -145,3 +145,45 @@ async def test_every_result_column_is_shown_whole(log_path, size):
             words = " ".join(" ".join(line.split()) for line in lines)
             assert all(word in words for word in m.label.split()), (size, m.label)
         await pilot.press("q")
+
+
+def _column_text(app, table, index: int) -> str:
+    """What the screen shows in one column of ``table``, its lines read top to bottom and
+    joined (a wrapped name reads on from one line to the next)."""
+    columns = list(table.columns.values())
+    x = table.region.x + sum(c.get_render_width(table) for c in columns[:index])
+    width = columns[index].get_render_width(table)
+    lines = screen_lines(app)[table.region.y : table.region.bottom]
+    return " ".join(" ".join(line[x : x + width].split()) for line in lines)
+
+
+@pytest.mark.parametrize("size", [(100, 30), (160, 48)], ids=lambda s: f"{s[0]}x{s[1]}")
+@sync
+async def test_the_summary_shows_each_detail_whole(log_path, size):
+    """The summary of a whole healthy session: each step's name and detail wrap in their
+    columns (at 160 columns the detail column was cut off the right edge)."""
+    app = BringupApp(Launcher(log_path), open_new=_values("DHS24-0153"))
+    async with app.run_test(size=size) as pilot:
+        screen = await wait_for_session(pilot)
+        runner = screen.link.runner
+        for step in runner.checklist.steps():  # setting up: every step run through the runner
+            typed = "3.30 V" if step.reading else None
+            runner.run_step(step.id, answers=StepAnswers(confirmed=True, reading=typed))
+        screen.refresh_all()
+        await pilot.press("m")
+        await wait_until(pilot, lambda: isinstance(app.screen, SummaryScreen), what="summary")
+        table = app.screen.query_one("#summary")
+        await wait_until(pilot, lambda: table.row_count > 0, what="the summary's rows")
+        table.focus()
+        rows = screen.link.summary()
+        assert len([r for r in rows if r.level]) == 8 and table.row_count == len(rows)
+        for n, row in enumerate(rows):
+            table.move_cursor(row=n)  # the row scrolls into view, as with the arrow keys
+            await pilot.pause()
+            title, detail = _column_text(app, table, 0), _column_text(app, table, 3)
+            assert "…" not in title + detail
+            assert " ".join(row.title.split()) in title, (size, row.title, title)
+            assert " ".join(row.detail.split()) in detail, (size, row.detail, detail)
+        await pilot.press("escape")
+        await wait_until(pilot, lambda: app.screen is screen)
+        await pilot.press("q")

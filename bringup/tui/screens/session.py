@@ -97,6 +97,7 @@ class SessionScreen(StepActions, Screen[None]):
         self._soak_shown: Progress | None = None
         self._history: dict[str, AttemptView] = {}
         self._stopping = False  # STOP pressed during the running step
+        self._asking = False  # a step's prompts are being answered (StepActions)
         self._writing = 0  # log writes in flight (StepActions)
         self._soak_temp: list[float] = []
 
@@ -306,7 +307,7 @@ class SessionScreen(StepActions, Screen[None]):
         if action == "stop_soak":
             return self.running is not None and self._running_kind == "soak"
         if action in self._IDLE_ONLY:
-            return self.running is None
+            return self.running is None and not self._asking
         return True
 
     def action_zoom(self) -> None:

@@ -100,6 +100,17 @@ class StepActions:
 
     @work(exclusive=True, group="prompts")
     async def _ask_then_start(self, detail: StepDetail) -> None:
+        """The prompts, then the step; the idle keys stay hidden until the step has started
+        or the prompts ended without it (between a prompt closing and the step starting, the
+        foot offered ``r`` again for a moment, and a second press was taken as a retake)."""
+        self._asking = True
+        try:
+            await self._ask_in_order(detail)
+        finally:
+            self._asking = False
+            self.refresh_bindings()
+
+    async def _ask_in_order(self, detail: StepDetail) -> None:
         """The prompts in the order the bench needs them (``StepPlan.prompts``)."""
         answers: dict[str, object] = {}
         if detail.reading_prompt and detail.energise is not None:

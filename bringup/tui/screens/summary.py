@@ -34,24 +34,15 @@ class SummaryScreen(Screen[None]):
     def on_mount(self) -> None:
         link = self.app.link  # type: ignore[attr-defined]
         self.query_one("#titlebar", Static).update(literal(link.header(), multiline=False))
-        table = self.query_one("#summary", DataTable)
-        table.add_columns("stage / step", "verdict", "attempts", "detail")
+        self._rows: list = []
+        self._laid_for = 0
         try:
-            rows = link.summary()
+            self._rows = list(link.summary())
             overall = link.overall()
         except BringupError as exc:
             self.query_one("#summary-hint", Static).update(literal(str(exc)))
             return
-        for row in rows:
-            look = look_of(row.verdict)
-            title = literal(row.title, "bold" if row.level == 0 else "", multiline=False)
-            indent = "" if row.level == 0 else "   "
-            table.add_row(
-                Text(indent) + title,
-                look.text(),
-                str(row.attempts) if row.level else "",
-                literal(row.detail, multiline=False),
-            )
+        self.call_after_refresh(self._fill)
         look = look_of(overall)
         verdict = Text("Session verdict: ", style="bold")
         verdict.append(look.label().upper(), style=look.style)
@@ -63,3 +54,34 @@ class SummaryScreen(Screen[None]):
                 + "  (--format html or json for the other forms)"
             )
         )
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(self._fill)
+
+    def _fill(self) -> None:
+        """The rows in columns fitted to the table's width: a step's name and its detail wrap
+        in their columns (at 160 columns the detail was cut off the right edge)."""
+        table = self.query_one("#summary", DataTable)
+        width = table.size.width
+        if width <= 0 or width == self._laid_for:
+            return
+        self._laid_for = width
+        looks = [look_of(row.verdict) for row in self._rows]
+        verdict_w = max([len("verdict"), *(len(look.label()) for look in looks)])
+        titles = [len(row.title) + (3 if row.level else 0) for row in self._rows]
+        rest = width - 2 - verdict_w - len("attempts") - 8  # scroll bar, cell padding
+        title_w = max(16, min(max([len("stage / step"), *titles]), rest * 2 // 5))
+        table.clear(columns=True)
+        table.add_column("stage / step", width=title_w)
+        table.add_column("verdict", width=verdict_w)
+        table.add_column("attempts", width=len("attempts"))
+        table.add_column("detail", width=max(16, rest - title_w))
+        for row, look in zip(self._rows, looks, strict=True):
+            title = literal(row.title, "bold" if row.level == 0 else "", multiline=False)
+            table.add_row(
+                Text("   " if row.level else "") + title,
+                look.text(),
+                str(row.attempts) if row.level else "",
+                literal(row.detail, multiline=False),
+                height=None,  # as many lines as the wrapped name and detail need
+            )

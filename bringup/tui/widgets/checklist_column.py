@@ -72,6 +72,10 @@ class ChecklistColumn(OptionList):
         border: none;
         padding: 0;
         background: #0f1417;
+        /* the scroll bar's cells kept whether it shows or not: names are wrapped to a width
+           that does not change when it comes (it came a frame after, and a word of a long
+           name showed at the column's left edge) */
+        scrollbar-gutter: stable;
     }
     ChecklistColumn:focus { border: none; }
     ChecklistColumn > .option-list--option-disabled { color: #e8eef2; }
@@ -132,10 +136,6 @@ class ChecklistColumn(OptionList):
         # the names are wrapped to the column's width: wrap them again at the new one
         if self._args is not None:
             self.show_stages(*self._args)
-
-    def watch_show_vertical_scrollbar(self) -> None:
-        # the scroll bar comes and goes without a resize, taking or giving back two cells
-        self.call_after_refresh(self._wrap_again)
 
     def _wrap_again(self) -> None:
         if self._args is not None and self.scrollable_content_region.width > 0:
