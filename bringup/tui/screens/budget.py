@@ -13,10 +13,11 @@ from __future__ import annotations
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from bringup.tui.literal import literal
 from bringup.tui.views import BudgetView
+from bringup.tui.widgets.key_footer import KeyFooter
 
 __all__ = ["BudgetScreen"]
 
@@ -37,7 +38,7 @@ class BudgetScreen(Screen[None]):
         yield Static("", id="budget-title")
         yield DataTable(id="budget", cursor_type="row", zebra_stripes=True)
         yield Static("", id="budget-total")
-        yield Footer()
+        yield KeyFooter()
 
     def on_mount(self) -> None:
         b = self.budget
