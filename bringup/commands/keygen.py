@@ -21,11 +21,11 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Write the key pair and print where it went and its fingerprint."""
-    from bringup.record.keys import generate_key_pair
+    from bringup.record.keys import generate_key_pair, key_id
 
     pair = generate_key_pair(args.name, args.out)
-    print(f"private key: {args.out} (mode 0600, keep it to yourself)")
-    print(f"public key:  {args.out}.pub (hand this to whoever verifies your records)")
-    print(f"name: {pair.name}")
-    print(f"fingerprint: {pair.public.fingerprint}")
+    print(f"New signing key for {pair.name}, key id {key_id(pair.public.fingerprint)}.")
+    print(f"  Sign with {args.out}: only you can read it; never hand it on.")
+    print(f"  Hand out {args.out}.pub: whoever checks your records needs it.")
+    print("Records show the key id beside your signature.")
     return 0

@@ -29,11 +29,12 @@ def add_parser(subparsers: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Sign and report who signed what."""
     from bringup.record.from_log import open_log, sign_session
+    from bringup.record.keys import key_id
 
     with open_log(args.db) as log:
         entry = sign_session(log, chosen_session(log, args), args.key, args.role)
     print(
         f"signed as {entry['role']} by {entry['name']} at {entry['signed_at']} "
-        f"with key {entry['key_fingerprint']}"
+        f"with key id {key_id(entry['key_fingerprint'])}"
     )
     return 0

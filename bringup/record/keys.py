@@ -27,6 +27,7 @@ __all__ = [
     "PublicKey",
     "fingerprint",
     "generate_key_pair",
+    "key_id",
     "load_private_key",
     "load_public_key",
     "public_key_from_raw",
@@ -77,6 +78,21 @@ def public_key_from_raw(raw: bytes) -> Ed25519PublicKey:
 def fingerprint(key: Ed25519PublicKey) -> str:
     """``SHA256:<hex>`` of the raw public key bytes."""
     return "SHA256:" + hashlib.sha256(raw_public_bytes(key)).hexdigest()
+
+
+_FINGERPRINT_RE = re.compile(r"^SHA256:([0-9a-f]{64})$")
+
+
+def key_id(fingerprint_text: str) -> str:
+    """The key as people compare it on screen and paper: the first 80 bits of the fingerprint's
+    SHA-256 as five groups of four hex digits (``abbc-915c-7f18-8554-2d5f``). 80 bits keep a
+    deliberate look-alike out of reach for this use, and the full digest stays in the public
+    key file and in every signature. Text that is not a fingerprint is returned as it is."""
+    match = _FINGERPRINT_RE.match(fingerprint_text or "")
+    if match is None:
+        return fingerprint_text
+    hex_digits = match.group(1)
+    return "-".join(hex_digits[i : i + 4] for i in range(0, 20, 4))
 
 
 def _check_name(name: str) -> str:
