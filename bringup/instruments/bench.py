@@ -5,7 +5,8 @@ scope channel sees which net. ``load_bench`` validates it; ``open_bench`` connec
 [scope]
 resource = "TCPIP::192.168.1.20::5025::SOCKET"
 profile = "sim-scope"
-calibration_due = 2027-03-31        # optional, a TOML date
+calibration_due = 2027-03-31        # optional, a TOML date (flagged when missing or past)
+calibration_certificate = "CAL-2026-0412"  # optional, the calibration certificate's reference
 
 bandwidth_hz = 350e6                # optional: its -3 dB bandwidth (rise times lose 0.35/BW)
 dc_accuracy = 0.02                  # optional: DC vertical accuracy, a fraction of full scale
@@ -96,6 +97,7 @@ class InstrumentEntry:
     # supply only: read-back accuracy +/-(fraction of reading + offset in V or A), when given
     voltage_accuracy: tuple[float, float] | None = None
     current_accuracy: tuple[float, float] | None = None
+    calibration_certificate: str | None = None  # the certificate's reference, when given
 
     def calibration_overdue(self, today: dt.date) -> bool:
         """Whether the calibration due date has passed on ``today``."""
@@ -149,7 +151,8 @@ def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
         raise src.error((role,), f"missing table [{role}]")
     if not isinstance(table, dict):
         raise src.error((role,), f"must be a table [{role}]")
-    allowed = {"resource", "profile", "calibration_due"} | _ROLE_KEYS[role]
+    allowed = {"resource", "profile", "calibration_due", "calibration_certificate"}
+    allowed |= _ROLE_KEYS[role]
     for key in table:
         if key not in allowed:
             raise src.error((role, key), f"unknown key (expected {', '.join(sorted(allowed))})")
@@ -200,7 +203,8 @@ def _entry(src: TomlDocument, role: str, simulated: bool) -> InstrumentEntry:
     volts = _readback(src, (role, "voltage_accuracy"), table.get("voltage_accuracy"), "V")
     amps = _readback(src, (role, "current_accuracy"), table.get("current_accuracy"), "A")
     return InstrumentEntry(role, resource, table["profile"].strip(), due, channel, sense,
-                           tc.strip().upper(), bandwidth, accuracy, volts, amps)  # fmt: skip
+                           tc.strip().upper(), bandwidth, accuracy, volts, amps,
+                           _certificate(src, role, table))  # fmt: skip
 
 
 def _readback(
@@ -219,6 +223,19 @@ def _readback(
         raise src.error(where, f"must be a fraction of the reading (0 to 0.5), or [fraction, "
                                f"offset in {unit}] with neither negative, not {value!r}")  # fmt: skip
     return float(pair[0]), float(pair[1])
+
+
+def _certificate(src: TomlDocument, role: str, table: dict) -> str | None:
+    """The optional calibration certificate reference: one line of text."""
+    value = table.get("calibration_certificate")
+    if value is None:
+        return None
+    if not isinstance(value, str) or not value.strip() or "\n" in value or "\r" in value:
+        raise src.error(
+            (role, "calibration_certificate"),
+            f"must be the certificate's reference, one line of text, not {value!r}",
+        )
+    return value.strip()
 
 
 def _fraction(src: TomlDocument, where: tuple[str, ...], value: Any) -> float | None:

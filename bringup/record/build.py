@@ -9,6 +9,7 @@ but a new logged entry can change a signed content. See ``SCHEMA.md`` beside thi
 from __future__ import annotations
 
 import base64
+import zlib
 from collections.abc import Callable
 from typing import Any
 
@@ -140,7 +141,8 @@ def _waveforms(attempt: AttemptRecord, load: WaveformLoader) -> list[dict]:
             # the store's scale columns plus the samples' digest: one list of what a wave is
             **{k: desc.get(k) for k in (*WAVEFORM_SCALE_COLUMNS, "raw_sha256")},
             "byte_order": "little",
-            "codes_b64": base64.b64encode(codes.tobytes()).decode("ascii"),
+            # zlib (RFC 1950) at level 9 inside base64: about a tenth of the plain codes' text
+            "codes_zlib_b64": base64.b64encode(zlib.compress(codes.tobytes(), 9)).decode("ascii"),
         }
         if name in markers:
             wave["markers"] = markers[name]
@@ -304,8 +306,9 @@ def _session_state(data: SessionData) -> tuple[str, str | None]:
 
 def _summary(stages: list[dict], rehearsal: bool) -> dict:
     """The overall outcome, the count of each step status, the open items and the exceptions
-    (waivers and skips, each with who and why). A rehearsal (a simulated bench) that passed is
-    ``rehearsed``, never ``accepted``: no board was accepted."""
+    (waivers and skips, each with who and why). What the steps' verdicts say (``passed``):
+    accepting a board is a reviewer's signature, outside the content. A rehearsal (a simulated
+    bench) that passed is ``rehearsed``: no board was measured."""
     counts: dict[str, int] = {}
     open_items, exceptions = [], []
     for stage in stages:
@@ -328,9 +331,10 @@ def _summary(stages: list[dict], rehearsal: bool) -> dict:
     elif any(k in counts for k in ("not-started", "unfinished")):
         overall = "incomplete"
     elif "waived" in counts or "skipped" in counts:
-        overall = "accepted-with-exceptions"
+        overall = "passed-with-exceptions"
     else:
-        overall = "accepted"
+        # measured and judged: acceptance is a second person's signature, not this word
+        overall = "passed"
     if rehearsal:
         overall = REHEARSAL_OVERALL.get(overall, overall)
     return {"overall": overall, "counts": counts, "open_items": open_items,
@@ -377,7 +381,7 @@ def build_content(data: SessionData, load: WaveformLoader) -> dict:
     state, ended = _session_state(data)
     timeline = data.timeline
     last = timeline[-1].recorded_utc if timeline else summary.created_utc
-    bench = bench_view(data.bench, data.attempts)
+    bench = bench_view(data.bench, data.attempts, summary.created_utc)
     return {
         "session": {
             "id": summary.id,

@@ -22,12 +22,13 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-from bringup.record.schemas import REHEARSAL_OVERALL, is_rehearsal
+from bringup.record.schemas import is_rehearsal
+from bringup.record.sign_off import sign_off_state
 from bringup.record.view import (
     GENERAL_CAUTIONS,
     OUTCOME_WORDS,
-    OVERALL_WORDS,
     REHEARSAL_MARK,
+    STATUS_WORDS,
     Trace,
     checklist_label,
     comparison_rows,
@@ -67,8 +68,8 @@ class Heading:
 @dataclass(frozen=True)
 class Paragraph:
     """Running text. ``kind``: "plain", "strong" (a lead-in), "outcome" (the overall verdict),
-    "rehearsal" (the simulated bench's mark) or "caution" (``lead`` names where the caution
-    comes from)."""
+    "rehearsal" (the simulated bench's mark), "flag" (something a reviewer must see: a past-due
+    calibration) or "caution" (``lead`` names where the caution comes from)."""
 
     text: str
     kind: str = "plain"
@@ -118,12 +119,14 @@ Block = Heading | Paragraph | Bullets | Table | Figure | Aside
 
 @dataclass(frozen=True)
 class Section:
-    """A part of the record. ``key`` names it (an HTML id); ``stage`` sections start a page."""
+    """A part of the record. ``key`` names it (an HTML id); ``stage``: a checklist stage."""
 
     key: str
     title: str
     blocks: tuple[Block, ...]
     stage: bool = False
+    #: the PDF starts a new page for it (the one-minute summary stands on its own page)
+    starts_page: bool = False
 
 
 @dataclass(frozen=True)
@@ -148,31 +151,82 @@ def _text(value: Any, default: str = "") -> str:
     return default if value is None else str(value)
 
 
-def _summary(content: dict, signatures: list[dict], digest: str) -> Section:
+def _calibration_text(inst: dict) -> str:
+    """One instrument's calibration as the record states it: due date, certificate, and its
+    state on the session's day (``snapshot_reading.calibration_state``); flagged in capitals
+    when past due or without a date."""
+    due, cert = inst.get("calibration_due"), inst.get("calibration_certificate")
+    cal = inst.get("calibration") if isinstance(inst.get("calibration"), dict) else {}
+    state, on = cal.get("state"), cal.get("on")
+    cert_text = f", certificate {_text(cert)}" if cert else ", no certificate named"
+    day = f" on {_text(on)}" if on else ""
+    if state == "simulated":
+        return "simulated: no calibration applies"
+    if state == "past-due":
+        return f"PAST DUE{day} (due {_text(due)}{cert_text})"
+    if state == "no-date":
+        return f"NO DUE DATE GIVEN{cert_text}"
+    if state == "unreadable":
+        return f"DUE DATE UNREADABLE ({_text(due)!r}{cert_text})"
+    if state == "in-date":
+        return f"in date{day} (due {_text(due)}{cert_text})"
+    return f"due {_text(due)}" if due else "not given"  # a record made before version 3
+
+
+def calibration_flags(content: dict) -> list[str]:
+    """One line per instrument whose calibration is past due, undated or unreadable."""
+    flags = []
+    for inst in (content.get("bench") or {}).get("instruments") or []:
+        state = (inst.get("calibration") or {}).get("state")
+        if state in ("past-due", "no-date", "unreadable"):
+            flags.append(f"Calibration of the {_text(inst.get('id'))}: {_calibration_text(inst)}")
+    return flags
+
+
+def _glance(content: dict) -> Table:
+    """Every step in one line: its stage, title, status and how many attempts it took."""
+    rows = tuple(
+        (
+            _text(stage.get("title") or stage.get("id")),
+            _text(step.get("title") or step.get("id")),
+            STATUS_WORDS.get(_text(step.get("status")), _text(step.get("status"))),
+            _text(len(step.get("attempts") or [])),
+        )
+        for stage in content.get("stages", [])
+        for step in stage.get("steps") or []
+    )
+    return Table(("Stage", "Step", "Result", "Attempts"), rows, (45, 85, 40, 20))
+
+
+def _summary(record: dict, digest: str) -> Section:
+    """The page a reviewer reads in one minute: outcome and who did what, flags, every step's
+    result, open items and waivers, the signatures with their meaning and time."""
+    content = record["content"]
     session, board = content.get("session", {}), content.get("board", {})
     summary = content.get("summary", {})
-    counts = summary.get("counts", {})
+    state = sign_off_state(record)
+    rehearsal = is_rehearsal(content)
     pairs = (
         ("Board", f"{_text(board.get('name'), '-')} rev {_text(board.get('revision'), '-')}"),
         ("Serial number", _text(session.get("serial"), "-")),
-        ("Bench", "simulated: a rehearsal" if is_rehearsal(content) else "real instruments"),
+        ("Bench", "simulated: a rehearsal" if rehearsal else "real instruments"),
         ("Session", _text(session.get("id"), "-")),
         ("Checklist", checklist_label(content.get("checklist", {}))),
-        ("Operators", ", ".join(map(str, session.get("operators") or [])) or "-"),
-        ("Started", fmt_time(session.get("started"))),
-        ("Last entry", fmt_time(session.get("ended"))),
-        ("Steps", ", ".join(f"{v} {k}" for k, v in sorted(counts.items())) or "-"),
+        ("Started / last entry", f"{fmt_time(session.get('started'))} / "
+                                 f"{fmt_time(session.get('ended'))}"),
+        ("Calibration", "; ".join(
+            f"{_text(i.get('id'))}: {_calibration_text(i)}"
+            for i in (content.get("bench") or {}).get("instruments") or []) or "-"),
         ("Content digest (SHA-256)", digest),
-        ("Log chain head", _text((content.get("log") or {}).get("chain_head"), "-")),
-    )
-    overall = summary.get("overall", "incomplete")
-    rehearsal = is_rehearsal(content)
-    if rehearsal:  # a bringup-record/1 content says "accepted" for a rehearsal too
-        overall = REHEARSAL_OVERALL.get(overall, overall)
+    )  # fmt: skip
+    flags = calibration_flags(content)
     blocks: list[Block] = [
         *([Paragraph(REHEARSAL_MARK, "rehearsal")] if rehearsal else []),
-        Paragraph(f"Outcome: {OVERALL_WORDS.get(overall, overall)}", "outcome"),
+        Paragraph(f"Outcome: {state.headline}", "outcome"),
+        *(Paragraph(line, "strong") for line in state.who),
+        *(Paragraph(flag, "flag") for flag in flags),
         Table(None, pairs, (45, 145)),
+        _glance(content),
         Heading("Open items", 3),
         Bullets(
             tuple(map(str, summary.get("open_items") or [])),
@@ -182,23 +236,19 @@ def _summary(content: dict, signatures: list[dict], digest: str) -> Section:
     exceptions = tuple(map(str, summary.get("exceptions") or []))
     if exceptions:
         blocks += [Heading("Waivers and skips", 3), Bullets(exceptions)]
-    rows = tuple(
-        tuple(_text(s.get(k)) for k in ("role", "name", "signed_at", "key_fingerprint"))
-        for s in signatures
-    )
+    head = ("Role", "Meaning", "Printed name", "Signed (UTC, local offset)", "Key id", "Signature")
     blocks += [
-        Heading("Sign-off", 3),
-        Table(("Role", "Name", "Signed (UTC)", "Key fingerprint"), rows, (20, 35, 40, 95),
-              empty="Not signed yet."),
-    ]  # fmt: skip
+        Heading("Signatures", 3),
+        Table(head, state.rows, (18, 30, 30, 44, 38, 30), empty="Not signed yet."),
+    ]
     return Section("summary", "Summary", tuple(blocks))
 
 
 def _cautions(content: dict) -> Section:
+    """The cautions for the whole bench; each stage's own are said once, at its start."""
     blocks: list[Block] = [Paragraph(c, "caution") for c in GENERAL_CAUTIONS]
-    for stage in content.get("stages", []):
-        blocks += [Paragraph(c, "caution", where) for where, c in step_cautions(stage)]
-    return Section("cautions", "Cautions", tuple(blocks))
+    blocks.append(Paragraph("Each stage lists its own cautions once, at its start."))
+    return Section("cautions", "Cautions", tuple(blocks), starts_page=True)
 
 
 def _bench(content: dict) -> Section:
@@ -212,14 +262,75 @@ def _bench(content: dict) -> Section:
                 _text(inst.get("idn") or "-"),
                 _text(inst.get("resource") or "-"),
                 _text(inst.get("profile") or "-"),
-                _text(inst.get("calibration_due") or "not given"),
+                _calibration_text(inst),
                 probes or "-",
             )
         )
     kind = "simulated bench (no real instruments)" if bench.get("simulated") else "bench"
-    head = ("Role", "*IDN?", "Resource", "Profile", "Calibration due", "Probes")
-    table = Table(head, tuple(rows), (16, 42, 40, 26, 22, 44))
-    return Section("bench", "Bench", (Paragraph(kind), table))
+    head = (
+        "Role",
+        "*IDN?",
+        "Resource",
+        "Profile",
+        "Calibration",
+        "Probes as the bench file wires them",
+    )
+    table = Table(head, tuple(rows), (16, 38, 36, 24, 36, 40))
+    return Section("bench", "Bench", (Paragraph(kind), table, *_channel_map(content)))
+
+
+def _channel_map(content: dict) -> list[Block]:
+    """Where each scope channel's probe was at each step (from the attempts' scope settings),
+    beside where the bench file wires it: a probe moved for a step is said, never hidden."""
+    wired: dict[str, str] = {}
+    for inst in (content.get("bench") or {}).get("instruments") or []:
+        if inst.get("id") == "scope":
+            wired = {_text(c.get("id")): _text(c.get("net")) for c in inst.get("channels") or []}
+    steps: list[tuple[str, dict[str, str]]] = []
+    for stage in content.get("stages", []):
+        for step in stage.get("steps") or []:
+            final = (step.get("attempts") or [None])[-1]
+            scope = ((final or {}).get("settings") or {}).get("scope")
+            channels = scope.get("channels") if isinstance(scope, dict) else None
+            if not isinstance(channels, list):
+                continue
+            used = {
+                _text(
+                    c.get("channel")
+                ): f"{_text(c.get('net'), '-')} ({_text(c.get('probe'), '-')})"
+                for c in channels
+                if isinstance(c, dict)
+            }
+            steps.append((_text(step.get("title") or step.get("id")), used))
+    if not steps:
+        return []
+    names = sorted({*wired, *(ch for _, used in steps for ch in used)}, key=_channel_order)
+    rows = [("Bench file", *(wired.get(ch, "-") for ch in names))]
+    rows += [(title, *(used.get(ch, "-") for ch in names)) for title, used in steps]
+    moved = sorted(
+        {
+            f"CH{ch} from {wired[ch]} to {used[ch].split(' (')[0]}"
+            for _, used in steps
+            for ch in used
+            if ch in wired and used[ch].split(" (")[0] != wired[ch]
+        }
+    )
+    said = (
+        "Steps moved probes from where the bench file wires them: " + "; ".join(moved) + "."
+        if moved
+        else "Every step probed the nets where the bench file wires them."
+    )
+    width = max(10, (190 - 50) // max(len(names), 1))
+    return [
+        Paragraph("Where each scope channel was, step by step (the deciding attempt)", "strong"),
+        Paragraph(said),
+        Table(("Step", *(f"CH{ch}" for ch in names)), tuple(rows),
+              (190 - width * len(names), *(width,) * len(names))),
+    ]  # fmt: skip
+
+
+def _channel_order(name: str) -> tuple[int, str]:
+    return (int(name), "") if name.isdigit() else (1 << 30, name)
 
 
 def _comparison(content: dict) -> Section:
@@ -427,7 +538,12 @@ def _results(attempt: dict, bench: dict | None = None) -> list[Block]:
         blocks.append(Table(head, budget_rows, (34, 70, 22, 22, 20, 22),
                             fold="Uncertainty budgets (GUM)", folded=True))  # fmt: skip
     blocks += _scope(attempt, bench or {})
-    settings = tuple(_setting_rows(attempt.get("settings") or {}))
+    # the scope's channels are in the table of what was probed where, not said twice
+    settings = tuple(
+        row
+        for row in _setting_rows(attempt.get("settings") or {})
+        if not row[0].startswith("scope.channels.")
+    )
     if settings:
         blocks.append(Table(("Setting", "Value"), settings, (95, 95), fold="Settings", folded=True))
     blocks += [Paragraph(f"Note: {note}") for note in attempt.get("notes") or []]
@@ -528,7 +644,6 @@ def _step(step: dict, bench: dict) -> list[Block]:
     blocks: list[Block] = [
         Heading(_text(step.get("title") or step.get("id")), 3, _text(step.get("status")))
     ]
-    blocks += [Paragraph(_text(c), "caution") for c in step.get("cautions") or []]
     attempts = step.get("attempts") or []
     if attempts:
         final = attempts[-1]
@@ -549,7 +664,12 @@ def _step(step: dict, bench: dict) -> list[Block]:
 
 
 def _stage(stage: dict, bench: dict) -> Section:
-    blocks: list[Block] = [Paragraph(_text(c), "caution") for c in stage.get("cautions") or []]
+    # the stage's and its steps' cautions, each said once, naming the step it comes from
+    blocks: list[Block] = [
+        Paragraph(text, "caution", None if where == _text(stage.get("title") or stage.get("id"))
+                  else where)
+        for where, text in step_cautions(stage)
+    ]  # fmt: skip
     for step in stage.get("steps") or []:
         blocks += _step(step, bench)
     title = f"Stage: {_text(stage.get('title') or stage.get('id'))}"
@@ -586,7 +706,7 @@ def build_document(record: dict) -> Document:
         if isinstance(stamp, dict) and stamp.get("utc")
     )
     sections = (
-        _summary(content, record.get("signatures") or [], digest),
+        _summary(record, digest),
         _cautions(content),
         _bench(content),
         _comparison(content),

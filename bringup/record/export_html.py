@@ -47,6 +47,7 @@ th{background:#efece4}
 .tag-accepted{background:#dcefe0}.tag-rejected{background:#f6d4cf}
 .tag-waived,.tag-skipped{background:#f5e9c8}.tag-unfinished,.tag-not-started{background:#e4e4e4}
 .rehearsal{font-weight:bold;background:#fde3d0;border:2px dashed #963;padding:.3rem .6rem}
+.flag{font-weight:bold;color:#963;border-left:5px solid #963;padding:.2rem .6rem}
 .overall{font-size:1.1rem;font-weight:bold;border:2px solid #333;padding:.4rem .6rem}
 .caution{border-left:5px solid #8a5a00;background:#fbf3e2;padding:.3rem .6rem;margin:.3rem 0}
 figure{margin:.5rem 0;break-inside:avoid}
@@ -102,6 +103,8 @@ def _paragraph(p: Paragraph) -> str:
         return f'<p class="rehearsal">{_e(p.text)}</p>'
     if p.kind == "outcome":
         return f'<p class="overall">{_e(p.text)}</p>'
+    if p.kind == "flag":
+        return f'<p class="flag"><b>FLAG:</b> {_e(p.text)}</p>'
     if p.kind == "strong":
         return f"<p><b>{_e(p.text)}</b></p>"
     return f"<p>{_e(p.text)}</p>"

@@ -1,6 +1,7 @@
 """The PDF record (fpdf2): the blocks of ``bringup.record.document``, paginated.
 
-The same blocks as the HTML record, in the same order; each stage starts a page. Every page
+The same blocks as the HTML record, in the same order; the one-minute summary has page 1 to
+itself, the rest flows on (a heading is kept with what follows it). Every page
 carries the record's identity (serial, session) in its header and the full SHA-256 of the
 canonical content with "page N of M" in its footer, so a single printed page can be matched to
 its record. The signed record (its canonical JSON file) is embedded as a PDF attachment
@@ -128,6 +129,8 @@ _HEADING_SIZE = {1: 16, 2: 12, 3: 10, 4: 9}
 
 def _heading(pdf: Any, h: Heading) -> None:
     size = _HEADING_SIZE.get(h.level, 9)
+    if h.level >= 3 and pdf.get_y() + 30 > pdf.h - pdf.b_margin:
+        pdf.add_page()  # a step's heading starts its page rather than ending the one before
     text = h.text
     if h.status is not None:
         text += f": {STATUS_WORDS.get(h.status, h.status)}"
@@ -146,6 +149,10 @@ def _para(pdf: Any, text: str, style: str = "") -> None:
 def _paragraph(pdf: Any, p: Paragraph) -> None:
     if p.kind == "caution":
         _para(pdf, f"CAUTION ({p.lead}): {p.text}" if p.lead else f"CAUTION: {p.text}")
+    elif p.kind == "flag":  # a reviewer must not miss it: bold, in the rehearsal mark's colour
+        pdf.set_text_color(150, 40, 0)
+        _para(pdf, f"FLAG: {p.text}", "B")
+        pdf.set_text_color(0, 0, 0)
     else:
         _para(pdf, p.text, "B" if p.kind in ("outcome", "strong", "rehearsal") else "")
 
@@ -156,6 +163,8 @@ def _table(pdf: Any, table: Table) -> None:
             _para(pdf, table.empty)
         return
     if table.fold is not None:
+        if pdf.get_y() + 20 > pdf.h - pdf.b_margin:
+            pdf.add_page()  # a table's title stays with its first rows
         _para(pdf, table.fold, "B")
     pdf.set_font("Helvetica", "", 8)
     with pdf.table(
@@ -206,8 +215,17 @@ def _block(pdf: Any, block: Block) -> None:
         raise TypeError(f"no PDF for {type(block).__name__}")
 
 
+#: a section's heading needs this much room below it (mm) on its page, or it moves to the
+#: next page: a stage's (its cautions and its first step's heading and results) more
+_KEEP_WITH_NEXT = 40
+_KEEP_STAGE_WITH_NEXT = 100
+
+
 def _section(pdf: Any, section: Section) -> None:
-    if section.stage:
+    # The summary stands alone on page 1; the other sections flow on, so no page is left
+    # holding a stray row, and a heading never ends a page.
+    room = _KEEP_STAGE_WITH_NEXT if section.stage else _KEEP_WITH_NEXT
+    if section.starts_page or pdf.get_y() + room > pdf.h - pdf.b_margin:
         pdf.add_page()
     _heading(pdf, Heading(section.title, 2))
     for block in section.blocks:

@@ -49,16 +49,28 @@ def open_log(db: str | Path | None, *, read_only: bool = False) -> SessionLog:
 
 
 def signature_entry(sig: SignatureRecord) -> dict:
-    """A stored sign-off as the record writes it."""
+    """A stored sign-off as the record writes it (with the meaning and local offset its
+    statement covered, for a sign-off that stated them)."""
+    statement = sig.statement or {}
     return {
         "name": sig.name,
         "role": sig.role,
         "signed_at": sig.signed_utc,
         "key_fingerprint": sig.fingerprint,
+        **{k: statement[k] for k in ("meaning", "local_offset") if k in statement},
         "algorithm": "Ed25519",
         "public_key": base64.b64encode(bytes(sig.public_key)).decode("ascii"),
         "signature": base64.b64encode(bytes(sig.signature)).decode("ascii"),
     }
+
+
+def _local_offset(moment: _dt.datetime) -> str:
+    """The UTC offset ``moment`` carries ("+01:00", "-05:30"); a naive one is local time."""
+    aware = moment if moment.tzinfo is not None else moment.astimezone()
+    offset = aware.utcoffset() or _dt.timedelta(0)
+    minutes = int(offset.total_seconds() // 60)
+    sign = "-" if minutes < 0 else "+"
+    return f"{sign}{abs(minutes) // 60:02d}:{abs(minutes) % 60:02d}"
 
 
 def content_from_log(log: SessionLog, session_id: str) -> tuple[dict, SessionData]:
@@ -168,9 +180,9 @@ def sign_session(
     _check_signer(session_id, pair, role, data.signatures)
     schema = schema_of(content, data.signatures)  # one record: the sign-offs share a schema
     content = content_as(content, schema)
-    moment = now or _dt.datetime.now(_dt.UTC)
+    moment = now or _dt.datetime.now().astimezone()  # local: its offset is the signer's
     signed_at = moment.astimezone(_dt.UTC).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
-    entry = make_signature(content, pair, role, signed_at, schema)
+    entry = make_signature(content, pair, role, signed_at, schema, _local_offset(moment))
     log.add_signature(
         session_id,
         name=entry["name"],
@@ -180,5 +192,6 @@ def sign_session(
         fingerprint=entry["key_fingerprint"],
         signature=base64.b64decode(entry["signature"]),
         content_digest=content_digest(content),
+        statement={k: entry[k] for k in ("meaning", "local_offset")},
     )
     return entry

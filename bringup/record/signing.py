@@ -3,13 +3,17 @@
 A signature is an Ed25519 signature (RFC 8032) over the canonical JSON (RFC 8785 form, see
 ``canonical``) of a small statement::
 
-    {"purpose": "bringup-record/2 sign-off",  (the record's schema, then " sign-off")
+    {"purpose": "bringup-record/3 sign-off",  (the record's schema, then " sign-off")
      "content": <the record's content>,
-     "signer": {"name", "role", "signed_at", "key_fingerprint"}}
+     "signer": {"name", "role", "signed_at", "key_fingerprint", "meaning", "local_offset"}}
 
-so a signature binds the person's name, role and time to the whole content (board, bench,
-every attempt, the log's chain head) and to nothing else: the other signatures are not part
-of it, which lets an operator and a reviewer sign the same content in any order.
+so a signature binds the person's printed name, role, time (UTC, and the signer's local UTC
+offset) and the meaning of the signature (21 CFR Part 11 §11.50: performed, reviewed and
+approved) to the whole content (board, bench, every attempt, the log's chain head) and to
+nothing else (§11.70: it cannot be moved to another record): the other signatures are not
+part of it, which lets an operator and a reviewer sign the same content in any order.
+``meaning`` and ``local_offset`` are in the statement when the entry has them (sign-offs made
+before they existed have neither, and their signatures cover the four other fields).
 """
 
 from __future__ import annotations
@@ -27,6 +31,7 @@ from bringup.record.rfc8785 import canonical_bytes
 from bringup.record.schemas import RECORD_SCHEMA, sign_purpose
 
 __all__ = [
+    "MEANINGS",
     "ROLES",
     "SIGN_PURPOSE",
     "SignOffRefused",
@@ -39,6 +44,14 @@ __all__ = [
 
 ROLES = ("operator", "reviewer")
 SIGN_PURPOSE = sign_purpose(RECORD_SCHEMA)
+#: what a signature in each role means, as the signer's statement says it (§11.50(a)(3))
+MEANINGS = {
+    "operator": "performed: made the measurements in this record and judged them as shown",
+    "reviewer": "reviewed and approved: checked this record and approves its outcome",
+}
+#: the statement's fields every signature has, then those a newer one has too
+_SIGNER_FIELDS = ("name", "role", "signed_at", "key_fingerprint")
+_OPTIONAL_FIELDS = ("meaning", "local_offset")
 
 
 class SignOffRefused(BringupError):
@@ -48,16 +61,23 @@ class SignOffRefused(BringupError):
 def signed_message(content: dict, signer: dict, schema: str = RECORD_SCHEMA) -> bytes:
     """The exact bytes a signature covers (see the module docstring); ``schema`` is the
     record's (a ``bringup-record/1`` signature states that schema's purpose)."""
-    fields = {k: signer[k] for k in ("name", "role", "signed_at", "key_fingerprint")}
+    fields = {k: signer[k] for k in _SIGNER_FIELDS}
+    fields |= {k: signer[k] for k in _OPTIONAL_FIELDS if k in signer}
     purpose = sign_purpose(schema)
     return canonical_bytes({"purpose": purpose, "content": content, "signer": fields})
 
 
 def make_signature(
-    content: dict, pair: KeyPair, role: str, signed_at: str, schema: str = RECORD_SCHEMA
+    content: dict,
+    pair: KeyPair,
+    role: str,
+    signed_at: str,
+    schema: str = RECORD_SCHEMA,
+    local_offset: str | None = None,
 ) -> dict:
     """A signature entry for ``content`` (a ``schema`` record's) by ``pair`` in ``role`` at
-    ``signed_at`` (UTC text)."""
+    ``signed_at`` (UTC text), stating the role's meaning (``MEANINGS``) and, when given, the
+    signer's ``local_offset`` from UTC ("+01:00")."""
     if role not in ROLES:
         raise BringupError(f"--role: unknown role {role!r} (expected {' or '.join(ROLES)})")
     public = pair.public
@@ -66,7 +86,10 @@ def make_signature(
         "role": role,
         "signed_at": signed_at,
         "key_fingerprint": public.fingerprint,
+        "meaning": MEANINGS[role],
     }
+    if local_offset is not None:
+        signer["local_offset"] = local_offset
     sig = pair.private.sign(signed_message(content, signer, schema))
     return {
         **signer,
@@ -110,6 +133,14 @@ def check_signature(
     if missing:
         return SignatureCheck(label, (f"lacks {', '.join(missing)}",), None)
     problems: list[str] = []
+    for key in _OPTIONAL_FIELDS:
+        if key in entry and not isinstance(entry[key], str):
+            problems.append(f"{key} is not text")
+    meaning = entry.get("meaning")
+    if isinstance(meaning, str) and meaning != MEANINGS.get(entry["role"]):
+        problems.append(f"meaning {meaning!r} is not what a {entry['role']} signature means")
+    if problems:
+        return SignatureCheck(label, tuple(problems), None)
     if entry.get("algorithm") != "Ed25519":
         problems.append(f"algorithm {entry.get('algorithm')!r} is not Ed25519")
     if entry["role"] not in ROLES:

@@ -14,7 +14,7 @@ from typing import Any
 
 from bringup.store.entries import AttemptRecord, rehearsal_bench
 
-__all__ = ["bench_view", "checklist_file", "step_definitions", "text_digest"]
+__all__ = ["bench_view", "calibration_state", "checklist_file", "step_definitions", "text_digest"]
 
 
 def checklist_file(checklist: dict) -> dict:
@@ -69,9 +69,33 @@ def step_definitions(checklist: dict) -> list[dict]:
     return out
 
 
-def bench_view(bench: dict | None, attempts: list[AttemptRecord]) -> dict:
-    """Each instrument with its *IDN? (as the attempts logged it), profile, probes, due date."""
+def calibration_state(due: Any, simulated: bool, started_utc: str | None) -> dict:
+    """An instrument's calibration on the session's day (the UTC date it started):
+    ``{"state", "on"}`` with state ``in-date`` (due on or after that day), ``past-due``,
+    ``no-date`` (the bench file gives none), ``unreadable`` (a due date that is not a date) or
+    ``simulated`` (no real instrument: nothing to calibrate)."""
+    on = str(started_utc or "")[:10] or None
+    if simulated:
+        return {"state": "simulated", "on": on}
+    if due is None:
+        return {"state": "no-date", "on": on}
+    try:
+        due_day = _dt.date.fromisoformat(str(due))
+        day = _dt.date.fromisoformat(on) if on else None
+    except ValueError:
+        return {"state": "unreadable", "on": on}
+    if day is None:
+        return {"state": "unreadable", "on": on}
+    return {"state": "past-due" if day > due_day else "in-date", "on": on}
+
+
+def bench_view(
+    bench: dict | None, attempts: list[AttemptRecord], started_utc: str | None = None
+) -> dict:
+    """Each instrument with its *IDN? (as the attempts logged it), profile, probes, due date,
+    certificate and calibration state on the session's day (``calibration_state``)."""
     bench = bench or {}
+    simulated = rehearsal_bench(bench)
     idn: dict[str, str] = {}
     for a in attempts:
         for role, value in (a.instruments or {}).items():
@@ -84,8 +108,9 @@ def bench_view(bench: dict | None, attempts: list[AttemptRecord]) -> dict:
     for role in roles:
         conf = bench.get(role) if isinstance(bench.get(role), dict) else {}
         inst: dict[str, Any] = {"id": role, "idn": idn.get(role)}
-        for key in ("resource", "profile", "calibration_due"):
+        for key in ("resource", "profile", "calibration_due", "calibration_certificate"):
             inst[key] = conf.get(key)
+        inst["calibration"] = calibration_state(conf.get("calibration_due"), simulated, started_utc)
         channels = conf.get("channels")
         if role == "scope" and not isinstance(channels, dict):
             used = _channels_from_settings(attempts)
@@ -99,7 +124,7 @@ def bench_view(bench: dict | None, attempts: list[AttemptRecord]) -> dict:
             ]
         instruments.append(inst)
     return {
-        "simulated": rehearsal_bench(bench),
+        "simulated": simulated,
         "instruments": instruments,
         "other": {k: v for k, v in bench.items() if k not in roles},
     }

@@ -165,56 +165,94 @@ def _trace(f: _Frame, t: np.ndarray, y: np.ndarray) -> str:
     )
 
 
-def _overlay(f: _Frame, overlay: tuple[np.ndarray, np.ndarray, str]) -> list[str]:
+def _overlay(f: _Frame, overlay: tuple[np.ndarray, np.ndarray, str], labels: _Labels) -> list[str]:
     """A fitted model drawn dashed over the trace, labelled in the lower right corner."""
     ot, oy, olabel = overlay
     ok = np.isfinite(ot) & np.isfinite(oy) & (ot >= f.t_lo) & (ot <= f.t_hi)
     pts = " ".join(f"{_f(f.px(a))},{_f(f.py(b))}" for a, b in zip(ot[ok], oy[ok], strict=True))
+    corner = [(f.left + f.pw - 4, f.top + f.ph - 4 - _ROW_PX * r, "end") for r in range(4)]
     return [
         f'<polyline points="{pts}" fill="none" {_STYLES["fit"]}/>',
-        f'<text x="{f.left + f.pw - 4}" y="{f.top + f.ph - 4}" font-size="10" text-anchor="end">'
-        f"dashed: {_shown(olabel)}</text>",
+        labels.place(f"dashed: {olabel}", corner),
     ]
 
 
-def _markers(f: _Frame, markers: Sequence[Marker]) -> list[str]:
-    """Level and time lines, points and window labels, each with its text label."""
+#: label font size (px) and the advance width per character it is given: 0.6 em is wider than
+#: the average Helvetica or DejaVu Sans character, so an estimated box is never too small
+_LABEL_PX = 10
+_CHAR_PX = 0.6 * _LABEL_PX
+_ROW_PX = 11
+
+
+class _Labels:
+    """Places marker labels so that no two overlap: each label tries its positions in order
+    and takes the first whose box is clear of every label placed before it (a label with no
+    clear position is left out; its line is still drawn and the caption or the close view
+    names it)."""
+
+    def __init__(self, f: _Frame) -> None:
+        self.f = f
+        self.boxes: list[tuple[float, float, float, float]] = []
+
+    def place(self, text: str, spots: Sequence[tuple[float, float, str]]) -> str:
+        """The ``<text>`` of ``text`` at the first clear spot (x, baseline y, anchor), or ""."""
+        width = len(text) * _CHAR_PX
+        f = self.f
+        for x, y, anchor in spots:
+            x0 = x - width if anchor == "end" else x
+            box = (x0, y - _LABEL_PX * 0.8, x0 + width, y + _LABEL_PX * 0.25)
+            inside = f.left <= box[0] and box[2] <= f.left + f.pw and f.top <= box[1]
+            inside = inside and box[3] <= f.top + f.ph
+            clear = all(
+                min(box[2], b[2]) <= max(box[0], b[0]) or min(box[3], b[3]) <= max(box[1], b[1])
+                for b in self.boxes
+            )
+            if inside and clear:
+                self.boxes.append(box)
+                end = ' text-anchor="end"' if anchor == "end" else ""
+                return (
+                    f'<text x="{_f(x)}" y="{_f(y)}" font-size="{_LABEL_PX}"{end}>'
+                    f"{_shown(text)}</text>"
+                )
+        return ""
+
+
+def _markers(f: _Frame, markers: Sequence[Marker], labels: _Labels | None = None) -> list[str]:
+    """Level and time lines, points and window labels, each with its text label placed clear
+    of the others (``_Labels``)."""
     parts: list[str] = []
-    placed: list[float] = []
+    labels = labels or _Labels(f)
     left, top, pw, ph = f.left, f.top, f.pw, f.ph
-    for i, m in enumerate(markers):
-        label = _shown(m.label)
+    rows = [top + 12 + _ROW_PX * r for r in range(int((ph - 14) // _ROW_PX))]
+    for m in markers:
         if m.kind == "level" and m.y is not None:
             yy = f.py(m.y)
             parts.append(
                 f'<line x1="{left}" x2="{left + pw}" y1="{_f(yy)}" y2="{_f(yy)}" {_STYLES["level"]}/>'
             )
-            # Labels of nearby levels (high, 90 %) would overprint: move each one along.
-            slot = sum(1 for y0 in placed if abs(y0 - yy) < 11)
-            placed.append(yy)
-            parts.append(
-                f'<text x="{left + pw - 4 - 56 * slot}" y="{_f(yy - 3)}" font-size="10" '
-                f'text-anchor="end">{label}</text>'
-            )
+            # at the right end just above its line, else below it, else moved along leftwards
+            spots = [(left + pw - 4 - 60 * k, yy + dy, "end") for k in range(6) for dy in (-3, 11)]
+            parts.append(labels.place(m.label, spots))
         elif m.kind == "time" and m.t is not None:
             xx = f.px(m.t)
             parts.append(
                 f'<line x1="{_f(xx)}" x2="{_f(xx)}" y1="{top}" y2="{top + ph}" {_STYLES["time"]}/>'
             )
-            parts.append(
-                f'<text x="{_f(xx + 3)}" y="{top + 12 + 11 * (i % 3)}" font-size="10">{label}</text>'
-            )
+            # right of its line in the first clear row from the top, else left of it
+            spots = [(xx + 3, y, "start") for y in rows] + [(xx - 3, y, "end") for y in rows]
+            parts.append(labels.place(m.label, spots))
         elif m.kind == "point" and m.t is not None and m.y is not None:
             xx, yy = f.px(m.t), f.py(m.y)
             parts.append(
                 f'<circle cx="{_f(xx)}" cy="{_f(yy)}" r="3.5" fill="none" stroke="#000" stroke-width="1.2"/>'
             )
-            parts.append(f'<text x="{_f(xx + 5)}" y="{_f(yy - 5)}" font-size="10">{label}</text>')
+            spots = [(xx + 5, yy - 5, "start"), (xx - 5, yy - 5, "end"), (xx + 5, yy + 14, "start")]
+            parts.append(labels.place(m.label, spots))
         elif m.kind == "window" and m.t is not None:
-            parts.append(
-                f'<text x="{_f(f.px(max(m.t, f.t_lo)) + 3)}" y="{top + ph - 4}" font-size="10">{label}</text>'
-            )
-    return parts
+            x0 = f.px(max(m.t, f.t_lo)) + 3
+            parts.append(labels.place(m.label, [(x0, top + ph - 4 - _ROW_PX * r, "start")
+                                                for r in range(3)]))  # fmt: skip
+    return [p for p in parts if p]
 
 
 def plot_svg(
@@ -255,9 +293,10 @@ def plot_svg(
     parts += _grid(frame, unit)
     parts += _windows(frame, markers)
     parts.append(_trace(frame, t, y))
+    labels = _Labels(frame)
     if overlay is not None:
-        parts += _overlay(frame, overlay)
-    parts += _markers(frame, markers)
+        parts += _overlay(frame, overlay, labels)
+    parts += _markers(frame, markers, labels)
     parts.append("</svg>")
     return "".join(parts)
 

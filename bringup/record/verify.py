@@ -22,7 +22,7 @@ from bringup.record.compare import diagnose_seal, diff_content
 from bringup.record.embedding import EMBEDDED_NAME, html_block_record_text, record_file_bytes
 from bringup.record.keys import PublicKey
 from bringup.record.rfc8785 import NotCanonicalError, canonical_bytes
-from bringup.record.schemas import READABLE_SCHEMAS, content_as
+from bringup.record.schemas import READABLE_SCHEMAS, content_as, waveform_codes
 from bringup.record.signing import check_signature
 
 __all__ = [
@@ -354,10 +354,37 @@ def verify_record(
     content, schema = record["content"], str(record.get("schema"))
     findings = _check_form(record, data)
     findings += [f"content: {f}" for f in diagnose_seal(content, record.get("seal"))]
+    findings += _check_waveforms(content)
     findings += _check_signatures(content, record.get("signatures"), trusted or [], schema)
     if log is not None:
         findings += _check_log(content, log, schema)
         findings += _check_log_signatures(record.get("signatures"), content, log)
+    return findings
+
+
+def _check_waveforms(content: dict) -> list[str]:
+    """Each waveform's codes decode (``schemas.waveform_codes``) and hash to its
+    ``raw_sha256``: the digest names a changed sample even where the seal cannot say which."""
+    import hashlib
+
+    findings = []
+    for stage in content.get("stages") or []:
+        for step in (stage.get("steps") or []) if isinstance(stage, dict) else []:
+            for attempt in (step.get("attempts") or []) if isinstance(step, dict) else []:
+                for wave in (attempt.get("waveforms") or []) if isinstance(attempt, dict) else []:
+                    if not isinstance(wave, dict):
+                        continue
+                    where = (
+                        f"content: stage {stage.get('id')} / step {step.get('id')} / attempt "
+                        f"{attempt.get('number')} / waveform {wave.get('name')}"
+                    )
+                    try:
+                        raw = waveform_codes(wave)
+                    except ValueError as exc:
+                        findings.append(f"{where}: {exc}")
+                        continue
+                    if hashlib.sha256(raw).hexdigest() != wave.get("raw_sha256"):
+                        findings.append(f"{where}: the codes do not hash to raw_sha256")
     return findings
 
 

@@ -6,7 +6,6 @@ the words used for each outcome, the design-vs-measured rows and the decoded wav
 
 from __future__ import annotations
 
-import base64
 import math
 from dataclasses import dataclass
 from typing import Any
@@ -14,12 +13,12 @@ from typing import Any
 import numpy as np
 
 from bringup.analysis.quantities import format_quantity
+from bringup.record.schemas import waveform_codes
 from bringup.record.svg import Marker
 
 __all__ = [
     "STATUS_WORDS",
     "OUTCOME_WORDS",
-    "OVERALL_WORDS",
     "REHEARSAL_MARK",
     "Trace",
     "comparison_rows",
@@ -38,7 +37,7 @@ __all__ = [
 
 # Each word carries a symbol too, so no outcome is told by colour alone.
 STATUS_WORDS = {
-    "accepted": "[OK] accepted",
+    "accepted": "[OK] passed",
     "waived": "[W] failed, waived",
     "skipped": "[S] skipped",
     "rejected": "[X] failed, open",
@@ -53,16 +52,6 @@ OUTCOME_WORDS = {
     "not-run": "not run",
     "error": "ERROR: could not complete",
     None: "no verdict",
-}
-OVERALL_WORDS = {
-    "accepted": "ACCEPTED: every step passed",
-    "accepted-with-exceptions": "ACCEPTED WITH EXCEPTIONS: waived or skipped steps, see below",
-    "rejected": "NOT ACCEPTED: a step failed and carries no waiver",
-    "incomplete": "INCOMPLETE: steps not finished",
-    # a simulated bench's session: no board was measured, so nothing was accepted
-    "rehearsed": "REHEARSAL PASSED: every step passed on a simulated bench; no board accepted",
-    "rehearsed-with-exceptions": "REHEARSAL PASSED WITH EXCEPTIONS: waived or skipped steps on "
-    "a simulated bench; no board accepted",
 }
 #: what every page of a rehearsal's record says (PDF header and footer, HTML banner)
 REHEARSAL_MARK = "REHEARSAL on a simulated bench: not a record of a board"
@@ -137,8 +126,9 @@ class Trace:
     model: tuple[np.ndarray, np.ndarray, str] | None
 
 
-def _array(text: str, dtype: str) -> np.ndarray:
-    return np.frombuffer(base64.b64decode(text), dtype=np.dtype(dtype).newbyteorder("<"))
+def _array(wave: dict) -> np.ndarray:
+    """The waveform's codes (any schema's encoding, ``schemas.waveform_codes``)."""
+    return np.frombuffer(waveform_codes(wave), dtype=np.dtype(wave["dtype"]).newbyteorder("<"))
 
 
 def _soak_model(model: dict, t: np.ndarray) -> tuple[np.ndarray, np.ndarray, str] | None:
@@ -166,7 +156,7 @@ def decode_trace(wave: dict) -> Trace | None:
     (the scope preamble convention the log keeps, see ``bringup.store.waveforms``).
     """
     try:
-        codes = _array(wave["codes_b64"], wave["dtype"]).astype(float)
+        codes = _array(wave).astype(float)
         y = codes * float(wave["y_increment"]) + float(wave.get("y_origin", 0.0))
         t = float(wave.get("x_origin", 0.0)) + float(wave["x_increment"]) * np.arange(y.size)
     except (KeyError, TypeError, ValueError):

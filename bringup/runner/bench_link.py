@@ -147,6 +147,8 @@ class BenchLink:
             out[role] = {"resource": entry.resource, "profile": entry.profile,
                          "calibration_due": due.isoformat() if due is not None else None,
                          "idn": identities.get(role)}  # fmt: skip
+            if entry.calibration_certificate is not None:  # absent: the snapshot as before
+                out[role]["calibration_certificate"] = entry.calibration_certificate
         if "scope" in out:
             out["scope"]["channels"] = {
                 str(n): {"net": w.net, "probe_ratio": w.probe_ratio, "probe": kinds.get(n)}

@@ -7,6 +7,7 @@ rows when the chain is verified, so the two can only differ if the rows were cha
 from __future__ import annotations
 
 import datetime as _dt
+import json
 import math
 from typing import Any
 
@@ -231,4 +232,17 @@ def signature_record(row: dict[str, Any]) -> SignatureRecord:
         signature=bytes(row["signature"]),
         content_digest=row["content_digest"],
         recorded_utc=row["recorded_utc"],
+        statement=_statement(row.get("statement_json")),
     )
+
+
+def _statement(text: Any) -> dict | None:
+    """A sign-off's further signed fields (schema 2 on; None before or when unreadable: the
+    signature then fails to verify, which names the sign-off)."""
+    if not isinstance(text, str):
+        return None
+    try:
+        value = json.loads(text)
+    except ValueError:
+        return None
+    return value if isinstance(value, dict) else None

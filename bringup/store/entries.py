@@ -151,6 +151,8 @@ class SignatureRecord:
     signature: bytes
     content_digest: str
     recorded_utc: str
+    #: further fields the signature covers ({"meaning", "local_offset"}); None before schema 2
+    statement: dict | None = None
 
 
 @dataclass(frozen=True)

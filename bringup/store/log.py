@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import contextlib
 import datetime as _dt
+import json
 import secrets
 import sqlite3
 import threading
@@ -606,11 +607,13 @@ class SessionLog(LogReading):
         fingerprint: str,
         signature: bytes,
         content_digest: str,
+        statement: dict | None = None,
     ) -> int:
         """Store a sign-off of the session (made by the record); returns its row id.
 
-        The log stores it as given (raw key and signature bytes); checking it is the record's
-        job. Signatures are append-only and are accepted on finished sessions.
+        The log stores it as given (raw key and signature bytes, and ``statement``: the further
+        fields the signature covers, such as its meaning); checking it is the record's job.
+        Signatures are append-only and are accepted on finished sessions.
         """
         name = name_text(name, "signer's name")
         role = required(role, "signer's role")
@@ -633,6 +636,9 @@ class SessionLog(LogReading):
                         "signature": bytes(signature),
                         "content_digest": required(content_digest, "content digest"),
                         "recorded_utc": now_utc(),
+                        "statement_json": None
+                        if statement is None
+                        else json.dumps(statement, sort_keys=True, ensure_ascii=False),
                     }
                 )
                 .last_pk

@@ -23,6 +23,10 @@ Schema 1, in brief (every ``*_json`` column holds strict JSON; ``*_utc`` columns
 
 Schema 2 adds ``listings`` (each session's summary as of each chained entry, tied to it by
 ``seq`` and ``chain_hash``; append-only) and covering indexes for the session listing.
+
+Schema 3 adds ``signatures.statement_json``: what else the signer's statement covered (the
+meaning of the signature and the signer's local UTC offset, 21 CFR Part 11 §11.50); null for a
+sign-off made before, whose signature covers neither.
 """
 
 from __future__ import annotations
@@ -202,8 +206,17 @@ def _to_version_2(conn: sqlite3.Connection) -> None:
         conn.execute(sql)
 
 
+def _to_version_3(conn: sqlite3.Connection) -> None:
+    """A sign-off's statement beyond name, role and time (meaning, local offset)."""
+    conn.execute("ALTER TABLE signatures ADD COLUMN statement_json TEXT")
+
+
 #: ``MIGRATIONS[n - 1]`` takes a database from version n - 1 to n.
-MIGRATIONS: list[Callable[[sqlite3.Connection], None]] = [_to_version_1, _to_version_2]
+MIGRATIONS: list[Callable[[sqlite3.Connection], None]] = [
+    _to_version_1,
+    _to_version_2,
+    _to_version_3,
+]
 CURRENT_VERSION = len(MIGRATIONS)
 
 

@@ -191,10 +191,16 @@ def _times(k: int) -> tuple[dt.datetime, dt.datetime]:
 
 
 def write_session(
-    db: Path, *, complete: bool = True, waive: bool = True, seed: int = 7, simulated: bool = False
+    db: Path,
+    *,
+    complete: bool = True,
+    waive: bool = True,
+    seed: int = 7,
+    simulated: bool = False,
+    bench: dict | None = None,
 ) -> Session:
     """Write the demo session into ``db``; ``complete=False`` stops before the last stages;
-    ``simulated``: on a simulated bench (a rehearsal)."""
+    ``simulated``: on a simulated bench (a rehearsal); ``bench``: another bench snapshot."""
     rng = np.random.default_rng(seed)
     board = board_snapshot()
     serial = "DHS24-0117"
@@ -202,7 +208,7 @@ def write_session(
         sid = log.create_session(
             board=board,
             checklist=CHECKLIST,
-            bench=SIMULATED_BENCH if simulated else BENCH,
+            bench=bench if bench is not None else SIMULATED_BENCH if simulated else BENCH,
             serial=serial,
             operator="R. Okafor",
         )

@@ -120,7 +120,9 @@ def test_html_signature_edited_is_named(
     exports["html"].write_text(page + block.replace(sig, forged) + rest)
     rc, changed = _verify(exports["html"], keys, capsys)
     assert rc == 1
-    assert len(changed) == 1 and "signature 1 (operator R. Okafor): does not verify" in changed[0]
+    assert "signature 1 (operator R. Okafor): does not verify" in changed[0]
+    # the page says the signature verifies; the edited block's would render "does NOT verify"
+    assert len(changed) == 2 and changed[1].startswith("CHANGED: page: line "), changed
 
 
 class _Scripts(HTMLParser):
@@ -183,7 +185,8 @@ def test_pdf_digit_edited_on_a_page_is_named(
     rc, changed = _verify(exports["pdf"], keys, capsys)
     assert rc == 1
     # the attachment is intact (it still verifies): only the page tells the edit
-    assert len(changed) == 1 and changed[0].startswith("CHANGED: page 1: text line ")
+    # the design table (where the edited value is) starts on page 2, after the summary page
+    assert len(changed) == 1 and changed[0].startswith("CHANGED: page 2: text line ")
     assert f"{EDITED} V" in changed[0] and f"{SHOWN} V" in changed[0]
 
 

@@ -80,7 +80,7 @@ def test_html_is_self_contained_with_the_summary_first(
     text = " ".join(" ".join(outline.text).split())
     assert text.index("Summary") < text.index("Stage: Power rails")
     # Outcomes are spelled out, not told by colour alone.
-    for words in ("[W] failed, waived", "[S] skipped", "[OK] accepted", "fail within guard band"):
+    for words in ("[W] failed, waived", "[S] skipped", "[OK] passed", "fail within guard band"):
         assert words in text
     assert "DHS24-0117" in text and "Lindqvist" in text
     record = json.loads(_export(session, "json", tmp_path / "r.json").read_text())
@@ -181,11 +181,14 @@ def test_nested_settings_are_shown_with_their_values(session: Session) -> None:
     attempt = record["content"]["stages"][0]["steps"][0]["attempts"][-1]
     attempt["settings"] = {
         "supply": {"ovp_v": 27.400000000000002, "ramp_v": [6, 12]},
-        "scope": {"channels": [{"net": "vgs", "range_v": 30}]},
+        "scope": {"channels": [{"net": "vgs", "range_v": 30}], "trigger": {"net": "switch"}},
         "pwm": {"enabled": False},
     }
     html = render_html(record)
     for name, value in (("supply.ovp_v", "27.4"), ("supply.ramp_v", "6, 12"),
-                        ("scope.channels.1.net", "vgs"), ("pwm.enabled", "off")):  # fmt: skip
+                        ("scope.trigger.net", "switch"), ("pwm.enabled", "off")):  # fmt: skip
         assert f"<td>{name}</td><td>{value}</td>" in html
+    # the scope's channels are told once, in the table of what was probed where
+    probed = html.split("What was probed where")[1].split("</table>")[0]
+    assert "<td>vgs</td><td>" in probed and "30 V" in probed
     assert "no value" not in html.split("Settings")[1].split("</details>")[0]

@@ -40,7 +40,7 @@ def test_rehearsal_json_says_rehearsal_and_never_accepted(
     rehearsal: Session, tmp_path: Path
 ) -> None:
     record = json.loads(_export(rehearsal, "json", tmp_path / "r.json").read_text())
-    assert record["schema"] == "bringup-record/2"
+    assert record["schema"] == "bringup-record/3"
     content = record["content"]
     assert content["session"]["rehearsal"] is True
     assert content["bench"]["simulated"] is True
@@ -74,7 +74,9 @@ def test_html_banner_and_no_accepted(rehearsal: Session, tmp_path: Path) -> None
 def test_real_bench_record_carries_no_rehearsal_mark(session: Session, tmp_path: Path) -> None:
     pages = [p.extract_text() for p in PdfReader(_export(session, "pdf", tmp_path / "b.pdf")).pages]
     assert not any("REHEARSAL" in text for text in pages)
-    assert "ACCEPTED WITH EXCEPTIONS" in pages[0]
+    # measured and judged, nobody signed: passed, never accepted (issue 13)
+    assert "PASSED WITH EXCEPTIONS" in pages[0] and "NOT SIGNED" in pages[0]
+    assert "ACCEPTED" not in pages[0]
     assert "REHEARSAL" not in _export(session, "html", tmp_path / "b.html").read_text()
 
 
@@ -122,6 +124,7 @@ def test_a_record_signed_before_the_mark_still_verifies_and_reexports(
             fingerprint=entry["key_fingerprint"],
             signature=base64.b64decode(entry["signature"]),
             content_digest=content_digest(old),
+            statement={k: entry[k] for k in ("meaning", "local_offset") if k in entry},
         )
     out = _export(rehearsal, "json", tmp_path / "old.json")
     assert json.loads(out.read_text())["schema"] == "bringup-record/1"

@@ -67,9 +67,10 @@ def _v1_log_with_a_session(db_path, monkeypatch=None):
 
 
 def _back_to_schema_1(db_path) -> None:
-    """The log as the first release would have left it: what schema 2 added taken away."""
+    """The log as the first release would have left it: what schemas 2 and 3 added taken away."""
     conn = sqlite3.connect(db_path)
     with conn:
+        conn.execute("ALTER TABLE signatures DROP COLUMN statement_json")
         conn.execute("DROP TABLE listings")
         for index in ("attempts_heads", "events_heads", "sessions_listing"):
             conn.execute(f"DROP INDEX {index}")
