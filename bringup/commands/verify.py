@@ -62,10 +62,7 @@ def run(args: argparse.Namespace) -> int:
             print(f"CHANGED: {line}")
         print(f"{args.record}: does NOT hold ({len(findings)} finding(s))")
         return 1
-    sigs = record.get("signatures") or []
-    who = ", ".join(f"{s['role']} {s['name']} ({s['key_fingerprint'][:19]}...)" for s in sigs)
-    digest = record.get("seal", {}).get("content_sha256", "")
-    print(f"{args.record}: holds; content SHA-256 {digest}; signed by {who}")
+    _say_what_holds(args, record)
     if carried.kind != "json":
         print(
             f"pages: every page of the {carried.kind.upper()} is what its embedded record renders"
@@ -74,8 +71,31 @@ def run(args: argparse.Namespace) -> int:
         print("bench: SIMULATED, a rehearsal: no board was measured")
     else:
         print("bench: real instruments")
+    _say_bench(record["content"])
     if compared is not None:
         print(f"{compared}: chain intact, head matches, content matches, summary matches")
     if not trusted:
         print("note: no --key given, so the signers' keys were not checked against trusted keys")
     return 0
+
+
+def _say_what_holds(args: argparse.Namespace, record: dict) -> None:
+    """The record holds: its digest, its outcome as the signatures make it, and each
+    signature's signer, meaning, time and key id (21 CFR Part 11 §11.50)."""
+    from bringup.record.sign_off import sign_off_state
+
+    state = sign_off_state(record)
+    digest = record.get("seal", {}).get("content_sha256", "")
+    print(f"{args.record}: holds; content SHA-256 {digest}")
+    print(f"outcome: {state.headline}")
+    for role, meaning, name, when, key, _ in state.rows:
+        print(f"signed: {name} as {role} ({meaning}) at {when}, key id {key}")
+
+
+def _say_bench(content: dict) -> None:
+    """Each instrument's calibration state and where the probes were moved."""
+    from bringup.record.document import calibration_lines, channel_moves
+
+    for line in calibration_lines(content):
+        print(f"calibration: {line}")
+    print(f"probes: {channel_moves(content)}")

@@ -214,9 +214,7 @@ def _summary(record: dict, digest: str) -> Section:
         ("Checklist", checklist_label(content.get("checklist", {}))),
         ("Started / last entry", f"{fmt_time(session.get('started'))} / "
                                  f"{fmt_time(session.get('ended'))}"),
-        ("Calibration", "; ".join(
-            f"{_text(i.get('id'))}: {_calibration_text(i)}"
-            for i in (content.get("bench") or {}).get("instruments") or []) or "-"),
+        ("Calibration", "; ".join(calibration_lines(content)) or "-"),
         ("Content digest (SHA-256)", digest),
     )  # fmt: skip
     flags = calibration_flags(content)
@@ -279,9 +277,9 @@ def _bench(content: dict) -> Section:
     return Section("bench", "Bench", (Paragraph(kind), table, *_channel_map(content)))
 
 
-def _channel_map(content: dict) -> list[Block]:
-    """Where each scope channel's probe was at each step (from the attempts' scope settings),
-    beside where the bench file wires it: a probe moved for a step is said, never hidden."""
+def _channel_steps(content: dict) -> tuple[dict[str, str], list[tuple[str, dict[str, str]]]]:
+    """(channel -> net as the bench file wires it, [(step title, channel -> "net (probe)")])
+    from each step's deciding attempt's scope settings."""
     wired: dict[str, str] = {}
     for inst in (content.get("bench") or {}).get("instruments") or []:
         if inst.get("id") == "scope":
@@ -302,11 +300,14 @@ def _channel_map(content: dict) -> list[Block]:
                 if isinstance(c, dict)
             }
             steps.append((_text(step.get("title") or step.get("id")), used))
+    return wired, steps
+
+
+def channel_moves(content: dict) -> str:
+    """One sentence: which probes the steps moved from where the bench file wires them."""
+    wired, steps = _channel_steps(content)
     if not steps:
-        return []
-    names = sorted({*wired, *(ch for _, used in steps for ch in used)}, key=_channel_order)
-    rows = [("Bench file", *(wired.get(ch, "-") for ch in names))]
-    rows += [(title, *(used.get(ch, "-") for ch in names)) for title, used in steps]
+        return "no step logged its scope channels."
     moved = sorted(
         {
             f"CH{ch} from {wired[ch]} to {used[ch].split(' (')[0]}"
@@ -315,15 +316,33 @@ def _channel_map(content: dict) -> list[Block]:
             if ch in wired and used[ch].split(" (")[0] != wired[ch]
         }
     )
-    said = (
-        "Steps moved probes from where the bench file wires them: " + "; ".join(moved) + "."
-        if moved
-        else "Every step probed the nets where the bench file wires them."
-    )
+    if not moved:
+        return "every step probed the nets where the bench file wires them."
+    return "steps moved probes from where the bench file wires them: " + "; ".join(moved) + "."
+
+
+def calibration_lines(content: dict) -> list[str]:
+    """'scope: PAST DUE on ...' for each instrument of the bench."""
+    return [
+        f"{_text(inst.get('id'))}: {_calibration_text(inst)}"
+        for inst in (content.get("bench") or {}).get("instruments") or []
+    ]
+
+
+def _channel_map(content: dict) -> list[Block]:
+    """Where each scope channel's probe was at each step (from the attempts' scope settings),
+    beside where the bench file wires it: a probe moved for a step is said, never hidden."""
+    wired, steps = _channel_steps(content)
+    if not steps:
+        return []
+    names = sorted({*wired, *(ch for _, used in steps for ch in used)}, key=_channel_order)
+    rows = [("Bench file", *(wired.get(ch, "-") for ch in names))]
+    rows += [(title, *(used.get(ch, "-") for ch in names)) for title, used in steps]
+    said = channel_moves(content)
     width = max(10, (190 - 50) // max(len(names), 1))
     return [
         Paragraph("Where each scope channel was, step by step (the deciding attempt)", "strong"),
-        Paragraph(said),
+        Paragraph(said[0].upper() + said[1:]),
         Table(("Step", *(f"CH{ch}" for ch in names)), tuple(rows),
               (190 - width * len(names), *(width,) * len(names))),
     ]  # fmt: skip

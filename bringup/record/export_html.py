@@ -56,7 +56,10 @@ figcaption{font-size:.8rem;color:#444}
 h4{font-size:.95rem;margin:.6rem 0 .3rem}
 footer{margin-top:2rem;font-size:.8rem;color:#333;border-top:1px solid #999}
 @media print{body{max-width:none;margin:0}section.stage{break-before:page}
-a{color:inherit;text-decoration:none}}
+a{color:inherit;text-decoration:none}
+.rehearsal,.flag,.overall{-webkit-print-color-adjust:exact;print-color-adjust:exact}
+#rehearsal{position:fixed;top:0;left:0;right:0;margin:0;background:#fde3d0}
+body.rehearsal-record{padding-top:2.6rem}}
 """
 
 
@@ -147,7 +150,9 @@ def render_html(record: dict) -> str:
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',
         f"<title>{_e(doc.title)}</title>",
-        f"<style>{_CSS}</style></head><body>",
+        f"<style>{_CSS}</style></head>",
+        # a rehearsal's banner is fixed at the top of the screen and of every printed page
+        '<body class="rehearsal-record">' if doc.rehearsal else "<body>",
         *(
             [f'<p class="rehearsal" id="rehearsal">{_e(doc.rehearsal)}</p>']
             if doc.rehearsal

@@ -328,3 +328,81 @@ def test_the_overlap_check_finds_overlapping_text(tmp_path: Path) -> None:
     pdf.output(str(path))
     (boxes,) = page_boxes(path)
     assert [(a.text, b.text) for a, b in overlapping(boxes)] == [("90 %", "50 %")]
+
+
+def test_verify_says_who_did_what_and_the_calibration(
+    keys: Keys, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The reviewer's one command on the one PDF: who performed, who reviewed (with meaning
+    and time), the bench's kind and each instrument's calibration."""
+    today = dt.datetime.now(dt.UTC).date()
+    s = write_session(tmp_path / "cal.db", bench=_bench_with_calibration(today))
+    _sign(s, keys.operator, "operator")
+    _sign(s, keys.reviewer, "reviewer")
+    pdf = _export(s, "pdf", tmp_path / "r.pdf")
+    capsys.readouterr()
+    assert (
+        main(["verify", str(pdf), "--key", f"{keys.operator}.pub", "--key", f"{keys.reviewer}.pub"])
+        == 0
+    )
+    out = capsys.readouterr().out
+    assert "outcome: ACCEPTED WITH EXCEPTIONS" in out
+    assert re.search(
+        r"signed: R\. Okafor as operator \(performed\) at \S+ \S+ UTC \(local UTC[+-]\d\d:\d\d\)",
+        out,
+    )
+    assert "signed: M. Lindqvist as reviewer (reviewed and approved)" in out
+    assert "bench: real instruments" in out
+    assert "calibration: scope: PAST DUE" in out and "calibration: supply: NO DUE DATE GIVEN" in out
+    assert "SHA256:" not in out  # keys by their key id
+
+
+# --- the HTML rehearsal banner on paper ---------------------------------------------------------
+
+
+def _print_rules(html: str) -> str:
+    """The CSS inside the page's ``@media print`` block."""
+    css = html[html.index("<style>") + 7 : html.index("</style>")]
+    start = css.index("@media print{") + len("@media print{")
+    depth, end = 1, start
+    while depth:
+        depth += {"{": 1, "}": -1}.get(css[end], 0)
+        end += 1
+    return css[start : end - 1]
+
+
+def test_the_rehearsal_banner_is_printed_on_every_page(tmp_path: Path) -> None:
+    """Printed, a fixed-position element repeats at the top of every page (CSS 2.1 §9.6.1,
+    "fixed" in paged media); backgrounds print only with print-color-adjust: exact (CSS Color
+    Adjustment Level 1). Nothing hides the banner in print."""
+    s = write_session(tmp_path / "sim.db", simulated=True)
+    html = _export(s, "html", tmp_path / "r.html").read_text()
+    rules = _print_rules(html)
+    fixed = re.search(r"#rehearsal\{([^}]*)\}", rules)
+    assert fixed is not None and "position:fixed" in fixed.group(1) and "top:0" in fixed.group(1)
+    assert re.search(r"\.rehearsal[^{]*\{[^}]*print-color-adjust:exact", rules)
+    assert "display:none" not in rules and "visibility:hidden" not in rules
+    assert (
+        '<body class="rehearsal-record">' in html and "body.rehearsal-record{padding-top" in rules
+    )
+    assert '<p class="rehearsal" id="rehearsal">' in html
+
+
+@pytest.mark.skipif(not Path("/usr/bin/chromium").exists(), reason="no /usr/bin/chromium here")
+def test_a_printed_rehearsal_says_so_on_every_page(tmp_path: Path) -> None:
+    import subprocess
+
+    s = write_session(tmp_path / "sim.db", simulated=True)
+    html = _export(s, "html", tmp_path / "r.html")
+    profile, printed = tmp_path / "profile", tmp_path / "printed.pdf"
+    profile.mkdir()
+    subprocess.run(
+        ["/usr/bin/chromium", "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
+         "--disable-background-networking", f"--user-data-dir={profile}",
+         "--no-pdf-header-footer", f"--print-to-pdf={printed}", html.as_uri()],
+        check=True, capture_output=True, timeout=60,
+    )  # fmt: skip
+    pages = PdfReader(printed).pages
+    assert len(pages) > 1
+    for n, page in enumerate(pages, start=1):
+        assert "REHEARSAL on a simulated bench" in page.extract_text(), f"printed page {n}"
