@@ -124,6 +124,7 @@ class Launcher:
                     f"{s.steps_done}/{total}",
                     when_text(s.last_activity_utc),
                     s.verdict or "not-started",
+                    s.rehearsal,
                 )
             )
         return tuple(rows)

@@ -166,6 +166,8 @@ class SessionRow:
     progress: str
     last_activity: str
     verdict: str
+    #: the session runs on a simulated bench: a rehearsal, never a board's record
+    rehearsal: bool = False
 
 
 @dataclass(frozen=True)

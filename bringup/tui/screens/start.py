@@ -161,7 +161,9 @@ class StartScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#sessions", DataTable)
-        table.add_columns("session", "serial", "done", "last activity", "operator", "board")
+        table.add_columns(
+            "session", "serial", "bench", "done", "last activity", "operator", "board"
+        )
         self.action_reload()
         if self._autostart is not None:
             self.say("Opening the session: connecting to the bench…")
@@ -179,7 +181,10 @@ class StartScreen(Screen[None]):
             self._rows = []
             self.say(str(exc), "fault")
         for row in self._rows:
-            cells = (row.id, row.serial, row.progress, row.last_activity, row.operator, row.board)
+            # a simulated bench's session is marked where it is picked: a rehearsal, not a board
+            bench = "REHEARSAL" if row.rehearsal else "real"
+            cells = (row.id, row.serial, bench, row.progress, row.last_activity, row.operator,
+                     row.board)  # fmt: skip
             table.add_row(*(literal(c, multiline=False) for c in cells), key=str(row.id))
         hint = self.query_one("#sessions-hint", Static)
         if self._rows:
