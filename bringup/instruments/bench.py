@@ -238,6 +238,31 @@ def _certificate(src: TomlDocument, role: str, table: dict) -> str | None:
     return value.strip()
 
 
+def calibration_notices(config: BenchConfig, today: dt.date) -> list[str]:
+    """One line per instrument of a real bench whose calibration is past due on ``today`` or
+    has no due date in the bench file: said before the first step, logged in the record."""
+    if config.simulated:
+        return []  # a simulated instrument has nothing to calibrate
+    notes = []
+    for role, entry in config.instruments.items():
+        cert = (
+            f", certificate {entry.calibration_certificate}"
+            if entry.calibration_certificate
+            else ""
+        )
+        if entry.calibration_due is None:
+            notes.append(
+                f"calibration: the {role} has no calibration due date in {config.path}{cert}; "
+                "its readings are not shown to be calibrated"
+            )
+        elif entry.calibration_overdue(today):
+            notes.append(
+                f"calibration: the {role} is PAST DUE (due {entry.calibration_due.isoformat()}"
+                f"{cert}) on {today.isoformat()}; its readings are outside its calibration"
+            )
+    return notes
+
+
 def _fraction(src: TomlDocument, where: tuple[str, ...], value: Any) -> float | None:
     """An optional accuracy or tolerance as a fraction: 0 to 0.5 (0.02 = 2 %), from a
     datasheet; it enters the GUM budget of the levels the channel reads."""

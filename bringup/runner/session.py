@@ -103,6 +103,7 @@ class SessionRunner:
         #: Lines for the operator from opening the bench: an output found ON (at what voltage
         #: and current) and switched off, steps found interrupted by an unclean stop.
         self.bench_notices: tuple[str, ...] = ()
+        self.bench_notices = self._calibration_notices()
         self.executor = StepExecutor(board=board, source=bench, planner=self.planner,
                                      recorder=self.recorder, operator=operator,
                                      on_open=self._bench_opened)  # fmt: skip
@@ -426,6 +427,24 @@ class SessionRunner:
             except BringupError:
                 pass  # the bench is safe; a log that cannot take the event must not hide that
         return off
+
+    def _calibration_notices(self) -> tuple[str, ...]:
+        """Each instrument of the bench file past its calibration due date, or without one:
+        said before the first step (the record flags them too, from the bench snapshot). A
+        simulated bench has none; a bench file that cannot be read is reported when the
+        bench opens, not here."""
+        if self.bench_source.path is None:
+            return ()
+        import datetime as _dt
+
+        from bringup.errors import BringupError
+        from bringup.instruments.bench import calibration_notices, load_bench
+
+        try:
+            config = load_bench(self.bench_source.path)
+        except BringupError:
+            return ()
+        return tuple(calibration_notices(config, _dt.datetime.now(_dt.UTC).date()))
 
     def _bench_opened(self, link) -> None:
         """The bench is open: an output found ON and steps interrupted by an unclean stop are

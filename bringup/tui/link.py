@@ -158,6 +158,11 @@ class SessionLink:
         self._log_finish_if_complete()
         return view
 
+    def bench_notices_pending(self) -> bool:
+        """True while the runner holds notices not shown yet (a calibration past due, said
+        as the session screen opens, before the first step)."""
+        return len(tuple(getattr(self.runner, "bench_notices", ()))) > self._notices_shown
+
     def new_bench_notices(self) -> tuple[str, ...]:
         """What the runner found on opening the bench (an output found ON after an unclean
         stop, a step it interrupted) and has not been shown yet; each notice once."""
