@@ -147,8 +147,8 @@ class SessionScreen(StepActions, Screen[None]):
         self.query_one("#live").display = False
         self.refresh_all(select=self.link.current_step_id())
         self.query_one("#checklist", ChecklistColumn).focus()
-        if self.link.bench_notices_pending():  # a calibration past due: said before any step
-            self.say("Read the bench notices before the first step.", "warn")
+        if self.link.bench_notices_pending():  # an output found ON, a calibration past due
+            self.say("Read this before the first step.", "warn")
 
     # -- showing ---------------------------------------------------------------------------
     def say(self, message: str, kind: str = "info") -> None:
