@@ -491,7 +491,8 @@ def _scope(attempt: dict, bench: dict) -> list[Block]:
         Paragraph(
             f"Scope as set: window {fmt_value(duration, 's')}, "
             f"{fmt_value(scope.get('pretrigger_s'), 's')} before the trigger; {trig}. "
-            "Read: what the instrument sent with the record of that net."
+            "Read: what the instrument sent with the record of that net (its preamble); "
+            "range, offset, coupling and bandwidth limit are as sent, not read back."
         )
     )
     return blocks

@@ -113,9 +113,10 @@ def test_a_log_from_before_the_listings_lists_by_replay_then_by_its_new_rows(tmp
         old = _new(log, "DHS24-0007")
         record(log, old, step="first-power", outcome="fail")
         other = _new(log, "DHS24-0008")
-    # the log as schema 1 left it (no listings, no covering indexes)
+    # the log as schema 1 left it (no listings, no covering indexes, no sign-off statements)
     conn = sqlite3.connect(path)
     with conn:
+        conn.execute("ALTER TABLE signatures DROP COLUMN statement_json")
         conn.execute("DROP TABLE listings")
         for index in ("attempts_heads", "events_heads", "sessions_listing"):
             conn.execute(f"DROP INDEX {index}")
