@@ -141,6 +141,7 @@ _TABLES = (
         signature bytea NOT NULL,
         content_digest text NOT NULL,
         recorded_utc text NOT NULL,
+        statement_json text,
         pushed timestamptz NOT NULL DEFAULT now(),
         FOREIGN KEY (log_id, session_id) REFERENCES bringup.sessions (log_id, id),
         UNIQUE (log_id, local_id)

@@ -64,7 +64,7 @@ EVENT_COLUMNS = (
 #: A sign-off's columns (its row id aside; ``local_id`` is the row id in the log it came from).
 SIGNATURE_COLUMNS = (
     "name", "role", "signed_utc", "public_key", "fingerprint", "signature", "content_digest",
-    "recorded_utc",
+    "recorded_utc", "statement_json",
 )  # fmt: skip
 
 
