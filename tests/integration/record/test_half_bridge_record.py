@@ -45,7 +45,7 @@ def test_a_half_bridge_session_exports_and_verifies(tmp_path: Path, capsys) -> N
 def _waves(node):
     """Every waveform object of the record, wherever it sits."""
     if isinstance(node, dict):
-        if "codes_b64" in node:
+        if "raw_sha256" in node:  # a waveform, whichever encoding its codes have
             yield node
         for value in node.values():
             yield from _waves(value)
