@@ -9,6 +9,9 @@
   short or too sparse for a histogram (and records whose histogram has no distinct peaks) fall
   back to min/max; ``level_method`` says which was used. Overshoot is 0 by construction with
   min/max.
+* A flat record is "one level only", quantised ones too: levels within 8 sigma of the
+  record's robust noise, or "states" lasting a median of under 3 samples (an 8-bit record of
+  a flat node hopping between adjacent codes), are not two states.
 * Reference levels: y_x = y_low + x/100 * (y_high - y_low), 10/50/90 % by default.
 * Transitions: a transition is a run from inside one state's band to inside the other's
   (IEEE 181 state boundaries: level +/- 2 % of the amplitude, widened to 4 sigma of the noise on
@@ -74,6 +77,7 @@ PEAK_FIT_DURATIONS = 0.25  # the overshoot's local fit: this many durations eith
 MIN_EDGE_SAMPLES = 8
 _SLOW_READING_PCT = ((2.0, 18.4), (3.0, 8.7), (4.0, 5.0), (5.0, 2.9), (6.0, 1.9), (8.0, 0.5))
 _MIN_ABERRATION_SAMPLES = 4
+MIN_STATE_SAMPLES = 3  # median samples between transitions below this: noise, not states
 
 
 @dataclass(frozen=True)
@@ -279,6 +283,16 @@ def _state_levels(y: np.ndarray, method: str, ymin: float, ymax: float) -> State
     noise = [span * v for v in noise_u]
     if amp_u < 8.0 * max(noise_u) or fine[mid].sum() > 0.5 * y.size:
         raise _one_level(low, high)
+    # A quantised flat record sits on a few adjacent codes: each "state" is then one code with
+    # no spread of its own (noise_u = 0), so the levels must also stand clear of the record's
+    # own noise (the robust second-difference estimate of ``noise_rms`` without its one-code
+    # floor, which a clean two-level record would trip; on its first 64 k samples). Noise
+    # under one code is caught in ``_find`` (states that last a sample or two).
+    head = np.asarray(y[: 1 << 16], dtype=np.float64)
+    if head.size >= 3:
+        robust = 1.4826 * float(np.median(np.abs(np.diff(head, 2)))) / math.sqrt(6.0)
+        if high - low < 8.0 * robust:
+            raise _one_level(low, high)
     return StateLevels(low, high, "histogram", noise[0], noise[1])
 
 
@@ -404,6 +418,10 @@ def _find(y, dt, t0, pct, state: StateLevels, band_pct: float) -> Transitions:
     entry = where[change]  # first sample inside the new state's band
     direction = label[change]
     n_edges = entry.size
+    # States that mostly last a sample or two are a quantised flat record hopping between
+    # adjacent codes, not switching (a real state holds many samples).
+    if n_edges >= 8 and float(np.median(np.diff(entry))) < MIN_STATE_SAMPLES:
+        raise _one_level(state.low_v, state.high_v)
     empty = np.empty(0)
     if n_edges == 0:
         return Transitions(np.empty(0, np.int8), empty, empty, empty, empty, empty, empty)

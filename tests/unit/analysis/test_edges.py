@@ -217,6 +217,16 @@ def test_what_cannot_be_measured_is_an_analysis_error(y, fragment):
         measure_edges(y, 1e-9)
 
 
+@pytest.mark.parametrize(("noise_v", "lo", "hi"), [(0.3, -20.0, 76.0), (0.05, -2.0, 14.0)])
+def test_a_flat_quantised_noisy_record_has_no_edges(noise_v, lo, hi):
+    # An 8-bit record of a flat node (a switch node that does not switch) sits on two or three
+    # adjacent codes: its "levels" are one code apart, within the noise, so no edge may be
+    # reported (each would be noise timed as a sub-nanosecond edge: a silent wrong number).
+    y = scope(np.zeros(60_000), noise_v=noise_v, lo=lo, hi=hi, seed=1)
+    with pytest.raises(AnalysisError, match="one level only"):
+        measure_edges(y, 1e-9)
+
+
 def test_bad_options_are_analysis_errors():
     y = trapezoid(2000, 1e-9, 2e-7, 5e-8, 5e-7)
     with pytest.raises(AnalysisError, match="reference levels"):
