@@ -391,6 +391,13 @@ def _check_levels(levels) -> tuple[float, float, float]:
     return lo, mid, hi
 
 
+def _refuse_code_hopping(entry: np.ndarray, state: StateLevels) -> None:
+    """States that mostly last a sample or two are a quantised flat record hopping between
+    adjacent codes, not switching (a real state holds many samples): one level only."""
+    if entry.size >= 8 and float(np.median(np.diff(entry))) < MIN_STATE_SAMPLES:
+        raise _one_level(state.low_v, state.high_v)
+
+
 def _find(y, dt, t0, pct, state: StateLevels, band_pct: float) -> Transitions:
     amp = state.amplitude_v
     ref = tuple(state.reference(p) for p in pct)
@@ -418,10 +425,7 @@ def _find(y, dt, t0, pct, state: StateLevels, band_pct: float) -> Transitions:
     entry = where[change]  # first sample inside the new state's band
     direction = label[change]
     n_edges = entry.size
-    # States that mostly last a sample or two are a quantised flat record hopping between
-    # adjacent codes, not switching (a real state holds many samples).
-    if n_edges >= 8 and float(np.median(np.diff(entry))) < MIN_STATE_SAMPLES:
-        raise _one_level(state.low_v, state.high_v)
+    _refuse_code_hopping(entry, state)
     empty = np.empty(0)
     if n_edges == 0:
         return Transitions(np.empty(0, np.int8), empty, empty, empty, empty, empty, empty)
